@@ -1,0 +1,5 @@
+#pragma once
+
+namespace knee::cli {
+const char* Version();
+}  // namespace knee::cli

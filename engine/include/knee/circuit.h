@@ -1,0 +1,75 @@
+// The elaborated circuit: every value resolved to a number in SI units, every node
+// and part referred to by index. The parser builds it; the engine solves it.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "knee/result.h"
+
+namespace knee {
+
+inline constexpr int kGroundNode = 0;  // Circuit::nodes[0] is always "gnd"
+
+// Parameters of a diode part (netlist-format.md, "Diode parameters"). SI units;
+// temperatures in degrees Celsius.
+struct DiodeModel {
+  double sat_current = 1e-14;         // A at ref_temp, > 0
+  double ideality = 1.0;              // emission coefficient, > 0
+  double series_res = 0.0;            // Ohm, >= 0
+  std::optional<double> breakdown_v;  // V, > 0; unset = no breakdown
+  double breakdown_i = 1e-3;          // A, > 0: reverse current at breakdown_v
+  double breakdown_ideality = 1.0;    // > 0
+  double breakdown_tc = 0.0;          // 1/K
+  double bandgap = 1.11;              // eV, > 0
+  double sat_temp_exp = 3.0;
+  double ref_temp = 25.0;                // degC, above absolute zero
+  std::optional<double> max_current;     // A, rated forward current
+  std::optional<double> max_reverse_v;   // V, rated reverse voltage
+  std::optional<double> max_power;       // W, rated dissipation
+};
+
+struct Part {
+  std::string name;
+  DiodeModel model;
+  SourceLocation where;
+};
+
+enum class ElementKind { kResistor, kVoltageSource, kCurrentSource, kDiode };
+
+struct Element {
+  ElementKind kind = ElementKind::kResistor;
+  std::string name;
+  int node_a = kGroundNode;  // first terminal (anode of a diode, P of a vsource)
+  int node_b = kGroundNode;  // second terminal (cathode, N)
+  double value = 0.0;        // Ohm, V or A; unused for diodes
+  int part = -1;             // diodes: index into Circuit::parts
+  double area = 1.0;         // diodes: > 0
+  std::optional<double> temp;  // diodes: own temperature in degC, overrides Circuit::temp
+  SourceLocation where;        // the element's name in its statement
+};
+
+struct Circuit {
+  std::string title;
+  double temp = 25.0;              // degC
+  std::vector<std::string> nodes;  // nodes[0] == "gnd"
+  std::vector<Part> parts;
+  std::vector<Element> elements;
+
+  Circuit() : nodes{"gnd"} {}
+
+  // Index of the named node/element/part, or -1. "0" and "gnd" both find node 0.
+  int FindNode(std::string_view name) const;
+  int FindElement(std::string_view name) const;
+  int FindPart(std::string_view name) const;
+  // Temperature of a diode element in degC: its own temp= or the circuit's.
+  double DeviceTemp(const Element& element) const {
+    return element.temp ? *element.temp : temp;
+  }
+};
+
+const char* ElementKindName(ElementKind kind);  // "resistor", "vsource", ...
+
+}  // namespace knee

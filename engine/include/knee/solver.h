@@ -1,0 +1,121 @@
+// The DC bias solver: modified nodal analysis, Newton-Raphson with junction limiting,
+// and a bounded ladder of convergence aids. See docs/solver.md.
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "knee/circuit.h"
+#include "knee/result.h"
+
+namespace knee {
+
+// Every field has its default and unit beside it; Validate() holds all the rules.
+struct SolverOptions {
+  // Newton stops when, for every unknown, |dx| <= abs_voltage_tol + rel_tol * |x|
+  // (branch-current unknowns use abs_current_tol instead of abs_voltage_tol) AND the KCL
+  // residual of every node is <= abs_current_tol + rel_tol * (largest current magnitude
+  // flowing into that node).
+  double abs_voltage_tol = 1e-6;   // V, > 0
+  double abs_current_tol = 1e-12;  // A, > 0
+  double rel_tol = 1e-6;           // dimensionless, in (0, 1e-2]
+  int max_newton_steps = 200;      // per Newton run (one rung of the aid ladder), >= 1
+  bool junction_limiting = true;   // limit each junction-voltage update per step
+
+  // The aid ladder, tried in order when plain Newton fails. The reported solution is
+  // always a final plain Newton run on the exact model with no aid left in it.
+  bool gmin_stepping = true;
+  double gmin_start = 1e-2;        // S, shunt from every node to gnd at the first rung
+  double gmin_factor = 10.0;       // gmin divided by this at each rung, > 1
+  double gmin_stop = 1e-14;        // S, last rung before removing the shunt altogether
+  bool source_stepping = true;
+  int source_steps = 20;           // initial number of equal source ramp steps, >= 1
+
+  // Verification of a reported solution: the largest KCL residual (A) must be at most
+  // verify_current_tol + rel_tol * (largest branch current magnitude at that node).
+  double verify_current_tol = 1e-9;  // A, > 0
+};
+
+// Returns a message naming the field, its value and the rule broken, or nothing.
+std::optional<std::string> Validate(const SolverOptions& options);
+
+// How a solve ended. Only kConverged means the node voltages are usable.
+enum class SolveStatus {
+  kConverged,           // usable: converged and verified on the exact model
+  kNoConvergence,       // not usable: every rung of the aid ladder ran out of steps
+  kSingularMatrix,      // not usable: the Jacobian stayed singular
+  kNonFinite,           // not usable: a device produced a non-finite value
+  kVerificationFailed,  // not usable: converged, but the KCL residual check failed
+};
+const char* ToString(SolveStatus status);
+
+// The numbers of a solved circuit, indexed like the Circuit it came from.
+struct Solution {
+  std::vector<double> node_voltage;       // V, per circuit node; [0] is gnd = 0
+  std::vector<double> element_voltage;    // V, v(node_a) - v(node_b), per element
+  std::vector<double> element_current;    // A, from node_a through the element to node_b
+  std::vector<double> junction_voltage;   // V, diodes only (NaN for other elements)
+  std::vector<double> small_signal_res;   // Ohm, dV/dI of diodes (NaN for others)
+};
+
+// The solver's account of one solve.
+struct SolveSummary {
+  SolveStatus status = SolveStatus::kNoConvergence;
+  int newton_steps = 0;            // all steps, aids included
+  std::vector<std::string> aids;   // aids needed, in order ("gmin stepping", ...)
+  double max_kcl_residual = 0.0;   // A, largest |KCL residual| of the reported solution
+  std::string worst_node;          // node where that residual occurs
+  std::string detail;              // why it stopped, with the numbers
+  std::vector<std::string> unsettled;  // nodes/devices still moving at the end, on failure
+};
+
+// One record per Newton step, for --trace.
+struct NewtonStepRecord {
+  int step = 0;
+  double max_update = 0.0;    // max |dx| after limiting
+  double max_residual = 0.0;  // A, max |KCL residual| before the step
+  bool limited = false;       // junction limiting changed the step
+  std::string phase;          // "newton", "gmin 1e-3", "source 40%", ...
+};
+
+class BiasSolver {
+ public:
+  // Fixes the unknowns, the sparsity pattern and every device's value slots, and lets
+  // KLU analyse the pattern. The circuit must have passed CheckTopology().
+  static Result<std::unique_ptr<BiasSolver>> Create(const Circuit& circuit,
+                                                    const SolverOptions& options);
+  ~BiasSolver();
+  BiasSolver(const BiasSolver&) = delete;
+  BiasSolver& operator=(const BiasSolver&) = delete;
+
+  // New element values, part parameters or temperatures; same topology as at Create().
+  void UpdateValues(const Circuit& circuit);
+
+  // Solves from `start` (an unknown vector from unknowns(), e.g. a neighbouring sweep
+  // point) or, when empty, from the default guess. Fills *solution when converged.
+  SolveSummary Solve(Solution* solution, std::span<const double> start = {});
+
+  // The unknown vector of the last converged solve (node voltages, internal nodes,
+  // vsource currents), for warm starts.
+  std::span<const double> unknowns() const;
+  int unknown_count() const;
+
+  // Per-step records of the last Solve() when tracing is on.
+  void set_trace(bool on);
+  const std::vector<NewtonStepRecord>& trace() const;
+
+ private:
+  struct Impl;
+  explicit BiasSolver(std::unique_ptr<Impl> impl);
+  std::unique_ptr<Impl> impl_;
+};
+
+// Structural checks before solving (each problem a Diagnostic naming the elements):
+// empty circuit, an element whose two ends are the same node, a node with no DC path
+// to gnd, a loop of voltage sources, a cut set of current sources.
+std::vector<Diagnostic> CheckTopology(const Circuit& circuit);
+
+}  // namespace knee

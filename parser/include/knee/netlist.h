@@ -1,0 +1,109 @@
+// From .knee text to an elaborated Design (netlist-format.md). Two stages:
+//   ParseNetlist: lexing and syntax; values stay expressions.
+//   Elaborate:    params, parts and values evaluated (with --set/--temp overrides),
+//                 names resolved, units checked, requests resolved.
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "knee/circuit.h"
+#include "knee/quantity.h"
+#include "knee/result.h"
+#include "knee/solver.h"
+
+namespace knee {
+
+// The parsed statements. Opaque to callers; defined in parser/src.
+struct NetlistData;
+class Netlist {
+ public:
+  explicit Netlist(std::shared_ptr<const NetlistData> data) : data_(std::move(data)) {}
+  const NetlistData& data() const { return *data_; }
+  const std::string& file_name() const;
+
+ private:
+  std::shared_ptr<const NetlistData> data_;
+};
+
+// Reports every syntax error found (up to kMaxDiagnostics), not only the first.
+inline constexpr int kMaxDiagnostics = 20;
+Result<Netlist> ParseNetlist(std::string_view text, const std::string& file_name);
+
+// Command-line overrides, applied after the file is read and before expressions that
+// use the name are evaluated.
+struct Override {
+  std::string name;        // param, element, or PART.key
+  std::string value_text;  // a value as in the netlist: literal, param name or (expr)
+};
+struct Overrides {
+  std::vector<Override> sets;
+  std::optional<double> temp;  // degC, replaces the file's temp statement
+};
+
+// A quantity or an expression of quantities, resolved against a circuit.
+class QuantityExpr {
+ public:
+  struct Node;  // defined in parser/src
+  QuantityExpr(std::string text, std::string unit, std::shared_ptr<const Node> root);
+  double Evaluate(const Solution& solution) const;
+  const std::string& text() const { return text_; }  // as written: "pin.v", "(a.v - b.v)"
+  const std::string& unit() const { return unit_; }  // "V", "A", "W", "Ohm", "" if mixed
+  // The plain quantities this expression reads.
+  const std::vector<QuantityRef>& refs() const { return refs_; }
+
+ private:
+  std::string text_;
+  std::string unit_;
+  std::shared_ptr<const Node> root_;
+  std::vector<QuantityRef> refs_;
+};
+
+Result<QuantityExpr> ParseQuantity(std::string_view text, const Circuit& circuit,
+                                   const SourceLocation& where);
+
+// Sweep targets and ranges (netlist-format.md, "Sweep ranges").
+struct SweepTarget {
+  enum class Kind { kElement, kParam, kPartKey, kTemp };
+  Kind kind = Kind::kTemp;
+  std::string name;  // as written: "Vline", "Rprot", "SIG.sat_current", "temp"
+  int index = -1;    // element or part index
+  std::string key;   // part key for kPartKey
+};
+struct SweepAxis {
+  SweepTarget target;
+  std::vector<double> values;
+  bool logarithmic = false;
+  std::string range_text;
+  SourceLocation where;
+};
+Result<std::vector<double>> ExpandRange(std::string_view text, const SourceLocation& where,
+                                        bool* logarithmic);
+Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& netlist,
+                                       const Circuit& circuit, const SourceLocation& where);
+
+struct Expectation {
+  QuantityExpr quantity;
+  double expected = 0;
+  double tolerance = 0.05;  // absolute in the quantity's unit, or relative
+  bool relative = true;
+  SourceLocation where;
+};
+
+struct Design {
+  Circuit circuit;
+  bool bias_requested = false;  // 'bias' present, or no request at all
+  std::vector<std::vector<SweepAxis>> sweeps;  // one per 'sweep' statement
+  std::vector<QuantityExpr> show;              // empty: every node v and element i
+  std::vector<Expectation> expects;
+};
+
+Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides);
+// Only the circuit values (no requests), for sweeps over a param: the topology is the
+// same as Elaborate's for any values of the params.
+Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overrides);
+
+}  // namespace knee
