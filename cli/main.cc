@@ -1,8 +1,113 @@
-#include <cstdio>
+// knee's command line (cli.md). CLI11 reads the words; everything else is in commands.
+// Exceptions from CLI11 end here, at the edge, as exit status 2 (0 for --help).
+#include <CLI/CLI.hpp>
+#include <fmt/format.h>
 
+#include <csignal>
+#include <string>
+
+#include "commands.h"
+#include "options.h"
 #include "version.h"
 
-int main() {
-  std::printf("knee %s\n", knee::cli::Version());
-  return 0;
+namespace {
+
+using knee::cli::AnalysisOptions;
+using knee::cli::ReportFormat;
+
+void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
+  command->add_option("--set", o->sets,
+                      "Override a param, an element value or a part parameter (PART.key): "
+                      "NAME=VALUE; repeatable")
+      ->type_name("NAME=VALUE")
+      ->allow_extra_args(false);
+  command->add_option("--temp", o->temp, "Circuit temperature in °C (overrides the file's temp)")
+      ->type_name("C");
+  command->add_option("--show", o->show, "Quantities to report, comma separated")
+      ->type_name("Q1,Q2,...");
+  command->add_option("--format", *format, "Report format")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->type_name("table|csv|json");
+  command->add_option("--out", o->out_path, "Write the report to PATH (whole or not at all)")
+      ->type_name("PATH");
+  command->add_option("--plot", o->plot_path, "Also draw an SVG chart")->type_name("PATH.svg");
+  command->add_option("--jobs", o->jobs, "Worker threads for sweeps (default: all cores)")
+      ->type_name("N");
+  command->add_option("--shard", o->shard, "Compute only the K-th of N slices of a sweep")
+      ->type_name("K/N");
+  command->add_flag("--quiet", o->quiet, "No progress display and no notes on standard error");
+  command->add_flag("--trace", o->trace, "Print every Newton step on standard error");
+  auto* solver = command->add_option_group("Solver settings (docs/solver.md)");
+  solver->add_option("--voltage-tol", o->solver.abs_voltage_tol,
+                     "Absolute tolerance of voltage updates in V (default 1e-6)");
+  solver->add_option("--current-tol", o->solver.abs_current_tol,
+                     "Absolute tolerance of KCL residuals and current updates in A "
+                     "(default 1e-12)");
+  solver->add_option("--rel-tol", o->solver.rel_tol, "Relative tolerance (default 1e-6)");
+  solver->add_option("--max-steps", o->solver.max_newton_steps,
+                     "Newton steps per attempt (default 200)");
+  solver->add_flag("!--no-limiting", o->solver.junction_limiting,
+                   "Turn off junction-voltage limiting");
+  solver->add_option("--aids", o->aids,
+                     "Convergence aids to try, in order: gmin,source (default) or none");
+}
+
+ReportFormat ParseFormat(const std::string& text) {
+  if (text == "csv") return ReportFormat::kCsv;
+  if (text == "json") return ReportFormat::kJson;
+  return ReportFormat::kTable;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  // A closed standard output pipe becomes a write error we report, not a silent death.
+  std::signal(SIGPIPE, SIG_IGN);
+
+  CLI::App app{
+      "knee: DC bias points and sweeps of diode networks, exact and verified.\n"
+      "Netlist format: docs/netlist-format.md; commands: docs/cli.md"};
+  app.set_version_flag("--version", std::string("knee ") + knee::cli::Version());
+  app.require_subcommand(1);
+  app.fallthrough(false);
+
+  AnalysisOptions options;
+  std::string format = "table";
+  std::string file;
+
+  struct Command {
+    const char* name;
+    const char* help;
+    int (*run)(const std::string&, AnalysisOptions);
+    CLI::App* app = nullptr;
+  };
+  Command commands[] = {
+      {"check", "Parse and check the circuit, solve nothing", knee::cli::RunCheck},
+      {"bias", "DC bias point", knee::cli::RunBias},
+      {"sweep", "DC sweep: TARGET=RANGE..., the first TARGET is the inner loop",
+       knee::cli::RunSweep},
+      {"run", "Whatever the file requests (bias and/or sweeps)", knee::cli::RunRun},
+  };
+  for (Command& c : commands) {
+    c.app = app.add_subcommand(c.name, c.help);
+    c.app->add_option("FILE", file, "Netlist (.knee), or - for standard input")->required();
+    if (std::string(c.name) == "sweep") {
+      c.app->add_option("TARGET=RANGE", options.sweeps,
+                        "Sweep target and range, e.g. Vline=-30..30:0.1 temp=-40,25,85")
+          ->required();
+    }
+    AddShared(c.app, &options, &format);
+  }
+
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    const int code = app.exit(e);
+    return code == 0 ? 0 : 2;
+  }
+  options.format = ParseFormat(format);
+  for (const Command& c : commands) {
+    if (c.app->parsed()) return c.run(file, options);
+  }
+  return 2;
 }

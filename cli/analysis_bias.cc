@@ -1,0 +1,99 @@
+#include <fmt/format.h>
+
+#include <cmath>
+#include <cstdio>
+#include <limits>
+
+#include "analyses.h"
+
+namespace knee::cli {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+ExpectationCheck Check(const Expectation& e, const Solution& solution) {
+  ExpectationCheck check;
+  check.quantity = e.quantity.text();
+  check.unit = e.quantity.unit();
+  check.expected = e.expected;
+  check.tolerance = e.tolerance;
+  check.relative = e.relative;
+  check.where = e.where;
+  check.actual = e.quantity.Evaluate(solution);
+  const double error = std::fabs(check.actual - check.expected);
+  const double bound = e.relative ? e.tolerance * std::fabs(e.expected) : e.tolerance;
+  check.met = std::isfinite(check.actual) && error <= bound;
+  return check;
+}
+
+void PrintTrace(const BiasSolver& solver) {
+  for (const NewtonStepRecord& r : solver.trace()) {
+    fmt::print(stderr, "trace: step {:4d} {:<14} max|F| {:.3e} A  max|dx| {:.3e}{}\n", r.step,
+               r.phase, r.max_residual, r.max_update, r.limited ? "  (limited)" : "");
+  }
+}
+
+}  // namespace
+
+const char* SolverMethodName(const SolverOptions& options) {
+  (void)options;
+  return "Newton-Raphson";
+}
+
+Report StartReport(const LoadedDesign& loaded, const char* analysis) {
+  Report report;
+  report.title = loaded.design->circuit.title;
+  report.file = loaded.file;
+  report.analysis = analysis;
+  report.temp = loaded.design->circuit.temp;
+  return report;
+}
+
+AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<QuantityExpr>& show,
+                           const AnalysisOptions& options) {
+  AnalysisResult result;
+  Report& report = result.report;
+  report = StartReport(loaded, "bias");
+  for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
+  report.account.method = SolverMethodName(options.solver);
+
+  const Circuit& circuit = loaded.design->circuit;
+  Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options.solver);
+  if (!solver) {
+    PrintDiagnostics(solver.errors(), loaded.source);
+    result.outcome.bad_input = true;
+    return result;
+  }
+  (*solver)->set_trace(options.trace);
+  Solution solution;
+  SolveSummary summary = (*solver)->Solve(&solution);
+  if (options.trace) PrintTrace(**solver);
+
+  SolverAccount& account = report.account;
+  account.points = 1;
+  account.newton_steps = summary.newton_steps;
+  account.max_newton_steps = summary.newton_steps;
+  account.aids = summary.aids;
+  account.max_kcl_residual = summary.max_kcl_residual;
+  account.worst_node = summary.worst_node;
+
+  std::vector<double> row(show.size(), kNaN);
+  if (summary.status == SolveStatus::kConverged) {
+    for (size_t i = 0; i < show.size(); ++i) row[i] = show[i].Evaluate(solution);
+    for (const Expectation& e : loaded.design->expects) {
+      report.expectations.push_back(Check(e, solution));
+      if (!report.expectations.back().met) result.outcome.expect_missed = true;
+    }
+  } else {
+    std::string why = fmt::format("{}: {}", ToString(summary.status), summary.detail);
+    if (!summary.unsettled.empty()) {
+      why += fmt::format("; still moving: {}", fmt::join(summary.unsettled, ", "));
+    }
+    report.failures.push_back({0, "", why});
+    result.outcome.point_failed = true;
+  }
+  report.rows.push_back(std::move(row));
+  return result;
+}
+
+}  // namespace knee::cli

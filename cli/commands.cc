@@ -1,0 +1,147 @@
+#include "commands.h"
+
+#include <fmt/format.h>
+
+#include <cstdio>
+#include <nlohmann/json.hpp>
+
+#include "analyses.h"
+#include "output.h"
+#include "pipeline.h"
+
+namespace knee::cli {
+namespace {
+
+int Fail(const std::string& message) {
+  fmt::print(stderr, "knee: error: {}\n", message);
+  return static_cast<int>(ExitStatus::kBadInput);
+}
+
+// Checks the options and the output path before any work is done.
+std::string Prepare(AnalysisOptions* options) {
+  std::string problem = FinishOptions(options);
+  if (!problem.empty()) return problem;
+  if (!options->out_path.empty()) {
+    problem = CheckWritable(options->out_path);
+    if (!problem.empty()) return "--out: " + problem;
+  }
+  return "";
+}
+
+std::string Combine(const std::vector<AnalysisResult>& results, ReportFormat format) {
+  if (results.size() == 1) return WriteReport(results.front().report, format);
+  if (format == ReportFormat::kJson) {
+    nlohmann::ordered_json j;
+    j["format"] = "knee-result/1";
+    j["title"] = results.front().report.title;
+    j["file"] = results.front().report.file;
+    j["analysis"] = "run";
+    j["results"] = nlohmann::ordered_json::array();
+    for (const AnalysisResult& r : results) {
+      j["results"].push_back(nlohmann::ordered_json::parse(WriteJson(r.report)));
+    }
+    return j.dump(2) + "\n";
+  }
+  // Table and CSV: one block per analysis, separated by one empty line.
+  std::string out;
+  for (size_t i = 0; i < results.size(); ++i) {
+    if (i) out += "\n";
+    out += WriteReport(results[i].report, format);
+  }
+  return out;
+}
+
+int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
+  Outcome outcome;
+  for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
+  const std::string text = Combine(results, options.format);
+  std::string problem = options.out_path.empty() ? WriteStdout(text)
+                                                 : WriteFileAtomically(options.out_path, text);
+  if (!problem.empty()) {
+    fmt::print(stderr, "knee: error: {}\n", problem);
+    outcome.bad_input = true;
+  }
+  if (!options.quiet) {
+    for (const AnalysisResult& r : results) {
+      for (const PointFailure& f : r.report.failures) {
+        fmt::print(stderr, "knee: no solution{}: {}\n", f.where.empty() ? "" : " at " + f.where,
+                   f.why);
+      }
+      for (const ExpectationCheck& e : r.report.expectations) {
+        if (e.met) continue;
+        fmt::print(stderr, "knee: expectation missed: {} expected {} , exact {}\n", e.quantity,
+                   e.expected, e.actual);
+      }
+    }
+  }
+  return static_cast<int>(outcome.Status());
+}
+
+}  // namespace
+
+int RunCheck(const std::string& file, AnalysisOptions options) {
+  std::string problem = Prepare(&options);
+  if (!problem.empty()) return Fail(problem);
+  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
+  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
+  if (!ResolveShow(*loaded, options)) return static_cast<int>(ExitStatus::kBadInput);
+  const Circuit& c = loaded->design->circuit;
+  int counts[4] = {0, 0, 0, 0};
+  for (const Element& e : c.elements) ++counts[static_cast<int>(e.kind)];
+  long long sweep_points = 0;
+  for (const auto& sweep : loaded->design->sweeps) {
+    long long points = 1;
+    for (const SweepAxis& axis : sweep) points *= static_cast<long long>(axis.values.size());
+    sweep_points += points;
+  }
+  std::string text = fmt::format(
+      "{}: ok: {} nodes besides gnd, {} elements ({} resistors, {} voltage sources, {} current "
+      "sources, {} diodes), {} parts; requests: {}{} sweep(s) with {} points, {} expectation(s)\n",
+      loaded->file == "-" ? "<stdin>" : loaded->file, c.nodes.size() - 1, c.elements.size(),
+      counts[0], counts[1], counts[2], counts[3], c.parts.size(),
+      loaded->design->bias_requested ? "bias, " : "", loaded->design->sweeps.size(), sweep_points,
+      loaded->design->expects.size());
+  problem = options.out_path.empty() ? WriteStdout(text)
+                                     : WriteFileAtomically(options.out_path, text);
+  if (!problem.empty()) return Fail(problem);
+  return 0;
+}
+
+int RunBias(const std::string& file, AnalysisOptions options) {
+  std::string problem = Prepare(&options);
+  if (!problem.empty()) return Fail(problem);
+  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
+  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, options);
+  if (!show) return static_cast<int>(ExitStatus::kBadInput);
+  std::vector<AnalysisResult> results;
+  results.push_back(AnalyzeBias(*loaded, *show, options));
+  if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+  return Emit(results, options);
+}
+
+int RunSweep(const std::string& file, AnalysisOptions options) {
+  std::string problem = Prepare(&options);
+  if (!problem.empty()) return Fail(problem);
+  return Fail("knee sweep is not available yet");
+}
+
+int RunRun(const std::string& file, AnalysisOptions options) {
+  std::string problem = Prepare(&options);
+  if (!problem.empty()) return Fail(problem);
+  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
+  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, options);
+  if (!show) return static_cast<int>(ExitStatus::kBadInput);
+  std::vector<AnalysisResult> results;
+  if (loaded->design->bias_requested || !loaded->design->expects.empty()) {
+    results.push_back(AnalyzeBias(*loaded, *show, options));
+    if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+  }
+  if (!loaded->design->sweeps.empty()) {
+    return Fail("sweep requests are not available yet");
+  }
+  return Emit(results, options);
+}
+
+}  // namespace knee::cli

@@ -1,0 +1,22 @@
+// Engineering notation for people ("652.3 mV", "4.31 mA") and round-trip numbers for
+// scripts.
+#pragma once
+
+#include <string>
+#include <string_view>
+
+namespace knee::cli {
+
+// `value` with an SI prefix chosen so that the mantissa lies in [1, 1000), rounded to
+// `significant` digits with trailing zeros dropped, then a space and `unit`
+// ("Ohm" is shown as "Ω"). Values below 1e-15 in magnitude (but not zero) are shown in
+// exponent form; NaN as "—", infinities as "inf".
+std::string FormatEng(double value, std::string_view unit, int significant = 4);
+
+// Shortest decimal text that reads back to exactly `value` ("nan" for NaN).
+std::string FormatRoundTrip(double value);
+
+// Unit as people read it: "Ohm" -> "Ω", others unchanged.
+std::string DisplayUnit(std::string_view unit);
+
+}  // namespace knee::cli

@@ -1,0 +1,52 @@
+#include "options.h"
+
+#include <fmt/format.h>
+
+namespace knee::cli {
+
+std::vector<std::string> SplitTopLevel(const std::string& text, char separator) {
+  std::vector<std::string> parts;
+  std::string current;
+  int depth = 0;
+  for (char c : text) {
+    if (c == '(') ++depth;
+    if (c == ')' && depth > 0) --depth;
+    if (c == separator && depth == 0) {
+      parts.push_back(current);
+      current.clear();
+      continue;
+    }
+    current += c;
+  }
+  parts.push_back(current);
+  for (std::string& part : parts) {
+    const size_t first = part.find_first_not_of(" \t");
+    const size_t last = part.find_last_not_of(" \t");
+    part = first == std::string::npos ? "" : part.substr(first, last - first + 1);
+  }
+  return parts;
+}
+
+std::string FinishOptions(AnalysisOptions* options) {
+  SolverOptions& solver = options->solver;
+  solver.gmin_stepping = false;
+  solver.source_stepping = false;
+  if (options->aids != "none") {
+    for (const std::string& aid : SplitTopLevel(options->aids, ',')) {
+      if (aid == "gmin") {
+        solver.gmin_stepping = true;
+      } else if (aid == "source") {
+        solver.source_stepping = true;
+      } else {
+        return fmt::format("--aids: unknown aid '{}'; expected a comma list of gmin and source, "
+                           "or none",
+                           aid);
+      }
+    }
+  }
+  if (options->jobs < 0) return fmt::format("--jobs: {} is negative; expected N >= 1", options->jobs);
+  if (std::optional<std::string> problem = Validate(solver)) return *problem;
+  return "";
+}
+
+}  // namespace knee::cli

@@ -1,0 +1,36 @@
+// The options shared by the analyses (cli.md, "Options shared by the analyses"), as
+// parsed from the command line, and their validation.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "knee/solver.h"
+#include "report.h"
+
+namespace knee::cli {
+
+struct AnalysisOptions {
+  std::vector<std::string> sets;    // --set NAME=VALUE, in order
+  std::optional<double> temp;       // --temp C
+  std::string show;                 // --show Q1,Q2,... (top-level commas separate)
+  ReportFormat format = ReportFormat::kTable;  // --format
+  std::string out_path;             // --out PATH ("" = standard output)
+  std::string plot_path;            // --plot PATH.svg ("" = no chart)
+  int jobs = 0;                     // --jobs N (0 = all cores)
+  std::string shard;                // --shard K/N ("" = whole sweep)
+  bool quiet = false;               // --quiet
+  bool trace = false;               // --trace: Newton step records on standard error
+  std::vector<std::string> sweeps;  // knee sweep: TARGET=RANGE, first = inner loop
+  SolverOptions solver;             // --voltage-tol, --current-tol, --rel-tol, ...
+  std::string aids = "gmin,source"; // --aids: comma list of gmin, source; or none
+};
+
+// Splits "a,b,(max(c.v,d.v))" at commas outside parentheses.
+std::vector<std::string> SplitTopLevel(const std::string& text, char separator);
+
+// Applies --aids to options.solver and checks every field; "" when all is well.
+std::string FinishOptions(AnalysisOptions* options);
+
+}  // namespace knee::cli

@@ -1,0 +1,81 @@
+#include "output.h"
+
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <string>
+
+#include <fmt/format.h>
+
+namespace knee::cli {
+namespace {
+
+std::string FolderOf(const std::string& path) {
+  std::filesystem::path folder = std::filesystem::path(path).parent_path();
+  return folder.empty() ? "." : folder.string();
+}
+
+// Writes all of `content` to `fd`, retrying short writes and EINTR.
+int WriteAll(int fd, const std::string& content) {
+  size_t done = 0;
+  while (done < content.size()) {
+    ssize_t n = ::write(fd, content.data() + done, content.size() - done);
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      return errno;
+    }
+    done += static_cast<size_t>(n);
+  }
+  return 0;
+}
+
+}  // namespace
+
+std::string CheckWritable(const std::string& path) {
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec)) {
+    return fmt::format("cannot write '{}': it is a folder", path);
+  }
+  const std::string folder = FolderOf(path);
+  if (!std::filesystem::is_directory(folder, ec)) {
+    return fmt::format("cannot write '{}': folder '{}' does not exist", path, folder);
+  }
+  if (::access(folder.c_str(), W_OK) != 0) {
+    return fmt::format("cannot write '{}': {}", path, std::strerror(errno));
+  }
+  return "";
+}
+
+std::string WriteFileAtomically(const std::string& path, const std::string& content) {
+  std::string problem = CheckWritable(path);
+  if (!problem.empty()) return problem;
+  std::string temp = FolderOf(path) + "/.knee-XXXXXX";
+  int fd = ::mkstemp(temp.data());
+  if (fd < 0) return fmt::format("cannot write '{}': {}", path, std::strerror(errno));
+  int err = WriteAll(fd, content);
+  if (err == 0 && ::fsync(fd) != 0) err = errno;
+  if (::close(fd) != 0 && err == 0) err = errno;
+  if (err == 0) {
+    ::chmod(temp.c_str(), 0644);
+    if (std::rename(temp.c_str(), path.c_str()) != 0) err = errno;
+  }
+  if (err != 0) {
+    ::unlink(temp.c_str());
+    return fmt::format("cannot write '{}': {}", path, std::strerror(err));
+  }
+  return "";
+}
+
+std::string WriteStdout(const std::string& content) {
+  std::fflush(stdout);
+  int err = WriteAll(STDOUT_FILENO, content);
+  if (err != 0) return fmt::format("cannot write to standard output: {}", std::strerror(err));
+  return "";
+}
+
+}  // namespace knee::cli

@@ -1,0 +1,34 @@
+// The steps every command shares: read the netlist, parse, apply overrides, elaborate,
+// check the topology, and resolve the quantities to report.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "knee/netlist.h"
+#include "options.h"
+
+namespace knee::cli {
+
+struct LoadedDesign {
+  std::string file;    // as given ("-" for standard input)
+  std::string source;  // the whole text
+  std::optional<Netlist> netlist;
+  std::optional<Design> design;
+  Overrides overrides;
+};
+
+// Reads `file` ("-" = standard input) and takes it through every check. On any problem
+// prints the diagnostics to standard error and returns nothing (exit status 2).
+std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOptions& options);
+
+// The quantities to report: --show, else the file's show statements, else every node
+// voltage and every element current. Prints diagnostics and returns nothing on error.
+std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
+                                                     const AnalysisOptions& options);
+
+// Prints diagnostics with the source lines quoted.
+void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, const std::string& source);
+
+}  // namespace knee::cli

@@ -1,0 +1,69 @@
+// What an analysis hands to the report writers: a table of numbers with named columns,
+// and the solver's account. The writers (table, csv, json) know nothing of circuits.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "knee/result.h"
+
+namespace knee::cli {
+
+enum class ReportFormat { kTable, kCsv, kJson };
+
+struct Column {
+  std::string name;  // quantity as written: "pin.v", "(pin.v - vdd.v)", "Vline"
+  std::string unit;  // "V", "A", "W", "Ohm", "C", "" (dimensionless or mixed)
+};
+
+// One point of an analysis that found no solution: which point and why.
+struct PointFailure {
+  long long row = 0;  // index into Report::rows
+  std::string where;  // "Vline = 3.1 V, temp = 85 C" (empty for a bias point)
+  std::string why;
+};
+
+struct ExpectationCheck {
+  std::string quantity;
+  std::string unit;
+  double expected = 0;
+  double actual = 0;
+  double tolerance = 0;  // absolute (in unit) or relative fraction
+  bool relative = true;
+  bool met = false;
+  SourceLocation where;  // line 0 when given on the command line
+};
+
+struct SolverAccount {
+  std::string method;               // which solver ran
+  long long points = 0;             // solved points (1 for a bias point)
+  long long newton_steps = 0;       // over all points
+  int max_newton_steps = 0;         // at the hardest point
+  std::vector<std::string> aids;    // every aid needed at any point, first use order
+  double max_kcl_residual = 0;      // A, largest over all reported points
+  std::string worst_node;
+};
+
+struct Report {
+  std::string title;       // circuit title (may be empty)
+  std::string file;        // netlist file as given
+  std::string analysis;    // "bias", "sweep", ...
+  double temp = 25;        // degC of the circuit (for a temperature sweep: the base)
+  int sweep_axes = 0;      // leading columns that are sweep variables (0 for bias)
+  std::vector<Column> columns;
+  std::vector<std::vector<double>> rows;  // NaN where a point failed
+  std::vector<PointFailure> failures;
+  SolverAccount account;
+  std::vector<ExpectationCheck> expectations;
+  std::vector<std::string> cautions;  // safety cautions shown with the report
+};
+
+std::string WriteTable(const Report& report);
+std::string WriteCsv(const Report& report);
+std::string WriteCsvHeader(const Report& report);  // the header row alone
+std::string WriteCsvRows(const Report& report);    // the rows alone
+std::string WriteJson(const Report& report);
+std::string WriteReport(const Report& report, ReportFormat format);
+
+}  // namespace knee::cli

@@ -1,0 +1,49 @@
+// Scripts' CSV: one header row of quantity names with units, one row per point, numbers
+// that round-trip a double, nothing else in the stream (cli.md, "Output").
+#include <fmt/format.h>
+
+#include "eng_format.h"
+#include "report.h"
+
+namespace knee::cli {
+namespace {
+
+// RFC 4180 quoting for names that contain a comma, a quote or a line break.
+std::string CsvField(const std::string& text) {
+  if (text.find_first_of(",\"\n\r") == std::string::npos) return text;
+  std::string quoted = "\"";
+  for (char c : text) {
+    if (c == '"') quoted += '"';
+    quoted += c;
+  }
+  return quoted + "\"";
+}
+
+}  // namespace
+
+std::string WriteCsvHeader(const Report& report) {
+  std::string out;
+  for (size_t i = 0; i < report.columns.size(); ++i) {
+    const Column& c = report.columns[i];
+    if (i) out += ',';
+    out += CsvField(c.unit.empty() ? c.name : fmt::format("{} [{}]", c.name, c.unit));
+  }
+  return out + "\n";
+}
+
+std::string WriteCsvRows(const Report& report) {
+  std::string out;
+  out.reserve(report.rows.size() * report.columns.size() * 24);
+  for (const auto& row : report.rows) {
+    for (size_t i = 0; i < row.size(); ++i) {
+      if (i) out += ',';
+      out += FormatRoundTrip(row[i]);
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+std::string WriteCsv(const Report& report) { return WriteCsvHeader(report) + WriteCsvRows(report); }
+
+}  // namespace knee::cli

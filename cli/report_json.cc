@@ -1,0 +1,84 @@
+// Scripts' JSON: one object, schema "knee-result/1" (docs/json-schema.md).
+#include <nlohmann/json.hpp>
+
+#include <cmath>
+
+#include "report.h"
+
+namespace knee::cli {
+namespace {
+
+// JSON has no NaN: a value of a failed point is null.
+nlohmann::ordered_json Number(double value) {
+  if (!std::isfinite(value)) return nullptr;
+  return value;
+}
+
+nlohmann::ordered_json Location(const SourceLocation& where) {
+  if (where.line == 0) return nullptr;
+  return {{"file", where.file}, {"line", where.line}, {"column", where.column}};
+}
+
+}  // namespace
+
+std::string WriteJson(const Report& report) {
+  nlohmann::ordered_json j;
+  j["format"] = "knee-result/1";
+  j["title"] = report.title;
+  j["file"] = report.file;
+  j["analysis"] = report.analysis;
+  j["temp_c"] = report.temp;
+  j["sweep_columns"] = report.sweep_axes;
+  nlohmann::ordered_json columns = nlohmann::ordered_json::array();
+  for (const Column& c : report.columns) columns.push_back({{"name", c.name}, {"unit", c.unit}});
+  j["columns"] = columns;
+  nlohmann::ordered_json rows = nlohmann::ordered_json::array();
+  for (const auto& row : report.rows) {
+    nlohmann::ordered_json r = nlohmann::ordered_json::array();
+    for (double v : row) r.push_back(Number(v));
+    rows.push_back(std::move(r));
+  }
+  j["rows"] = std::move(rows);
+  nlohmann::ordered_json failures = nlohmann::ordered_json::array();
+  for (const PointFailure& f : report.failures) {
+    failures.push_back({{"row", f.row}, {"where", f.where}, {"why", f.why}});
+  }
+  j["failures"] = failures;
+  nlohmann::ordered_json expectations = nlohmann::ordered_json::array();
+  for (const ExpectationCheck& e : report.expectations) {
+    expectations.push_back({{"quantity", e.quantity},
+                            {"unit", e.unit},
+                            {"expected", e.expected},
+                            {"actual", Number(e.actual)},
+                            {"error", Number(e.actual - e.expected)},
+                            {"tolerance", e.tolerance},
+                            {"tolerance_kind", e.relative ? "relative" : "absolute"},
+                            {"met", e.met},
+                            {"location", Location(e.where)}});
+  }
+  j["expectations"] = expectations;
+  const SolverAccount& a = report.account;
+  j["solver"] = {{"method", a.method},
+                 {"points", a.points},
+                 {"newton_steps", a.newton_steps},
+                 {"max_newton_steps_per_point", a.max_newton_steps},
+                 {"aids", a.aids},
+                 {"max_kcl_residual_a", a.max_kcl_residual},
+                 {"worst_node", a.worst_node}};
+  j["cautions"] = report.cautions;
+  return j.dump(2) + "\n";
+}
+
+std::string WriteReport(const Report& report, ReportFormat format) {
+  switch (format) {
+    case ReportFormat::kTable:
+      return WriteTable(report);
+    case ReportFormat::kCsv:
+      return WriteCsv(report);
+    case ReportFormat::kJson:
+      return WriteJson(report);
+  }
+  return {};
+}
+
+}  // namespace knee::cli

@@ -1,0 +1,137 @@
+// The people-facing layout: a header naming circuit, analysis and temperature, the
+// numbers in engineering notation, then expectations, failures and the solver's account.
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+
+#include "eng_format.h"
+#include "report.h"
+
+namespace knee::cli {
+namespace {
+
+// Display width of UTF-8 text (code points; every character knee prints is one column).
+size_t Width(const std::string& text) {
+  size_t width = 0;
+  for (unsigned char c : text) width += (c & 0xC0) != 0x80 ? 1 : 0;
+  return width;
+}
+
+std::string PadLeft(const std::string& text, size_t width) {
+  const size_t w = Width(text);
+  return w >= width ? text : std::string(width - w, ' ') + text;
+}
+std::string PadRight(const std::string& text, size_t width) {
+  const size_t w = Width(text);
+  return w >= width ? text : text + std::string(width - w, ' ');
+}
+
+std::string Header(const Report& report) {
+  std::string name = report.title.empty() ? report.file : "\"" + report.title + "\"";
+  std::string analysis = report.analysis == "bias" ? "bias point" : report.analysis;
+  return fmt::format("{}: {} at {}\n", name, analysis, FormatEng(report.temp, "°C", 4));
+}
+
+std::string Tolerance(const ExpectationCheck& e) {
+  return e.relative ? fmt::format("{:g} %", e.tolerance * 100) : FormatEng(e.tolerance, e.unit);
+}
+
+std::string Expectations(const Report& report) {
+  std::string out;
+  for (const ExpectationCheck& e : report.expectations) {
+    const double error = e.actual - e.expected;
+    std::string rel = e.expected != 0 ? fmt::format(" ({:+.3g} %)", 100 * error / e.expected) : "";
+    out += fmt::format("  {} expect {} = {} within {}: exact {}, error {}{}\n",
+                       e.met ? "met   " : "MISSED", e.quantity, FormatEng(e.expected, e.unit),
+                       Tolerance(e), FormatEng(e.actual, e.unit), FormatEng(error, e.unit), rel);
+  }
+  return out;
+}
+
+std::string Account(const Report& report) {
+  const SolverAccount& a = report.account;
+  std::string aids = a.aids.empty() ? "no aids" : "aids: " + fmt::format("{}", fmt::join(a.aids, ", "));
+  std::string steps;
+  if (a.points <= 1) {
+    steps = fmt::format("{} Newton steps", a.newton_steps);
+  } else {
+    steps = fmt::format("{} points, {} Newton steps ({:.2f} per point, at most {})", a.points,
+                        a.newton_steps, static_cast<double>(a.newton_steps) / static_cast<double>(a.points),
+                        a.max_newton_steps);
+  }
+  std::string residual = fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
+  if (!a.worst_node.empty()) residual += " at " + a.worst_node;
+  return fmt::format("solver: {}, {}, {}; {}\n", a.method, steps, aids, residual);
+}
+
+std::string Vertical(const Report& report) {
+  size_t name_width = 0;
+  for (const Column& c : report.columns) name_width = std::max(name_width, Width(c.name));
+  std::string out;
+  const std::vector<double>& row = report.rows.front();
+  for (size_t i = 0; i < report.columns.size(); ++i) {
+    out += fmt::format("  {}  {}\n", PadRight(report.columns[i].name, name_width),
+                       PadLeft(FormatEng(row[i], report.columns[i].unit), 12));
+  }
+  return out;
+}
+
+std::string Columns(const Report& report) {
+  const size_t n = report.columns.size();
+  std::vector<std::string> head(n);
+  std::vector<size_t> width(n);
+  for (size_t i = 0; i < n; ++i) {
+    const Column& c = report.columns[i];
+    head[i] = c.unit.empty() ? c.name : fmt::format("{} [{}]", c.name, DisplayUnit(c.unit));
+    width[i] = std::max<size_t>(Width(head[i]), 10);
+  }
+  std::vector<std::vector<std::string>> cells;
+  cells.reserve(report.rows.size());
+  for (const auto& row : report.rows) {
+    std::vector<std::string> line(n);
+    for (size_t i = 0; i < n; ++i) {
+      line[i] = FormatEng(row[i], report.columns[i].unit);
+      width[i] = std::max(width[i], Width(line[i]));
+    }
+    cells.push_back(std::move(line));
+  }
+  std::string out = " ";
+  for (size_t i = 0; i < n; ++i) {
+    out += " " + PadLeft(head[i], width[i]);
+    if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += " │";
+  }
+  out += "\n";
+  for (const auto& line : cells) {
+    out += " ";
+    for (size_t i = 0; i < n; ++i) {
+      out += " " + PadLeft(line[i], width[i]);
+      if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += " │";
+    }
+    out += "\n";
+  }
+  return out;
+}
+
+}  // namespace
+
+std::string WriteTable(const Report& report) {
+  std::string out = Header(report);
+  for (const std::string& caution : report.cautions) out += "CAUTION: " + caution + "\n";
+  out += "\n";
+  if (!report.rows.empty()) {
+    out += report.sweep_axes == 0 && report.rows.size() == 1 ? Vertical(report) : Columns(report);
+  }
+  if (!report.expectations.empty()) out += "\n" + Expectations(report);
+  if (!report.failures.empty()) {
+    out += "\n";
+    for (const PointFailure& f : report.failures) {
+      out += f.where.empty() ? fmt::format("  NO SOLUTION: {}\n", f.why)
+                             : fmt::format("  NO SOLUTION at {}: {}\n", f.where, f.why);
+    }
+  }
+  out += "\n" + Account(report);
+  return out;
+}
+
+}  // namespace knee::cli
