@@ -44,5 +44,7 @@ JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj);
 
 // exp(x) for x <= kExpLimit, exp(kExpLimit) * (1 + x - kExpLimit) above.
 double SafeExp(double x);
+// d/dx SafeExp(x): exp(x) for x <= kExpLimit, exp(kExpLimit) above.
+double SafeExpSlope(double x);
 
 }  // namespace knee

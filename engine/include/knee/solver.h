@@ -95,7 +95,9 @@ class BiasSolver {
   void UpdateValues(const Circuit& circuit);
 
   // Solves from `start` (an unknown vector from unknowns(), e.g. a neighbouring sweep
-  // point) or, when empty, from the default guess. Fills *solution when converged.
+  // point) or, when empty, from the default guess (all unknowns zero). A `start` whose
+  // size is not unknown_count() is ignored. Fills *solution when Newton converged, i.e.
+  // for kConverged and also for kVerificationFailed (so the failure can be inspected).
   SolveSummary Solve(Solution* solution, std::span<const double> start = {});
 
   // The unknown vector of the last converged solve (node voltages, internal nodes,

@@ -1,0 +1,294 @@
+// BiasSolver: plain Newton, then the aid ladder (gmin stepping, source stepping), then a
+// final plain Newton run on the exact model and the KCL verification of its answer.
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <string>
+#include <vector>
+
+#include <fmt/format.h>
+
+#include "check.h"
+#include "klu_solver.h"
+#include "knee/solver.h"
+#include "mna.h"
+#include "newton.h"
+
+namespace knee {
+
+using internal::AssemblyAids;
+using internal::KluSolver;
+using internal::LinearStatus;
+using internal::MnaSystem;
+using internal::NewtonExit;
+using internal::NewtonOutcome;
+using internal::NewtonSolver;
+
+namespace {
+
+constexpr int kMaxGminRetries = 8;      // halvings (in log scale) of a failed gmin rung
+constexpr int kMaxSourceRetries = 12;   // subdivisions of a failed source step
+constexpr int kMaxSourceRungs = 2000;   // all source-stepping runs together
+
+SolveStatus StatusOf(NewtonExit exit) {
+  switch (exit) {
+    case NewtonExit::kConverged:
+      return SolveStatus::kConverged;
+    case NewtonExit::kSingular:
+      return SolveStatus::kSingularMatrix;
+    case NewtonExit::kNonFinite:
+      return SolveStatus::kNonFinite;
+    case NewtonExit::kStepLimit:
+    case NewtonExit::kFatal:  // the detail says which linear-solver failure it was
+      return SolveStatus::kNoConvergence;
+  }
+  return SolveStatus::kNoConvergence;
+}
+
+Diagnostic MessageOnly(std::string message) {
+  Diagnostic d;
+  d.message = std::move(message);
+  return d;
+}
+
+AssemblyAids WithGmin(double gmin) {
+  AssemblyAids aids;
+  aids.gmin = gmin;
+  return aids;
+}
+
+AssemblyAids WithSourceScale(double scale) {
+  AssemblyAids aids;
+  aids.source_scale = scale;
+  return aids;
+}
+
+}  // namespace
+
+struct BiasSolver::Impl {
+  Circuit circuit;
+  SolverOptions options;
+  MnaSystem mna;
+  KluSolver klu;
+  NewtonSolver newton;
+  std::vector<double> x;          // working unknowns
+  std::vector<double> saved;      // x before a rung, restored when the rung fails
+  std::vector<double> converged;  // unknowns of the last converged solve
+  bool trace_on = false;
+  std::vector<NewtonStepRecord> trace;
+
+  Impl(const Circuit& c, const SolverOptions& o)
+      : circuit(c), options(o), mna(c), newton(&mna, &klu, o, mna.size()) {
+    Resize();
+  }
+
+  void Resize() {
+    const auto n = static_cast<size_t>(mna.size());
+    x.assign(n, 0.0);
+    saved.assign(n, 0.0);
+    converged.clear();
+  }
+
+  std::optional<std::string> Analyze() {
+    if (mna.size() == 0) return std::string("the circuit has no unknowns to solve for");
+    if (klu.Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
+      return "cannot order the circuit matrix: " + klu.message();
+    }
+    return std::nullopt;
+  }
+
+  NewtonOutcome Run(const AssemblyAids& aids, const std::string& phase, SolveSummary* s) {
+    NewtonOutcome out = newton.Run(aids, phase, x, trace_on ? &trace : nullptr);
+    s->newton_steps += out.steps;
+    return out;
+  }
+
+  bool GminLadder(SolveSummary* s, std::string* log);
+  bool SourceLadder(SolveSummary* s, std::string* log);
+  void Verify(SolveSummary* s);
+  void Fill(Solution* solution) const;
+};
+
+// gmin from gmin_start down by gmin_factor to gmin_stop, each rung warm-started from the
+// previous one; a failed rung is retried with the geometric mean of it and the last good
+// gmin. The shunt is then removed by the caller's final plain Newton run.
+bool BiasSolver::Impl::GminLadder(SolveSummary* s, std::string* log) {
+  double g = options.gmin_start;
+  double last_good = -1.0;
+  int retries = 0;
+  while (true) {
+    saved = x;
+    const NewtonOutcome out = Run(WithGmin(g), fmt::format("gmin {:.3g}", g), s);
+    if (out.exit == NewtonExit::kConverged) {
+      if (g <= options.gmin_stop) return true;
+      last_good = g;
+      g = std::max(g / options.gmin_factor, options.gmin_stop);
+      continue;
+    }
+    x = saved;
+    if (out.exit == NewtonExit::kFatal || last_good < 0.0 || ++retries > kMaxGminRetries) {
+      *log += fmt::format("; gmin stepping stopped at gmin {:.3g} S: {}", g, out.detail);
+      return false;
+    }
+    g = std::sqrt(last_good * g);
+  }
+}
+
+// Every independent source ramped from 0 to 100 % in source_steps equal steps; a failed
+// step is halved (and the step grows back after a success).
+bool BiasSolver::Impl::SourceLadder(SolveSummary* s, std::string* log) {
+  const double full_step = 1.0 / options.source_steps;
+  double done = 0.0;
+  double step = full_step;
+  int retries = 0;
+  std::fill(x.begin(), x.end(), 0.0);
+  for (int rung = 0; rung < kMaxSourceRungs; ++rung) {
+    const double target = std::min(1.0, done + step);
+    saved = x;
+    const NewtonOutcome out =
+        Run(WithSourceScale(target), fmt::format("source {:.4g}%", 100.0 * target), s);
+    if (out.exit == NewtonExit::kConverged) {
+      done = target;
+      if (done >= 1.0) return true;
+      step = std::min(full_step, 2.0 * step);
+      continue;
+    }
+    x = saved;
+    if (out.exit == NewtonExit::kFatal || ++retries > kMaxSourceRetries) {
+      *log += fmt::format("; source stepping stopped at {:.4g}%: {}", 100.0 * target,
+                          out.detail);
+      return false;
+    }
+    step /= 2.0;
+  }
+  *log += fmt::format("; source stepping used {} runs and reached only {:.4g}%",
+                      kMaxSourceRungs, 100.0 * done);
+  return false;
+}
+
+// The KCL residual of every node (internal nodes included) of the exact model.
+void BiasSolver::Impl::Verify(SolveSummary* s) {
+  const internal::AssemblyOutcome exact = mna.Assemble(x, AssemblyAids{});
+  const auto f = mna.residual();
+  const auto flow = mna.flow();
+  int worst = -1;
+  int failed = -1;
+  double failed_bound = 0.0;
+  for (int r = 0; r < mna.kcl_rows(); ++r) {
+    const auto i = static_cast<size_t>(r);
+    const double residual = std::fabs(f[i]);
+    if (worst < 0 || !(residual <= std::fabs(f[static_cast<size_t>(worst)]))) worst = r;
+    const double bound = options.verify_current_tol + options.rel_tol * flow[i];
+    if (failed < 0 && !(residual <= bound)) {
+      failed = r;
+      failed_bound = bound;
+    }
+  }
+  s->max_kcl_residual = worst >= 0 ? std::fabs(f[static_cast<size_t>(worst)]) : 0.0;
+  s->worst_node = worst >= 0 ? mna.UnknownName(worst) : "";
+  if (!exact.finite) {
+    s->status = SolveStatus::kVerificationFailed;
+    s->detail += "; verification: the exact model is not finite at the solution";
+  } else if (failed >= 0) {
+    s->status = SolveStatus::kVerificationFailed;
+    s->detail += fmt::format("; verification: KCL residual at '{}' is {:.3g} A > {:.3g} A",
+                             mna.UnknownName(failed), std::fabs(f[static_cast<size_t>(failed)]),
+                             failed_bound);
+  } else {
+    s->status = SolveStatus::kConverged;
+  }
+}
+
+void BiasSolver::Impl::Fill(Solution* solution) const {
+  const size_t nodes = circuit.nodes.size();
+  const size_t elements = circuit.elements.size();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  solution->node_voltage.assign(nodes, 0.0);
+  for (size_t n = 1; n < nodes; ++n) solution->node_voltage[n] = x[n - 1];
+  solution->element_voltage.assign(elements, 0.0);
+  solution->element_current.assign(elements, 0.0);
+  solution->junction_voltage.assign(elements, nan);
+  solution->small_signal_res.assign(elements, nan);
+  for (const auto& device : mna.devices()) {
+    const auto e = static_cast<size_t>(device->element());
+    const internal::DeviceReport r = device->Measure(x);
+    solution->element_voltage[e] = r.voltage;
+    solution->element_current[e] = r.current;
+    if (circuit.elements[e].kind == ElementKind::kDiode) {
+      solution->junction_voltage[e] = r.junction_voltage;
+      solution->small_signal_res[e] = r.small_signal_res;
+    }
+  }
+}
+
+Result<std::unique_ptr<BiasSolver>> BiasSolver::Create(const Circuit& circuit,
+                                                       const SolverOptions& options) {
+  if (auto problem = Validate(options)) return MessageOnly(*problem);
+  auto impl = std::make_unique<Impl>(circuit, options);
+  if (auto problem = impl->Analyze()) return MessageOnly(*problem);
+  return std::unique_ptr<BiasSolver>(new BiasSolver(std::move(impl)));
+}
+
+BiasSolver::BiasSolver(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
+BiasSolver::~BiasSolver() = default;
+
+void BiasSolver::UpdateValues(const Circuit& circuit) {
+  Impl& m = *impl_;
+  m.circuit = circuit;
+  if (m.mna.StructureMatches(circuit)) {
+    m.mna.UpdateValues(circuit);
+    return;
+  }
+  // A diode's series_res became zero or non-zero: its internal node appears or goes, so
+  // the unknowns and the pattern are rebuilt (and warm starts of the old size are ignored).
+  m.mna = MnaSystem(circuit);
+  m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
+  m.Resize();
+  const auto problem = m.Analyze();
+  KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
+}
+
+SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start) {
+  Impl& m = *impl_;
+  m.trace.clear();
+  SolveSummary s;
+  const bool warm = start.size() == m.x.size();
+  const auto reset = [&] {
+    if (warm) {
+      std::copy(start.begin(), start.end(), m.x.begin());
+    } else {
+      std::fill(m.x.begin(), m.x.end(), 0.0);
+    }
+  };
+  reset();
+  NewtonOutcome out = m.Run(AssemblyAids{}, "newton", &s);
+  std::string log = "newton: " + out.detail;
+  const auto try_aid = [&](bool enabled, const char* name, auto ladder) {
+    if (!enabled || out.exit == NewtonExit::kConverged || out.exit == NewtonExit::kFatal) return;
+    reset();
+    if (!(m.*ladder)(&s, &log)) return;
+    s.aids.push_back(name);
+    out = m.Run(AssemblyAids{}, "newton (no aid)", &s);
+    log += fmt::format("; after {}: {}", name, out.detail);
+  };
+  try_aid(m.options.gmin_stepping, "gmin stepping", &Impl::GminLadder);
+  try_aid(m.options.source_stepping, "source stepping", &Impl::SourceLadder);
+
+  s.detail = std::move(log);
+  if (out.exit != NewtonExit::kConverged) {
+    s.status = StatusOf(out.exit);
+    s.unsettled = m.newton.Unsettled(m.x);
+    return s;
+  }
+  m.Verify(&s);
+  if (solution != nullptr) m.Fill(solution);
+  if (s.status == SolveStatus::kConverged) m.converged = m.x;
+  return s;
+}
+
+std::span<const double> BiasSolver::unknowns() const { return impl_->converged; }
+int BiasSolver::unknown_count() const { return impl_->mna.size(); }
+void BiasSolver::set_trace(bool on) { impl_->trace_on = on; }
+const std::vector<NewtonStepRecord>& BiasSolver::trace() const { return impl_->trace; }
+
+}  // namespace knee

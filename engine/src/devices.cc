@@ -1,0 +1,274 @@
+// Stamps of the four element kinds.
+#include "devices.h"
+
+#include <array>
+#include <cmath>
+
+#include "check.h"
+
+namespace knee::internal {
+
+void StampContext::AddCurrent(int row, double i) {
+  if (row < 0) return;
+  const auto r = static_cast<size_t>(row);
+  residual[r] += i;
+  flow[r] = std::max(flow[r], std::fabs(i));
+}
+
+namespace {
+
+double At(std::span<const double> x, int u) { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
+
+// A conductance g between unknowns p and q: four entries.
+class ConductanceSlots {
+ public:
+  void Declare(EntryCollector& c, int p, int q) {
+    slots_ = {c.Add(p, p), c.Add(p, q), c.Add(q, p), c.Add(q, q)};
+  }
+  void Bind(std::span<const int> slot_of) {
+    for (int& s : slots_) s = s < 0 ? -1 : slot_of[static_cast<size_t>(s)];
+  }
+  void Stamp(StampContext& ctx, double g) const {
+    ctx.AddValue(slots_[0], g);
+    ctx.AddValue(slots_[1], -g);
+    ctx.AddValue(slots_[2], -g);
+    ctx.AddValue(slots_[3], g);
+  }
+
+ private:
+  std::array<int, 4> slots_{-1, -1, -1, -1};
+};
+
+class Resistor final : public Device {
+ public:
+  Resistor(const Circuit& c, int element) : Device(element) {
+    const Element& e = c.elements[static_cast<size_t>(element)];
+    a_ = UnknownOfNode(e.node_a);
+    b_ = UnknownOfNode(e.node_b);
+    UpdateValues(c);
+  }
+  void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
+  void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
+  void UpdateValues(const Circuit& c) override {
+    g_ = 1.0 / c.elements[static_cast<size_t>(element())].value;
+  }
+  bool Stamp(StampContext& ctx) override {
+    const double i = g_ * (ctx.X(a_) - ctx.X(b_));
+    if (!std::isfinite(i)) return false;
+    slots_.Stamp(ctx, g_);
+    ctx.AddCurrent(a_, i);
+    ctx.AddCurrent(b_, -i);
+    return true;
+  }
+  DeviceReport Measure(std::span<const double> x) const override {
+    DeviceReport r;
+    r.voltage = At(x, a_) - At(x, b_);
+    r.current = g_ * r.voltage;
+    return r;
+  }
+
+ private:
+  int a_ = -1, b_ = -1;
+  double g_ = 0;
+  ConductanceSlots slots_;
+};
+
+// v(p) - v(n) = V; the branch current k flows from p through the source to n.
+class VoltageSource final : public Device {
+ public:
+  VoltageSource(const Circuit& c, int element, int branch) : Device(element), k_(branch) {
+    const Element& e = c.elements[static_cast<size_t>(element)];
+    p_ = UnknownOfNode(e.node_a);
+    n_ = UnknownOfNode(e.node_b);
+    UpdateValues(c);
+  }
+  void DeclareEntries(EntryCollector& c) override {
+    slots_ = {c.Add(p_, k_), c.Add(n_, k_), c.Add(k_, p_), c.Add(k_, n_)};
+  }
+  void BindSlots(std::span<const int> slot_of) override {
+    for (int& s : slots_) s = Bind(s, slot_of);
+  }
+  void UpdateValues(const Circuit& c) override {
+    v_ = c.elements[static_cast<size_t>(element())].value;
+  }
+  bool Stamp(StampContext& ctx) override {
+    const double i = ctx.X(k_);
+    if (!std::isfinite(i)) return false;
+    ctx.AddValue(slots_[0], 1.0);
+    ctx.AddValue(slots_[1], -1.0);
+    ctx.AddValue(slots_[2], 1.0);
+    ctx.AddValue(slots_[3], -1.0);
+    ctx.AddCurrent(p_, i);
+    ctx.AddCurrent(n_, -i);
+    ctx.residual[static_cast<size_t>(k_)] += ctx.X(p_) - ctx.X(n_) - ctx.source_scale * v_;
+    return true;
+  }
+  DeviceReport Measure(std::span<const double> x) const override {
+    DeviceReport r;
+    r.voltage = At(x, p_) - At(x, n_);
+    r.current = At(x, k_);
+    return r;
+  }
+
+ private:
+  int p_ = -1, n_ = -1, k_ = -1;
+  double v_ = 0;
+  std::array<int, 4> slots_{-1, -1, -1, -1};
+};
+
+// `value` amperes flow through the source from a to b: out of node a, into node b.
+class CurrentSource final : public Device {
+ public:
+  CurrentSource(const Circuit& c, int element) : Device(element) {
+    const Element& e = c.elements[static_cast<size_t>(element)];
+    a_ = UnknownOfNode(e.node_a);
+    b_ = UnknownOfNode(e.node_b);
+    UpdateValues(c);
+  }
+  void DeclareEntries(EntryCollector&) override {}
+  void BindSlots(std::span<const int>) override {}
+  void UpdateValues(const Circuit& c) override {
+    i_ = c.elements[static_cast<size_t>(element())].value;
+  }
+  bool Stamp(StampContext& ctx) override {
+    const double i = ctx.source_scale * i_;
+    ctx.AddCurrent(a_, i);
+    ctx.AddCurrent(b_, -i);
+    return true;
+  }
+  DeviceReport Measure(std::span<const double> x) const override {
+    DeviceReport r;
+    r.voltage = At(x, a_) - At(x, b_);
+    r.current = i_;
+    return r;
+  }
+
+ private:
+  int a_ = -1, b_ = -1;
+  double i_ = 0;
+};
+
+// Anode a, cathode b; with series_res > 0 the junction sits between the internal node j
+// and b, and series_res/area between a and j. Otherwise j == a.
+class Diode final : public Device {
+ public:
+  Diode(const Circuit& c, int element, int internal) : Device(element) {
+    const Element& e = c.elements[static_cast<size_t>(element)];
+    a_ = UnknownOfNode(e.node_a);
+    b_ = UnknownOfNode(e.node_b);
+    j_ = internal >= 0 ? internal : a_;
+    UpdateValues(c);
+  }
+  void DeclareEntries(EntryCollector& c) override {
+    junction_.Declare(c, j_, b_);
+    if (j_ != a_) series_.Declare(c, a_, j_);
+  }
+  void BindSlots(std::span<const int> slot_of) override {
+    junction_.Bind(slot_of);
+    series_.Bind(slot_of);
+  }
+  void UpdateValues(const Circuit& c) override {
+    const Element& e = c.elements[static_cast<size_t>(element())];
+    const DiodeModel& model = c.parts[static_cast<size_t>(e.part)].model;
+    d_ = ComputeDiodeConstants(model, e.area, c.DeviceTemp(e));
+    // The internal node exists iff series_res > 0 at Create(); values may not remove it.
+    KNEE_CHECK((j_ != a_) == (d_.rs > 0.0));
+    g_series_ = d_.rs > 0.0 ? 1.0 / d_.rs : 0.0;
+  }
+  void BeginRun(std::span<const double> x) override {
+    last_vj_ = At(x, j_) - At(x, b_);
+    limited_ = false;
+  }
+  bool Stamp(StampContext& ctx) override {
+    const double vj = ctx.X(j_) - ctx.X(b_);
+    double at = vj;
+    if (ctx.limit_junctions) at = LimitJunctionStep(d_, last_vj_, vj);
+    limited_ = at != vj;
+    ctx.limited = ctx.limited || limited_;
+    last_vj_ = at;
+    // Linearisation of the junction at the (possibly limited) point `at`, evaluated at vj:
+    // exact when no limiting happened.
+    const JunctionPoint p = EvaluateJunction(d_, at);
+    const double i = p.current + p.conductance * (vj - at);
+    if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
+    junction_.Stamp(ctx, p.conductance);
+    ctx.AddCurrent(j_, i);
+    ctx.AddCurrent(b_, -i);
+    if (j_ != a_) {
+      const double is = g_series_ * (ctx.X(a_) - ctx.X(j_));
+      if (!std::isfinite(is)) return false;
+      series_.Stamp(ctx, g_series_);
+      ctx.AddCurrent(a_, is);
+      ctx.AddCurrent(j_, -is);
+    }
+    return true;
+  }
+  DeviceReport Measure(std::span<const double> x) const override {
+    DeviceReport r;
+    r.voltage = At(x, a_) - At(x, b_);
+    r.junction_voltage = At(x, j_) - At(x, b_);
+    const JunctionPoint p = EvaluateJunction(d_, r.junction_voltage);
+    r.current = p.current;
+    r.small_signal_res = 1.0 / p.conductance + d_.rs;
+    return r;
+  }
+  bool limited() const override { return limited_; }
+
+ private:
+  int a_ = -1, b_ = -1, j_ = -1;
+  DiodeConstants d_;
+  double g_series_ = 0;
+  double last_vj_ = 0;
+  bool limited_ = false;
+  ConductanceSlots junction_;
+  ConductanceSlots series_;
+};
+
+// Above the critical voltage the exponential's slope grows so fast that the linearised
+// step overshoots; there a step is shortened to the voltage at which the exponential law
+// carries the current the linearisation predicted (a logarithmic step).
+double CriticalVoltage(double i_scale, double n_vt) {
+  return n_vt * std::log(n_vt / (std::sqrt(2.0) * i_scale));
+}
+
+double LogStep(double base, double proposed, double n_vt) {
+  return base + n_vt * std::log1p((proposed - base) / n_vt);
+}
+
+}  // namespace
+
+double LimitJunctionStep(const DiodeConstants& d, double previous, double proposed) {
+  // Forward side: only rising steps overshoot (Newton on a convex increasing exponential
+  // approached from above never passes the root).
+  const double v_crit = CriticalVoltage(d.is, d.n_vt);
+  if (proposed > v_crit && proposed - previous > 2.0 * d.n_vt) {
+    const double base = std::max(previous, v_crit);
+    if (proposed > base) return LogStep(base, proposed, d.n_vt);
+  }
+  if (d.has_breakdown) {
+    // Breakdown side, mirrored: u = -(vj + vbr) plays the role of the forward voltage.
+    const double u_crit = CriticalVoltage(d.ibr, d.nbr_vt);
+    const double u_prev = -(previous + d.vbr);
+    const double u_prop = -(proposed + d.vbr);
+    if (u_prop > u_crit && u_prop - u_prev > 2.0 * d.nbr_vt) {
+      const double base = std::max(u_prev, u_crit);
+      if (u_prop > base) return -LogStep(base, u_prop, d.nbr_vt) - d.vbr;
+    }
+  }
+  return proposed;
+}
+
+std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element) {
+  return std::make_unique<Resistor>(circuit, element);
+}
+std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, int branch) {
+  return std::make_unique<VoltageSource>(circuit, element, branch);
+}
+std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element) {
+  return std::make_unique<CurrentSource>(circuit, element);
+}
+std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element, int internal) {
+  return std::make_unique<Diode>(circuit, element, internal);
+}
+
+}  // namespace knee::internal

@@ -1,0 +1,108 @@
+// One small class per circuit element with a uniform interface: declare matrix entries
+// once (each becomes a value slot of the CSC array), then stamp numbers into those slots
+// and into the residual for a given unknown vector. Rows and columns are unknown
+// indices; -1 is gnd and is never stamped.
+#pragma once
+
+#include <memory>
+#include <span>
+#include <vector>
+
+#include "knee/circuit.h"
+#include "knee/diode_law.h"
+
+namespace knee::internal {
+
+// Collects (row, col) entries during setup; each Add returns a ticket that the
+// assembler later turns into a slot of the CSC value array.
+class EntryCollector {
+ public:
+  // Ticket of entry (row, col), or -1 when either index is gnd.
+  int Add(int row, int col) {
+    if (row < 0 || col < 0) return -1;
+    entries_.push_back({row, col});
+    return static_cast<int>(entries_.size()) - 1;
+  }
+  struct Entry {
+    int row;
+    int col;
+  };
+  const std::vector<Entry>& entries() const { return entries_; }
+
+ private:
+  std::vector<Entry> entries_;
+};
+
+// Everything a device writes during one assembly pass. F(x) is the residual: for a node
+// row, the sum of currents leaving the node through devices (KCL); for a vsource branch
+// row, the voltage error. `flow` is, per row, the largest current magnitude of a device
+// at that node (the scale of the KCL tolerance).
+struct StampContext {
+  std::span<const double> x;
+  std::span<double> values;    // Jacobian dF/dx, in CSC slot order
+  std::span<double> residual;  // F(x)
+  std::span<double> flow;      // A
+  double source_scale = 1.0;   // independent sources are multiplied by this
+  bool limit_junctions = false;
+  bool limited = false;  // out: some junction's evaluation point was limited
+
+  double X(int u) const { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
+  void AddValue(int slot, double v) {
+    if (slot >= 0) values[static_cast<size_t>(slot)] += v;
+  }
+  // Current `i` leaves row `row` (i.e. flows from that node into the device).
+  void AddCurrent(int row, double i);
+};
+
+// What a device reports at a solution.
+struct DeviceReport {
+  double voltage = 0;   // V, v(node_a) - v(node_b)
+  double current = 0;   // A, node_a -> node_b through the element
+  double junction_voltage = 0;  // diodes only
+  double small_signal_res = 0;  // diodes only
+};
+
+class Device {
+ public:
+  explicit Device(int element) : element_(element) {}
+  virtual ~Device() = default;
+  int element() const { return element_; }
+
+  // Setup: declare entries; then receive slot_of[ticket] for every ticket handed out.
+  virtual void DeclareEntries(EntryCollector& collector) = 0;
+  virtual void BindSlots(std::span<const int> slot_of) = 0;
+  // New values (same topology).
+  virtual void UpdateValues(const Circuit& circuit) = 0;
+  // Start of a Newton run from x: nonlinear devices forget their previous evaluation point.
+  virtual void BeginRun(std::span<const double> /*x*/) {}
+  // Adds this device's contribution at ctx.x; false on a non-finite value.
+  virtual bool Stamp(StampContext& ctx) = 0;
+  virtual DeviceReport Measure(std::span<const double> x) const = 0;
+  // Whether the last Stamp limited this device's evaluation point.
+  virtual bool limited() const { return false; }
+
+ protected:
+  static int Bind(int ticket, std::span<const int> slot_of) {
+    return ticket < 0 ? -1 : slot_of[static_cast<size_t>(ticket)];
+  }
+
+ private:
+  int element_;
+};
+
+// Unknown index of circuit node `node` (gnd -> -1).
+inline int UnknownOfNode(int node) { return node - 1; }
+
+std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element);
+// `branch` is the unknown index of the source current.
+std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, int branch);
+std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element);
+// `internal` is the unknown index of the internal node, or -1 when series_res == 0.
+std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element, int internal);
+
+// The junction-voltage limit for one Newton step: returns the voltage at which to
+// evaluate the junction when the linearised step asked for `proposed` coming from
+// `previous`. See docs/solver.md, "Junction limiting".
+double LimitJunctionStep(const DiodeConstants& d, double previous, double proposed);
+
+}  // namespace knee::internal

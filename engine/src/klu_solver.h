@@ -1,0 +1,50 @@
+// A small move-only owner of KLU's symbolic and numeric objects: analyse a pattern once,
+// factor or refactor values, solve.
+#pragma once
+
+#include <memory>
+#include <span>
+#include <string>
+#include <vector>
+
+namespace knee::internal {
+
+// Recoverable: the matrix is singular for these values (an aid may help, or a node
+// floats). Fatal: out of memory or invalid input; nothing to retry.
+enum class LinearStatus { kOk, kSingular, kFatal };
+
+class KluSolver {
+ public:
+  KluSolver();
+  ~KluSolver();
+  KluSolver(KluSolver&& other) noexcept;
+  KluSolver& operator=(KluSolver&& other) noexcept;
+  KluSolver(const KluSolver&) = delete;
+  KluSolver& operator=(const KluSolver&) = delete;
+
+  // Orders the n x n CSC pattern (copied). Must precede Factor.
+  LinearStatus Analyze(int n, std::span<const int> col_ptr, std::span<const int> row_index);
+  // Full factorisation with fresh pivots.
+  LinearStatus Factor(std::span<const double> values);
+  // Reuses the pivots of the last full factorisation; falls back to Factor when KLU
+  // reports trouble or the pivots have become poor (rcond below kRefactorRcondFloor).
+  LinearStatus Refactor(std::span<const double> values);
+  // Solves A x = b in place.
+  LinearStatus Solve(std::span<double> rhs);
+
+  // Why the last call did not return kOk, with KLU's status and numbers.
+  const std::string& message() const { return message_; }
+  int full_factorizations() const { return full_factorizations_; }
+
+  static constexpr double kRefactorRcondFloor = 1e-13;
+
+ private:
+  struct Handles;
+  LinearStatus Classify(int status, const char* call);
+  std::unique_ptr<Handles> handles_;
+  std::vector<int> col_ptr_, row_index_;
+  std::string message_;
+  int full_factorizations_ = 0;
+};
+
+}  // namespace knee::internal

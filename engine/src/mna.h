@@ -1,0 +1,74 @@
+// Modified nodal analysis: the unknown layout, the sparsity pattern (built once) and the
+// assembly pass that refills the Jacobian values and the residual F(x) for Newton's
+// J dx = -F(x). Layout: [circuit nodes 1..N-1][diode internal nodes][vsource currents].
+#pragma once
+
+#include <memory>
+#include <span>
+#include <string>
+#include <tuple>
+#include <vector>
+
+#include "devices.h"
+#include "knee/circuit.h"
+
+namespace knee::internal {
+
+// Convergence aids and the limiting switch for one assembly pass.
+struct AssemblyAids {
+  double gmin = 0.0;          // S from every node row (internal nodes included) to gnd
+  double source_scale = 1.0;  // multiplies every independent source
+  bool limit_junctions = false;
+};
+
+struct AssemblyOutcome {
+  bool finite = true;
+  int bad_element = -1;  // first element with a non-finite value
+  bool limited = false;  // some junction's evaluation point was limited
+};
+
+class MnaSystem {
+ public:
+  explicit MnaSystem(const Circuit& circuit);
+  MnaSystem(MnaSystem&&) = default;
+  MnaSystem& operator=(MnaSystem&&) = default;
+
+  int size() const { return static_cast<int>(names_.size()); }
+  // Rows [0, kcl_rows()) are KCL rows (nodes and internal nodes); the rest are vsource
+  // branch equations whose unknowns are currents.
+  int kcl_rows() const { return kcl_rows_; }
+  bool IsCurrentUnknown(int u) const { return u >= kcl_rows_; }
+  const std::string& UnknownName(int u) const { return names_[static_cast<size_t>(u)]; }
+
+  std::span<const int> col_ptr() const { return col_ptr_; }
+  std::span<const int> row_index() const { return row_index_; }
+  std::span<const double> values() const { return values_; }
+  std::span<const double> residual() const { return residual_; }
+  std::span<const double> flow() const { return flow_; }
+
+  // Refills values, residual and flow at x. No allocation.
+  AssemblyOutcome Assemble(std::span<const double> x, const AssemblyAids& aids);
+  // Start of a Newton run from x (forgets the junctions' previous evaluation points).
+  void BeginRun(std::span<const double> x);
+
+  // True when `circuit` has the same unknowns and pattern as the one built from.
+  bool StructureMatches(const Circuit& circuit) const;
+  void UpdateValues(const Circuit& circuit);
+
+  const std::vector<std::unique_ptr<Device>>& devices() const { return devices_; }
+  const std::string& ElementName(int e) const { return element_names_[static_cast<size_t>(e)]; }
+
+ private:
+  size_t node_count_ = 0;
+  std::vector<std::tuple<ElementKind, int, int>> shape_;  // per element, for StructureMatches
+  int kcl_rows_ = 0;
+  std::vector<std::string> names_;
+  std::vector<std::string> element_names_;
+  std::vector<int> internal_of_element_;  // unknown index of a diode's internal node, or -1
+  std::vector<std::unique_ptr<Device>> devices_;
+  std::vector<int> col_ptr_, row_index_;
+  std::vector<int> diagonal_slot_;  // per KCL row
+  std::vector<double> values_, residual_, flow_;
+};
+
+}  // namespace knee::internal

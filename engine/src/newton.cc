@@ -1,0 +1,166 @@
+// The Newton loop. Every exit is a named test that records its numbers.
+#include "newton.h"
+
+#include <algorithm>
+#include <cmath>
+
+#include <fmt/format.h>
+
+namespace knee::internal {
+namespace {
+
+void Consider(ToleranceCheck* worst, int index, double value, double bound) {
+  // Compare value/bound ratios without dividing (bounds are > 0).
+  if (worst->index < 0 || value * worst->bound > worst->value * bound) {
+    *worst = {index, value, bound};
+  }
+}
+
+double MaxAbs(std::span<const double> v, size_t count) {
+  double m = 0.0;
+  for (size_t i = 0; i < count; ++i) m = std::max(m, std::fabs(v[i]));
+  return m;
+}
+
+}  // namespace
+
+ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o,
+                           std::span<const double> dx, std::span<const double> x) {
+  ToleranceCheck worst;
+  for (int u = 0; u < mna.size(); ++u) {
+    const auto i = static_cast<size_t>(u);
+    const double abs_tol = mna.IsCurrentUnknown(u) ? o.abs_current_tol : o.abs_voltage_tol;
+    Consider(&worst, u, std::fabs(dx[i]), abs_tol + o.rel_tol * std::fabs(x[i]));
+  }
+  return worst;
+}
+
+ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
+  ToleranceCheck worst;
+  const auto f = mna.residual();
+  const auto flow = mna.flow();
+  for (int r = 0; r < mna.size(); ++r) {
+    const auto i = static_cast<size_t>(r);
+    const double bound = r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i]
+                                            : o.abs_voltage_tol;
+    Consider(&worst, r, std::fabs(f[i]), bound);
+  }
+  return worst;
+}
+
+NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
+                           int size)
+    : mna_(mna),
+      klu_(klu),
+      options_(options),
+      dx_(static_cast<size_t>(size), 0.0),
+      saved_x_(static_cast<size_t>(size), 0.0) {}
+
+NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
+                                std::vector<NewtonStepRecord>* trace) {
+  aids.limit_junctions = options_.junction_limiting;
+  NewtonOutcome outcome;
+  mna_->BeginRun(x);
+  std::fill(dx_.begin(), dx_.end(), 0.0);
+  ToleranceCheck update;
+  update.index = 0;
+  update.value = 1.0;  // no update yet: not settled
+  for (int step = 1; step <= options_.max_newton_steps; ++step) {
+    outcome.steps = step;
+    const AssemblyOutcome assembled = mna_->Assemble(x, aids);
+    if (!assembled.finite) {
+      outcome.exit = NewtonExit::kNonFinite;
+      outcome.detail = fmt::format(
+          "step {}: element '{}' produced a non-finite value", step,
+          assembled.bad_element >= 0 ? mna_->ElementName(assembled.bad_element) : "?");
+      return outcome;
+    }
+    const ToleranceCheck residual = CheckResidual(*mna_, options_);
+    if (step > 1 && update.passed() && !assembled.limited && residual.passed()) {
+      outcome.exit = NewtonExit::kConverged;
+      outcome.detail = fmt::format(
+          "converged in {} steps: max |dx| ratio at '{}' {:.3g} <= {:.3g}, worst residual at "
+          "'{}' {:.3g} <= {:.3g}",
+          step - 1, mna_->UnknownName(update.index), update.value, update.bound,
+          mna_->UnknownName(residual.index), residual.value, residual.bound);
+      Polish(aids, x);
+      return outcome;
+    }
+    if (!SolveStep(dx_, &outcome)) {
+      outcome.detail = fmt::format("step {}: {}", step, outcome.detail);
+      return outcome;
+    }
+    for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+    update = CheckUpdate(*mna_, options_, dx_, x);
+    if (!std::isfinite(update.value)) {
+      outcome.exit = NewtonExit::kNonFinite;
+      outcome.detail = fmt::format("step {}: the update of '{}' is not finite", step,
+                                   mna_->UnknownName(update.index));
+      return outcome;
+    }
+    if (trace != nullptr) {
+      trace->push_back({step, MaxAbs(dx_, dx_.size()),
+                        MaxAbs(mna_->residual(), static_cast<size_t>(mna_->kcl_rows())),
+                        assembled.limited, std::string(phase)});
+    }
+  }
+  const ToleranceCheck residual = CheckResidual(*mna_, options_);
+  outcome.exit = NewtonExit::kStepLimit;
+  outcome.detail = fmt::format(
+      "no convergence in {} steps: last |dx| at '{}' = {:.3g} (bound {:.3g}), worst residual "
+      "at '{}' = {:.3g} (bound {:.3g})",
+      options_.max_newton_steps, mna_->UnknownName(update.index), update.value, update.bound,
+      mna_->UnknownName(residual.index), residual.value, residual.bound);
+  return outcome;
+}
+
+// Solves J dx = -F with the values and residual of the last assembly.
+bool NewtonSolver::SolveStep(std::span<double> dx, NewtonOutcome* outcome) {
+  LinearStatus status = klu_->Refactor(mna_->values());
+  if (status == LinearStatus::kOk) {
+    const auto f = mna_->residual();
+    for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
+    status = klu_->Solve(dx);
+  }
+  if (status == LinearStatus::kOk) return true;
+  outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
+  outcome->detail = klu_->message();
+  return false;
+}
+
+// One more Newton step after convergence: a converged Newton iteration is quadratic, so
+// this brings the answer to round-off level. Kept only if the residual stays within its
+// tolerance; otherwise the converged point stands.
+void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
+  std::copy(x.begin(), x.end(), saved_x_.begin());
+  NewtonOutcome ignored;
+  if (!SolveStep(dx_, &ignored)) return;
+  for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+  AssemblyAids exact = aids;
+  exact.limit_junctions = false;
+  const AssemblyOutcome assembled = mna_->Assemble(x, exact);
+  const ToleranceCheck after = CheckResidual(*mna_, options_);
+  if (assembled.finite && after.passed()) return;
+  std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
+}
+
+std::vector<std::string> NewtonSolver::Unsettled(std::span<const double> x) const {
+  std::vector<std::string> names;
+  for (int u = 0; u < mna_->size(); ++u) {
+    const auto i = static_cast<size_t>(u);
+    const double abs_tol = mna_->IsCurrentUnknown(u) ? options_.abs_current_tol
+                                                     : options_.abs_voltage_tol;
+    if (!(std::fabs(dx_[i]) <= abs_tol + options_.rel_tol * std::fabs(x[i]))) {
+      names.push_back(fmt::format("{} (last change {:.3g})", mna_->UnknownName(u), dx_[i]));
+    }
+  }
+  for (const auto& device : mna_->devices()) {
+    if (device->limited()) {
+      names.push_back(fmt::format("{} (junction step limited)",
+                                  mna_->ElementName(device->element())));
+    }
+  }
+  return names;
+}
+
+}  // namespace knee::internal

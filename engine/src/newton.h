@@ -1,0 +1,70 @@
+// One Newton-Raphson run on the MNA system: J dx = -F(x), x += dx, until both the update
+// and the KCL residual pass their tests (docs/solver.md, "Convergence").
+#pragma once
+
+#include <span>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "klu_solver.h"
+#include "knee/solver.h"
+#include "mna.h"
+
+namespace knee::internal {
+
+enum class NewtonExit {
+  kConverged,  // both tests passed; x is the answer for these aids
+  kStepLimit,  // max_newton_steps used up
+  kSingular,   // the Jacobian was singular
+  kNonFinite,  // a device or the update produced a non-finite value
+  kFatal,      // the linear solver failed for good (memory, invalid input)
+};
+
+struct NewtonOutcome {
+  NewtonExit exit = NewtonExit::kStepLimit;
+  int steps = 0;
+  std::string detail;  // why it stopped, with the numbers
+};
+
+// The worst entry of a tolerance test: the index where |value| / bound is largest.
+struct ToleranceCheck {
+  int index = -1;
+  double value = 0.0;  // |dx| or |F| there
+  double bound = 0.0;  // its tolerance
+  bool passed() const { return index < 0 || value <= bound; }
+};
+
+// |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns).
+ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
+                           std::span<const double> dx, std::span<const double> x);
+// KCL rows: |F_r| <= abs_current_tol + rel_tol*flow_r; branch rows: |F_r| <= abs_voltage_tol.
+ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options);
+
+class NewtonSolver {
+ public:
+  NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size);
+
+  // Runs from x (updated in place) with the given aids; limiting follows the options.
+  // Appends one record per step to *trace when trace is not null.
+  NewtonOutcome Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
+                    std::vector<NewtonStepRecord>* trace);
+
+  // After a failed run: unknowns whose last update exceeded its tolerance and diodes
+  // whose junction was still being limited.
+  std::vector<std::string> Unsettled(std::span<const double> x) const;
+
+  void set_options(const SolverOptions& options) { options_ = options; }
+
+ private:
+  bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
+  void Polish(const AssemblyAids& aids, std::span<double> x);
+
+  MnaSystem* mna_;
+  KluSolver* klu_;
+  SolverOptions options_;
+  std::vector<double> dx_;
+  std::vector<double> saved_x_;
+};
+
+}  // namespace knee::internal
