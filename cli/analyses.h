@@ -1,6 +1,8 @@
 // Each analysis turns a loaded design into a Report and an Outcome.
 #pragma once
 
+#include <optional>
+#include <string>
 #include <vector>
 
 #include "exit_status.h"
@@ -19,6 +21,17 @@ struct AnalysisResult {
 // The exact bias point, with the design's expectations checked against it.
 AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<QuantityExpr>& show,
                            const AnalysisOptions& options);
+
+// A DC sweep over `axes` (axis 0 the inner loop), honouring --jobs and --shard.
+AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
+                            const std::vector<QuantityExpr>& show, const AnalysisOptions& options);
+
+// The TARGET=RANGE arguments of knee sweep; prints diagnostics and returns nothing on error.
+std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign& loaded,
+                                                              const AnalysisOptions& options);
+
+// --shard K/N as a 0-based slice index and a count ("" = 0 of 1).
+bool ParseShard(const std::string& text, int* shard, int* shards, std::string* problem);
 
 // Fills the header fields every report shares.
 Report StartReport(const LoadedDesign& loaded, const char* analysis);

@@ -8,6 +8,7 @@
 #include "analyses.h"
 #include "output.h"
 #include "pipeline.h"
+#include "svg_chart.h"
 
 namespace knee::cli {
 namespace {
@@ -21,9 +22,15 @@ int Fail(const std::string& message) {
 std::string Prepare(AnalysisOptions* options) {
   std::string problem = FinishOptions(options);
   if (!problem.empty()) return problem;
+  int shard = 0, shards = 1;
+  if (!ParseShard(options->shard, &shard, &shards, &problem)) return problem;
   if (!options->out_path.empty()) {
     problem = CheckWritable(options->out_path);
     if (!problem.empty()) return "--out: " + problem;
+  }
+  if (!options->plot_path.empty()) {
+    problem = CheckWritable(options->plot_path);
+    if (!problem.empty()) return "--plot: " + problem;
   }
   return "";
 }
@@ -51,9 +58,43 @@ std::string Combine(const std::vector<AnalysisResult>& results, ReportFormat for
   return out;
 }
 
+// PATH.svg for the first chart, PATH-2.svg, PATH-3.svg ... for further ones.
+std::string ChartPath(const std::string& path, int index) {
+  if (index == 0) return path;
+  const size_t dot = path.rfind('.');
+  const size_t slash = path.rfind('/');
+  const bool has_ext = dot != std::string::npos && (slash == std::string::npos || dot > slash);
+  const std::string stem = has_ext ? path.substr(0, dot) : path;
+  return fmt::format("{}-{}{}", stem, index + 1, has_ext ? path.substr(dot) : "");
+}
+
+// Writes the charts of every sweep; "" or a message.
+std::string DrawCharts(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
+  if (options.plot_path.empty()) return "";
+  int drawn = 0;
+  for (const AnalysisResult& r : results) {
+    if (r.report.sweep_axes == 0 || r.report.rows.empty()) continue;
+    ChartOptions chart;
+    chart.log_x = r.report.log_inner;
+    chart.log_current = options.plot_log_current;
+    std::string problem =
+        WriteFileAtomically(ChartPath(options.plot_path, drawn), DrawSweepChart(r.report, chart));
+    if (!problem.empty()) return "--plot: " + problem;
+    ++drawn;
+  }
+  if (drawn == 0 && !options.quiet) {
+    fmt::print(stderr, "knee: note: --plot: nothing to draw (no sweep in this analysis)\n");
+  }
+  return "";
+}
+
 int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
   Outcome outcome;
   for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
+  if (std::string problem = DrawCharts(results, options); !problem.empty()) {
+    fmt::print(stderr, "knee: error: {}\n", problem);
+    outcome.bad_input = true;
+  }
   const std::string text = Combine(results, options.format);
   std::string problem = options.out_path.empty() ? WriteStdout(text)
                                                  : WriteFileAtomically(options.out_path, text);
@@ -123,7 +164,16 @@ int RunBias(const std::string& file, AnalysisOptions options) {
 int RunSweep(const std::string& file, AnalysisOptions options) {
   std::string problem = Prepare(&options);
   if (!problem.empty()) return Fail(problem);
-  return Fail("knee sweep is not available yet");
+  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
+  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, options);
+  if (!show) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(*loaded, options);
+  if (!axes) return static_cast<int>(ExitStatus::kBadInput);
+  std::vector<AnalysisResult> results;
+  results.push_back(AnalyzeSweep(*loaded, *axes, *show, options));
+  if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+  return Emit(results, options);
 }
 
 int RunRun(const std::string& file, AnalysisOptions options) {
@@ -138,8 +188,9 @@ int RunRun(const std::string& file, AnalysisOptions options) {
     results.push_back(AnalyzeBias(*loaded, *show, options));
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
-  if (!loaded->design->sweeps.empty()) {
-    return Fail("sweep requests are not available yet");
+  for (const std::vector<SweepAxis>& axes : loaded->design->sweeps) {
+    results.push_back(AnalyzeSweep(*loaded, axes, *show, options));
+    if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
   return Emit(results, options);
 }

@@ -31,6 +31,8 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
   command->add_option("--out", o->out_path, "Write the report to PATH (whole or not at all)")
       ->type_name("PATH");
   command->add_option("--plot", o->plot_path, "Also draw an SVG chart")->type_name("PATH.svg");
+  command->add_flag("--plot-log-current", o->plot_log_current,
+                    "Draw currents on a logarithmic axis of |I| in charts");
   command->add_option("--jobs", o->jobs, "Worker threads for sweeps (default: all cores)")
       ->type_name("N");
   command->add_option("--shard", o->shard, "Compute only the K-th of N slices of a sweep")

@@ -18,6 +18,7 @@ struct AnalysisOptions {
   ReportFormat format = ReportFormat::kTable;  // --format
   std::string out_path;             // --out PATH ("" = standard output)
   std::string plot_path;            // --plot PATH.svg ("" = no chart)
+  bool plot_log_current = false;    // --plot-log-current: currents on a log axis of |I|
   int jobs = 0;                     // --jobs N (0 = all cores)
   std::string shard;                // --shard K/N ("" = whole sweep)
   bool quiet = false;               // --quiet

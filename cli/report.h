@@ -57,6 +57,8 @@ struct Report {
   SolverAccount account;
   std::vector<ExpectationCheck> expectations;
   std::vector<std::string> cautions;  // safety cautions shown with the report
+  bool log_inner = false;  // the inner sweep axis is logarithmic (charts use a log x axis)
+  bool csv_header = true;  // false for the 2nd..Nth shard of a sweep, so shards concatenate
 };
 
 std::string WriteTable(const Report& report);

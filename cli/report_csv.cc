@@ -44,6 +44,8 @@ std::string WriteCsvRows(const Report& report) {
   return out;
 }
 
-std::string WriteCsv(const Report& report) { return WriteCsvHeader(report) + WriteCsvRows(report); }
+std::string WriteCsv(const Report& report) {
+  return (report.csv_header ? WriteCsvHeader(report) : std::string()) + WriteCsvRows(report);
+}
 
 }  // namespace knee::cli

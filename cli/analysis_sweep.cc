@@ -1,0 +1,261 @@
+// knee sweep and the sweep requests of knee run: targets and ranges resolved, points
+// applied to the circuit, the engine's continuation run, rows gathered in sweep order.
+#include <fmt/format.h>
+#include <unistd.h>
+
+#include <atomic>
+#include <chrono>
+#include <cmath>
+#include <condition_variable>
+#include <cstdio>
+#include <limits>
+#include <mutex>
+#include <thread>
+
+#include "analyses.h"
+#include "eng_format.h"
+#include "knee/sweep.h"
+#include "sweep_values.h"
+
+namespace knee::cli {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+std::string TargetUnit(const SweepTarget& target, const Circuit& circuit) {
+  switch (target.kind) {
+    case SweepTarget::Kind::kTemp:
+      return "C";
+    case SweepTarget::Kind::kElement:
+      switch (circuit.elements[target.index].kind) {
+        case ElementKind::kResistor:
+          return "Ohm";
+        case ElementKind::kVoltageSource:
+          return "V";
+        case ElementKind::kCurrentSource:
+          return "A";
+        case ElementKind::kDiode:
+          return "";
+      }
+      return "";
+    case SweepTarget::Kind::kPartKey:
+      return PartKeyUnit(target.key);
+    case SweepTarget::Kind::kParam:
+      return "";
+  }
+  return "";
+}
+
+// Shows a rising progress line on standard error while a sweep takes longer than a
+// second, only when standard error is a terminal.
+class Progress {
+ public:
+  Progress(long long total, bool enabled) : total_(total) {
+    if (!enabled || !::isatty(STDERR_FILENO)) return;
+    thread_ = std::thread([this] { Run(); });
+  }
+  ~Progress() {
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      done_ = true;
+    }
+    wake_.notify_all();
+    if (thread_.joinable()) thread_.join();
+  }
+  void Tick() { done_points_.fetch_add(1, std::memory_order_relaxed); }
+
+ private:
+  void Run() {
+    std::unique_lock<std::mutex> lock(mutex_);
+    if (wake_.wait_for(lock, std::chrono::seconds(1), [this] { return done_; })) return;
+    bool shown = false;
+    while (!done_) {
+      const long long n = done_points_.load(std::memory_order_relaxed);
+      std::fprintf(stderr, "\rsweep: %lld of %lld points (%.0f %%)  ", n, total_,
+                   100.0 * static_cast<double>(n) / static_cast<double>(total_));
+      shown = true;
+      wake_.wait_for(lock, std::chrono::milliseconds(200), [this] { return done_; });
+    }
+    if (shown) std::fprintf(stderr, "\r%60s\r", "");
+  }
+
+  long long total_;
+  std::atomic<long long> done_points_{0};
+  std::mutex mutex_;
+  std::condition_variable wake_;
+  bool done_ = false;
+  std::thread thread_;
+};
+
+std::string DescribePoint(const std::vector<SweepAxis>& axes, const Circuit& circuit,
+                          std::span<const long long> indices) {
+  std::string where;
+  for (size_t a = 0; a < axes.size(); ++a) {
+    if (a) where += ", ";
+    where += fmt::format("{} = {}", axes[a].target.name,
+                         FormatEng(axes[a].values[indices[a]], TargetUnit(axes[a].target, circuit), 6));
+  }
+  return where;
+}
+
+}  // namespace
+
+bool ParseShard(const std::string& text, int* shard, int* shards, std::string* problem) {
+  if (text.empty()) {
+    *shard = 0;
+    *shards = 1;
+    return true;
+  }
+  int k = 0, n = 0;
+  char extra = 0;
+  if (std::sscanf(text.c_str(), "%d/%d%c", &k, &n, &extra) != 2 || n < 1 || k < 1 || k > n) {
+    *problem = fmt::format("--shard: '{}' is not K/N with 1 <= K <= N (e.g. --shard 2/8)", text);
+    return false;
+  }
+  *shard = k - 1;
+  *shards = n;
+  return true;
+}
+
+std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign& loaded,
+                                                              const AnalysisOptions& options) {
+  std::vector<SweepAxis> axes;
+  std::vector<Diagnostic> errors;
+  for (const std::string& spec : options.sweeps) {
+    SourceLocation where;
+    where.file = "knee sweep";
+    const size_t eq = spec.find('=');
+    if (eq == std::string::npos || eq == 0) {
+      errors.push_back({where, fmt::format("'{}' is not TARGET=RANGE", spec),
+                        "write for example Vline=-30..30:0.1 or temp=-40,25,85", {}});
+      continue;
+    }
+    SweepAxis axis;
+    axis.where = where;
+    axis.range_text = spec.substr(eq + 1);
+    Result<SweepTarget> target =
+        ResolveSweepTarget(spec.substr(0, eq), *loaded.netlist, loaded.design->circuit, where);
+    if (!target) {
+      for (const Diagnostic& d : target.errors()) errors.push_back(d);
+      continue;
+    }
+    axis.target = std::move(target).value();
+    Result<std::vector<double>> values = ExpandRange(axis.range_text, where, &axis.logarithmic);
+    if (!values) {
+      for (const Diagnostic& d : values.errors()) errors.push_back(d);
+      continue;
+    }
+    axis.values = std::move(values).value();
+    axes.push_back(std::move(axis));
+  }
+  if (!errors.empty()) {
+    PrintDiagnostics(errors, "");
+    return std::nullopt;
+  }
+  return axes;
+}
+
+AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
+                            const std::vector<QuantityExpr>& show,
+                            const AnalysisOptions& options) {
+  AnalysisResult result;
+  Report& report = result.report;
+  report = StartReport(loaded, "sweep");
+  const Circuit& base = loaded.design->circuit;
+  report.sweep_axes = static_cast<int>(axes.size());
+  report.log_inner = !axes.empty() && axes.front().logarithmic;
+  for (const SweepAxis& axis : axes) {
+    report.columns.push_back({axis.target.name, TargetUnit(axis.target, base)});
+  }
+  for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
+  report.account.method = SolverMethodName(options.solver);
+
+  int shard = 0, shards = 1;
+  std::string problem;
+  if (!ParseShard(options.shard, &shard, &shards, &problem)) {
+    fmt::print(stderr, "knee: error: {}\n", problem);
+    result.outcome.bad_input = true;
+    return result;
+  }
+
+  SweepGrid grid;
+  bool any_param = false;
+  for (const SweepAxis& axis : axes) {
+    grid.axes.push_back(axis.values);
+    any_param |= axis.target.kind == SweepTarget::Kind::kParam;
+  }
+  SweepOptions sweep_options;
+  sweep_options.jobs =
+      options.jobs > 0 ? options.jobs : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  const SweepBlocks blocks = CutIntoBlocks(grid, sweep_options.block_size);
+  const auto [first_block, last_block] = ShardBlocks(grid, blocks, shard, shards);
+  report.csv_header = shard == 0;
+  const long long first_point = blocks.starts[first_block];
+  const long long end_point = blocks.starts[last_block];
+
+  // Applies one point: param axes re-evaluate the netlist's expressions; the others set
+  // the value directly.
+  const Netlist& netlist = *loaded.netlist;
+  const Overrides& base_overrides = loaded.overrides;
+  ApplyPoint apply = [&](std::span<const double> values, Circuit* circuit) -> std::string {
+    if (any_param) {
+      Overrides overrides = base_overrides;
+      for (size_t a = 0; a < axes.size(); ++a) {
+        if (axes[a].target.kind == SweepTarget::Kind::kParam) {
+          overrides.sets.push_back({axes[a].target.name, FormatRoundTrip(values[a])});
+        }
+      }
+      Result<Circuit> fresh = ElaborateCircuit(netlist, overrides);
+      if (!fresh) return fresh.errors().front().message;
+      *circuit = std::move(fresh).value();
+    }
+    for (size_t a = 0; a < axes.size(); ++a) {
+      std::string problem_here = ApplySweepValue(axes[a].target, values[a], circuit);
+      if (!problem_here.empty()) return problem_here;
+    }
+    return "";
+  };
+
+  const size_t width = report.columns.size();
+  report.rows.assign(static_cast<size_t>(end_point - first_point), std::vector<double>(width, kNaN));
+  std::vector<std::string> failure_why(report.rows.size());
+  Progress progress(end_point - first_point, !options.quiet);
+  PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
+    std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
+    std::vector<long long> indices(axes.size());
+    grid.Indices(index, indices);
+    for (size_t a = 0; a < axes.size(); ++a) row[a] = axes[a].values[indices[a]];
+    if (solution) {
+      for (size_t q = 0; q < show.size(); ++q) row[axes.size() + q] = show[q].Evaluate(*solution);
+    } else {
+      failure_why[static_cast<size_t>(index - first_point)] =
+          fmt::format("{}: {}", ToString(summary.status), summary.detail);
+    }
+    progress.Tick();
+  };
+  SweepStats stats = RunSweep(base, grid, blocks, first_block, last_block, apply, options.solver,
+                              sweep_options, sink);
+  if (!stats.setup_error.empty()) {
+    fmt::print(stderr, "knee: error: {}\n", stats.setup_error);
+    result.outcome.bad_input = true;
+    return result;
+  }
+  for (size_t r = 0; r < report.rows.size(); ++r) {
+    if (failure_why[r].empty()) continue;
+    std::vector<long long> indices(axes.size());
+    grid.Indices(first_point + static_cast<long long>(r), indices);
+    report.failures.push_back({static_cast<long long>(r), DescribePoint(axes, base, indices),
+                               failure_why[r]});
+  }
+  SolverAccount& account = report.account;
+  account.points = stats.points;
+  account.newton_steps = stats.newton_steps;
+  account.max_newton_steps = stats.max_newton_steps;
+  account.aids = stats.aids;
+  account.max_kcl_residual = stats.max_kcl_residual;
+  account.worst_node = stats.worst_node;
+  result.outcome.point_failed = stats.failed > 0;
+  return result;
+}
+
+}  // namespace knee::cli

@@ -1,0 +1,247 @@
+#include "svg_chart.h"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+
+#include "eng_format.h"
+
+namespace knee::cli {
+namespace {
+
+// Our palette: strong, distinguishable hues that survive grey-scale printing in order.
+constexpr const char* kColours[] = {"#1f5fa6", "#c8452c", "#2a8c5a", "#8a4fb0",
+                                    "#d08a12", "#2394a8", "#7a5230", "#b8336a"};
+constexpr int kLeft = 86;
+constexpr int kRight = 220;  // room for the legend
+constexpr int kTop = 48;
+constexpr int kGap = 46;
+
+std::string Escape(const std::string& text) {
+  std::string out;
+  for (char c : text) {
+    switch (c) {
+      case '<': out += "&lt;"; break;
+      case '>': out += "&gt;"; break;
+      case '&': out += "&amp;"; break;
+      case '"': out += "&quot;"; break;
+      default: out += c;
+    }
+  }
+  return out;
+}
+
+struct Axis {
+  double lo = 0, hi = 1;
+  bool log = false;
+  double Map(double v, double pixel_lo, double pixel_hi) const {
+    double a = log ? std::log10(v) : v;
+    double l = log ? std::log10(lo) : lo;
+    double h = log ? std::log10(hi) : hi;
+    return pixel_lo + (a - l) / (h - l) * (pixel_hi - pixel_lo);
+  }
+  std::vector<double> Ticks() const {
+    if (!log) return LinearTicks(lo, hi, 6);
+    std::vector<double> ticks;
+    int first = static_cast<int>(std::ceil(std::log10(lo) - 1e-9));
+    int last = static_cast<int>(std::floor(std::log10(hi) + 1e-9));
+    int stride = std::max(1, (last - first + 1) / 8);
+    for (int e = first; e <= last; e += stride) ticks.push_back(std::pow(10.0, e));
+    return ticks;
+  }
+};
+
+Axis FitAxis(double lo, double hi, bool log) {
+  Axis axis;
+  axis.log = log;
+  if (!(lo <= hi)) {  // no finite data
+    lo = log ? 1e-12 : 0;
+    hi = log ? 1 : 1;
+  }
+  if (log) {
+    axis.lo = std::pow(10.0, std::floor(std::log10(lo)));
+    axis.hi = std::pow(10.0, std::ceil(std::log10(hi)));
+    if (axis.hi <= axis.lo) axis.hi = axis.lo * 10;
+    return axis;
+  }
+  if (hi == lo) {
+    const double pad = lo == 0 ? 1 : std::fabs(lo) * 0.1;
+    lo -= pad;
+    hi += pad;
+  }
+  std::vector<double> ticks = LinearTicks(lo, hi, 6);
+  const double step = ticks.size() > 1 ? ticks[1] - ticks[0] : (hi - lo);
+  axis.lo = std::floor(lo / step + 1e-9) * step;
+  axis.hi = std::ceil(hi / step - 1e-9) * step;
+  return axis;
+}
+
+struct Trace {
+  size_t column;
+  std::string label;
+  std::vector<std::pair<double, double>> points;  // NaN y breaks the line
+};
+
+}  // namespace
+
+std::vector<double> LinearTicks(double lo, double hi, int target) {
+  std::vector<double> ticks;
+  if (!(hi > lo)) return {lo};
+  const double raw = (hi - lo) / target;
+  const double power = std::pow(10.0, std::floor(std::log10(raw)));
+  double step = power;
+  for (double m : {1.0, 2.0, 5.0, 10.0}) {
+    step = m * power;
+    if (step >= raw) break;
+  }
+  for (double t = std::ceil(lo / step - 1e-9) * step; t <= hi + step * 1e-9; t += step) {
+    ticks.push_back(std::fabs(t) < step * 1e-9 ? 0.0 : t);
+  }
+  return ticks;
+}
+
+std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
+  const size_t axes = static_cast<size_t>(std::max(report.sweep_axes, 1));
+  const Column& x_column = report.columns.front();
+
+  // Panels by unit, in column order of first appearance.
+  std::vector<std::string> units;
+  std::map<std::string, std::vector<size_t>> columns_of_unit;
+  for (size_t c = axes; c < report.columns.size(); ++c) {
+    const std::string& unit = report.columns[c].unit;
+    if (!columns_of_unit.count(unit)) units.push_back(unit);
+    columns_of_unit[unit].push_back(c);
+  }
+
+  // One trace per quantity and per combination of outer values (rows come inner-fastest).
+  std::map<std::string, std::vector<Trace>> traces_of_unit;
+  for (const std::string& unit : units) {
+    for (size_t c : columns_of_unit[unit]) {
+      std::map<std::vector<double>, size_t> trace_of_outer;
+      std::vector<Trace>& traces = traces_of_unit[unit];
+      for (const auto& row : report.rows) {
+        std::vector<double> outer(row.begin() + 1, row.begin() + static_cast<long>(axes));
+        auto [it, fresh] = trace_of_outer.try_emplace(outer, traces.size());
+        if (fresh) {
+          std::string label = report.columns[c].name;
+          for (size_t a = 1; a < axes; ++a) {
+            label += fmt::format(", {} = {}", report.columns[a].name,
+                                 FormatEng(row[a], report.columns[a].unit, 4));
+          }
+          traces.push_back({c, label, {}});
+        }
+        double y = row[c];
+        const bool is_current = unit == "A";
+        if (is_current && options.log_current) y = std::fabs(y);
+        traces[it->second].points.emplace_back(row[0], y);
+      }
+    }
+  }
+
+  const int plot_width = options.width - kLeft - kRight;
+  const int height = kTop + static_cast<int>(units.size()) * (options.panel_height + kGap) + 30;
+  std::string svg = fmt::format(
+      "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n"
+      "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{0}\" height=\"{1}\" "
+      "viewBox=\"0 0 {0} {1}\" font-family=\"Helvetica, Arial, sans-serif\" font-size=\"12\">\n"
+      "<rect width=\"100%\" height=\"100%\" fill=\"#fbfbf8\"/>\n",
+      options.width, height);
+  const std::string title = report.title.empty() ? report.file : report.title;
+  svg += fmt::format(
+      "<text x=\"{}\" y=\"26\" font-size=\"16\" font-weight=\"bold\" fill=\"#22262b\">{}</text>\n",
+      kLeft, Escape(title + ": DC sweep at " + FormatEng(report.temp, "°C", 4)));
+
+  // Shared x axis.
+  double x_lo = INFINITY, x_hi = -INFINITY;
+  for (const auto& row : report.rows) {
+    if (std::isfinite(row[0]) && (!options.log_x || row[0] > 0)) {
+      x_lo = std::min(x_lo, row[0]);
+      x_hi = std::max(x_hi, row[0]);
+    }
+  }
+  Axis x_axis;
+  x_axis.log = options.log_x;
+  x_axis.lo = x_lo;
+  x_axis.hi = x_hi;
+  if (!(x_hi > x_lo)) {
+    x_axis = FitAxis(x_lo, x_hi, options.log_x);
+  }
+
+  for (size_t p = 0; p < units.size(); ++p) {
+    const std::string& unit = units[p];
+    const bool log_y = options.log_current && unit == "A";
+    const int top = kTop + static_cast<int>(p) * (options.panel_height + kGap);
+    const int bottom = top + options.panel_height;
+    const int left = kLeft, right = kLeft + plot_width;
+    double y_lo = INFINITY, y_hi = -INFINITY;
+    for (const Trace& t : traces_of_unit[unit]) {
+      for (auto [x, y] : t.points) {
+        if (!std::isfinite(y) || (log_y && y <= 0)) continue;
+        y_lo = std::min(y_lo, y);
+        y_hi = std::max(y_hi, y);
+      }
+    }
+    Axis y_axis = FitAxis(y_lo, y_hi, log_y);
+    svg += fmt::format("<g class=\"panel\">\n<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" "
+                       "fill=\"#ffffff\" stroke=\"#c9ccd1\"/>\n",
+                       left, top, plot_width, options.panel_height);
+    for (double t : y_axis.Ticks()) {
+      const double y = y_axis.Map(t, bottom, top);
+      svg += fmt::format("<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#e6e8eb\"/>"
+                         "<text x=\"{}\" y=\"{:.1f}\" text-anchor=\"end\" fill=\"#4a5058\">{}</text>\n",
+                         left, right, y, y, left - 6, y + 4, Escape(FormatEng(t, unit, 3)));
+    }
+    for (double t : x_axis.Ticks()) {
+      const double x = x_axis.Map(t, left, right);
+      svg += fmt::format("<line x1=\"{:.1f}\" x2=\"{:.1f}\" y1=\"{}\" y2=\"{}\" stroke=\"#e6e8eb\"/>"
+                         "<text x=\"{:.1f}\" y=\"{}\" text-anchor=\"middle\" fill=\"#4a5058\">{}</text>\n",
+                         x, x, top, bottom, x, bottom + 16,
+                         Escape(FormatEng(t, x_column.unit, 3)));
+    }
+    if (y_axis.lo < 0 && y_axis.hi > 0 && !y_axis.log) {
+      const double y0 = y_axis.Map(0, bottom, top);
+      svg += fmt::format("<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#9aa0a8\"/>\n",
+                         left, right, y0, y0);
+    }
+    svg += fmt::format("<text x=\"{}\" y=\"{}\" fill=\"#22262b\" font-weight=\"bold\">{}</text>\n",
+                       left, top - 8,
+                       Escape(unit.empty() ? "(no unit)" : (log_y ? "|current| [A]" : "[" + DisplayUnit(unit) + "]")));
+    svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
+                       (left + right) / 2, bottom + 34,
+                       Escape(x_column.name + (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
+    svg += fmt::format("<clipPath id=\"clip{0}\"><rect x=\"{1}\" y=\"{2}\" width=\"{3}\" height=\"{4}\"/></clipPath>\n",
+                       p, left, top, plot_width, options.panel_height);
+    const std::vector<Trace>& traces = traces_of_unit[unit];
+    for (size_t t = 0; t < traces.size(); ++t) {
+      const char* colour = kColours[t % std::size(kColours)];
+      const bool dashed = t >= std::size(kColours);
+      std::string d;
+      bool pen_down = false;
+      for (auto [x, y] : traces[t].points) {
+        if (!std::isfinite(y) || (log_y && y <= 0) || (x_axis.log && x <= 0)) {
+          pen_down = false;
+          continue;
+        }
+        d += fmt::format("{}{:.2f},{:.2f}", pen_down ? " L" : (d.empty() ? "M" : " M"),
+                         x_axis.Map(x, left, right), y_axis.Map(y, bottom, top));
+        pen_down = true;
+      }
+      svg += fmt::format("<path class=\"trace\" d=\"{}\" fill=\"none\" stroke=\"{}\" "
+                         "stroke-width=\"1.8\"{} clip-path=\"url(#clip{})\"/>\n",
+                         d.empty() ? "M0,0" : d, colour,
+                         dashed ? " stroke-dasharray=\"6 3\"" : "", p);
+      const int ly = top + 14 + static_cast<int>(t) * 18;
+      svg += fmt::format("<line x1=\"{}\" x2=\"{}\" y1=\"{}\" y2=\"{}\" stroke=\"{}\" stroke-width=\"2.5\"/>"
+                         "<text x=\"{}\" y=\"{}\" fill=\"#22262b\">{}</text>\n",
+                         right + 12, right + 32, ly, ly, colour, right + 38, ly + 4,
+                         Escape(traces[t].label));
+    }
+    svg += "</g>\n";
+  }
+  svg += "</svg>\n";
+  return svg;
+}
+
+}  // namespace knee::cli

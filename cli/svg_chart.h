@@ -1,0 +1,25 @@
+// SVG charts of sweeps: one panel per unit, one trace per quantity and per combination
+// of outer sweep values, engineering tick labels, log axes where asked for.
+#pragma once
+
+#include <string>
+
+#include "report.h"
+
+namespace knee::cli {
+
+struct ChartOptions {
+  bool log_x = false;        // logarithmic inner axis (set for log sweeps)
+  bool log_current = false;  // currents on a logarithmic axis of |I|
+  int width = 960;           // px
+  int panel_height = 300;    // px per unit panel
+};
+
+// The chart of a sweep report (sweep_axes >= 1). Returns a complete SVG document.
+std::string DrawSweepChart(const Report& report, const ChartOptions& options);
+
+// "Nice" tick positions for a linear axis over [lo, hi] (about `target` ticks, steps of
+// 1, 2 or 5 times a power of ten).
+std::vector<double> LinearTicks(double lo, double hi, int target);
+
+}  // namespace knee::cli
