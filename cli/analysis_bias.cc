@@ -5,6 +5,7 @@
 #include <limits>
 
 #include "analyses.h"
+#include "stress.h"
 
 namespace knee::cli {
 namespace {
@@ -55,9 +56,13 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   Report& report = result.report;
   report = StartReport(loaded, "bias");
   for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
+  const Circuit& circuit = loaded.design->circuit;
+  const double derate = options.derate / 100;
+  const std::vector<StressCheck> checks = CollectStressChecks(circuit, derate);
+  StressRecorder stress(checks, 1);
+  AddStressColumns(checks, circuit, &report);
   report.account.method = SolverMethodName(options.solver);
 
-  const Circuit& circuit = loaded.design->circuit;
   Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options.solver);
   if (!solver) {
     PrintDiagnostics(solver.errors(), loaded.source);
@@ -77,9 +82,13 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   account.max_kcl_residual = summary.max_kcl_residual;
   account.worst_node = summary.worst_node;
 
-  std::vector<double> row(show.size(), kNaN);
+  std::vector<double> row(report.columns.size(), kNaN);
   if (summary.status == SolveStatus::kConverged) {
     for (size_t i = 0; i < show.size(); ++i) row[i] = show[i].Evaluate(solution);
+    FillStressColumns(checks, solution, row.data() + show.size());
+    stress.Record(0, solution);
+    std::string caution = HighVoltageCaution(LargestVoltage(circuit, solution));
+    if (!caution.empty()) report.cautions.push_back(caution);
     for (const Expectation& e : loaded.design->expects) {
       report.expectations.push_back(Check(e, solution));
       if (!report.expectations.back().met) result.outcome.expect_missed = true;
@@ -93,6 +102,8 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     result.outcome.point_failed = true;
   }
   report.rows.push_back(std::move(row));
+  stress.Finish(circuit, derate, [](long long) { return std::string(); }, &report);
+  for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;
   return result;
 }
 

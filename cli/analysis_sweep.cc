@@ -13,6 +13,7 @@
 #include <thread>
 
 #include "analyses.h"
+#include "stress.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
 #include "sweep_values.h"
@@ -168,6 +169,9 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     report.columns.push_back({axis.target.name, TargetUnit(axis.target, base)});
   }
   for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
+  const double derate = options.derate / 100;
+  const std::vector<StressCheck> checks = CollectStressChecks(base, derate);
+  AddStressColumns(checks, base, &report);
   report.account.method = SolverMethodName(options.solver);
 
   int shard = 0, shards = 1;
@@ -220,6 +224,9 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   report.rows.assign(static_cast<size_t>(end_point - first_point), std::vector<double>(width, kNaN));
   std::vector<std::string> failure_why(report.rows.size());
   Progress progress(end_point - first_point, !options.quiet);
+  StressRecorder stress(checks, end_point - first_point);
+  std::vector<double> largest_voltage(report.rows.size(), 0.0);
+  const size_t stress_column = axes.size() + show.size();
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
     std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
     std::vector<long long> indices(axes.size());
@@ -227,6 +234,9 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     for (size_t a = 0; a < axes.size(); ++a) row[a] = axes[a].values[indices[a]];
     if (solution) {
       for (size_t q = 0; q < show.size(); ++q) row[axes.size() + q] = show[q].Evaluate(*solution);
+      FillStressColumns(checks, *solution, row.data() + stress_column);
+      stress.Record(index - first_point, *solution);
+      largest_voltage[static_cast<size_t>(index - first_point)] = LargestVoltage(base, *solution);
     } else {
       failure_why[static_cast<size_t>(index - first_point)] =
           fmt::format("{}: {}", ToString(summary.status), summary.detail);
@@ -246,6 +256,25 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     grid.Indices(first_point + static_cast<long long>(r), indices);
     report.failures.push_back({static_cast<long long>(r), DescribePoint(axes, base, indices),
                                failure_why[r]});
+  }
+  auto describe = [&](long long row) {
+    std::vector<long long> indices(axes.size());
+    grid.Indices(first_point + row, indices);
+    return DescribePoint(axes, base, indices);
+  };
+  stress.Finish(base, derate, describe, &report);
+  for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;
+  // The caution also covers source values swept past the limit at points that failed.
+  double largest = 0;
+  for (double v : largest_voltage) largest = std::max(largest, v);
+  for (const SweepAxis& axis : axes) {
+    const bool source = axis.target.kind == SweepTarget::Kind::kElement &&
+                        base.elements[axis.target.index].kind == ElementKind::kVoltageSource;
+    if (!source) continue;
+    for (double v : axis.values) largest = std::max(largest, std::fabs(v));
+  }
+  if (std::string caution = HighVoltageCaution(largest); !caution.empty()) {
+    report.cautions.push_back(caution);
   }
   SolverAccount& account = report.account;
   account.points = stats.points;

@@ -37,6 +37,9 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
       ->type_name("N");
   command->add_option("--shard", o->shard, "Compute only the K-th of N slices of a sweep")
       ->type_name("K/N");
+  command->add_option("--derate", o->derate,
+                      "Share of each diode rating that may be used, in % (default 100)")
+      ->type_name("PERCENT");
   command->add_flag("--quiet", o->quiet, "No progress display and no notes on standard error");
   command->add_flag("--trace", o->trace, "Print every Newton step on standard error");
   auto* solver = command->add_option_group("Solver settings (docs/solver.md)");

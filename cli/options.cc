@@ -44,6 +44,11 @@ std::string FinishOptions(AnalysisOptions* options) {
       }
     }
   }
+  if (!(options->derate > 0 && options->derate <= 100)) {
+    return fmt::format("--derate: {} is outside (0, 100]; expected the percentage of each rating a "
+                       "diode may use, e.g. --derate 80",
+                       options->derate);
+  }
   if (options->jobs < 0) return fmt::format("--jobs: {} is negative; expected N >= 1", options->jobs);
   if (std::optional<std::string> problem = Validate(solver)) return *problem;
   return "";

@@ -21,6 +21,7 @@ struct AnalysisOptions {
   bool plot_log_current = false;    // --plot-log-current: currents on a log axis of |I|
   int jobs = 0;                     // --jobs N (0 = all cores)
   std::string shard;                // --shard K/N ("" = whole sweep)
+  double derate = 100;              // --derate PERCENT: usable share of each rating
   bool quiet = false;               // --quiet
   bool trace = false;               // --trace: Newton step records on standard error
   std::vector<std::string> sweeps;  // knee sweep: TARGET=RANGE, first = inner loop

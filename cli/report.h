@@ -35,6 +35,21 @@ struct ExpectationCheck {
   SourceLocation where;  // line 0 when given on the command line
 };
 
+// The worst use of one rating of one diode across an analysis.
+struct StressLine {
+  std::string diode;
+  std::string key;       // "max_current", "max_reverse_v", "max_power"
+  std::string quantity;  // "forward current", "reverse voltage", "dissipation"
+  std::string unit;      // "A", "V", "W"
+  double worst = 0;      // largest value across the analysis
+  long long row = -1;    // row where it occurs (first such row)
+  std::string where;     // the sweep values of that row ("" for a bias point)
+  double rating = 0;
+  double limit = 0;        // rating * derate
+  double use_percent = 0;  // 100 * worst / rating
+  bool exceeded = false;   // worst > limit
+};
+
 struct SolverAccount {
   std::string method;               // which solver ran
   long long points = 0;             // solved points (1 for a bias point)
@@ -57,9 +72,20 @@ struct Report {
   SolverAccount account;
   std::vector<ExpectationCheck> expectations;
   std::vector<std::string> cautions;  // safety cautions shown with the report
+  std::vector<StressLine> stress;        // empty when no diode has ratings
+  double derate_percent = 100;           // --derate
+  std::vector<char> row_over_rating;
+  // Trailing columns that only CSV prints: the use of each rating in % per row
+  // ("Dhi.i/max_current [%]"); the table and JSON show the stress section instead.
+  int csv_only_columns = 0;     // per row: some rating exceeded there (charts)
   bool log_inner = false;  // the inner sweep axis is logarithmic (charts use a log x axis)
   bool csv_header = true;  // false for the 2nd..Nth shard of a sweep, so shards concatenate
 };
+
+// Columns every format shows (all but the CSV-only stress columns).
+inline size_t SharedColumns(const Report& report) {
+  return report.columns.size() - static_cast<size_t>(report.csv_only_columns);
+}
 
 std::string WriteTable(const Report& report);
 std::string WriteCsv(const Report& report);

@@ -30,12 +30,16 @@ std::string WriteJson(const Report& report) {
   j["temp_c"] = report.temp;
   j["sweep_columns"] = report.sweep_axes;
   nlohmann::ordered_json columns = nlohmann::ordered_json::array();
-  for (const Column& c : report.columns) columns.push_back({{"name", c.name}, {"unit", c.unit}});
+  const size_t shared = SharedColumns(report);
+  for (size_t i = 0; i < shared; ++i) {
+    const Column& c = report.columns[i];
+    columns.push_back({{"name", c.name}, {"unit", c.unit}});
+  }
   j["columns"] = columns;
   nlohmann::ordered_json rows = nlohmann::ordered_json::array();
   for (const auto& row : report.rows) {
     nlohmann::ordered_json r = nlohmann::ordered_json::array();
-    for (double v : row) r.push_back(Number(v));
+    for (size_t i = 0; i < shared; ++i) r.push_back(Number(row[i]));
     rows.push_back(std::move(r));
   }
   j["rows"] = std::move(rows);
@@ -65,6 +69,22 @@ std::string WriteJson(const Report& report) {
                  {"aids", a.aids},
                  {"max_kcl_residual_a", a.max_kcl_residual},
                  {"worst_node", a.worst_node}};
+  nlohmann::ordered_json stress = nlohmann::ordered_json::array();
+  for (const StressLine& s : report.stress) {
+    stress.push_back({{"diode", s.diode},
+                      {"rating_key", s.key},
+                      {"quantity", s.quantity},
+                      {"unit", s.unit},
+                      {"worst", Number(s.worst)},
+                      {"row", s.row},
+                      {"where", s.where},
+                      {"rating", s.rating},
+                      {"limit", s.limit},
+                      {"use_percent", Number(s.use_percent)},
+                      {"exceeded", s.exceeded}});
+  }
+  j["derate_percent"] = report.derate_percent;
+  j["stress"] = stress;
   j["cautions"] = report.cautions;
   return j.dump(2) + "\n";
 }

@@ -70,7 +70,7 @@ std::string Vertical(const Report& report) {
   for (const Column& c : report.columns) name_width = std::max(name_width, Width(c.name));
   std::string out;
   const std::vector<double>& row = report.rows.front();
-  for (size_t i = 0; i < report.columns.size(); ++i) {
+  for (size_t i = 0; i < SharedColumns(report); ++i) {
     out += fmt::format("  {}  {}\n", PadRight(report.columns[i].name, name_width),
                        PadLeft(FormatEng(row[i], report.columns[i].unit), 12));
   }
@@ -78,7 +78,7 @@ std::string Vertical(const Report& report) {
 }
 
 std::string Columns(const Report& report) {
-  const size_t n = report.columns.size();
+  const size_t n = SharedColumns(report);
   std::vector<std::string> head(n);
   std::vector<size_t> width(n);
   for (size_t i = 0; i < n; ++i) {
@@ -96,19 +96,39 @@ std::string Columns(const Report& report) {
     }
     cells.push_back(std::move(line));
   }
+  const bool marks = !report.row_over_rating.empty();
   std::string out = " ";
   for (size_t i = 0; i < n; ++i) {
     out += " " + PadLeft(head[i], width[i]);
     if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += " │";
   }
   out += "\n";
-  for (const auto& line : cells) {
-    out += " ";
+  for (size_t r = 0; r < cells.size(); ++r) {
+    const auto& line = cells[r];
+    out += marks && report.row_over_rating[r] ? "!" : " ";
     for (size_t i = 0; i < n; ++i) {
       out += " " + PadLeft(line[i], width[i]);
       if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += " │";
     }
     out += "\n";
+  }
+  return out;
+}
+
+std::string Stress(const Report& report) {
+  if (report.stress.empty()) return "";
+  std::string out = fmt::format("\nstress (each rating usable to {:g} %):\n", report.derate_percent);
+  size_t name_width = 0;
+  for (const StressLine& s : report.stress) name_width = std::max(name_width, Width(s.diode));
+  for (const StressLine& s : report.stress) {
+    std::string at = s.where.empty() ? "" : " at " + s.where;
+    out += fmt::format("  {} {}  {:<15}  worst {:>10}{}, rating {} ({}): {:.0f} % of rating\n",
+                       s.exceeded ? "EXCEEDED" : "ok      ", PadRight(s.diode, name_width),
+                       s.quantity, FormatEng(s.worst, s.unit), at, FormatEng(s.rating, s.unit),
+                       s.key, s.use_percent);
+  }
+  if (!report.row_over_rating.empty() && report.sweep_axes > 0) {
+    out += "  (rows marked ! exceed a rating)\n";
   }
   return out;
 }
@@ -122,6 +142,7 @@ std::string WriteTable(const Report& report) {
   if (!report.rows.empty()) {
     out += report.sweep_axes == 0 && report.rows.size() == 1 ? Vertical(report) : Columns(report);
   }
+  out += Stress(report);
   if (!report.expectations.empty()) out += "\n" + Expectations(report);
   if (!report.failures.empty()) {
     out += "\n";

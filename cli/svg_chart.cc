@@ -84,6 +84,38 @@ struct Trace {
   std::vector<std::pair<double, double>> points;  // NaN y breaks the line
 };
 
+// Shaded bands over the inner-axis values where some diode exceeds a rating.
+std::string OverRatingBands(const Report& report, const Axis& x_axis, int left, int right, int top,
+                            int height) {
+  if (report.row_over_rating.empty()) return "";
+  std::map<double, bool> over;  // inner value -> exceeded at any outer value
+  for (size_t r = 0; r < report.rows.size(); ++r) {
+    const double x = report.rows[r][0];
+    if (!std::isfinite(x) || (x_axis.log && x <= 0)) continue;
+    over[x] = over[x] || report.row_over_rating[r];
+  }
+  std::vector<std::pair<double, bool>> xs(over.begin(), over.end());
+  std::string svg;
+  for (size_t i = 0; i < xs.size(); ++i) {
+    if (!xs[i].second) continue;
+    size_t j = i;
+    while (j + 1 < xs.size() && xs[j + 1].second) ++j;
+    auto pixel = [&](double v) { return x_axis.Map(v, left, right); };
+    const double x0 = i == 0 ? pixel(xs[i].first) : (pixel(xs[i - 1].first) + pixel(xs[i].first)) / 2;
+    const double x1 =
+        j + 1 == xs.size() ? pixel(xs[j].first) : (pixel(xs[j].first) + pixel(xs[j + 1].first)) / 2;
+    svg += fmt::format("<rect class=\"over-rating\" x=\"{:.1f}\" y=\"{}\" width=\"{:.1f}\" "
+                       "height=\"{}\" fill=\"#c8452c\" fill-opacity=\"0.12\"/>\n",
+                       std::max<double>(x0, left), top, std::max(1.0, std::min<double>(x1, right) - std::max<double>(x0, left)), height);
+    i = j;
+  }
+  if (!svg.empty()) {
+    svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"end\" fill=\"#c8452c\">shaded: a rating "
+                       "is exceeded</text>\n", right - 4, top + height - 6);
+  }
+  return svg;
+}
+
 }  // namespace
 
 std::vector<double> LinearTicks(double lo, double hi, int target) {
@@ -109,7 +141,7 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
   // Panels by unit, in column order of first appearance.
   std::vector<std::string> units;
   std::map<std::string, std::vector<size_t>> columns_of_unit;
-  for (size_t c = axes; c < report.columns.size(); ++c) {
+  for (size_t c = axes; c < SharedColumns(report); ++c) {
     const std::string& unit = report.columns[c].unit;
     if (!columns_of_unit.count(unit)) units.push_back(unit);
     columns_of_unit[unit].push_back(c);
@@ -213,6 +245,7 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
                        Escape(x_column.name + (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
     svg += fmt::format("<clipPath id=\"clip{0}\"><rect x=\"{1}\" y=\"{2}\" width=\"{3}\" height=\"{4}\"/></clipPath>\n",
                        p, left, top, plot_width, options.panel_height);
+    svg += OverRatingBands(report, x_axis, left, right, top, options.panel_height);
     const std::vector<Trace>& traces = traces_of_unit[unit];
     for (size_t t = 0; t < traces.size(); ++t) {
       const char* colour = kColours[t % std::size(kColours)];

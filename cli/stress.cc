@@ -1,0 +1,149 @@
+#include "stress.h"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+namespace knee::cli {
+namespace {
+
+struct QuantityInfo {
+  const char* key;
+  const char* name;
+  const char* unit;
+};
+
+QuantityInfo Info(StressQuantity q) {
+  switch (q) {
+    case StressQuantity::kForwardCurrent:
+      return {"max_current", "forward current", "A"};
+    case StressQuantity::kReverseVoltage:
+      return {"max_reverse_v", "reverse voltage", "V"};
+    case StressQuantity::kPower:
+      return {"max_power", "dissipation", "W"};
+  }
+  return {"", "", ""};
+}
+
+}  // namespace
+
+std::vector<StressCheck> CollectStressChecks(const Circuit& circuit, double derate_fraction) {
+  std::vector<StressCheck> checks;
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    const Element& element = circuit.elements[e];
+    if (element.kind != ElementKind::kDiode) continue;
+    const DiodeModel& m = circuit.parts[element.part].model;
+    auto add = [&](const std::optional<double>& rating, StressQuantity q) {
+      if (rating) checks.push_back({static_cast<int>(e), q, *rating, *rating * derate_fraction});
+    };
+    add(m.max_current, StressQuantity::kForwardCurrent);
+    add(m.max_reverse_v, StressQuantity::kReverseVoltage);
+    add(m.max_power, StressQuantity::kPower);
+  }
+  return checks;
+}
+
+double StressValue(const StressCheck& check, const Solution& solution) {
+  const double v = solution.element_voltage[check.element];
+  const double i = solution.element_current[check.element];
+  switch (check.quantity) {
+    case StressQuantity::kForwardCurrent:
+      return i;
+    case StressQuantity::kReverseVoltage:
+      return -v;
+    case StressQuantity::kPower:
+      return v * i;
+  }
+  return 0;
+}
+
+StressRecorder::StressRecorder(std::vector<StressCheck> checks, long long points)
+    : checks_(std::move(checks)),
+      points_(points),
+      values_(checks_.size() * static_cast<size_t>(points),
+              std::numeric_limits<double>::quiet_NaN()) {}
+
+void StressRecorder::Record(long long point, const Solution& solution) {
+  double* row = values_.data() + static_cast<size_t>(point) * checks_.size();
+  for (size_t c = 0; c < checks_.size(); ++c) row[c] = StressValue(checks_[c], solution);
+}
+
+void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
+                            const std::function<std::string(long long)>& describe,
+                            Report* report) const {
+  report->derate_percent = derate_fraction * 100;
+  if (checks_.empty()) return;
+  report->row_over_rating.assign(static_cast<size_t>(points_), 0);
+  for (size_t c = 0; c < checks_.size(); ++c) {
+    const StressCheck& check = checks_[c];
+    const QuantityInfo info = Info(check.quantity);
+    StressLine line;
+    line.diode = circuit.elements[check.element].name;
+    line.key = info.key;
+    line.quantity = info.name;
+    line.unit = info.unit;
+    line.rating = check.rating;
+    line.limit = check.limit;
+    line.worst = -std::numeric_limits<double>::infinity();
+    for (long long p = 0; p < points_; ++p) {
+      const double value = values_[static_cast<size_t>(p) * checks_.size() + c];
+      if (std::isnan(value)) continue;
+      if (value > line.worst) {
+        line.worst = value;
+        line.row = p;
+      }
+      if (value > check.limit) report->row_over_rating[static_cast<size_t>(p)] = 1;
+    }
+    if (line.row < 0) {
+      line.worst = std::numeric_limits<double>::quiet_NaN();
+    } else {
+      line.where = describe(line.row);
+      line.use_percent = 100 * line.worst / line.rating;
+      line.exceeded = line.worst > line.limit;
+    }
+    report->stress.push_back(std::move(line));
+  }
+}
+
+void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,
+                      Report* report) {
+  static constexpr const char* kSuffix[] = {".i/max_current", ".v/max_reverse_v", ".p/max_power"};
+  for (const StressCheck& check : checks) {
+    report->columns.push_back(
+        {circuit.elements[check.element].name + kSuffix[static_cast<int>(check.quantity)], "%"});
+  }
+  report->csv_only_columns = static_cast<int>(checks.size());
+}
+
+void FillStressColumns(const std::vector<StressCheck>& checks, const Solution& solution,
+                       double* tail) {
+  for (size_t c = 0; c < checks.size(); ++c) {
+    tail[c] = 100 * StressValue(checks[c], solution) / checks[c].rating;
+  }
+}
+
+std::string HighVoltageCaution(double largest_voltage) {
+  if (!(largest_voltage > kExtraLowVoltageLimitDc)) return "";
+  return fmt::format(
+      "this circuit works at up to {:.4g} V, above the {} V DC limit of extra-low voltage "
+      "(IEC 61140, IEC 61201): hazardous voltages. A simulation is no substitute for the "
+      "safety rules of the equipment; local codes and licensed practice govern.",
+      largest_voltage, kExtraLowVoltageLimitDc);
+}
+
+double LargestVoltage(const Circuit& circuit, const Solution& solution) {
+  double lo = 0, hi = 0;  // gnd is 0 V
+  for (double v : solution.node_voltage) {
+    lo = std::min(lo, v);
+    hi = std::max(hi, v);
+  }
+  double largest = hi - lo;
+  for (const Element& e : circuit.elements) {
+    if (e.kind == ElementKind::kVoltageSource) largest = std::max(largest, std::fabs(e.value));
+  }
+  return largest;
+}
+
+}  // namespace knee::cli

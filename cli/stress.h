@@ -1,0 +1,64 @@
+// Stress checks (docs/stress.md): each rated diode's forward current, reverse voltage
+// and dissipation against its part's ratings, with a design margin (--derate), and the
+// extra-low-voltage caution.
+#pragma once
+
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "knee/circuit.h"
+#include "knee/solver.h"
+#include "report.h"
+
+namespace knee::cli {
+
+enum class StressQuantity { kForwardCurrent, kReverseVoltage, kPower };
+
+struct StressCheck {
+  int element = 0;  // diode element index
+  StressQuantity quantity = StressQuantity::kForwardCurrent;
+  double rating = 0;  // the part's rating
+  double limit = 0;   // rating * derate
+};
+
+// Every rated quantity of every diode of `circuit`, in element order.
+std::vector<StressCheck> CollectStressChecks(const Circuit& circuit, double derate_fraction);
+
+// The stressed value of one check at a solution: forward current i (A), reverse voltage
+// -v (V), dissipation v*i (W).
+double StressValue(const StressCheck& check, const Solution& solution);
+
+// Per point values, gathered by index from any thread, then reduced in point order so
+// the result does not depend on thread timing.
+class StressRecorder {
+ public:
+  StressRecorder(std::vector<StressCheck> checks, long long points);
+  bool empty() const { return checks_.empty(); }
+  void Record(long long point, const Solution& solution);  // thread-safe for distinct points
+  // Fills report->stress and report->row_over_rating; describe(point) names a point.
+  void Finish(const Circuit& circuit, double derate_fraction,
+              const std::function<std::string(long long)>& describe, Report* report) const;
+
+ private:
+  std::vector<StressCheck> checks_;
+  long long points_;
+  std::vector<double> values_;  // points x checks, NaN where a point failed
+};
+
+// Appends the CSV-only columns "Dhi.i/max_current [%]" (use of each rating per row).
+void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,
+                      Report* report);
+// Writes those columns' values of one solved point into `tail` (checks.size() values).
+void FillStressColumns(const std::vector<StressCheck>& checks, const Solution& solution,
+                       double* tail);
+
+// The caution text when any node-to-node voltage or source value exceeds the
+// extra-low-voltage limit, else "".
+inline constexpr double kExtraLowVoltageLimitDc = 60.0;  // V, IEC 61140 / IEC 61201 DC band
+std::string HighVoltageCaution(double largest_voltage);
+
+// Largest voltage of a solution: max over node pairs (including gnd) and vsource values.
+double LargestVoltage(const Circuit& circuit, const Solution& solution);
+
+}  // namespace knee::cli
