@@ -79,8 +79,8 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     if (step > 1 && update.passed() && !assembled.limited && residual.passed()) {
       outcome.exit = NewtonExit::kConverged;
       outcome.detail = fmt::format(
-          "converged in {} steps: max |dx| ratio at '{}' {:.3g} <= {:.3g}, worst residual at "
-          "'{}' {:.3g} <= {:.3g}",
+          "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g}, worst residual at "
+          "'{}' = {:.3g} <= {:.3g}",
           step - 1, mna_->UnknownName(update.index), update.value, update.bound,
           mna_->UnknownName(residual.index), residual.value, residual.bound);
       Polish(aids, x);

@@ -1,0 +1,75 @@
+// DC sweeps: the Cartesian product of axes, axis 0 the inner (fastest) loop, solved by
+// continuation. The result does not depend on how the sweep is split: the points are cut
+// into fixed blocks whose boundaries depend only on the sweep, every block starts from
+// the same cold guess, and threads and shards take whole blocks (docs/sweeps.md).
+#pragma once
+
+#include <functional>
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "knee/circuit.h"
+#include "knee/solver.h"
+
+namespace knee {
+
+struct SweepGrid {
+  std::vector<std::vector<double>> axes;  // axes[0] is the inner loop
+
+  long long PointCount() const;
+  // The per-axis value indices of point `index` (row-major, axis 0 fastest).
+  void Indices(long long index, std::span<long long> out) const;
+};
+
+// Points are cut into blocks of at most block_size consecutive inner-axis points that
+// never cross a change of an outer axis value.
+struct SweepBlocks {
+  std::vector<long long> starts;  // first point of each block, plus the end as last entry
+  long long block_count() const { return static_cast<long long>(starts.size()) - 1; }
+};
+
+struct SweepOptions {
+  long long block_size = 512;  // points per block, >= 1; part of the result's identity
+  int jobs = 1;                // worker threads, >= 1
+  int max_halvings = 10;       // a failed step is retried in halves down to 2^-max_halvings
+  bool extrapolate = true;     // predict each start linearly from the two previous points
+};
+std::optional<std::string> Validate(const SweepOptions& options);
+
+SweepBlocks CutIntoBlocks(const SweepGrid& grid, long long block_size);
+
+// Blocks [first, last) of the slice `shard` (0-based) of `shards`: slices of the outer
+// axis' values when there are several axes, else slices of the block list.
+std::pair<long long, long long> ShardBlocks(const SweepGrid& grid, const SweepBlocks& blocks,
+                                            int shard, int shards);
+
+// Sets `circuit` to the values of one point (one value per axis, which may lie between
+// grid values while a step is subdivided); returns "" or a message. Called from worker
+// threads, each with its own circuit.
+using ApplyPoint = std::function<std::string(std::span<const double> values, Circuit* circuit)>;
+
+// Receives each point as it is solved: `solution` is null when the point failed. Called
+// from worker threads, never twice for one index.
+using PointSink = std::function<void(long long index, const SolveSummary& summary,
+                                     const Solution* solution)>;
+
+struct SweepStats {
+  long long points = 0;
+  long long failed = 0;
+  long long newton_steps = 0;
+  int max_newton_steps = 0;
+  std::vector<std::string> aids;
+  double max_kcl_residual = 0;
+  std::string worst_node;
+  std::string setup_error;  // BiasSolver::Create failed; nothing was solved
+};
+
+// Solves blocks [first_block, last_block).
+SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBlocks& blocks,
+                    long long first_block, long long last_block, const ApplyPoint& apply,
+                    const SolverOptions& solver_options, const SweepOptions& options,
+                    const PointSink& sink);
+
+}  // namespace knee
