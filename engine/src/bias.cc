@@ -248,7 +248,8 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
 }
 
-SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start) {
+SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start,
+                               bool allow_aids) {
   Impl& m = *impl_;
   m.trace.clear();
   SolveSummary s;
@@ -264,7 +265,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
   NewtonOutcome out = m.Run(AssemblyAids{}, "newton", &s);
   std::string log = "newton: " + out.detail;
   const auto try_aid = [&](bool enabled, const char* name, auto ladder) {
-    if (!enabled || out.exit == NewtonExit::kConverged || out.exit == NewtonExit::kFatal) return;
+    if (!enabled || !allow_aids || out.exit == NewtonExit::kConverged || out.exit == NewtonExit::kFatal) return;
     reset();
     if (!(m.*ladder)(&s, &log)) return;
     s.aids.push_back(name);

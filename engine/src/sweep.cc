@@ -1,0 +1,287 @@
+// Continuation over a sweep grid; see sweep.h for why the blocks exist.
+#include "knee/sweep.h"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <atomic>
+#include <cmath>
+#include <memory>
+#include <mutex>
+#include <thread>
+
+namespace knee {
+
+long long SweepGrid::PointCount() const {
+  if (axes.empty()) return 0;
+  long long count = 1;
+  for (const auto& axis : axes) count *= static_cast<long long>(axis.size());
+  return count;
+}
+
+void SweepGrid::Indices(long long index, std::span<long long> out) const {
+  for (size_t a = 0; a < axes.size(); ++a) {
+    const auto size = static_cast<long long>(axes[a].size());
+    out[a] = index % size;
+    index /= size;
+  }
+}
+
+std::optional<std::string> Validate(const SweepOptions& options) {
+  if (options.block_size < 1) {
+    return fmt::format("SweepOptions.block_size = {}: must be >= 1", options.block_size);
+  }
+  if (options.jobs < 1) return fmt::format("SweepOptions.jobs = {}: must be >= 1", options.jobs);
+  if (options.max_halvings < 0 || options.max_halvings > 50) {
+    return fmt::format("SweepOptions.max_halvings = {}: must be in [0, 50]", options.max_halvings);
+  }
+  return std::nullopt;
+}
+
+SweepBlocks CutIntoBlocks(const SweepGrid& grid, long long block_size) {
+  SweepBlocks blocks;
+  const long long total = grid.PointCount();
+  if (total == 0) {
+    blocks.starts.push_back(0);
+    return blocks;
+  }
+  const auto inner = static_cast<long long>(grid.axes[0].size());
+  for (long long line = 0; line < total; line += inner) {
+    for (long long start = line; start < line + inner; start += block_size) {
+      blocks.starts.push_back(start);
+    }
+  }
+  blocks.starts.push_back(total);
+  return blocks;
+}
+
+std::pair<long long, long long> ShardBlocks(const SweepGrid& grid, const SweepBlocks& blocks,
+                                            int shard, int shards) {
+  const long long n = blocks.block_count();
+  if (grid.axes.size() <= 1) {
+    return {n * shard / shards, n * (shard + 1) / shards};
+  }
+  // Slices of the outer axis: its values [lo, hi) cover the points [lo*stride, hi*stride).
+  const auto outer = static_cast<long long>(grid.axes.back().size());
+  const long long stride = grid.PointCount() / outer;
+  const long long lo = outer * shard / shards;
+  const long long hi = outer * (shard + 1) / shards;
+  auto first_block_at = [&](long long point) {
+    return static_cast<long long>(
+        std::lower_bound(blocks.starts.begin(), blocks.starts.end() - 1, point) -
+        blocks.starts.begin());
+  };
+  return {first_block_at(lo * stride), first_block_at(hi * stride)};
+}
+
+namespace {
+
+// The state of one worker thread: its own circuit copy and solver.
+class Worker {
+ public:
+  Worker(const Circuit& circuit, const SweepGrid& grid, const ApplyPoint& apply,
+         const SweepOptions& options, const PointSink& sink)
+      : circuit_(circuit), grid_(grid), apply_(apply), options_(options), sink_(sink) {
+    indices_.resize(grid.axes.size());
+    values_.resize(grid.axes.size());
+    trial_.resize(grid.axes.size());
+  }
+
+  std::string Init(const SolverOptions& solver_options) {
+    Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit_, solver_options);
+    if (!solver) return solver.errors().front().message;
+    solver_ = std::move(solver).value();
+    return "";
+  }
+
+  void SolveBlock(long long first, long long end) {
+    bool have_prev = false;  // x1_ holds the last converged point of this block
+    bool have_prev2 = false;
+    for (long long index = first; index < end; ++index) {
+      grid_.Indices(index, indices_);
+      for (size_t a = 0; a < values_.size(); ++a) values_[a] = grid_.axes[a][indices_[a]];
+      SolveSummary summary;
+      bool ok = false;
+      if (!Apply(values_, &summary)) {
+        ok = false;
+      } else if (!have_prev) {
+        summary = solver_->Solve(&solution_);
+        ok = summary.status == SolveStatus::kConverged;
+      } else {
+        ok = SolveWarm(have_prev2, &summary);
+      }
+      Account(summary);
+      if (ok) {
+        have_prev2 = have_prev;
+        x2_.swap(x1_);
+        p2_ = p1_;
+        auto x = solver_->unknowns();
+        x1_.assign(x.begin(), x.end());
+        p1_ = values_[0];
+        have_prev = true;
+        sink_(index, summary, &solution_);
+      } else {
+        ++stats.failed;
+        have_prev = have_prev2 = false;
+        sink_(index, summary, nullptr);
+      }
+    }
+  }
+
+  SweepStats stats;
+
+ private:
+  bool Apply(std::span<const double> values, SolveSummary* summary) {
+    std::string problem = apply_(values, &circuit_);
+    if (!problem.empty()) {
+      summary->status = SolveStatus::kNonFinite;
+      summary->detail = problem;
+      return false;
+    }
+    solver_->UpdateValues(circuit_);
+    return true;
+  }
+
+  // Warm start from the previous point (extrapolated when two are known); if that
+  // fails, walk toward the point in halved steps; if that fails, a cold solve with the
+  // aid ladder.
+  bool SolveWarm(bool have_prev2, SolveSummary* summary) {
+    int steps = 0;
+    if (options_.extrapolate && have_prev2 && p1_ != p2_) {
+      const double ratio = (values_[0] - p1_) / (p1_ - p2_);
+      start_.resize(x1_.size());
+      for (size_t i = 0; i < x1_.size(); ++i) start_[i] = x1_[i] + ratio * (x1_[i] - x2_[i]);
+      *summary = solver_->Solve(&solution_, start_, /*allow_aids=*/false);
+      steps += summary->newton_steps;
+      if (summary->status == SolveStatus::kConverged) return true;
+    }
+    // Continuation from the previous point toward the target in fractions t of the step.
+    start_ = x1_;
+    double t = 0.0;
+    double h = 1.0;
+    const double min_h = std::ldexp(1.0, -options_.max_halvings);
+    while (t < 1.0 && h >= min_h) {
+      const bool last = t + h >= 1.0;
+      trial_ = values_;
+      if (!last) trial_[0] = p1_ + (t + h) * (values_[0] - p1_);
+      SolveSummary attempt;
+      if (!Apply(trial_, &attempt)) break;
+      attempt = solver_->Solve(&solution_, start_, /*allow_aids=*/false);
+      steps += attempt.newton_steps;
+      if (attempt.status == SolveStatus::kConverged) {
+        auto x = solver_->unknowns();
+        start_.assign(x.begin(), x.end());
+        t = last ? 1.0 : t + h;
+        h = std::min(2 * h, 1.0 - t);
+        if (last) {
+          *summary = attempt;
+          summary->newton_steps = steps;
+          if (h < 1.0) summary->aids.push_back("step subdivision");
+          return true;
+        }
+      } else {
+        h /= 2;
+      }
+    }
+    SolveSummary dummy;
+    if (!Apply(values_, &dummy)) {
+      *summary = dummy;
+      return false;
+    }
+    *summary = solver_->Solve(&solution_);
+    summary->newton_steps += steps;
+    summary->aids.insert(summary->aids.begin(), "step subdivision");
+    return summary->status == SolveStatus::kConverged;
+  }
+
+  void Account(const SolveSummary& summary) {
+    ++stats.points;
+    stats.newton_steps += summary.newton_steps;
+    stats.max_newton_steps = std::max(stats.max_newton_steps, summary.newton_steps);
+    for (const std::string& aid : summary.aids) {
+      if (std::find(stats.aids.begin(), stats.aids.end(), aid) == stats.aids.end()) {
+        stats.aids.push_back(aid);
+      }
+    }
+    if (summary.status == SolveStatus::kConverged &&
+        summary.max_kcl_residual > stats.max_kcl_residual) {
+      stats.max_kcl_residual = summary.max_kcl_residual;
+      stats.worst_node = summary.worst_node;
+    }
+  }
+
+  Circuit circuit_;
+  const SweepGrid& grid_;
+  const ApplyPoint& apply_;
+  const SweepOptions& options_;
+  const PointSink& sink_;
+  std::unique_ptr<BiasSolver> solver_;
+  Solution solution_;
+  std::vector<long long> indices_;
+  std::vector<double> values_, trial_;
+  std::vector<double> x1_, x2_, start_;
+  double p1_ = 0, p2_ = 0;
+};
+
+// The order of aids in a merged account does not depend on thread timing.
+int AidRank(const std::string& aid) {
+  if (aid == "step subdivision") return 0;
+  if (aid.rfind("gmin", 0) == 0) return 1;
+  if (aid.rfind("source", 0) == 0) return 2;
+  return 3;
+}
+
+}  // namespace
+
+SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBlocks& blocks,
+                    long long first_block, long long last_block, const ApplyPoint& apply,
+                    const SolverOptions& solver_options, const SweepOptions& options,
+                    const PointSink& sink) {
+  const long long block_count = last_block - first_block;
+  const int jobs = static_cast<int>(std::max<long long>(
+      1, std::min<long long>(options.jobs, block_count)));
+  std::vector<std::unique_ptr<Worker>> workers;
+  SweepStats total;
+  for (int j = 0; j < jobs; ++j) {
+    workers.push_back(std::make_unique<Worker>(circuit, grid, apply, options, sink));
+    std::string problem = workers.back()->Init(solver_options);
+    if (!problem.empty()) {
+      total.setup_error = problem;
+      return total;
+    }
+  }
+  std::atomic<long long> next{first_block};
+  auto work = [&](Worker* worker) {
+    for (long long b = next++; b < last_block; b = next++) {
+      worker->SolveBlock(blocks.starts[b], blocks.starts[b + 1]);
+    }
+  };
+  if (jobs == 1) {
+    work(workers.front().get());
+  } else {
+    std::vector<std::thread> threads;
+    for (auto& w : workers) threads.emplace_back(work, w.get());
+    for (auto& t : threads) t.join();
+  }
+  for (const auto& w : workers) {
+    const SweepStats& s = w->stats;
+    total.points += s.points;
+    total.failed += s.failed;
+    total.newton_steps += s.newton_steps;
+    total.max_newton_steps = std::max(total.max_newton_steps, s.max_newton_steps);
+    for (const std::string& aid : s.aids) {
+      if (std::find(total.aids.begin(), total.aids.end(), aid) == total.aids.end()) {
+        total.aids.push_back(aid);
+      }
+    }
+    if (s.max_kcl_residual > total.max_kcl_residual) {
+      total.max_kcl_residual = s.max_kcl_residual;
+      total.worst_node = s.worst_node;
+    }
+  }
+  std::stable_sort(total.aids.begin(), total.aids.end(),
+                   [](const std::string& a, const std::string& b) { return AidRank(a) < AidRank(b); });
+  return total;
+}
+
+}  // namespace knee
