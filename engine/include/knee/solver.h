@@ -98,7 +98,10 @@ class BiasSolver {
   // point) or, when empty, from the default guess (all unknowns zero). A `start` whose
   // size is not unknown_count() is ignored. Fills *solution when Newton converged, i.e.
   // for kConverged and also for kVerificationFailed (so the failure can be inspected).
-  SolveSummary Solve(Solution* solution, std::span<const double> start = {});
+  // With allow_aids false only plain Newton runs (sweeps subdivide a failed step first
+  // and climb the aid ladder only when that fails too).
+  SolveSummary Solve(Solution* solution, std::span<const double> start = {},
+                     bool allow_aids = true);
 
   // The unknown vector of the last converged solve (node voltages, internal nodes,
   // vsource currents), for warm starts.
