@@ -1,0 +1,138 @@
+// The diode law (diode_law.h): constants, temperature laws, the overflow-safe
+// exponential, and analytic derivatives against central finite differences.
+#include <gtest/gtest.h>
+
+#include <cmath>
+
+#include "devices.h"
+#include "knee/diode_law.h"
+#include "test_util.h"
+
+namespace knee {
+namespace {
+
+// Thermal voltage kT/q at 27 degC (300.15 K) is 25.865 mV with the CODATA 2018 exact
+// values of k and q (also the figure quoted in common practice). The quoted value has
+// five significant digits, hence the 2e-5 relative tolerance.
+TEST(DiodeLaw, ThermalVoltageAt27C) {
+  EXPECT_CLOSE(ThermalVoltage(ToKelvin(27.0)), 25.865e-3, 2e-5, 0.0);
+  // CODATA 2018: k = 1.380649e-23 J/K and e = 1.602176634e-19 C, both exact.
+  EXPECT_EQ(kBoltzmann, 1.380649e-23);
+  EXPECT_EQ(kElementaryCharge, 1.602176634e-19);
+}
+
+// Is(T) per the contract (netlist-format.md), written here in product form, independently
+// of the engine's log-domain evaluation.
+TEST(DiodeLaw, SaturationCurrentTemperatureLaw) {
+  DiodeModel m;
+  m.sat_current = 2.5e-9;
+  m.ideality = 1.8;
+  m.bandgap = 1.11;
+  m.sat_temp_exp = 3.0;
+  m.ref_temp = 25.0;
+  EXPECT_CLOSE(SatCurrentAt(m, 25.0), 2.5e-9, 1e-15, 0.0);
+  for (const double t_c : {-55.0, -40.0, 0.0, 85.0, 125.0, 150.0}) {
+    const double t = t_c + 273.15, t0 = 298.15;
+    const double vt0 = 1.380649e-23 * t0 / 1.602176634e-19;
+    const double expected =
+        2.5e-9 * std::pow(t / t0, 3.0 / 1.8) * std::exp(1.11 / (1.8 * vt0) * (1.0 - t0 / t));
+    EXPECT_CLOSE(SatCurrentAt(m, t_c), expected, 1e-12, 0.0) << t_c;
+  }
+  // Area multiplies Is and breakdown_i and divides series_res (the contract).
+  m.series_res = 6.0;
+  m.breakdown_v = 100.0;
+  m.breakdown_i = 1e-4;
+  const DiodeConstants d = ComputeDiodeConstants(m, 3.0, 25.0);
+  EXPECT_CLOSE(d.is, 7.5e-9, 1e-15, 0.0);
+  EXPECT_CLOSE(d.ibr, 3e-4, 1e-15, 0.0);
+  EXPECT_CLOSE(d.rs, 2.0, 1e-15, 0.0);
+  EXPECT_CLOSE(d.n_vt, 1.8 * ThermalVoltage(298.15), 1e-15, 0.0);
+}
+
+// Vbr(T) = breakdown_v (1 + breakdown_tc (T - T0)) (the contract's law).
+TEST(DiodeLaw, BreakdownVoltageTemperatureLaw) {
+  DiodeModel m;
+  m.breakdown_v = 3.6;
+  m.breakdown_tc = -4e-4;
+  m.ref_temp = 20.0;
+  EXPECT_CLOSE(BreakdownVoltageAt(m, 20.0), 3.6, 1e-15, 0.0);
+  EXPECT_CLOSE(BreakdownVoltageAt(m, 120.0), 3.6 * (1.0 - 4e-4 * 100.0), 1e-15, 0.0);
+}
+
+// SafeExp is exp up to kExpLimit and continues linearly, continuous in value and slope.
+TEST(DiodeLaw, SafeExpIsContinuousInValueAndSlope) {
+  const double below = kExpLimit * (1 - 1e-15);
+  EXPECT_CLOSE(SafeExp(kExpLimit), std::exp(kExpLimit), 1e-15, 0.0);
+  EXPECT_CLOSE(SafeExp(kExpLimit + 1e-9), std::exp(kExpLimit) * (1 + 1e-9), 1e-13, 0.0);
+  EXPECT_CLOSE(SafeExp(below), SafeExp(kExpLimit), 1e-12, 0.0);
+  EXPECT_CLOSE(SafeExpSlope(below), SafeExpSlope(kExpLimit + 1e-9), 1e-12, 0.0);
+  EXPECT_TRUE(std::isfinite(SafeExp(1e6)));
+  EXPECT_CLOSE(SafeExp(1e3), std::exp(kExpLimit) * (1 + 1e3 - kExpLimit), 1e-15, 0.0);
+}
+
+DiodeConstants Zener() {
+  DiodeModel m;
+  m.sat_current = 1e-14;
+  m.ideality = 1.2;
+  m.breakdown_v = 5.1;
+  m.breakdown_i = 2e-3;
+  m.breakdown_ideality = 1.5;
+  return ComputeDiodeConstants(m, 2.0, 25.0);
+}
+
+// dI/dVj against a central difference (standard numerical differentiation). Truncation
+// error ~ (h/nVt)^2/6 and round-off ~ eps*|I|/h; the bound allows both.
+void ExpectDerivativeMatches(const DiodeConstants& d, double vj, const char* where) {
+  const double h = 1e-5 * std::min(d.n_vt, d.has_breakdown ? d.nbr_vt : d.n_vt);
+  const JunctionPoint p = EvaluateJunction(d, vj);
+  const double fd =
+      (EvaluateJunction(d, vj + h).current - EvaluateJunction(d, vj - h).current) / (2 * h);
+  const double round_off = 8 * 2.2e-16 * std::fabs(p.current) / h;
+  EXPECT_CLOSE(p.conductance, fd, 1e-7, round_off) << where << " vj = " << vj;
+  EXPECT_GT(p.conductance, 0.0) << where;
+}
+
+TEST(DiodeLaw, JunctionDerivativeMatchesFiniteDifferences) {
+  const DiodeConstants d = Zener();
+  ExpectDerivativeMatches(d, -0.1, "reverse");
+  ExpectDerivativeMatches(d, -2.0, "deep reverse");  // slope below round-off: floor applies
+  ExpectDerivativeMatches(d, 0.55, "knee");
+  ExpectDerivativeMatches(d, 0.8, "forward");
+  ExpectDerivativeMatches(d, -d.vbr, "breakdown");
+  ExpectDerivativeMatches(d, -d.vbr - 0.2, "deep breakdown");
+  ExpectDerivativeMatches(d, (kExpLimit + 15) * d.n_vt, "above kExpLimit, forward");
+  ExpectDerivativeMatches(d, -d.vbr - (kExpLimit + 15) * d.nbr_vt, "above kExpLimit, breakdown");
+}
+
+// The junction current itself: Shockley's law (Shockley 1949) plus the contract's
+// breakdown term, evaluated by hand.
+TEST(DiodeLaw, JunctionCurrentFollowsTheLaw) {
+  const DiodeConstants d = Zener();
+  const double v = 0.62;
+  const double expected =
+      d.is * (std::exp(v / d.n_vt) - 1) - d.ibr * std::exp(-(v + d.vbr) / d.nbr_vt);
+  EXPECT_CLOSE(EvaluateJunction(d, v).current, expected, 1e-13, 0.0);
+  // At -Vbr the breakdown term carries exactly ibr (the contract's definition).
+  EXPECT_CLOSE(EvaluateJunction(d, -d.vbr).current, -d.ibr - d.is, 1e-13, 0.0);
+}
+
+// Junction limiting: steps below the critical voltage pass untouched; large rising steps
+// above it become logarithmic and never longer than asked; falling steps pass.
+TEST(JunctionLimit, ShortensOnlyOvershootingSteps) {
+  const DiodeConstants d = Zener();
+  EXPECT_EQ(internal::LimitJunctionStep(d, 0.0, 0.3), 0.3);
+  EXPECT_EQ(internal::LimitJunctionStep(d, 0.9, 0.1), 0.1);
+  const double limited = internal::LimitJunctionStep(d, 0.0, 10.0);
+  EXPECT_LT(limited, 1.5);
+  EXPECT_GT(limited, 0.0);
+  const double from_on = internal::LimitJunctionStep(d, 0.8, 2.0);
+  EXPECT_GT(from_on, 0.8);
+  EXPECT_LT(from_on, 0.8 + 10 * d.n_vt);
+  // Mirrored in breakdown: a big step deeper into breakdown is shortened.
+  const double deep = internal::LimitJunctionStep(d, -d.vbr, -50.0);
+  EXPECT_LT(deep, -d.vbr);
+  EXPECT_GT(deep, -d.vbr - 10 * d.nbr_vt);
+}
+
+}  // namespace
+}  // namespace knee

@@ -1,0 +1,101 @@
+// A diode (optionally with series resistance) driven from a voltage source through a
+// resistor, against the exact solution in terms of the Lambert W function (T. C. Banwell
+// and A. Jayakumar, "Exact analytical solution for current flow through diode with series
+// resistance", Electronics Letters 36(4), 2000):
+//   I = (n Vt / R) W((Is R / (n Vt)) exp((V + Is R) / (n Vt))) - Is,
+// with R the total series resistance (external plus series_res/area). W is evaluated with
+// Boost.Math's lambert_w0 where its argument fits a double, and by Newton's method on the
+// logarithmic form w + ln w = y (y = ln of the argument) where exp(y) would overflow.
+#include <gtest/gtest.h>
+
+#include <boost/math/special_functions/lambert_w.hpp>
+#include <cmath>
+#include <vector>
+
+#include "circuit_builder.h"
+#include "knee/solver.h"
+#include "test_util.h"
+
+namespace knee {
+namespace {
+
+// CODATA 2018 exact constants (SI 2019), written out here independently of the engine.
+constexpr double kK = 1.380649e-23;
+constexpr double kQ = 1.602176634e-19;
+
+// W0(exp(y)).
+double LambertW0OfExp(double y) {
+  if (y < 700.0) return boost::math::lambert_w0(std::exp(y));
+  double w = y - std::log(y);  // asymptotic start
+  for (int k = 0; k < 100; ++k) {
+    const double step = (w + std::log(w) - y) / (1.0 + 1.0 / w);
+    w -= step;
+    if (std::fabs(step) <= 1e-16 * w) break;
+  }
+  return w;
+}
+
+double ExactCurrent(double v, double r_total, double is, double n_vt) {
+  const double y = std::log(is * r_total / n_vt) + (v + is * r_total) / n_vt;
+  return n_vt / r_total * LambertW0OfExp(y) - is;
+}
+
+// The contract's temperature law (netlist-format.md), written out independently.
+double SatCurrent(double is0, double n, double eg, double xti, double t0_c, double t_c) {
+  const double t = t_c + 273.15, t0 = t0_c + 273.15;
+  const double vt0 = kK * t0 / kQ;
+  return is0 * std::pow(t / t0, xti / n) * std::exp(eg / (n * vt0) * (1.0 - t0 / t));
+}
+
+struct LambertCase {
+  double series_res;
+  double area;
+  double ideality;
+};
+
+class LambertTest : public ::testing::TestWithParam<LambertCase> {};
+
+TEST_P(LambertTest, CurrentMatchesLambertW) {
+  const LambertCase p = GetParam();
+  const double r_ext = 1e3;
+  DiodeModel model;
+  model.sat_current = 3e-14;
+  model.ideality = p.ideality;
+  model.series_res = p.series_res;
+  const std::vector<double> volts = {-5,  -3,  -1,  -0.5, -0.2, -0.05, -0.01, 0,    0.01,
+                                     0.05, 0.2, 0.4, 0.55, 0.65, 0.7,  0.8,   1.0,  2.0,
+                                     5.0, 10,  20,  30,   40,   50};
+  for (const double temp : {-40.0, 25.0, 125.0}) {
+    const double n_vt = p.ideality * kK * (temp + 273.15) / kQ;
+    const double is = p.area * SatCurrent(3e-14, p.ideality, 1.11, 3.0, 25.0, temp);
+    const double r_total = r_ext + p.series_res / p.area;
+    for (const double v : volts) {
+      testing::CircuitBuilder b(temp);
+      const int part = b.Part("P", model);
+      b.V("V1", "in", "gnd", v);
+      b.R("R1", "in", "a", r_ext);
+      const int d = b.D("D1", "a", "gnd", part, p.area);
+      auto solver = BiasSolver::Create(b.circuit(), {});
+      ASSERT_TRUE(solver.ok());
+      Solution s;
+      const SolveSummary summary = (*solver)->Solve(&s);
+      ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
+      const double expected = ExactCurrent(v, r_total, is, n_vt);
+      // 1e-9 relative; the absolute floor of 1e-21 A only matters within about 1e-8 V of
+      // zero bias, where the current itself goes through zero and a relative test has no
+      // meaning (both sides then carry round-off of order 1e-16 * Is ~ 1e-30 A).
+      EXPECT_CLOSE(s.element_current[d], expected, 1e-9, 1e-21)
+          << "V = " << v << " V, T = " << temp << " degC";
+      EXPECT_CLOSE(s.element_voltage[d], v - expected * r_ext, 1e-9, 1e-15)
+          << "V = " << v << " V, T = " << temp << " degC";
+    }
+  }
+}
+
+INSTANTIATE_TEST_SUITE_P(Diodes, LambertTest,
+                         ::testing::Values(LambertCase{0.0, 1.0, 1.0}, LambertCase{0.0, 4.0, 1.8},
+                                           LambertCase{2.0, 1.0, 1.0},
+                                           LambertCase{5.0, 2.0, 1.3}));
+
+}  // namespace
+}  // namespace knee
