@@ -84,6 +84,13 @@ Result<std::vector<double>> ExpandRange(std::string_view text, const SourceLocat
                                         bool* logarithmic);
 Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& netlist,
                                        const Circuit& circuit, const SourceLocation& where);
+// ResolveSweepTarget and ExpandRange together, with the range's units checked against
+// the target (ohms for a resistor, degrees Celsius or kelvin for temp, the key's unit for
+// PART.key). ExpandRange alone accepts any unit and converts none.
+Result<SweepAxis> ResolveSweepAxis(std::string_view target, std::string_view range,
+                                   const Netlist& netlist, const Circuit& circuit,
+                                   const SourceLocation& target_where,
+                                   const SourceLocation& range_where);
 
 struct Expectation {
   QuantityExpr quantity;
@@ -95,7 +102,7 @@ struct Expectation {
 
 struct Design {
   Circuit circuit;
-  bool bias_requested = false;  // 'bias' present, or no request at all
+  bool bias_requested = false;                 // 'bias' present, or no request at all
   std::vector<std::vector<SweepAxis>> sweeps;  // one per 'sweep' statement
   std::vector<QuantityExpr> show;              // empty: every node v and element i
   std::vector<Expectation> expects;

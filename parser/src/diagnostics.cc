@@ -1,0 +1,169 @@
+#include "knee/diagnostics.h"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cctype>
+#include <cstdlib>
+#include <optional>
+
+namespace knee {
+namespace {
+
+// Quoted lines longer than this are shown as a window around the caret.
+constexpr int kMaxQuotedChars = 120;
+constexpr int kContextBefore = 40;
+
+bool IsContinuationByte(char c) { return (static_cast<unsigned char>(c) & 0xC0) == 0x80; }
+
+// The text of 1-based line `number`, without its line end; nullopt if there is none.
+std::optional<std::string_view> FindLine(std::string_view text, int number) {
+  std::size_t begin = 0;
+  if (text.substr(0, 3) == "\xEF\xBB\xBF") begin = 3;
+  for (int line = 1; line < number; ++line) {
+    const std::size_t nl = text.find('\n', begin);
+    if (nl == std::string_view::npos) return std::nullopt;
+    begin = nl + 1;
+  }
+  if (begin > text.size()) return std::nullopt;
+  std::size_t end = text.find('\n', begin);
+  if (end == std::string_view::npos) end = text.size();
+  std::string_view line = text.substr(begin, end - begin);
+  if (!line.empty() && line.back() == '\r') line.remove_suffix(1);
+  return line;
+}
+
+// The characters of a line for display: each UTF-8 character kept whole, control
+// characters and bytes that are not valid UTF-8 shown as '?'.
+std::vector<std::string> DisplayChars(std::string_view line) {
+  std::vector<std::string> chars;
+  for (std::size_t i = 0; i < line.size();) {
+    const auto c = static_cast<unsigned char>(line[i]);
+    if (c < 0x80) {
+      chars.emplace_back(1, (c < 0x20 || c == 0x7F) ? '?' : static_cast<char>(c));
+      ++i;
+      continue;
+    }
+    std::size_t n = 1;
+    while (i + n < line.size() && IsContinuationByte(line[i + n]) && n < 4) ++n;
+    const std::size_t expected = c >= 0xF0 ? 4 : c >= 0xE0 ? 3 : c >= 0xC0 ? 2 : 0;
+    if (expected == n) {
+      chars.emplace_back(line.substr(i, n));
+    } else {
+      for (std::size_t k = 0; k < n; ++k) chars.emplace_back("?");
+    }
+    i += n;
+  }
+  return chars;
+}
+
+std::string Place(const SourceLocation& where) {
+  if (where.line <= 0) return where.file.empty() ? "" : where.file + ": ";
+  if (where.column <= 0) return fmt::format("{}:{}: ", where.file, where.line);
+  return fmt::format("{}:{}:{}: ", where.file, where.line, where.column);
+}
+
+// Optimal string alignment distance (Levenshtein with adjacent transpositions).
+int EditDistance(std::string_view a, std::string_view b, bool fold_case) {
+  auto eq = [fold_case](char x, char y) {
+    if (!fold_case) return x == y;
+    return std::tolower(static_cast<unsigned char>(x)) ==
+           std::tolower(static_cast<unsigned char>(y));
+  };
+  const std::size_t n = a.size(), m = b.size();
+  std::vector<std::vector<int>> d(n + 1, std::vector<int>(m + 1, 0));
+  for (std::size_t i = 0; i <= n; ++i) d[i][0] = static_cast<int>(i);
+  for (std::size_t j = 0; j <= m; ++j) d[0][j] = static_cast<int>(j);
+  for (std::size_t i = 1; i <= n; ++i) {
+    for (std::size_t j = 1; j <= m; ++j) {
+      const int cost = eq(a[i - 1], b[j - 1]) ? 0 : 1;
+      d[i][j] = std::min({d[i - 1][j] + 1, d[i][j - 1] + 1, d[i - 1][j - 1] + cost});
+      if (i > 1 && j > 1 && eq(a[i - 1], b[j - 2]) && eq(a[i - 2], b[j - 1])) {
+        d[i][j] = std::min(d[i][j], d[i - 2][j - 2] + 1);
+      }
+    }
+  }
+  return d[n][m];
+}
+
+}  // namespace
+
+std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view source_text) {
+  const SourceLocation& where = diagnostic.where;
+  std::string out = fmt::format("{}error: {}", Place(where), diagnostic.message);
+  std::optional<std::string_view> line;
+  if (where.line > 0) line = FindLine(source_text, where.line);
+  if (line) {
+    std::vector<std::string> chars = DisplayChars(*line);
+    const int total = static_cast<int>(chars.size());
+    int caret = std::max(where.column, 1) - 1;  // 0-based character index
+    int first = 0;
+    int last = total;
+    if (total > kMaxQuotedChars) {
+      first = std::clamp(caret - kContextBefore, 0, std::max(total - kMaxQuotedChars, 0));
+      last = std::min(total, first + kMaxQuotedChars);
+    }
+    std::string quoted = first > 0 ? "..." : "";
+    for (int i = first; i < last; ++i) quoted += chars[static_cast<std::size_t>(i)];
+    if (last < total) quoted += "...";
+    const int shift = first > 0 ? 3 - first : 0;
+    const int caret_pos = std::max(caret + shift, 0);
+    const int room = std::max(last + shift + (last < total ? 3 : 0) - caret_pos, 1);
+    const int length = std::clamp(where.length, 1, std::max(room, 1));
+    const std::string number = std::to_string(where.line);
+    const std::size_t width = std::max<std::size_t>(number.size(), 5);
+    out += fmt::format("\n{:>{}} | {}", number, width, quoted);
+    if (where.column > 0) {
+      out += fmt::format("\n{:>{}} | {}^{}", "", width,
+                         std::string(static_cast<std::size_t>(caret_pos), ' '),
+                         std::string(static_cast<std::size_t>(length - 1), '~'));
+    }
+  }
+  if (!diagnostic.hint.empty()) out += fmt::format("\nhint: {}", diagnostic.hint);
+  for (const auto& [place, text] : diagnostic.notes) {
+    out += fmt::format("\nnote: {}{}", Place(place), text);
+  }
+  return out;
+}
+
+std::string FormatDiagnostics(const std::vector<Diagnostic>& diagnostics,
+                              std::string_view source_text) {
+  std::string out;
+  for (const Diagnostic& d : diagnostics) {
+    out += FormatDiagnostic(d, source_text);
+    out += '\n';
+  }
+  if (diagnostics.size() > 1) out += fmt::format("{} errors\n", diagnostics.size());
+  return out;
+}
+
+std::string SuggestName(std::string_view wrong, const std::vector<std::string>& candidates) {
+  if (wrong.empty() || wrong.size() > 64) return "";
+  const std::string* best = nullptr;
+  int best_folded = 0, best_exact = 0;
+  for (const std::string& c : candidates) {
+    if (c.empty() || c.size() > 64 || c == wrong) continue;
+    const int longest = static_cast<int>(std::max(wrong.size(), c.size()));
+    const int gap = std::abs(static_cast<int>(wrong.size()) - static_cast<int>(c.size()));
+    if (gap > std::max(1, longest / 3)) continue;  // cannot be close enough
+    const int folded = EditDistance(wrong, c, true);
+    const int exact = EditDistance(wrong, c, false);
+    if (!best || folded < best_folded || (folded == best_folded && exact < best_exact)) {
+      best = &c;
+      best_folded = folded;
+      best_exact = exact;
+    }
+  }
+  if (!best) return "";
+  // Close enough to be a typo: a case-only difference, or about one edit in three
+  // characters (common practice, no source).
+  const int longest = static_cast<int>(std::max(wrong.size(), best->size()));
+  const int allowed = std::max(1, longest / 3);
+  if (best_folded == 0 ||
+      (best_folded <= allowed && best_folded < static_cast<int>(wrong.size()))) {
+    return *best;
+  }
+  return "";
+}
+
+}  // namespace knee

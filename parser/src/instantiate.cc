@@ -1,0 +1,800 @@
+// Elaborate: from parsed statements to a Circuit with every value a number, every name
+// resolved, and the requests (bias, sweep, show, expect) resolved against it.
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <deque>
+#include <map>
+#include <unordered_map>
+
+#include "expr.h"
+#include "knee/diagnostics.h"
+#include "knee/diode_law.h"
+#include "knee/netlist.h"
+#include "lexer.h"
+#include "numbers.h"
+#include "part_keys.h"
+#include "ranges.h"
+#include "syntax.h"
+
+namespace knee {
+namespace {
+
+// Names that a netlist may not define: the reference node, the temp target, and the
+// functions and constants of expressions.
+bool IsReserved(std::string_view name) {
+  if (name == "gnd" || name == "temp") return true;
+  if (IsFunctionName(name) || ConstantValue(name)) return true;
+  return false;
+}
+
+enum class DefKind { kParam, kPart, kElement, kNode };
+
+struct Definition {
+  DefKind kind = DefKind::kNode;
+  int index = -1;  // into params / parts / elements / circuit nodes
+  Span span;       // first appearance
+};
+
+std::string KindWord(const NetlistData& d, const Definition& def) {
+  switch (def.kind) {
+    case DefKind::kParam:
+      return "param";
+    case DefKind::kPart:
+      return "part";
+    case DefKind::kNode:
+      return "node";
+    case DefKind::kElement:
+      return ElementKindName(d.elements[static_cast<std::size_t>(def.index)].kind);
+  }
+  return "name";
+}
+
+ValuePlace ElementPlace(ElementKind kind) {
+  switch (kind) {
+    case ElementKind::kResistor:
+      return {"a resistor value", "Ohm"};
+    case ElementKind::kVoltageSource:
+      return {"a vsource value", "V"};
+    case ElementKind::kCurrentSource:
+      return {"an isource value", "A"};
+    case ElementKind::kDiode:
+      break;
+  }
+  return {"a value", "*"};
+}
+
+constexpr ValuePlace kTempPlace{"a temperature", "C"};
+constexpr ValuePlace kAreaPlace{"an area factor", ""};
+
+std::string Number(double v) { return fmt::format("{}", v); }
+
+class Elaborator {
+ public:
+  Elaborator(const Netlist& netlist, const Overrides& overrides)
+      : netlist_(netlist), d_(netlist.data()), file_(d_.file_name), overrides_(overrides) {}
+
+  bool Run(Circuit* circuit) {
+    RegisterNames();
+    if (Full()) return false;
+    ApplyOverrides();
+    if (Full()) return false;
+    EvaluateParams();
+    if (Full()) return false;
+    BuildCircuit(circuit);
+    return errors_.empty();
+  }
+
+  void Requests(const Circuit& circuit, Design* design) {
+    design->bias_requested = d_.bias || d_.sweeps.empty();
+    for (const SweepStmt& s : d_.sweeps) {
+      std::vector<SweepAxis> axes;
+      bool ok = true;
+      for (const SweepPairStmt& p : s.pairs) {
+        const bool duplicate = std::any_of(axes.begin(), axes.end(), [&](const SweepAxis& a) {
+          return a.target.name == p.target;
+        });
+        if (duplicate) {
+          Error(p.target_span,
+                fmt::format("sweep target '{}' appears twice in one sweep", p.target));
+          ok = false;
+          continue;
+        }
+        Result<SweepAxis> axis =
+            ResolveSweepAxis(p.target, p.range, netlist_, circuit, ToLocation(file_, p.target_span),
+                             ToLocation(file_, p.range_span));
+        if (!axis.ok()) {
+          Take(std::move(axis).take_errors());
+          ok = false;
+          continue;
+        }
+        axes.push_back(std::move(*axis));
+      }
+      if (ok) design->sweeps.push_back(std::move(axes));
+    }
+    for (const QuantityText& q : d_.show) {
+      Result<QuantityExpr> r = ParseQuantity(q.text, circuit, ToLocation(file_, q.span));
+      if (!r.ok()) {
+        Take(std::move(r).take_errors());
+        continue;
+      }
+      design->show.push_back(std::move(*r));
+    }
+    for (const ExpectStmt& e : d_.expects) {
+      Result<QuantityExpr> q =
+          ParseQuantity(e.quantity.text, circuit, ToLocation(file_, e.quantity.span));
+      if (!q.ok()) {
+        Take(std::move(q).take_errors());
+        continue;
+      }
+      const std::string unit = q->unit();
+      const ValuePlace place{"the expected value",
+                             unit.empty() ? std::string_view("*") : std::string_view(unit)};
+      std::optional<double> value = Evaluate(e.value, &place);
+      if (!value) continue;
+      Expectation x{std::move(*q), *value, 0.05, true, ToLocation(file_, e.quantity.span)};
+      if (e.tolerance) {
+        const Value& t = *e.tolerance;
+        if (t.unit == "%") {
+          x.tolerance = t.number;
+          x.relative = true;
+        } else {
+          const ValuePlace tol_place{"a tolerance", place.unit};
+          std::optional<double> tol = Evaluate(t, &tol_place);
+          if (!tol) continue;
+          x.tolerance = *tol;
+          x.relative = false;
+        }
+        if (!(x.tolerance > 0)) {
+          Error(t.span, fmt::format("tolerance {} must be > 0", t.text));
+          continue;
+        }
+      }
+      design->expects.push_back(std::move(x));
+    }
+  }
+
+  std::vector<Diagnostic> TakeErrors() {
+    if (errors_.size() > static_cast<std::size_t>(kMaxDiagnostics)) {
+      errors_.resize(static_cast<std::size_t>(kMaxDiagnostics));
+    }
+    return std::move(errors_);
+  }
+
+ private:
+  bool Full() const { return errors_.size() >= static_cast<std::size_t>(kMaxDiagnostics); }
+
+  Diagnostic& Error(const Span& span, std::string message, std::string hint = "") {
+    errors_.push_back(
+        MakeError(span.line == 0 ? "" : file_, span, std::move(message), std::move(hint)));
+    return errors_.back();
+  }
+  void Take(std::vector<Diagnostic> errors) {
+    for (Diagnostic& d : errors) {
+      if (!d.message.empty()) errors_.push_back(std::move(d));
+    }
+  }
+  void Note(Diagnostic* d, const Span& span, std::string text) {
+    d->notes.push_back({ToLocation(file_, span), std::move(text)});
+  }
+  std::string Suggest(std::string_view wrong, const std::vector<std::string>& names) {
+    const std::string near = SuggestName(wrong, names);
+    return near.empty() ? "" : fmt::format("did you mean '{}'?", near);
+  }
+  std::vector<std::string> NamesOf(std::initializer_list<DefKind> kinds) const {
+    std::vector<std::string> names;
+    for (const auto& [name, def] : names_) {
+      if (std::find(kinds.begin(), kinds.end(), def.kind) != kinds.end()) names.push_back(name);
+    }
+    std::sort(names.begin(), names.end());
+    return names;
+  }
+
+  // --- names -------------------------------------------------------------------------
+
+  void Define(const std::string& name, DefKind kind, int index, const Span& span) {
+    if (IsReserved(name)) {
+      Error(span, fmt::format("'{}' is a reserved name; choose another name for this {}", name,
+                              kind == DefKind::kParam  ? "param"
+                              : kind == DefKind::kPart ? "part"
+                                                       : "element"));
+      return;
+    }
+    auto [it, inserted] = names_.try_emplace(name, Definition{kind, index, span});
+    if (inserted) return;
+    const Definition here{kind, index, span};
+    Diagnostic& d = Error(span, fmt::format("'{}' is already the name of a {} (line {}); "
+                                            "elements, nodes, parts and params share one "
+                                            "namespace",
+                                            name, KindWord(d_, it->second), it->second.span.line));
+    Note(&d, it->second.span,
+         fmt::format("'{}' is defined here as a {}", name, KindWord(d_, it->second)));
+    (void)here;
+  }
+
+  void RegisterNames() {
+    struct Item {
+      const std::string* name;
+      DefKind kind;
+      int index;
+      Span span;
+    };
+    std::vector<Item> items;
+    items.reserve(d_.params.size() + d_.parts.size() + d_.elements.size());
+    for (std::size_t i = 0; i < d_.params.size(); ++i) {
+      items.push_back(
+          {&d_.params[i].name, DefKind::kParam, static_cast<int>(i), d_.params[i].name_span});
+    }
+    for (std::size_t i = 0; i < d_.parts.size(); ++i) {
+      items.push_back(
+          {&d_.parts[i].name, DefKind::kPart, static_cast<int>(i), d_.parts[i].name_span});
+    }
+    for (std::size_t i = 0; i < d_.elements.size(); ++i) {
+      items.push_back(
+          {&d_.elements[i].name, DefKind::kElement, static_cast<int>(i), d_.elements[i].name_span});
+    }
+    // In file order, so that the later of two definitions is the one reported.
+    std::stable_sort(items.begin(), items.end(), [](const Item& a, const Item& b) {
+      return a.span.line != b.span.line ? a.span.line < b.span.line : a.span.column < b.span.column;
+    });
+    names_.reserve(items.size() * 2);
+    for (const Item& item : items) Define(*item.name, item.kind, item.index, item.span);
+  }
+
+  // --- overrides ---------------------------------------------------------------------
+
+  // Parses the value of one --set; errors carry the option in their message.
+  std::optional<Value> OverrideValue(const Override& o, const std::string& what) {
+    const LogicalLine line = SyntheticLine(o.value_text, Span{});
+    Scanner scanner(line);
+    std::vector<Diagnostic> errors;
+    Value value;
+    bool ok = ParseValue(&scanner, "", what, &value, &errors);
+    if (ok && !scanner.AtEnd()) {
+      const Token t = scanner.NextWord();
+      errors.push_back(
+          MakeError("", Span{}, fmt::format("unexpected '{}' after the value", t.text)));
+      ok = false;
+    }
+    if (!ok) {
+      for (Diagnostic& e : errors) {
+        e.message = fmt::format("--set {}={}: {}", o.name, o.value_text, e.message);
+      }
+      Take(std::move(errors));
+      return std::nullopt;
+    }
+    value.text = o.value_text;
+    return value;
+  }
+
+  void ApplyOverrides() {
+    for (const Override& o : overrides_.sets) {
+      const std::string context = fmt::format("--set {}={}", o.name, o.value_text);
+      const std::size_t dot = o.name.find('.');
+      if (o.name == "temp") {
+        if (auto v = OverrideValue(o, "a temperature")) Store(&temp_override_, std::move(*v));
+        continue;
+      }
+      if (dot != std::string::npos) {
+        const std::string part = o.name.substr(0, dot);
+        const std::string key = o.name.substr(dot + 1);
+        auto it = names_.find(part);
+        if (it == names_.end() || it->second.kind != DefKind::kPart) {
+          Error(Span{}, fmt::format("{}: there is no part named '{}'", context, part),
+                Suggest(part, NamesOf({DefKind::kPart})));
+          continue;
+        }
+        if (!FindPartKey(key)) {
+          Error(Span{}, fmt::format("{}: '{}' is not a part key", context, key),
+                Suggest(key, PartKeyNames()));
+          continue;
+        }
+        if (auto v = OverrideValue(o, fmt::format("a value for {}", key))) {
+          part_overrides_[{it->second.index, key}] = Keep(std::move(*v));
+        }
+        continue;
+      }
+      auto it = names_.find(o.name);
+      if (it == names_.end()) {
+        Error(Span{},
+              fmt::format("{}: there is no param, element or part key named '{}'", context, o.name),
+              Suggest(o.name, NamesOf({DefKind::kParam, DefKind::kElement})));
+        continue;
+      }
+      const Definition& def = it->second;
+      if (def.kind == DefKind::kParam) {
+        if (auto v = OverrideValue(o, "a param value")) {
+          param_overrides_[def.index] = Keep(std::move(*v));
+        }
+      } else if (def.kind == DefKind::kElement) {
+        const ElementStmt& e = d_.elements[static_cast<std::size_t>(def.index)];
+        if (e.kind == ElementKind::kDiode) {
+          Error(Span{}, fmt::format("{}: diode '{}' has no value to set; set a key of its part "
+                                    "instead ({}.KEY)",
+                                    context, o.name, e.part));
+          continue;
+        }
+        if (auto v = OverrideValue(o, std::string(ElementPlace(e.kind).what))) {
+          element_overrides_[def.index] = Keep(std::move(*v));
+        }
+      } else {
+        Error(Span{}, fmt::format("{}: '{}' is a {}; --set takes a param, an element value or "
+                                  "PART.key",
+                                  context, o.name, KindWord(d_, def)));
+      }
+    }
+  }
+
+  const Value* Keep(Value v) {
+    kept_.push_back(std::move(v));
+    return &kept_.back();
+  }
+  void Store(const Value** slot, Value v) { *slot = Keep(std::move(v)); }
+
+  // --- evaluation --------------------------------------------------------------------
+
+  // The meaning of a name inside an expression: a param's value.
+  Result<double> LookupParam(const Expr& name_node) {
+    const std::string& name = name_node.name;
+    auto it = names_.find(name);
+    if (it != names_.end() && it->second.kind == DefKind::kParam) {
+      const auto i = static_cast<std::size_t>(it->second.index);
+      if (param_state_[i] == kDone) return param_values_[i];
+      return Diagnostic{};  // already reported (a failed or cyclic param)
+    }
+    const std::string file = name_node.span.line == 0 ? "" : file_;
+    if (it != names_.end()) {
+      return MakeError(file, name_node.span,
+                       fmt::format("'{}' is a {}, not a param; an expression can use params and "
+                                   "the constants pi, k_boltzmann and q_electron",
+                                   name, KindWord(d_, it->second)));
+    }
+    if (name.find('.') != std::string::npos) {
+      return MakeError(file, name_node.span,
+                       fmt::format("'{}' is a quantity; a value can use params only", name));
+    }
+    std::vector<std::string> candidates = NamesOf({DefKind::kParam});
+    candidates.insert(candidates.end(), {"pi", "k_boltzmann", "q_electron"});
+    return MakeError(file, name_node.span, fmt::format("undefined param '{}'", name),
+                     Suggest(name, candidates));
+  }
+
+  // The number of a value at a place (nullptr: inside an expression, any unit).
+  std::optional<double> Evaluate(const Value& v, const ValuePlace* place,
+                                 const std::string& context = "") {
+    auto fail = [&](std::vector<Diagnostic> errors) -> std::optional<double> {
+      for (Diagnostic& e : errors) {
+        if (!context.empty() && !e.message.empty()) {
+          e.message = fmt::format("{}: {}", context, e.message);
+        }
+      }
+      Take(std::move(errors));
+      return std::nullopt;
+    };
+    const std::string file = v.span.line == 0 ? "" : file_;
+    switch (v.kind) {
+      case Value::Kind::kLiteral: {
+        double out = 0;
+        std::string message, hint;
+        NumberLiteral literal{v.number, v.unit, 0};
+        if (place) {
+          if (!ApplyPlace(literal, v.text, *place, &out, &message, &hint)) {
+            return fail({MakeError(file, v.unit_span, message, hint)});
+          }
+        } else {
+          if (v.unit == "K" || v.unit == "C") {
+            return fail({MakeError(file, v.unit_span,
+                                   fmt::format("unit '{}' is not allowed in a param value (no "
+                                               "conversion happens there)",
+                                               v.unit))});
+          }
+          out = v.number;
+        }
+        return out;
+      }
+      case Value::Kind::kName: {
+        Expr node;
+        node.kind = Expr::Kind::kName;
+        node.name = v.text;
+        node.span = v.span;
+        if (auto c = ConstantValue(v.text)) return *c;
+        Result<double> r = LookupParam(node);
+        if (!r.ok()) return fail(std::move(r).take_errors());
+        return *r;
+      }
+      case Value::Kind::kExpr: {
+        Result<double> r = EvaluateExpr(
+            *v.expr, [this](const Expr& n) { return LookupParam(n); }, file);
+        if (!r.ok()) return fail(std::move(r).take_errors());
+        return *r;
+      }
+    }
+    return std::nullopt;
+  }
+
+  const Value& ParamValue(std::size_t i) const {
+    auto it = param_overrides_.find(static_cast<int>(i));
+    return it != param_overrides_.end() ? *it->second : d_.params[i].value;
+  }
+
+  // Params in dependency order (iterative depth-first search); a cycle is reported once
+  // with every param on it.
+  void EvaluateParams() {
+    const std::size_t n = d_.params.size();
+    param_state_.assign(n, kUnvisited);
+    param_values_.assign(n, 0.0);
+    std::vector<std::vector<int>> deps(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      const Value& v = ParamValue(i);
+      std::vector<const Expr*> used;
+      if (v.kind == Value::Kind::kExpr) CollectNames(*v.expr, &used);
+      std::vector<std::string> names;
+      for (const Expr* e : used) names.push_back(e->name);
+      if (v.kind == Value::Kind::kName) names.push_back(v.text);
+      for (const std::string& name : names) {
+        auto it = names_.find(name);
+        if (it != names_.end() && it->second.kind == DefKind::kParam) {
+          deps[i].push_back(it->second.index);
+        }
+      }
+    }
+    std::vector<std::pair<int, std::size_t>> stack;  // param, next dependency
+    for (std::size_t root = 0; root < n && !Full(); ++root) {
+      if (param_state_[root] != kUnvisited) continue;
+      stack.push_back({static_cast<int>(root), 0});
+      param_state_[root] = kOnStack;
+      while (!stack.empty()) {
+        auto& [p, next] = stack.back();
+        const auto pi = static_cast<std::size_t>(p);
+        if (next < deps[pi].size()) {
+          const int q = deps[pi][next++];
+          const auto qi = static_cast<std::size_t>(q);
+          if (param_state_[qi] == kUnvisited) {
+            param_state_[qi] = kOnStack;
+            stack.push_back({q, 0});
+          } else if (param_state_[qi] == kOnStack) {
+            ReportCycle(stack, q);
+          }
+          continue;
+        }
+        if (param_state_[pi] == kOnStack) {
+          const ValuePlace* none = nullptr;
+          const std::size_t before = errors_.size();
+          std::optional<double> v = Evaluate(ParamValue(pi), none, OverrideContext(pi));
+          if (v && std::isfinite(*v)) {
+            param_values_[pi] = *v;
+            param_state_[pi] = kDone;
+          } else {
+            if (v && errors_.size() == before) {
+              Error(ParamValue(pi).span,
+                    fmt::format("param '{}' is not a finite number", d_.params[pi].name));
+            }
+            param_state_[pi] = kFailed;
+          }
+        }
+        stack.pop_back();
+      }
+    }
+  }
+
+  std::string OverrideContext(std::size_t param) const {
+    auto it = param_overrides_.find(static_cast<int>(param));
+    if (it == param_overrides_.end()) return "";
+    return fmt::format("--set {}={}", d_.params[param].name, it->second->text);
+  }
+
+  void ReportCycle(const std::vector<std::pair<int, std::size_t>>& stack, int start) {
+    std::size_t first = 0;
+    while (stack[first].first != start) ++first;
+    std::string path;
+    for (std::size_t k = first; k < stack.size(); ++k) {
+      path += d_.params[static_cast<std::size_t>(stack[k].first)].name + " -> ";
+    }
+    path += d_.params[static_cast<std::size_t>(start)].name;
+    const auto& s = d_.params[static_cast<std::size_t>(start)];
+    Diagnostic& d =
+        Error(s.name_span, fmt::format("params depend on each other in a cycle: {}", path));
+    for (std::size_t k = first + 1; k < stack.size(); ++k) {
+      const auto& p = d_.params[static_cast<std::size_t>(stack[k].first)];
+      Note(&d, p.name_span, fmt::format("'{}' is defined here", p.name));
+    }
+    for (std::size_t k = first; k < stack.size(); ++k) {
+      param_state_[static_cast<std::size_t>(stack[k].first)] = kFailed;
+    }
+  }
+
+  // --- the circuit -------------------------------------------------------------------
+
+  int NodeIndex(const std::string& name, const Span& span, const ElementStmt& e, Circuit* circuit) {
+    if (name == "gnd" || name == "0") return kGroundNode;
+    auto [it, inserted] = names_.try_emplace(name, Definition{DefKind::kNode, -1, span});
+    if (inserted) {
+      it->second.index = static_cast<int>(circuit->nodes.size());
+      circuit->nodes.push_back(name);
+      return it->second.index;
+    }
+    if (it->second.kind == DefKind::kNode) return it->second.index;
+    Diagnostic& d = Error(span, fmt::format("'{}' is used as a node of {} '{}' but is the name "
+                                            "of a {} (line {})",
+                                            name, ElementKindName(e.kind), e.name,
+                                            KindWord(d_, it->second), it->second.span.line));
+    Note(&d, it->second.span,
+         fmt::format("'{}' is defined here as a {}", name, KindWord(d_, it->second)));
+    return -1;
+  }
+
+  void BuildParts(Circuit* circuit) {
+    circuit->parts.reserve(d_.parts.size());
+    for (std::size_t i = 0; i < d_.parts.size() && !Full(); ++i) {
+      const PartStmt& s = d_.parts[i];
+      Part part;
+      part.name = s.name;
+      part.where = ToLocation(file_, s.name_span);
+      std::map<std::string, const PartKeyStmt*> given;
+      for (const PartKeyStmt& k : s.keys) {
+        const PartKeyInfo* info = FindPartKey(k.key);
+        if (!info) {
+          Error(k.key_span, fmt::format("unknown part key '{}' in part '{}'", k.key, s.name),
+                Suggest(k.key, PartKeyNames()));
+          continue;
+        }
+        auto [it, inserted] = given.try_emplace(k.key, &k);
+        if (!inserted) {
+          Diagnostic& d = Error(k.key_span, fmt::format("part key '{}' is given twice in part "
+                                                        "'{}'",
+                                                        k.key, s.name));
+          Note(&d, it->second->key_span, "the first value is here");
+          continue;
+        }
+        auto over = part_overrides_.find({static_cast<int>(i), k.key});
+        if (over == part_overrides_.end()) SetKey(&part, *info, k.value, "");
+      }
+      for (const auto& [key, value] : part_overrides_) {
+        if (key.first != static_cast<int>(i)) continue;
+        SetKey(&part, *FindPartKey(key.second), *value,
+               fmt::format("--set {}.{}={}", s.name, key.second, value->text));
+      }
+      circuit->parts.push_back(std::move(part));
+    }
+  }
+
+  void SetKey(Part* part, const PartKeyInfo& info, const Value& value, const std::string& context) {
+    const ValuePlace place = PartKeyPlace(info);
+    std::optional<double> v = Evaluate(value, &place, context);
+    if (!v) return;
+    if (!PartKeyValueOk(info, *v)) {
+      Diagnostic& d = Error(value.span, fmt::format("{}part '{}': {} = {} is out of range; it "
+                                                    "must be {}",
+                                                    context.empty() ? "" : context + ": ",
+                                                    part->name, info.key, Number(*v), info.rule));
+      (void)d;
+      return;
+    }
+    SetPartKey(&part->model, info.key, *v);
+  }
+
+  void BuildCircuit(Circuit* circuit) {
+    if (d_.title) circuit->title = *d_.title;
+    // Circuit temperature: --temp, else --set temp=, else the temp statement, else 25.
+    if (overrides_.temp) {
+      circuit->temp = *overrides_.temp;
+    } else if (temp_override_) {
+      if (auto t = Evaluate(*temp_override_, &kTempPlace,
+                            fmt::format("--set temp={}", temp_override_->text))) {
+        circuit->temp = *t;
+      }
+    } else if (d_.temp) {
+      if (auto t = Evaluate(*d_.temp, &kTempPlace)) circuit->temp = *t;
+    }
+    if (!(circuit->temp > -kZeroCelsius)) {
+      Error(d_.temp && !overrides_.temp ? d_.temp->span : Span{},
+            fmt::format("circuit temperature {} C is not above absolute zero (-273.15 C)",
+                        Number(circuit->temp)));
+    }
+    BuildParts(circuit);
+    circuit->elements.reserve(d_.elements.size());
+    for (std::size_t i = 0; i < d_.elements.size() && !Full(); ++i) {
+      const ElementStmt& s = d_.elements[i];
+      Element e;
+      e.kind = s.kind;
+      e.name = s.name;
+      e.where = ToLocation(file_, s.name_span);
+      const int a = NodeIndex(s.node_a, s.a_span, s, circuit);
+      const int b = NodeIndex(s.node_b, s.b_span, s, circuit);
+      e.node_a = std::max(a, 0);
+      e.node_b = std::max(b, 0);
+      if (s.kind == ElementKind::kDiode) {
+        BuildDiode(s, &e);
+      } else {
+        auto over = element_overrides_.find(static_cast<int>(i));
+        const Value& value = over != element_overrides_.end() ? *over->second : s.value;
+        const std::string context =
+            over != element_overrides_.end() ? fmt::format("--set {}={}", s.name, value.text) : "";
+        const ValuePlace place = ElementPlace(s.kind);
+        if (auto v = Evaluate(value, &place, context)) {
+          e.value = *v;
+          if (s.kind == ElementKind::kResistor && !(*v > 0)) {
+            Error(value.span,
+                  fmt::format("{}resistor '{}' has resistance {} Ohm; it must be > 0",
+                              context.empty() ? "" : context + ": ", s.name, Number(*v)));
+          }
+        }
+      }
+      circuit->elements.push_back(std::move(e));
+    }
+  }
+
+  void BuildDiode(const ElementStmt& s, Element* e) {
+    auto it = names_.find(s.part);
+    if (it == names_.end() || it->second.kind != DefKind::kPart) {
+      if (it != names_.end()) {
+        Diagnostic& d = Error(s.part_span, fmt::format("'{}' is a {}, not a part; expected the "
+                                                       "name of a 'part' statement",
+                                                       s.part, KindWord(d_, it->second)));
+        Note(&d, it->second.span, fmt::format("'{}' is defined here", s.part));
+        return;
+      }
+      const std::string near = SuggestName(s.part, NamesOf({DefKind::kPart}));
+      Diagnostic& d = Error(s.part_span,
+                            fmt::format("unknown part '{}'; expected the name of a 'part' "
+                                        "statement",
+                                        s.part),
+                            near.empty() ? "" : fmt::format("did you mean '{}'?", near));
+      if (!near.empty()) Note(&d, names_[near].span, fmt::format("'{}' is defined here", near));
+      return;
+    }
+    e->part = it->second.index;
+    if (s.area) {
+      if (auto v = Evaluate(*s.area, &kAreaPlace)) {
+        e->area = *v;
+        if (!(*v > 0)) {
+          Error(s.area->span,
+                fmt::format("diode '{}' has area {}; it must be > 0", s.name, Number(*v)));
+        }
+      }
+    }
+    if (s.temp) {
+      if (auto v = Evaluate(*s.temp, &kTempPlace)) {
+        e->temp = *v;
+        if (!(*v > -kZeroCelsius)) {
+          Error(s.temp->span, fmt::format("diode '{}' has temperature {} C; it must be above "
+                                          "absolute zero (-273.15 C)",
+                                          s.name, Number(*v)));
+        }
+      }
+    }
+  }
+
+  static constexpr char kUnvisited = 0, kOnStack = 1, kDone = 2, kFailed = 3;
+
+  const Netlist& netlist_;
+  const NetlistData& d_;
+  const std::string& file_;
+  const Overrides& overrides_;
+  std::vector<Diagnostic> errors_;
+  std::unordered_map<std::string, Definition> names_;
+  std::deque<Value> kept_;  // override values (stable addresses)
+  std::map<int, const Value*> param_overrides_;
+  std::map<int, const Value*> element_overrides_;
+  std::map<std::pair<int, std::string>, const Value*> part_overrides_;
+  const Value* temp_override_ = nullptr;
+  std::vector<char> param_state_;
+  std::vector<double> param_values_;
+};
+
+}  // namespace
+
+Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overrides) {
+  Elaborator e(netlist, overrides);
+  Circuit circuit;
+  if (!e.Run(&circuit)) return e.TakeErrors();
+  return circuit;
+}
+
+Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides) {
+  Elaborator e(netlist, overrides);
+  Design design;
+  if (!e.Run(&design.circuit)) return e.TakeErrors();
+  e.Requests(design.circuit, &design);
+  std::vector<Diagnostic> errors = e.TakeErrors();
+  if (!errors.empty()) return errors;
+  return design;
+}
+
+Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& netlist,
+                                       const Circuit& circuit, const SourceLocation& where) {
+  SweepTarget t;
+  t.name = std::string(name);
+  const Span span = ToSpan(where);
+  const std::string& file = where.file;
+  if (name == "temp") {
+    t.kind = SweepTarget::Kind::kTemp;
+    return t;
+  }
+  const std::size_t dot = name.find('.');
+  if (dot != std::string_view::npos) {
+    const std::string part(name.substr(0, dot));
+    const std::string key(name.substr(dot + 1));
+    const int index = circuit.FindPart(part);
+    if (index < 0) {
+      std::vector<std::string> parts;
+      for (const Part& p : circuit.parts) parts.push_back(p.name);
+      const std::string near = SuggestName(part, parts);
+      return MakeError(file, span,
+                       fmt::format("unknown part '{}' in the sweep target '{}'", part, name),
+                       near.empty() ? "" : fmt::format("did you mean '{}'?", near));
+    }
+    if (!FindPartKey(key)) {
+      const std::string near = SuggestName(key, PartKeyNames());
+      return MakeError(file, span, fmt::format("'{}' is not a part key", key),
+                       near.empty() ? "" : fmt::format("did you mean '{}.{}'?", part, near));
+    }
+    t.kind = SweepTarget::Kind::kPartKey;
+    t.index = index;
+    t.key = key;
+    return t;
+  }
+  const int element = circuit.FindElement(name);
+  if (element >= 0) {
+    const Element& e = circuit.elements[static_cast<std::size_t>(element)];
+    if (e.kind == ElementKind::kDiode) {
+      return MakeError(file, span,
+                       fmt::format("diode '{}' has no value to sweep; sweep a key of its part "
+                                   "(PART.key) or temp",
+                                   name));
+    }
+    t.kind = SweepTarget::Kind::kElement;
+    t.index = element;
+    return t;
+  }
+  std::vector<std::string> candidates = {"temp"};
+  for (const ParamStmt& p : netlist.data().params) {
+    if (p.name == name) {
+      t.kind = SweepTarget::Kind::kParam;
+      return t;
+    }
+    candidates.push_back(p.name);
+  }
+  for (const Element& e : circuit.elements) {
+    if (e.kind != ElementKind::kDiode) candidates.push_back(e.name);
+  }
+  const std::string near = SuggestName(name, candidates);
+  return MakeError(file, span,
+                   fmt::format("unknown sweep target '{}'; expected an element, a param, "
+                               "PART.key or temp",
+                               name),
+                   near.empty() ? "" : fmt::format("did you mean '{}'?", near));
+}
+
+Result<SweepAxis> ResolveSweepAxis(std::string_view target, std::string_view range,
+                                   const Netlist& netlist, const Circuit& circuit,
+                                   const SourceLocation& target_where,
+                                   const SourceLocation& range_where) {
+  Result<SweepTarget> t = ResolveSweepTarget(target, netlist, circuit, target_where);
+  if (!t.ok()) return std::move(t).take_errors();
+  ValuePlace place{"a range", "*"};
+  switch (t->kind) {
+    case SweepTarget::Kind::kTemp:
+      place = kTempPlace;
+      break;
+    case SweepTarget::Kind::kElement:
+      place = ElementPlace(circuit.elements[static_cast<std::size_t>(t->index)].kind);
+      break;
+    case SweepTarget::Kind::kPartKey:
+      place = PartKeyPlace(*FindPartKey(t->key));
+      break;
+    case SweepTarget::Kind::kParam:
+      break;
+  }
+  SweepAxis axis;
+  Result<std::vector<double>> values = ExpandRangeIn(range, range_where, place, &axis.logarithmic);
+  if (!values.ok()) return std::move(values).take_errors();
+  axis.target = std::move(*t);
+  axis.values = std::move(*values);
+  axis.range_text = std::string(range);
+  axis.where = target_where;
+  return axis;
+}
+
+}  // namespace knee

@@ -1,0 +1,480 @@
+// ParseNetlist: statements (netlist-format.md, "Statements") from the scanner's tokens.
+// Values stay unevaluated; names are resolved later by Elaborate.
+#include <fmt/format.h>
+
+#include <array>
+
+#include "expr.h"
+#include "knee/diagnostics.h"
+#include "knee/netlist.h"
+#include "lexer.h"
+#include "numbers.h"
+#include "syntax.h"
+
+namespace knee {
+namespace {
+
+constexpr std::array<const char*, 12> kKeywords = {"title",    "temp",    "param",   "part",
+                                                   "resistor", "vsource", "isource", "diode",
+                                                   "bias",     "sweep",   "show",    "expect"};
+
+std::string Quote(const Token& t) {
+  if (t.kind == Tok::kEnd) return "the end of the line";
+  if (t.kind == Tok::kString) return fmt::format("\"{}\"", t.text);
+  return fmt::format("'{}'", t.text);
+}
+
+bool StartsLikeNumber(std::string_view w) {
+  const char c = w[0];
+  return (c >= '0' && c <= '9') || c == '.' || c == '-' || c == '+';
+}
+
+bool ValueError(const std::string& file, std::vector<Diagnostic>* errors, const Span& span,
+                std::string message, std::string hint = "") {
+  errors->push_back(MakeError(file, span, std::move(message), std::move(hint)));
+  return false;
+}
+bool ValueError(Scanner* scanner, const std::string& file, std::vector<Diagnostic>* errors,
+                const Token& t, std::string message) {
+  if (t.kind == Tok::kError) return ValueError(file, errors, scanner->SpanOf(t), t.error);
+  return ValueError(file, errors, scanner->SpanOf(t), std::move(message));
+}
+
+}  // namespace
+
+bool ParseValue(Scanner* scanner, const std::string& file, const std::string& what, Value* value,
+                std::vector<Diagnostic>* errors) {
+  const Token t = scanner->NextWord();
+  if (t.kind == Tok::kLParen) {
+    ExprParser parser(scanner, file, errors);
+    auto expr = parser.ParseParenthesized(t);
+    if (!expr) return false;
+    value->kind = Value::Kind::kExpr;
+    value->expr = std::move(expr);
+    value->text = std::string(scanner->Text(t.begin, scanner->offset()));
+    value->span = scanner->SpanOf(t.begin, scanner->offset());
+    return true;
+  }
+  if (t.kind == Tok::kWord && StartsLikeNumber(t.text)) {
+    NumberLiteral literal;
+    NumberError error;
+    if (!ParseNumber(t.text, &literal, &error)) {
+      return ValueError(
+          file, errors,
+          scanner->SpanOf(t.begin + error.offset, t.begin + error.offset + error.length),
+          error.message, error.hint);
+    }
+    value->kind = Value::Kind::kLiteral;
+    value->number = literal.value;
+    value->unit = literal.unit;
+    value->text = std::string(t.text);
+    value->span = scanner->SpanOf(t);
+    value->unit_span = scanner->SpanOf(t.begin + literal.unit_offset, t.end);
+    return true;
+  }
+  if (t.kind == Tok::kWord && IsName(t.text)) {
+    value->kind = Value::Kind::kName;
+    value->text = std::string(t.text);
+    value->span = scanner->SpanOf(t);
+    return true;
+  }
+  if (t.kind == Tok::kEnd) {
+    return ValueError(scanner, file, errors, t, fmt::format("expected {} but the line ends", what));
+  }
+  return ValueError(scanner, file, errors, t,
+                    fmt::format("expected {} (a number, a param name or an expression in "
+                                "parentheses) but found {}",
+                                what, Quote(t)));
+}
+
+namespace {
+
+struct Seen {
+  Span title, temp;
+};
+
+class StatementParser {
+ public:
+  StatementParser(const LogicalLine& line, NetlistData* data, std::vector<Diagnostic>* errors,
+                  Seen* seen)
+      : scanner_(line), data_(data), errors_(errors), seen_(seen) {}
+
+  void Parse() {
+    const Token first = scanner_.NextWord();
+    if (first.kind == Tok::kEnd) return;
+    if (first.kind != Tok::kWord) {
+      Error(first, fmt::format("expected a statement keyword at the start of the line but "
+                               "found {}",
+                               Quote(first)));
+      return;
+    }
+    keyword_ = first.text;
+    keyword_span_ = scanner_.SpanOf(first);
+    bool ok = false;
+    if (keyword_ == "title") {
+      ok = ParseTitle();
+    } else if (keyword_ == "temp") {
+      ok = ParseTemp();
+    } else if (keyword_ == "param") {
+      ok = ParseParam();
+    } else if (keyword_ == "part") {
+      ok = ParsePart();
+    } else if (keyword_ == "resistor") {
+      ok = ParseElement(ElementKind::kResistor);
+    } else if (keyword_ == "vsource") {
+      ok = ParseElement(ElementKind::kVoltageSource);
+    } else if (keyword_ == "isource") {
+      ok = ParseElement(ElementKind::kCurrentSource);
+    } else if (keyword_ == "diode") {
+      ok = ParseElement(ElementKind::kDiode);
+    } else if (keyword_ == "bias") {
+      if (!data_->bias) data_->bias_span = keyword_span_;
+      data_->bias = true;
+      ok = true;
+    } else if (keyword_ == "sweep") {
+      ok = ParseSweep();
+    } else if (keyword_ == "show") {
+      ok = ParseShow();
+    } else if (keyword_ == "expect") {
+      ok = ParseExpect();
+    } else {
+      std::vector<std::string> names(kKeywords.begin(), kKeywords.end());
+      const std::string near = SuggestName(first.text, names);
+      Error(first,
+            fmt::format("unknown keyword '{}'; a statement starts with one of title, temp, "
+                        "param, part, resistor, vsource, isource, diode, bias, sweep, show, "
+                        "expect",
+                        first.text),
+            near.empty() ? "" : fmt::format("did you mean '{}'?", near));
+      return;
+    }
+    if (ok) ExpectEnd();
+  }
+
+ private:
+  bool Error(const Span& span, std::string message, std::string hint = "") {
+    errors_->push_back(MakeError(data_->file_name, span, std::move(message), std::move(hint)));
+    return false;
+  }
+  bool Error(const Token& t, std::string message, std::string hint = "") {
+    if (t.kind == Tok::kError) return Error(scanner_.SpanOf(t), t.error);
+    return Error(scanner_.SpanOf(t), std::move(message), std::move(hint));
+  }
+
+  void ExpectEnd() {
+    const Token t = scanner_.NextWord();
+    if (t.kind == Tok::kEnd) return;
+    Error(t, fmt::format("unexpected {} at the end of the {} statement", Quote(t), keyword_));
+  }
+
+  // A name being defined or referred to; `what` says which ("element name").
+  bool TakeName(const char* what, std::string* name, Span* span, bool allow_zero = false) {
+    const Token t = scanner_.NextWord();
+    if (t.kind == Tok::kWord && (IsName(t.text) || (allow_zero && t.text == "0"))) {
+      if (t.text.size() > kMaxNameLength) {
+        return Error(t, fmt::format("name is too long ({} characters); the limit is {}",
+                                    t.text.size(), kMaxNameLength));
+      }
+      *name = std::string(t.text);
+      *span = scanner_.SpanOf(t);
+      return true;
+    }
+    if (t.kind == Tok::kEnd) {
+      return Error(t, fmt::format("expected {} after '{}' but the line ends", what, keyword_));
+    }
+    if (t.kind == Tok::kWord) {
+      return Error(t, fmt::format("expected {} but found {}; a name is a letter or '_' followed "
+                                  "by letters, digits or '_'{}",
+                                  what, Quote(t),
+                                  allow_zero ? " (the reference node is 'gnd' or '0')" : ""));
+    }
+    return Error(t, fmt::format("expected {} but found {}", what, Quote(t)));
+  }
+
+  bool TakeEquals(const std::string& after) {
+    const Token t = scanner_.NextWord();
+    if (t.kind == Tok::kEquals) return true;
+    return Error(t, fmt::format("expected '=' after {} but found {}", after, Quote(t)));
+  }
+
+  bool TakeValue(const std::string& what, Value* value) {
+    return ParseValue(&scanner_, data_->file_name, what, value, errors_);
+  }
+
+  bool ParseTitle() {
+    const Token t = scanner_.NextWord();
+    if (t.kind != Tok::kString) {
+      return Error(t, fmt::format("expected a quoted string after 'title' but found {}", Quote(t)),
+                   "write title \"my circuit\"");
+    }
+    if (data_->title) {
+      Error(keyword_span_, "a second 'title' statement; a netlist has at most one");
+      errors_->back().notes.push_back(
+          {ToLocation(data_->file_name, seen_->title), "the first 'title' is here"});
+      return false;
+    }
+    data_->title = std::string(t.text);
+    data_->title_span = scanner_.SpanOf(t);
+    seen_->title = keyword_span_;
+    return true;
+  }
+
+  bool ParseTemp() {
+    Value v;
+    if (!TakeValue("a temperature in degrees Celsius", &v)) return false;
+    if (data_->temp) {
+      Error(keyword_span_, "a second 'temp' statement; a netlist has at most one");
+      errors_->back().notes.push_back(
+          {ToLocation(data_->file_name, seen_->temp), "the first 'temp' is here"});
+      return false;
+    }
+    data_->temp = std::move(v);
+    data_->temp_span = keyword_span_;
+    seen_->temp = keyword_span_;
+    return true;
+  }
+
+  bool ParseParam() {
+    ParamStmt p;
+    if (!TakeName("a param name", &p.name, &p.name_span)) return false;
+    if (!TakeEquals(fmt::format("the param name '{}'", p.name))) return false;
+    const std::size_t begin = scanner_.offset();
+    ExprParser parser(&scanner_, data_->file_name, errors_);
+    auto expr = parser.ParseExpression();
+    if (!expr) return false;
+    const Token rest = scanner_.NextExpr();
+    if (rest.kind != Tok::kEnd) {
+      return Error(rest, fmt::format("expected an operator or the end of the line after the "
+                                     "value of param '{}' but found {}",
+                                     p.name, Quote(rest)));
+    }
+    std::size_t value_begin = begin;
+    while (value_begin < scanner_.size() && scanner_.Text(value_begin, value_begin + 1) == " ") {
+      ++value_begin;
+    }
+    std::size_t end = scanner_.size();
+    while (end > value_begin &&
+           (scanner_.Text(end - 1, end) == " " || scanner_.Text(end - 1, end) == "\t")) {
+      --end;
+    }
+    p.value.kind = Value::Kind::kExpr;
+    p.value.expr = std::move(expr);
+    p.value.text = std::string(scanner_.Text(value_begin, end));
+    p.value.span = scanner_.SpanOf(value_begin, end);
+    data_->params.push_back(std::move(p));
+    return true;
+  }
+
+  bool ParsePart() {
+    PartStmt part;
+    if (!TakeName("a part name", &part.name, &part.name_span)) return false;
+    const Token kind = scanner_.NextWord();
+    if (kind.kind != Tok::kWord || kind.text != "diode") {
+      std::string hint;
+      if (kind.kind == Tok::kWord && !SuggestName(kind.text, {"diode"}).empty()) {
+        hint = "did you mean 'diode'?";
+      }
+      return Error(kind,
+                   fmt::format("expected the part kind 'diode' after the part name but found {}",
+                               Quote(kind)),
+                   hint);
+    }
+    while (!scanner_.AtEnd()) {
+      PartKeyStmt key;
+      if (!TakeName("a part key", &key.key, &key.key_span)) return false;
+      if (!TakeEquals(fmt::format("the part key '{}'", key.key))) return false;
+      if (!TakeValue(fmt::format("a value for {}", key.key), &key.value)) return false;
+      part.keys.push_back(std::move(key));
+    }
+    data_->parts.push_back(std::move(part));
+    return true;
+  }
+
+  bool ParseElement(ElementKind kind) {
+    ElementStmt e;
+    e.kind = kind;
+    const std::string what = ElementKindName(kind);
+    if (!TakeName(fmt::format("a {} name", what).c_str(), &e.name, &e.name_span)) return false;
+    if (!TakeName("the first node", &e.node_a, &e.a_span, true)) return false;
+    const Token arrow = scanner_.NextWord();
+    if (arrow.kind != Tok::kArrow) {
+      return Error(arrow,
+                   fmt::format("expected '->' between the two nodes of {} '{}' but "
+                               "found {}",
+                               what, e.name, Quote(arrow)),
+                   fmt::format("write {} {} {} -> NODE ...", what, e.name, e.node_a));
+    }
+    if (!TakeName("the second node", &e.node_b, &e.b_span, true)) return false;
+    if (kind == ElementKind::kDiode) {
+      if (!TakeName("the name of a part", &e.part, &e.part_span)) return false;
+      while (!scanner_.AtEnd()) {
+        const Token option = scanner_.NextWord();
+        const bool known =
+            option.kind == Tok::kWord && (option.text == "area" || option.text == "temp");
+        if (!known) {
+          std::string hint;
+          if (option.kind == Tok::kWord) {
+            const std::string near = SuggestName(option.text, {"area", "temp"});
+            if (!near.empty()) hint = fmt::format("did you mean '{}'?", near);
+          }
+          return Error(option,
+                       fmt::format("expected a diode option (area=VALUE or temp=VALUE) but "
+                                   "found {}",
+                                   Quote(option)),
+                       hint);
+        }
+        std::optional<Value>& slot = option.text == "area" ? e.area : e.temp;
+        if (slot) {
+          return Error(option,
+                       fmt::format("option '{}' given twice for diode '{}'", option.text, e.name));
+        }
+        if (!TakeEquals(fmt::format("'{}'", option.text))) return false;
+        Value v;
+        if (!TakeValue(option.text == "area" ? "an area factor" : "a temperature", &v)) {
+          return false;
+        }
+        slot = std::move(v);
+      }
+    } else {
+      const char* place = kind == ElementKind::kResistor        ? "a resistance"
+                          : kind == ElementKind::kVoltageSource ? "a voltage"
+                                                                : "a current";
+      if (!TakeValue(place, &e.value)) return false;
+    }
+    data_->elements.push_back(std::move(e));
+    return true;
+  }
+
+  bool ParseSweep() {
+    SweepStmt sweep;
+    sweep.keyword_span = keyword_span_;
+    while (!scanner_.AtEnd()) {
+      SweepPairStmt pair;
+      const Token target = scanner_.NextWord();
+      if (target.kind != Tok::kWord) {
+        return Error(target, fmt::format("expected a sweep target (an element, a param, "
+                                         "PART.key or temp) but found {}",
+                                         Quote(target)));
+      }
+      pair.target = std::string(target.text);
+      pair.target_span = scanner_.SpanOf(target);
+      const Token range = scanner_.NextWord();
+      if (range.kind != Tok::kWord) {
+        return Error(
+            range,
+            fmt::format("expected a range after the sweep target '{}' but found {}", target.text,
+                        Quote(range)),
+            fmt::format("write {} A..B:STEP, A..B:decN, A..B:Npts or V1,V2,...", target.text));
+      }
+      pair.range = std::string(range.text);
+      pair.range_span = scanner_.SpanOf(range);
+      sweep.pairs.push_back(std::move(pair));
+    }
+    if (sweep.pairs.empty()) {
+      return Error(scanner_.SpanOf(scanner_.size(), scanner_.size()),
+                   "expected a sweep target and a range after 'sweep' but the line ends",
+                   "write sweep TARGET A..B:STEP");
+    }
+    data_->sweeps.push_back(std::move(sweep));
+    return true;
+  }
+
+  // A quantity: a word (pin.v) or a parenthesised expression, checked for syntax here
+  // and resolved by ParseQuantity during elaboration.
+  bool TakeQuantity(QuantityText* q) {
+    const Token t = scanner_.NextWord();
+    if (t.kind == Tok::kWord) {
+      q->text = std::string(t.text);
+      q->span = scanner_.SpanOf(t);
+      return true;
+    }
+    if (t.kind == Tok::kLParen) {
+      ExprParser parser(&scanner_, data_->file_name, errors_);
+      if (!parser.ParseParenthesized(t)) return false;
+      q->text = std::string(scanner_.Text(t.begin, scanner_.offset()));
+      q->span = scanner_.SpanOf(t.begin, scanner_.offset());
+      return true;
+    }
+    return Error(t, fmt::format("expected a quantity (such as pin.v, R1.i or (a.v - b.v)) but "
+                                "found {}",
+                                Quote(t)));
+  }
+
+  bool ParseShow() {
+    std::vector<QuantityText> list;
+    while (!scanner_.AtEnd()) {
+      QuantityText q;
+      if (!TakeQuantity(&q)) return false;
+      list.push_back(std::move(q));
+    }
+    if (list.empty()) {
+      return Error(scanner_.SpanOf(scanner_.size(), scanner_.size()),
+                   "expected at least one quantity after 'show' but the line ends");
+    }
+    for (auto& q : list) data_->show.push_back(std::move(q));
+    return true;
+  }
+
+  bool ParseExpect() {
+    ExpectStmt e;
+    if (!TakeQuantity(&e.quantity)) return false;
+    if (!TakeEquals(fmt::format("the quantity '{}'", e.quantity.text))) return false;
+    if (!TakeValue("the expected value", &e.value)) return false;
+    if (!scanner_.AtEnd()) {
+      const Token within = scanner_.PeekWord();
+      if (within.kind != Tok::kWord || within.text != "within") {
+        scanner_.NextWord();
+        return Error(within, fmt::format("expected 'within TOLERANCE' or the end of the line "
+                                         "but found {}",
+                                         Quote(within)));
+      }
+      scanner_.NextWord();
+      Value tol;
+      if (!TakeValue("a tolerance (such as 50m or 5%)", &tol)) return false;
+      if (tol.kind != Value::Kind::kLiteral) {
+        return Error(tol.span, "a tolerance must be a number, such as 50m or 5%");
+      }
+      e.tolerance = std::move(tol);
+    }
+    data_->expects.push_back(std::move(e));
+    return true;
+  }
+
+  Scanner scanner_;
+  NetlistData* data_;
+  std::vector<Diagnostic>* errors_;
+  Seen* seen_;
+  std::string_view keyword_;
+  Span keyword_span_;
+};
+
+}  // namespace
+
+const std::string& Netlist::file_name() const { return data_->file_name; }
+
+Result<Netlist> ParseNetlist(std::string_view text, const std::string& file_name) {
+  auto data = std::make_shared<NetlistData>();
+  data->file_name = file_name;
+  std::vector<Diagnostic> errors;
+  std::vector<LexProblem> problems;
+  LineReader reader(text);
+  LogicalLine line;
+  Seen seen;
+  const auto limit = static_cast<std::size_t>(kMaxDiagnostics);
+  while (errors.size() < limit && reader.Next(&line, &problems)) {
+    for (LexProblem& p : problems) {
+      errors.push_back(MakeError(file_name, p.span, std::move(p.message)));
+    }
+    problems.clear();
+    if (line.text.empty()) continue;
+    StatementParser parser(line, data.get(), &errors, &seen);
+    parser.Parse();
+  }
+  if (!errors.empty()) {
+    if (errors.size() > limit) errors.resize(limit);
+    return errors;
+  }
+  return Netlist(std::move(data));
+}
+
+}  // namespace knee

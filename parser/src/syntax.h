@@ -1,0 +1,127 @@
+// The parsed statements of a netlist (internal to the parser): what ParseNetlist
+// produces and Elaborate consumes. Values stay unevaluated here.
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "knee/circuit.h"
+#include "knee/netlist.h"
+#include "knee/result.h"
+
+namespace knee {
+
+// A place in the text without the file name (kept once in NetlistData). Line 0 means
+// "no place" (command-line text); its location keeps only the file (or option) name.
+struct Span {
+  int line = 0;
+  int column = 0;
+  int length = 1;
+};
+
+inline SourceLocation ToLocation(const std::string& file, const Span& span) {
+  if (span.line == 0) return SourceLocation{file, 0, 0, 1};
+  return SourceLocation{file, span.line, span.column, span.length};
+}
+inline Span ToSpan(const SourceLocation& where) {
+  return Span{where.line, where.column, where.length};
+}
+
+// An expression tree (netlist-format.md, "Expressions").
+struct Expr {
+  enum class Kind { kNumber, kName, kNegate, kAdd, kSub, kMul, kDiv, kPow, kCall };
+  Kind kind = Kind::kNumber;
+  double number = 0;  // kNumber, SI prefix and % applied
+  std::string unit;   // kNumber: the unit as written ("" if none)
+  std::string name;   // kName: param or quantity name ("pin.v"); kCall: function name
+  std::vector<std::unique_ptr<Expr>> args;  // operands or call arguments
+  Span span;       // the token (operator, name, literal) this node stands for
+  int height = 1;  // levels of the tree below and including this node
+};
+using ExprPtr = std::shared_ptr<const Expr>;
+
+// A value as written at a value place: a literal, a param name or (expr).
+struct Value {
+  enum class Kind { kLiteral, kName, kExpr };
+  Kind kind = Kind::kLiteral;
+  double number = 0;  // kLiteral
+  std::string unit;   // kLiteral: unit as written, "" if none
+  std::string text;   // as written (the literal, the name, or the parenthesised text)
+  ExprPtr expr;       // kExpr
+  Span span;          // the whole value
+  Span unit_span;     // kLiteral: the prefix/unit letters (or the whole literal)
+};
+
+struct ParamStmt {
+  std::string name;
+  Span name_span;
+  Value value;  // always kExpr or kLiteral/kName parsed in expression mode
+};
+
+struct PartKeyStmt {
+  std::string key;
+  Span key_span;
+  Value value;
+};
+
+struct PartStmt {
+  std::string name;
+  Span name_span;
+  std::vector<PartKeyStmt> keys;
+};
+
+struct ElementStmt {
+  ElementKind kind = ElementKind::kResistor;
+  std::string name;
+  Span name_span;
+  std::string node_a, node_b;
+  Span a_span, b_span;
+  Value value;       // R, V, I
+  std::string part;  // diode
+  Span part_span;
+  std::optional<Value> area;  // diode
+  std::optional<Value> temp;  // diode
+};
+
+struct SweepPairStmt {
+  std::string target;
+  Span target_span;
+  std::string range;
+  Span range_span;
+};
+
+struct SweepStmt {
+  Span keyword_span;
+  std::vector<SweepPairStmt> pairs;
+};
+
+struct QuantityText {
+  std::string text;
+  Span span;
+};
+
+struct ExpectStmt {
+  QuantityText quantity;
+  Value value;
+  std::optional<Value> tolerance;  // kLiteral only
+};
+
+struct NetlistData {
+  std::string file_name;
+  std::optional<std::string> title;
+  Span title_span;
+  std::optional<Value> temp;
+  Span temp_span;
+  std::vector<ParamStmt> params;
+  std::vector<PartStmt> parts;
+  std::vector<ElementStmt> elements;
+  bool bias = false;
+  Span bias_span;
+  std::vector<SweepStmt> sweeps;
+  std::vector<QuantityText> show;
+  std::vector<ExpectStmt> expects;
+};
+
+}  // namespace knee
