@@ -75,6 +75,9 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
           assembled.bad_element >= 0 ? mna_->ElementName(assembled.bad_element) : "?");
       return outcome;
     }
+    // Limiting acts when the junctions are evaluated at the new x: it belongs to the
+    // previous step's record.
+    if (trace != nullptr && step > 1) trace->back().limited = assembled.limited;
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
     if (step > 1 && update.passed() && !assembled.limited && residual.passed()) {
       outcome.exit = NewtonExit::kConverged;
@@ -101,7 +104,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     if (trace != nullptr) {
       trace->push_back({step, MaxAbs(dx_, dx_.size()),
                         MaxAbs(mna_->residual(), static_cast<size_t>(mna_->kcl_rows())),
-                        assembled.limited, std::string(phase)});
+                        false, std::string(phase)});
     }
   }
   const ToleranceCheck residual = CheckResidual(*mna_, options_);

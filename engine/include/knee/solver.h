@@ -75,9 +75,11 @@ struct SolveSummary {
 // One record per Newton step, for --trace.
 struct NewtonStepRecord {
   int step = 0;
-  double max_update = 0.0;    // max |dx| after limiting
+  double max_update = 0.0;    // max |dx| of the step's linear solve (V or A)
   double max_residual = 0.0;  // A, max |KCL residual| before the step
-  bool limited = false;       // junction limiting changed the step
+  // Junction limiting shortened this step: some junction is evaluated, at the next
+  // step, at a limited voltage instead of the one this update reached.
+  bool limited = false;
   std::string phase;          // "newton", "gmin 1e-3", "source 40%", ...
 };
 
