@@ -1,12 +1,12 @@
 // BiasSolver: plain Newton, then the aid ladder (gmin stepping, source stepping), then a
 // final plain Newton run on the exact model and the KCL verification of its answer.
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
 #include <limits>
 #include <string>
 #include <vector>
-
-#include <fmt/format.h>
 
 #include "check.h"
 #include "klu_solver.h"
@@ -26,9 +26,9 @@ using internal::NewtonSolver;
 
 namespace {
 
-constexpr int kMaxGminRetries = 8;      // halvings (in log scale) of a failed gmin rung
-constexpr int kMaxSourceRetries = 12;   // subdivisions of a failed source step
-constexpr int kMaxSourceRungs = 2000;   // all source-stepping runs together
+constexpr int kMaxGminRetries = 8;     // halvings (in log scale) of a failed gmin rung
+constexpr int kMaxSourceRetries = 12;  // subdivisions of a failed source step
+constexpr int kMaxSourceRungs = 2000;  // all source-stepping runs together
 
 SolveStatus StatusOf(NewtonExit exit) {
   switch (exit) {
@@ -155,14 +155,13 @@ bool BiasSolver::Impl::SourceLadder(SolveSummary* s, std::string* log) {
     }
     x = saved;
     if (out.exit == NewtonExit::kFatal || ++retries > kMaxSourceRetries) {
-      *log += fmt::format("; source stepping stopped at {:.4g}%: {}", 100.0 * target,
-                          out.detail);
+      *log += fmt::format("; source stepping stopped at {:.4g}%: {}", 100.0 * target, out.detail);
       return false;
     }
     step /= 2.0;
   }
-  *log += fmt::format("; source stepping used {} runs and reached only {:.4g}%",
-                      kMaxSourceRungs, 100.0 * done);
+  *log += fmt::format("; source stepping used {} runs and reached only {:.4g}%", kMaxSourceRungs,
+                      100.0 * done);
   return false;
 }
 
@@ -248,8 +247,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
 }
 
-SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start,
-                               bool allow_aids) {
+SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start, bool allow_aids) {
   Impl& m = *impl_;
   m.trace.clear();
   SolveSummary s;
@@ -265,7 +263,9 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
   NewtonOutcome out = m.Run(AssemblyAids{}, "newton", &s);
   std::string log = "newton: " + out.detail;
   const auto try_aid = [&](bool enabled, const char* name, auto ladder) {
-    if (!enabled || !allow_aids || out.exit == NewtonExit::kConverged || out.exit == NewtonExit::kFatal) return;
+    if (!enabled || !allow_aids || out.exit == NewtonExit::kConverged ||
+        out.exit == NewtonExit::kFatal)
+      return;
     reset();
     if (!(m.*ladder)(&s, &log)) return;
     s.aids.push_back(name);

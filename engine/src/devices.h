@@ -56,8 +56,8 @@ struct StampContext {
 
 // What a device reports at a solution.
 struct DeviceReport {
-  double voltage = 0;   // V, v(node_a) - v(node_b)
-  double current = 0;   // A, node_a -> node_b through the element
+  double voltage = 0;           // V, v(node_a) - v(node_b)
+  double current = 0;           // A, node_a -> node_b through the element
   double junction_voltage = 0;  // diodes only
   double small_signal_res = 0;  // diodes only
 };

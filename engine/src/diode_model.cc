@@ -20,8 +20,8 @@ double SatCurrentAt(const DiodeModel& model, double temp_celsius) {
   const double vt0 = ThermalVoltage(t0);
   // Is(T) = Is(T0) * (T/T0)^(sat_temp_exp/n) * exp((Eg/(n*Vt0)) * (1 - T0/T)),
   // evaluated as one exponential so that neither factor overflows on its own.
-  const double log_ratio = (model.sat_temp_exp / n) * std::log(t / t0) +
-                           (model.bandgap / (n * vt0)) * (1.0 - t0 / t);
+  const double log_ratio =
+      (model.sat_temp_exp / n) * std::log(t / t0) + (model.bandgap / (n * vt0)) * (1.0 - t0 / t);
   return model.sat_current * std::exp(log_ratio);
 }
 

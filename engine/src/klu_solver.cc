@@ -1,11 +1,10 @@
 // KLU behind the small interface of klu_solver.h.
 #include "klu_solver.h"
 
+#include <fmt/format.h>
 #include <klu.h>
 
 #include <utility>
-
-#include <fmt/format.h>
 
 #include "check.h"
 
@@ -93,8 +92,7 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   if (h.numeric == nullptr) return Factor(values);
   KNEE_CHECK(values.size() == row_index_.size());
   const int ok = klu_refactor(col_ptr_.data(), row_index_.data(),
-                              const_cast<double*>(values.data()), h.symbolic, h.numeric,
-                              &h.common);
+                              const_cast<double*>(values.data()), h.symbolic, h.numeric, &h.common);
   if (ok == 0 || h.common.status != KLU_OK) return Factor(values);
   if (klu_rcond(h.symbolic, h.numeric, &h.common) == 0 ||
       !(h.common.rcond >= kRefactorRcondFloor)) {
@@ -106,8 +104,8 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
 LinearStatus KluSolver::Solve(std::span<double> rhs) {
   Handles& h = *handles_;
   KNEE_CHECK(h.numeric != nullptr && rhs.size() + 1 == col_ptr_.size());
-  if (klu_solve(h.symbolic, h.numeric, static_cast<int>(rhs.size()), 1, rhs.data(),
-                &h.common) == 0) {
+  if (klu_solve(h.symbolic, h.numeric, static_cast<int>(rhs.size()), 1, rhs.data(), &h.common) ==
+      0) {
     const LinearStatus s = Classify(h.common.status, "klu_solve");
     return s == LinearStatus::kOk ? LinearStatus::kFatal : s;
   }

@@ -1,10 +1,10 @@
 // The Newton loop. Every exit is a named test that records its numbers.
 #include "newton.h"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
-
-#include <fmt/format.h>
 
 namespace knee::internal {
 namespace {
@@ -24,8 +24,8 @@ double MaxAbs(std::span<const double> v, size_t count) {
 
 }  // namespace
 
-ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o,
-                           std::span<const double> dx, std::span<const double> x) {
+ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o, std::span<const double> dx,
+                           std::span<const double> x) {
   ToleranceCheck worst;
   for (int u = 0; u < mna.size(); ++u) {
     const auto i = static_cast<size_t>(u);
@@ -41,15 +41,14 @@ ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
   const auto flow = mna.flow();
   for (int r = 0; r < mna.size(); ++r) {
     const auto i = static_cast<size_t>(r);
-    const double bound = r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i]
-                                            : o.abs_voltage_tol;
+    const double bound =
+        r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : o.abs_voltage_tol;
     Consider(&worst, r, std::fabs(f[i]), bound);
   }
   return worst;
 }
 
-NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
-                           int size)
+NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size)
     : mna_(mna),
       klu_(klu),
       options_(options),
@@ -70,9 +69,9 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     const AssemblyOutcome assembled = mna_->Assemble(x, aids);
     if (!assembled.finite) {
       outcome.exit = NewtonExit::kNonFinite;
-      outcome.detail = fmt::format(
-          "step {}: element '{}' produced a non-finite value", step,
-          assembled.bad_element >= 0 ? mna_->ElementName(assembled.bad_element) : "?");
+      outcome.detail =
+          fmt::format("step {}: element '{}' produced a non-finite value", step,
+                      assembled.bad_element >= 0 ? mna_->ElementName(assembled.bad_element) : "?");
       return outcome;
     }
     // Limiting acts when the junctions are evaluated at the new x: it belongs to the
@@ -103,8 +102,8 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     }
     if (trace != nullptr) {
       trace->push_back({step, MaxAbs(dx_, dx_.size()),
-                        MaxAbs(mna_->residual(), static_cast<size_t>(mna_->kcl_rows())),
-                        false, std::string(phase)});
+                        MaxAbs(mna_->residual(), static_cast<size_t>(mna_->kcl_rows())), false,
+                        std::string(phase)});
     }
   }
   const ToleranceCheck residual = CheckResidual(*mna_, options_);
@@ -151,16 +150,16 @@ std::vector<std::string> NewtonSolver::Unsettled(std::span<const double> x) cons
   std::vector<std::string> names;
   for (int u = 0; u < mna_->size(); ++u) {
     const auto i = static_cast<size_t>(u);
-    const double abs_tol = mna_->IsCurrentUnknown(u) ? options_.abs_current_tol
-                                                     : options_.abs_voltage_tol;
+    const double abs_tol =
+        mna_->IsCurrentUnknown(u) ? options_.abs_current_tol : options_.abs_voltage_tol;
     if (!(std::fabs(dx_[i]) <= abs_tol + options_.rel_tol * std::fabs(x[i]))) {
       names.push_back(fmt::format("{} (last change {:.3g})", mna_->UnknownName(u), dx_[i]));
     }
   }
   for (const auto& device : mna_->devices()) {
     if (device->limited()) {
-      names.push_back(fmt::format("{} (junction step limited)",
-                                  mna_->ElementName(device->element())));
+      names.push_back(
+          fmt::format("{} (junction step limited)", mna_->ElementName(device->element())));
     }
   }
   return names;

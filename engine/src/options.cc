@@ -1,9 +1,9 @@
 // SolverOptions validation (every rule in one place) and the names of SolveStatus.
+#include <fmt/format.h>
+
 #include <cmath>
 #include <optional>
 #include <string>
-
-#include <fmt/format.h>
 
 #include "knee/solver.h"
 

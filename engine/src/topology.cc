@@ -1,13 +1,13 @@
 // Structural checks before solving: problems that make the MNA matrix singular for
 // every value of the unknowns, reported against the netlist instead of as a
 // numerical failure.
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <numeric>
 #include <queue>
 #include <string>
 #include <vector>
-
-#include <fmt/format.h>
 
 #include "knee/solver.h"
 
@@ -77,8 +77,8 @@ void CheckSelfLoops(const Circuit& c, std::vector<Diagnostic>* out) {
     if (e.node_a != e.node_b) continue;
     Diagnostic d;
     d.where = e.where;
-    d.message = fmt::format("{} '{}' connects node '{}' to itself", ElementKindName(e.kind),
-                            e.name, c.nodes[static_cast<size_t>(e.node_a)]);
+    d.message = fmt::format("{} '{}' connects node '{}' to itself", ElementKindName(e.kind), e.name,
+                            c.nodes[static_cast<size_t>(e.node_a)]);
     d.hint = "an element needs two different nodes";
     out->push_back(std::move(d));
   }
@@ -151,8 +151,8 @@ void CheckDcPaths(const Circuit& c, std::vector<Diagnostic>* out) {
     for (int n = 1; n < static_cast<int>(c.nodes.size()); ++n) {
       if (sets.Find(n) == root) nodes.push_back(n);
     }
-    std::vector<int> members;    // elements inside the subnetwork
-    std::vector<int> cut_set;    // current sources with exactly one end inside
+    std::vector<int> members;  // elements inside the subnetwork
+    std::vector<int> cut_set;  // current sources with exactly one end inside
     for (int i = 0; i < static_cast<int>(c.elements.size()); ++i) {
       const Element& e = c.elements[static_cast<size_t>(i)];
       const bool a_in = sets.Find(e.node_a) == root;
@@ -180,8 +180,7 @@ void CheckDcPaths(const Circuit& c, std::vector<Diagnostic>* out) {
           members.empty()
               ? fmt::format("{} is connected to no element and has no DC path to gnd", node_text)
               : fmt::format("{} {} no DC path to gnd (floating subnetwork of {})", node_text,
-                            nodes.size() == 1 ? "has" : "have",
-                            Quoted(ElementNames(c, members))),
+                            nodes.size() == 1 ? "has" : "have", Quoted(ElementNames(c, members))),
           "is part of the floating subnetwork"));
       out->back().hint = "connect the subnetwork to gnd";
     }

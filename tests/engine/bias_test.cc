@@ -302,8 +302,7 @@ TEST(BiasAids, FailureIsReportedWithDetail) {
   Solution s;
   const SolveSummary summary = (*solver)->Solve(&s);
   EXPECT_EQ(summary.status, SolveStatus::kNoConvergence);
-  EXPECT_NE(summary.detail.find("no convergence in 2 steps"), std::string::npos)
-      << summary.detail;
+  EXPECT_NE(summary.detail.find("no convergence in 2 steps"), std::string::npos) << summary.detail;
   EXPECT_FALSE(summary.unsettled.empty());
   EXPECT_TRUE((*solver)->unknowns().empty());
 }
@@ -335,8 +334,8 @@ TEST(BiasSolverApi, UpdateValuesAndWarmStart) {
   Solution rebuilt, fresh2;
   ASSERT_EQ((*solver)->Solve(&rebuilt, start).status, SolveStatus::kConverged);
   SolveOk(c, &fresh2);
-  EXPECT_CLOSE(rebuilt.node_voltage[c.FindNode("p")], fresh2.node_voltage[c.FindNode("p")],
-               1e-12, 0.0);
+  EXPECT_CLOSE(rebuilt.node_voltage[c.FindNode("p")], fresh2.node_voltage[c.FindNode("p")], 1e-12,
+               0.0);
 }
 
 TEST(BiasSolverApi, InvalidOptionsAreRejectedWithTheFieldName) {

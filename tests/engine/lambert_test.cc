@@ -62,9 +62,9 @@ TEST_P(LambertTest, CurrentMatchesLambertW) {
   model.sat_current = 3e-14;
   model.ideality = p.ideality;
   model.series_res = p.series_res;
-  const std::vector<double> volts = {-5,  -3,  -1,  -0.5, -0.2, -0.05, -0.01, 0,    0.01,
-                                     0.05, 0.2, 0.4, 0.55, 0.65, 0.7,  0.8,   1.0,  2.0,
-                                     5.0, 10,  20,  30,   40,   50};
+  const std::vector<double> volts = {-5,   -3,   -1,  -0.5, -0.2, -0.05, -0.01, 0,
+                                     0.01, 0.05, 0.2, 0.4,  0.55, 0.65,  0.7,   0.8,
+                                     1.0,  2.0,  5.0, 10,   20,   30,    40,    50};
   for (const double temp : {-40.0, 25.0, 125.0}) {
     const double n_vt = p.ideality * kK * (temp + 273.15) / kQ;
     const double is = p.area * SatCurrent(3e-14, p.ideality, 1.11, 3.0, 25.0, temp);
@@ -94,8 +94,7 @@ TEST_P(LambertTest, CurrentMatchesLambertW) {
 
 INSTANTIATE_TEST_SUITE_P(Diodes, LambertTest,
                          ::testing::Values(LambertCase{0.0, 1.0, 1.0}, LambertCase{0.0, 4.0, 1.8},
-                                           LambertCase{2.0, 1.0, 1.0},
-                                           LambertCase{5.0, 2.0, 1.3}));
+                                           LambertCase{2.0, 1.0, 1.0}, LambertCase{5.0, 2.0, 1.3}));
 
 }  // namespace
 }  // namespace knee

@@ -1,13 +1,14 @@
 // The MNA assembly: the Jacobian stamped by every device against central finite
 // differences of the assembled residual F(x), at reverse, knee, forward, breakdown and
 // above-kExpLimit junction bias; and the pattern's shape.
+#include "mna.h"
+
 #include <gtest/gtest.h>
 
 #include <cmath>
 #include <vector>
 
 #include "circuit_builder.h"
-#include "mna.h"
 #include "test_util.h"
 
 namespace knee::internal {
@@ -56,7 +57,8 @@ TEST(Mna, LayoutAndPattern) {
   for (int col = 0; col < mna.size(); ++col) {
     for (int k = mna.col_ptr()[static_cast<size_t>(col)] + 1;
          k < mna.col_ptr()[static_cast<size_t>(col) + 1]; ++k) {
-      EXPECT_LT(mna.row_index()[static_cast<size_t>(k) - 1], mna.row_index()[static_cast<size_t>(k)]);
+      EXPECT_LT(mna.row_index()[static_cast<size_t>(k) - 1],
+                mna.row_index()[static_cast<size_t>(k)]);
     }
   }
 }
@@ -94,7 +96,9 @@ TEST(Mna, JacobianMatchesFiniteDifferences) {
   MnaSystem mna(c);
   const double n_vt = 1.3 * 0.025693;
   // x = [in, a, k, D1:internal, D2:internal, V1:current]; D1's junction is internal - k.
-  const auto at = [&](double vj) { return std::vector<double>{3.0, 2.0, 1.0, 1.0 + vj, 0.4, -1e-3}; };
+  const auto at = [&](double vj) {
+    return std::vector<double>{3.0, 2.0, 1.0, 1.0 + vj, 0.4, -1e-3};
+  };
   ExpectJacobianMatches(mna, at(-2.0), "reverse");
   ExpectJacobianMatches(mna, at(0.45), "knee");
   ExpectJacobianMatches(mna, at(0.7), "forward");

@@ -1,4 +1,6 @@
 // The Newton loop on a tiny hand-built system, and the linear solver wrapper.
+#include "newton.h"
+
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -8,7 +10,6 @@
 #include "klu_solver.h"
 #include "knee/diode_law.h"
 #include "mna.h"
-#include "newton.h"
 #include "test_util.h"
 
 namespace knee::internal {

@@ -56,8 +56,8 @@ TEST(Topology, FloatingSubnetwork) {
   EXPECT_TRUE(Mentions(d, "nodes 'x', 'y' and 'z'")) << d.message;
   EXPECT_TRUE(Mentions(d, "no DC path to gnd")) << d.message;
   EXPECT_TRUE(Mentions(d, "'R2' and 'R3'")) << d.message;
-  EXPECT_EQ(d.where.line, 3);        // R2, the first element involved
-  ASSERT_EQ(d.notes.size(), 1u);     // R3
+  EXPECT_EQ(d.where.line, 3);     // R2, the first element involved
+  ASSERT_EQ(d.notes.size(), 1u);  // R3
   EXPECT_EQ(d.notes[0].first.line, 4);
 }
 
