@@ -41,10 +41,10 @@ double ExactCurrent(double v, double r_total, double is, double n_vt) {
 }
 
 // The contract's temperature law (netlist-format.md), written out independently.
-double SatCurrent(double is0, double n, double eg, double xti, double t0_c, double t_c) {
+double SatCurrent(double is0, double n, double eg, double temp_exp, double t0_c, double t_c) {
   const double t = t_c + 273.15, t0 = t0_c + 273.15;
   const double vt0 = kK * t0 / kQ;
-  return is0 * std::pow(t / t0, xti / n) * std::exp(eg / (n * vt0) * (1.0 - t0 / t));
+  return is0 * std::pow(t / t0, temp_exp / n) * std::exp(eg / (n * vt0) * (1.0 - t0 / t));
 }
 
 struct LambertCase {
