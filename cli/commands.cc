@@ -6,6 +6,7 @@
 #include <nlohmann/json.hpp>
 
 #include "analyses.h"
+#include "eng_format.h"
 #include "output.h"
 #include "pipeline.h"
 #include "svg_chart.h"
@@ -110,8 +111,8 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
       }
       for (const ExpectationCheck& e : r.report.expectations) {
         if (e.met) continue;
-        fmt::print(stderr, "knee: expectation missed: {} expected {} , exact {}\n", e.quantity,
-                   e.expected, e.actual);
+        fmt::print(stderr, "knee: expectation missed: {} expected {}, exact {}\n", e.quantity,
+                   FormatEng(e.expected, e.unit, 6), FormatEng(e.actual, e.unit, 6));
       }
     }
   }

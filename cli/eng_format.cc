@@ -40,6 +40,7 @@ std::string WithUnit(const std::string& number, std::string_view prefix, std::st
 
 std::string DisplayUnit(std::string_view unit) {
   if (unit == "Ohm") return "Ω";
+  if (unit == "C") return "°C";
   return std::string(unit);
 }
 

@@ -83,7 +83,7 @@ std::string Columns(const Report& report) {
   std::vector<size_t> width(n);
   for (size_t i = 0; i < n; ++i) {
     const Column& c = report.columns[i];
-    head[i] = c.unit.empty() ? c.name : fmt::format("{} [{}]", c.name, DisplayUnit(c.unit));
+    head[i] = c.name;  // the cells carry their units
     width[i] = std::max<size_t>(Width(head[i]), 10);
   }
   std::vector<std::vector<std::string>> cells;

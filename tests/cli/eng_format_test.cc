@@ -1,0 +1,46 @@
+#include "eng_format.h"
+
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <cstdlib>
+#include <limits>
+
+namespace knee::cli {
+namespace {
+
+// SI prefixes per the SI Brochure (BIPM, 9th edition, 2019), Table 7.
+TEST(FormatEng, PicksThePrefixOfTheMantissa) {
+  EXPECT_EQ(FormatEng(0.6523, "V"), "652.3 mV");
+  EXPECT_EQ(FormatEng(4.31e-3, "A"), "4.31 mA");
+  EXPECT_EQ(FormatEng(2.5e-9, "A"), "2.5 nA");
+  EXPECT_EQ(FormatEng(1.5e-6, "A"), "1.5 µA");
+  EXPECT_EQ(FormatEng(4700, "Ohm"), "4.7 kΩ");
+  EXPECT_EQ(FormatEng(-12, "V"), "-12 V");
+  EXPECT_EQ(FormatEng(3.2e-13, "A"), "320 fA");
+  EXPECT_EQ(FormatEng(2.2e6, "Ohm"), "2.2 MΩ");
+}
+
+TEST(FormatEng, RoundsBeforeChoosingThePrefix) {
+  EXPECT_EQ(FormatEng(0.99996, "V"), "1 V");
+  EXPECT_EQ(FormatEng(999.96e-6, "A"), "1 mA");
+}
+
+TEST(FormatEng, HandlesZeroTinyAndNonFinite) {
+  EXPECT_EQ(FormatEng(0.0, "V"), "0 V");
+  EXPECT_EQ(FormatEng(1.2e-18, "A"), "1.200e-18 A");
+  EXPECT_EQ(FormatEng(std::numeric_limits<double>::quiet_NaN(), "V"), "—");
+  EXPECT_EQ(FormatEng(std::numeric_limits<double>::infinity(), "V"), "inf V");
+  EXPECT_EQ(FormatEng(1.5, ""), "1.5");
+}
+
+TEST(FormatRoundTrip, ReadsBackToTheSameDouble) {
+  for (double v : {0.1, 1.0 / 3.0, -2.5e-14, 6.02214076e23, 0.6523456789012345}) {
+    const std::string text = FormatRoundTrip(v);
+    EXPECT_EQ(std::strtod(text.c_str(), nullptr), v) << text;
+  }
+  EXPECT_EQ(FormatRoundTrip(std::nan("")), "nan");
+}
+
+}  // namespace
+}  // namespace knee::cli
