@@ -177,7 +177,8 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
     const auto i = static_cast<size_t>(r);
     const double residual = std::fabs(f[i]);
     if (worst < 0 || !(residual <= std::fabs(f[static_cast<size_t>(worst)]))) worst = r;
-    const double bound = options.verify_current_tol + options.rel_tol * flow[i];
+    const double bound =
+        options.verify_current_tol + options.rel_tol * flow[i] + mna.RoundOffAllowance(r);
     if (failed < 0 && !(residual <= bound)) {
       failed = r;
       failed_bound = bound;

@@ -13,6 +13,7 @@ void StampContext::AddCurrent(int row, double i) {
   const auto r = static_cast<size_t>(row);
   residual[r] += i;
   flow[r] = std::max(flow[r], std::fabs(i));
+  magnitude[r] += std::fabs(i);
 }
 
 namespace {
@@ -58,6 +59,9 @@ class Resistor final : public Device {
     slots_.Stamp(ctx, g_);
     ctx.AddCurrent(a_, i);
     ctx.AddCurrent(b_, -i);
+    const double terms = g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_)));
+    ctx.AddMagnitude(a_, terms);
+    ctx.AddMagnitude(b_, terms);
     return true;
   }
   DeviceReport Measure(std::span<const double> x) const override {
@@ -101,6 +105,8 @@ class VoltageSource final : public Device {
     ctx.AddCurrent(p_, i);
     ctx.AddCurrent(n_, -i);
     ctx.residual[static_cast<size_t>(k_)] += ctx.X(p_) - ctx.X(n_) - ctx.source_scale * v_;
+    ctx.AddMagnitude(
+        k_, std::fabs(ctx.X(p_)) + std::fabs(ctx.X(n_)) + std::fabs(ctx.source_scale * v_));
     return true;
   }
   DeviceReport Measure(std::span<const double> x) const override {
@@ -194,12 +200,20 @@ class Diode final : public Device {
     junction_.Stamp(ctx, p.conductance);
     ctx.AddCurrent(j_, i);
     ctx.AddCurrent(b_, -i);
+    // Rounding of vj itself moves the current by g * eps * (|v(j)| + |v(b)|).
+    const double terms =
+        p.conductance * (std::fabs(ctx.X(j_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr;
+    ctx.AddMagnitude(j_, terms);
+    ctx.AddMagnitude(b_, terms);
     if (j_ != a_) {
       const double is = g_series_ * (ctx.X(a_) - ctx.X(j_));
       if (!std::isfinite(is)) return false;
       series_.Stamp(ctx, g_series_);
       ctx.AddCurrent(a_, is);
       ctx.AddCurrent(j_, -is);
+      const double series_terms = g_series_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(j_)));
+      ctx.AddMagnitude(a_, series_terms);
+      ctx.AddMagnitude(j_, series_terms);
     }
     return true;
   }

@@ -36,13 +36,16 @@ class EntryCollector {
 // Everything a device writes during one assembly pass. F(x) is the residual: for a node
 // row, the sum of currents leaving the node through devices (KCL); for a vsource branch
 // row, the voltage error. `flow` is, per row, the largest current magnitude of a device
-// at that node (the scale of the KCL tolerance).
+// at that node (the scale of the KCL tolerance). `magnitude` is, per row, the sum of the
+// magnitudes of the terms that make up F_r (each current and each g*v product entering
+// it): floating-point evaluation of F_r is uncertain by a few eps times this.
 struct StampContext {
   std::span<const double> x;
-  std::span<double> values;    // Jacobian dF/dx, in CSC slot order
-  std::span<double> residual;  // F(x)
-  std::span<double> flow;      // A
-  double source_scale = 1.0;   // independent sources are multiplied by this
+  std::span<double> values;     // Jacobian dF/dx, in CSC slot order
+  std::span<double> residual;   // F(x)
+  std::span<double> flow;       // A
+  std::span<double> magnitude;  // A (KCL rows) or V (branch rows)
+  double source_scale = 1.0;    // independent sources are multiplied by this
   bool limit_junctions = false;
   bool limited = false;  // out: some junction's evaluation point was limited
 
@@ -52,6 +55,10 @@ struct StampContext {
   }
   // Current `i` leaves row `row` (i.e. flows from that node into the device).
   void AddCurrent(int row, double i);
+  // Adds m to the round-off scale of row `row`.
+  void AddMagnitude(int row, double m) {
+    if (row >= 0) magnitude[static_cast<size_t>(row)] += m;
+  }
 };
 
 // What a device reports at a solution.

@@ -86,6 +86,7 @@ MnaSystem::MnaSystem(const Circuit& c) {
   values_.assign(row_index_.size(), 0.0);
   residual_.assign(static_cast<size_t>(n), 0.0);
   flow_.assign(static_cast<size_t>(n), 0.0);
+  magnitude_.assign(static_cast<size_t>(n), 0.0);
 }
 
 AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAids& aids) {
@@ -93,7 +94,9 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   std::fill(values_.begin(), values_.end(), 0.0);
   std::fill(residual_.begin(), residual_.end(), 0.0);
   std::fill(flow_.begin(), flow_.end(), 0.0);
-  StampContext ctx{x, values_, residual_, flow_, aids.source_scale, aids.limit_junctions, false};
+  std::fill(magnitude_.begin(), magnitude_.end(), 0.0);
+  StampContext ctx{
+      x, values_, residual_, flow_, magnitude_, aids.source_scale, aids.limit_junctions, false};
   AssemblyOutcome out;
   for (auto& device : devices_) {
     if (!device->Stamp(ctx) && out.finite) {

@@ -45,6 +45,12 @@ class MnaSystem {
   std::span<const double> values() const { return values_; }
   std::span<const double> residual() const { return residual_; }
   std::span<const double> flow() const { return flow_; }
+  std::span<const double> magnitude() const { return magnitude_; }
+  // The part of a residual bound that allows for floating-point evaluation of F_r.
+  double RoundOffAllowance(int row) const {
+    return kRoundOffFactor * magnitude_[static_cast<size_t>(row)];
+  }
+  static constexpr double kRoundOffFactor = 16 * 2.220446049250313e-16;  // 16 eps
 
   // Refills values, residual and flow at x. No allocation.
   AssemblyOutcome Assemble(std::span<const double> x, const AssemblyAids& aids);
@@ -68,7 +74,7 @@ class MnaSystem {
   std::vector<std::unique_ptr<Device>> devices_;
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
-  std::vector<double> values_, residual_, flow_;
+  std::vector<double> values_, residual_, flow_, magnitude_;
 };
 
 }  // namespace knee::internal

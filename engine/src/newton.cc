@@ -42,7 +42,8 @@ ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
   for (int r = 0; r < mna.size(); ++r) {
     const auto i = static_cast<size_t>(r);
     const double bound =
-        r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : o.abs_voltage_tol;
+        (r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : o.abs_voltage_tol) +
+        mna.RoundOffAllowance(r);
     Consider(&worst, r, std::fabs(f[i]), bound);
   }
   return worst;

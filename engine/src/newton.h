@@ -38,7 +38,8 @@ struct ToleranceCheck {
 // |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns).
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
                            std::span<const double> dx, std::span<const double> x);
-// KCL rows: |F_r| <= abs_current_tol + rel_tol*flow_r; branch rows: |F_r| <= abs_voltage_tol.
+// KCL rows: |F_r| <= abs_current_tol + rel_tol*flow_r; branch rows: |F_r| <= abs_voltage_tol;
+// both plus the round-off allowance of row r.
 ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options);
 
 class NewtonSolver {

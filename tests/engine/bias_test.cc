@@ -49,6 +49,20 @@ TEST(BiasLinear, Divider) {
   EXPECT_LE(summary.max_kcl_residual, 1e-15);
 }
 
+// A 10 uOhm resistor feeding a 1 TOhm load: the divider closed form. The residual at the
+// resistor's nodes carries round-off of G * ulp(10 V) ~ 2e-10 A, far above the 1e-12 A
+// tolerance; the round-off allowance of the residual tests must let this converge.
+TEST(BiasLinear, StiffResistorConverges) {
+  CircuitBuilder b;
+  b.V("V1", "a", "gnd", 10.0);
+  b.R("R1", "a", "b", 1e-5);
+  const int load = b.R("R2", "b", "gnd", 1e12);
+  Solution s;
+  SolveOk(b.circuit(), &s);
+  EXPECT_CLOSE(s.node_voltage[b.Node("b")], 10.0 * 1e12 / (1e12 + 1e-5), 1e-14, 0.0);
+  EXPECT_CLOSE(s.element_current[load], 10.0 / (1e12 + 1e-5), 1e-12, 0.0);
+}
+
 // Wheatstone bridge with a bridging resistor R5: by Thevenin's theorem (textbook circuit
 // theory, common practice) I5 = Vth / (Rth + R5), Vth = Vs (R2/(R1+R2) - R4/(R3+R4)),
 // Rth = R1||R2 + R3||R4.

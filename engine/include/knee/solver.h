@@ -18,7 +18,9 @@ struct SolverOptions {
   // Newton stops when, for every unknown, |dx| <= abs_voltage_tol + rel_tol * |x|
   // (branch-current unknowns use abs_current_tol instead of abs_voltage_tol) AND the KCL
   // residual of every node is <= abs_current_tol + rel_tol * (largest current magnitude
-  // flowing into that node).
+  // flowing into that node). Every residual bound (here and in verification) also allows
+  // for floating-point evaluation: 16 eps times the sum of the magnitudes of the terms
+  // of that residual (docs/solver.md, "Round-off allowance").
   double abs_voltage_tol = 1e-6;   // V, > 0
   double abs_current_tol = 1e-12;  // A, > 0
   double rel_tol = 1e-6;           // dimensionless, in (0, 1e-2]
