@@ -296,6 +296,17 @@ class Elaborator {
         continue;
       }
       auto it = names_.find(o.name);
+      const bool is_node =
+          o.name == "gnd" || o.name == "0" ||
+          std::any_of(d_.elements.begin(), d_.elements.end(), [&](const ElementStmt& e) {
+            return e.node_a == o.name || e.node_b == o.name;
+          });
+      if (it == names_.end() && is_node) {
+        Error(Span{}, fmt::format("{}: '{}' is a node; --set takes a param, an element value or "
+                                  "PART.key",
+                                  context, o.name));
+        continue;
+      }
       if (it == names_.end()) {
         Error(Span{},
               fmt::format("{}: there is no param, element or part key named '{}'", context, o.name),
