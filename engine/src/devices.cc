@@ -163,6 +163,7 @@ class Diode final : public Device {
     a_ = UnknownOfNode(e.node_a);
     b_ = UnknownOfNode(e.node_b);
     j_ = internal >= 0 ? internal : a_;
+    KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
     UpdateValues(c);
   }
   void DeclareEntries(EntryCollector& c) override {

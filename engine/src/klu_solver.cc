@@ -94,8 +94,13 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   const int ok = klu_refactor(col_ptr_.data(), row_index_.data(),
                               const_cast<double*>(values.data()), h.symbolic, h.numeric, &h.common);
   if (ok == 0 || h.common.status != KLU_OK) return Factor(values);
-  if (klu_rcond(h.symbolic, h.numeric, &h.common) == 0 ||
-      !(h.common.rcond >= kRefactorRcondFloor)) {
+  // Old pivots gone bad show as a zero pivot or as large pivot growth. (A small
+  // min/max ratio of U's diagonal alone is no reason: diode networks legitimately mix
+  // conductances from 1e-25 S to 1e3 S, and fresh pivots would not change that.)
+  if (klu_rcond(h.symbolic, h.numeric, &h.common) == 0 || h.common.rcond == 0.0 ||
+      klu_rgrowth(col_ptr_.data(), row_index_.data(), const_cast<double*>(values.data()),
+                  h.symbolic, h.numeric, &h.common) == 0 ||
+      !(h.common.rgrowth >= kRefactorGrowthFloor)) {
     return Factor(values);
   }
   return LinearStatus::kOk;

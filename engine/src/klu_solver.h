@@ -27,7 +27,8 @@ class KluSolver {
   // Full factorisation with fresh pivots.
   LinearStatus Factor(std::span<const double> values);
   // Reuses the pivots of the last full factorisation; falls back to Factor when KLU
-  // reports trouble or the pivots have become poor (rcond below kRefactorRcondFloor).
+  // reports trouble, a pivot is zero, or the reciprocal pivot growth (klu_rgrowth) is
+  // below kRefactorGrowthFloor.
   LinearStatus Refactor(std::span<const double> values);
   // Solves A x = b in place.
   LinearStatus Solve(std::span<double> rhs);
@@ -36,7 +37,7 @@ class KluSolver {
   const std::string& message() const { return message_; }
   int full_factorizations() const { return full_factorizations_; }
 
-  static constexpr double kRefactorRcondFloor = 1e-13;
+  static constexpr double kRefactorGrowthFloor = 1e-10;
 
  private:
   struct Handles;

@@ -28,7 +28,7 @@ Circuit TestCircuit() {
   b.D("D1", "a", "k", part, 2.0);
   b.R("R2", "k", "gnd", 2e3);
   b.I("I1", "gnd", "k", 1e-3);
-  b.D("D2", "k", "gnd", part);  // no internal node (series_res applies: it has one too)
+  b.D("D2", "k", "gnd", part);  // same part: an internal node of its own
   return b.circuit();
 }
 
@@ -94,6 +94,8 @@ void ExpectJacobianMatches(MnaSystem& mna, std::vector<double> x, const char* wh
 TEST(Mna, JacobianMatchesFiniteDifferences) {
   const Circuit c = TestCircuit();
   MnaSystem mna(c);
+  // n*Vt at 25 degC (Vt = 25.693 mV, rounded): only used to place a bias point 3 units of
+  // exponent above kExpLimit, so the rounding does not matter.
   const double n_vt = 1.3 * 0.025693;
   // x = [in, a, k, D1:internal, D2:internal, V1:current]; D1's junction is internal - k.
   const auto at = [&](double vj) {

@@ -119,6 +119,23 @@ TEST(KluSolver, FactorRefactorSolve) {
   EXPECT_CLOSE(b[2], 3.0, 1e-14, 0.0);
 }
 
+// When the old pivot becomes zero, Refactor falls back to a full factorisation with
+// fresh pivots and still solves the (regular) system.
+TEST(KluSolver, RefactorFallsBackWhenAPivotVanishes) {
+  const std::vector<int> col_ptr{0, 2, 4};
+  const std::vector<int> row_index{0, 1, 0, 1};
+  KluSolver klu;
+  ASSERT_EQ(klu.Analyze(2, col_ptr, row_index), LinearStatus::kOk);
+  ASSERT_EQ(klu.Factor(std::vector<double>{4, 1, 1, 3}), LinearStatus::kOk);
+  ASSERT_EQ(klu.full_factorizations(), 1);
+  ASSERT_EQ(klu.Refactor(std::vector<double>{0, 1, 1, 0}), LinearStatus::kOk);
+  EXPECT_EQ(klu.full_factorizations(), 2);
+  std::vector<double> b{2.0, 5.0};  // [0 1; 1 0] x = b  =>  x = (5, 2)
+  ASSERT_EQ(klu.Solve(b), LinearStatus::kOk);
+  EXPECT_CLOSE(b[0], 5.0, 1e-15, 0.0);
+  EXPECT_CLOSE(b[1], 2.0, 1e-15, 0.0);
+}
+
 TEST(KluSolver, SingularIsRecoverable) {
   const std::vector<int> col_ptr{0, 2, 4};
   const std::vector<int> row_index{0, 1, 0, 1};
