@@ -37,6 +37,13 @@ int WriteAll(int fd, const std::string& content) {
 }  // namespace
 
 std::string CheckWritable(const std::string& path) {
+  struct stat info;
+  if (::stat(path.c_str(), &info) == 0 && !S_ISREG(info.st_mode) && !S_ISDIR(info.st_mode)) {
+    if (::access(path.c_str(), W_OK) != 0) {
+      return fmt::format("cannot write '{}': {}", path, std::strerror(errno));
+    }
+    return "";
+  }
   std::error_code ec;
   if (std::filesystem::is_directory(path, ec)) {
     return fmt::format("cannot write '{}': it is a folder", path);
@@ -51,7 +58,29 @@ std::string CheckWritable(const std::string& path) {
   return "";
 }
 
-std::string WriteFileAtomically(const std::string& path, const std::string& content) {
+// A path that exists and is not a regular file (/dev/null, /dev/stdout, a named pipe)
+// is written in place: renaming a temporary file over it would replace the device.
+std::string WriteInPlace(const std::string& path, const std::string& content) {
+  int fd = ::open(path.c_str(), O_WRONLY | O_APPEND);
+  if (fd < 0) return fmt::format("cannot write '{}': {}", path, std::strerror(errno));
+  int err = WriteAll(fd, content);
+  if (::close(fd) != 0 && err == 0) err = errno;
+  if (err != 0) return fmt::format("cannot write '{}': {}", path, std::strerror(err));
+  return "";
+}
+
+std::string WriteFileAtomically(const std::string& given_path, const std::string& content) {
+  // Through a symbolic link, replace the file it points to, not the link.
+  std::error_code ec;
+  std::string path = given_path;
+  if (std::filesystem::is_symlink(given_path, ec)) {
+    std::filesystem::path target = std::filesystem::weakly_canonical(given_path, ec);
+    if (!ec) path = target.string();
+  }
+  struct stat info;
+  if (::stat(path.c_str(), &info) == 0 && !S_ISREG(info.st_mode) && !S_ISDIR(info.st_mode)) {
+    return WriteInPlace(path, content);
+  }
   std::string problem = CheckWritable(path);
   if (!problem.empty()) return problem;
   std::string temp = FolderOf(path) + "/.knee-XXXXXX";
@@ -61,7 +90,10 @@ std::string WriteFileAtomically(const std::string& path, const std::string& cont
   if (err == 0 && ::fsync(fd) != 0) err = errno;
   if (::close(fd) != 0 && err == 0) err = errno;
   if (err == 0) {
-    ::chmod(temp.c_str(), 0644);
+    // mkstemp creates 0600; give the report the permissions a plain open() would.
+    const mode_t mask = ::umask(0);
+    ::umask(mask);
+    ::chmod(temp.c_str(), 0666 & ~mask);
     if (std::rename(temp.c_str(), path.c_str()) != 0) err = errno;
   }
   if (err != 0) {

@@ -234,3 +234,28 @@ TEST(Cli, PlotIsWellFormedSvgWithOnePathPerTrace) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+TEST(Cli, OutToADeviceWritesThroughItAndKeepsTheDevice) {
+  KneeRun run = RunKnee("bias - --out /dev/null", kSingleDiode);
+  EXPECT_EQ(run.status, 0) << run.err;
+  EXPECT_TRUE(std::filesystem::is_character_file("/dev/null"));
+}
+
+TEST(Cli, OutThroughASymlinkReplacesTheTargetNotTheLink) {
+  const std::string target = TempPath("target.csv");
+  const std::string link = TempPath("link.csv");
+  { std::ofstream(target) << "old\n"; }
+  std::filesystem::create_symlink(target, link);
+  KneeRun run = RunKnee("bias - --format csv --out " + link, kSingleDiode);
+  EXPECT_EQ(run.status, 0) << run.err;
+  EXPECT_TRUE(std::filesystem::is_symlink(link));
+  EXPECT_NE(ReadWhole(target).find("[A]"), std::string::npos);
+  std::filesystem::remove(link);
+  std::filesystem::remove(target);
+}
+
+}  // namespace
+}  // namespace knee::testing
