@@ -127,7 +127,9 @@ std::string Stress(const Report& report) {
                        s.quantity, FormatEng(s.worst, s.unit), at, FormatEng(s.rating, s.unit),
                        s.key, s.use_percent);
   }
-  if (!report.row_over_rating.empty() && report.sweep_axes > 0) {
+  const bool any_marked = std::find(report.row_over_rating.begin(), report.row_over_rating.end(),
+                                    1) != report.row_over_rating.end();
+  if (any_marked && report.sweep_axes > 0) {
     out += "  (rows marked ! exceed a rating)\n";
   }
   return out;
