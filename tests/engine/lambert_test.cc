@@ -92,6 +92,48 @@ TEST_P(LambertTest, CurrentMatchesLambertW) {
   }
 }
 
+// A Zener clamp: the source pushes current backwards through the diode into breakdown.
+// With u = -(Vj + Vbr), the breakdown term is Ibr exp(u / (nbr Vt)), the same exponential
+// form as the forward law with Is -> Ibr and no "-1"; so the clamp current follows the
+// same Lambert W solution (Banwell & Jayakumar 2000). Deep in reverse the forward term is
+// exactly -Is (exp(-Vbr/(n Vt)) < 1e-45), a constant that shifts the source voltage by
+// Is R, so the clamp current is
+//   I = Is + (nbr Vt / R) W((Ibr R / (nbr Vt)) exp((V - Vbr - Is R) / (nbr Vt))).
+// (Is reaches ~1e-10 A at 125 degC: leaving it out would be a 1e-9-level error.)
+TEST(LambertBreakdown, ZenerClampCurrentMatchesLambertW) {
+  for (const double series_res : {0.0, 3.0}) {
+    DiodeModel model;
+    model.sat_current = 1e-15;
+    model.series_res = series_res;
+    model.breakdown_v = 3.6;
+    model.breakdown_i = 5e-3;
+    model.breakdown_ideality = 1.5;
+    model.breakdown_tc = -4e-4;
+    for (const double temp : {-40.0, 25.0, 125.0}) {
+      const double nbr_vt = 1.5 * kK * (temp + 273.15) / kQ;
+      const double vbr = 3.6 * (1.0 - 4e-4 * (temp - 25.0));
+      const double r_total = 470.0 + series_res;
+      for (const double v : {4.5, 5.0, 8.0, 12.0, 24.0, 50.0}) {
+        testing::CircuitBuilder b(temp);
+        const int part = b.Part("Z", model);
+        b.V("V1", "in", "gnd", v);
+        b.R("R1", "in", "k", 470.0);
+        const int z = b.D("Z1", "gnd", "k", part);
+        auto solver = BiasSolver::Create(b.circuit(), {});
+        ASSERT_TRUE(solver.ok());
+        Solution s;
+        const SolveSummary summary = (*solver)->Solve(&s);
+        ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
+        const double is = SatCurrent(1e-15, 1.0, 1.11, 3.0, 25.0, temp);
+        const double y = std::log(5e-3 * r_total / nbr_vt) + (v - vbr - is * r_total) / nbr_vt;
+        const double expected = is + nbr_vt / r_total * LambertW0OfExp(y);
+        EXPECT_CLOSE(-s.element_current[z], expected, 1e-9, 0.0)
+            << "V = " << v << " V, T = " << temp << " degC, series_res " << series_res;
+      }
+    }
+  }
+}
+
 INSTANTIATE_TEST_SUITE_P(Diodes, LambertTest,
                          ::testing::Values(LambertCase{0.0, 1.0, 1.0}, LambertCase{0.0, 4.0, 1.8},
                                            LambertCase{2.0, 1.0, 1.0}, LambertCase{5.0, 2.0, 1.3}));
