@@ -16,36 +16,11 @@
 #include "stress.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
-#include "sweep_values.h"
 
 namespace knee::cli {
 namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
-
-std::string TargetUnit(const SweepTarget& target, const Circuit& circuit) {
-  switch (target.kind) {
-    case SweepTarget::Kind::kTemp:
-      return "C";
-    case SweepTarget::Kind::kElement:
-      switch (circuit.elements[target.index].kind) {
-        case ElementKind::kResistor:
-          return "Ohm";
-        case ElementKind::kVoltageSource:
-          return "V";
-        case ElementKind::kCurrentSource:
-          return "A";
-        case ElementKind::kDiode:
-          return "";
-      }
-      return "";
-    case SweepTarget::Kind::kPartKey:
-      return PartKeyUnit(target.key);
-    case SweepTarget::Kind::kParam:
-      return "";
-  }
-  return "";
-}
 
 // Shows a rising progress line on standard error while a sweep takes longer than a
 // second, only when standard error is a terminal.
@@ -94,7 +69,7 @@ std::string DescribePoint(const std::vector<SweepAxis>& axes, const Circuit& cir
   for (size_t a = 0; a < axes.size(); ++a) {
     if (a) where += ", ";
     where += fmt::format("{} = {}", axes[a].target.name,
-                         FormatEng(axes[a].values[indices[a]], TargetUnit(axes[a].target, circuit), 6));
+                         FormatEng(axes[a].values[indices[a]], SweepTargetUnit(axes[a].target, circuit), 6));
   }
   return where;
 }
@@ -131,23 +106,14 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
                         "write for example Vline=-30..30:0.1 or temp=-40,25,85", {}});
       continue;
     }
-    SweepAxis axis;
-    axis.where = where;
-    axis.range_text = spec.substr(eq + 1);
-    Result<SweepTarget> target =
-        ResolveSweepTarget(spec.substr(0, eq), *loaded.netlist, loaded.design->circuit, where);
-    if (!target) {
-      for (const Diagnostic& d : target.errors()) errors.push_back(d);
+    Result<SweepAxis> axis = ResolveSweepAxis(spec.substr(0, eq), spec.substr(eq + 1),
+                                              *loaded.netlist, loaded.design->circuit, where,
+                                              where);
+    if (!axis) {
+      for (const Diagnostic& d : axis.errors()) errors.push_back(d);
       continue;
     }
-    axis.target = std::move(target).value();
-    Result<std::vector<double>> values = ExpandRange(axis.range_text, where, &axis.logarithmic);
-    if (!values) {
-      for (const Diagnostic& d : values.errors()) errors.push_back(d);
-      continue;
-    }
-    axis.values = std::move(values).value();
-    axes.push_back(std::move(axis));
+    axes.push_back(std::move(axis).value());
   }
   if (!errors.empty()) {
     PrintDiagnostics(errors, "");
@@ -166,7 +132,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   report.sweep_axes = static_cast<int>(axes.size());
   report.log_inner = !axes.empty() && axes.front().logarithmic;
   for (const SweepAxis& axis : axes) {
-    report.columns.push_back({axis.target.name, TargetUnit(axis.target, base)});
+    report.columns.push_back({axis.target.name, SweepTargetUnit(axis.target, base)});
   }
   for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
   const double derate = options.derate / 100;

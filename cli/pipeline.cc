@@ -108,6 +108,9 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
     return std::nullopt;
   }
   std::vector<Diagnostic> topology = CheckTopology(design->circuit);
+  for (Diagnostic& d : topology) {
+    if (d.where.file.empty()) d.where.file = shown_name;  // e.g. an empty circuit has no line
+  }
   if (!topology.empty()) {
     PrintDiagnostics(topology, loaded.source);
     return std::nullopt;

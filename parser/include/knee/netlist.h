@@ -92,6 +92,13 @@ Result<SweepAxis> ResolveSweepAxis(std::string_view target, std::string_view ran
                                    const SourceLocation& target_where,
                                    const SourceLocation& range_where);
 
+// Unit of a sweep target's values ("V", "Ohm", "A", "C", a part key's unit, or "").
+std::string SweepTargetUnit(const SweepTarget& target, const Circuit& circuit);
+// Sets the target to `value` in `circuit` under the netlist's rules for that place;
+// "" or a message naming the rule broken. Param targets are applied by re-elaborating
+// with an override, not here: returns "".
+std::string ApplySweepValue(const SweepTarget& target, double value, Circuit* circuit);
+
 struct Expectation {
   QuantityExpr quantity;
   double expected = 0;

@@ -1,0 +1,68 @@
+// Setting one swept value on an elaborated circuit, with the same rules as the netlist.
+#include <fmt/format.h>
+
+#include <cmath>
+
+#include "knee/diode_law.h"
+#include "knee/netlist.h"
+#include "part_keys.h"
+
+namespace knee {
+
+std::string SweepTargetUnit(const SweepTarget& target, const Circuit& circuit) {
+  switch (target.kind) {
+    case SweepTarget::Kind::kTemp:
+      return "C";
+    case SweepTarget::Kind::kElement:
+      switch (circuit.elements[static_cast<size_t>(target.index)].kind) {
+        case ElementKind::kResistor:
+          return "Ohm";
+        case ElementKind::kVoltageSource:
+          return "V";
+        case ElementKind::kCurrentSource:
+          return "A";
+        case ElementKind::kDiode:
+          return "";
+      }
+      return "";
+    case SweepTarget::Kind::kPartKey: {
+      const PartKeyInfo* info = FindPartKey(target.key);
+      return info ? info->unit : "";
+    }
+    case SweepTarget::Kind::kParam:
+      return "";
+  }
+  return "";
+}
+
+std::string ApplySweepValue(const SweepTarget& target, double value, Circuit* circuit) {
+  if (!std::isfinite(value)) return fmt::format("{} = {} is not a finite number", target.name, value);
+  switch (target.kind) {
+    case SweepTarget::Kind::kParam:
+      return "";
+    case SweepTarget::Kind::kTemp:
+      if (value <= -kZeroCelsius) return fmt::format("temp = {} C is at or below absolute zero", value);
+      circuit->temp = value;
+      return "";
+    case SweepTarget::Kind::kElement: {
+      Element& e = circuit->elements[static_cast<size_t>(target.index)];
+      if (e.kind == ElementKind::kResistor && !(value > 0)) {
+        return fmt::format("{} = {} Ohm: a resistance must be > 0", target.name, value);
+      }
+      e.value = value;
+      return "";
+    }
+    case SweepTarget::Kind::kPartKey: {
+      const PartKeyInfo* info = FindPartKey(target.key);
+      if (info == nullptr) return fmt::format("unknown part key '{}'", target.key);
+      if (!PartKeyValueOk(*info, value)) {
+        return fmt::format("{} = {}: the value must be {}", target.name, value, info->rule);
+      }
+      SetPartKey(&circuit->parts[static_cast<size_t>(target.index)].model, target.key, value);
+      return "";
+    }
+  }
+  return "";
+}
+
+}  // namespace knee
