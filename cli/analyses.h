@@ -33,6 +33,9 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
 // --shard K/N as a 0-based slice index and a count ("" = 0 of 1).
 bool ParseShard(const std::string& text, int* shard, int* shards, std::string* problem);
 
+// One expectation checked against a solution (error within the tolerance, finite).
+ExpectationCheck CheckExpectation(const Expectation& e, const Solution& solution);
+
 // Fills the header fields every report shares.
 Report StartReport(const LoadedDesign& loaded, const char* analysis);
 

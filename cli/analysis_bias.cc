@@ -12,7 +12,9 @@ namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
-ExpectationCheck Check(const Expectation& e, const Solution& solution) {
+}  // namespace
+
+ExpectationCheck CheckExpectation(const Expectation& e, const Solution& solution) {
   ExpectationCheck check;
   check.quantity = e.quantity.text();
   check.unit = e.quantity.unit();
@@ -26,6 +28,8 @@ ExpectationCheck Check(const Expectation& e, const Solution& solution) {
   check.met = std::isfinite(check.actual) && error <= bound;
   return check;
 }
+
+namespace {
 
 void PrintTrace(const BiasSolver& solver) {
   for (const NewtonStepRecord& r : solver.trace()) {
@@ -90,7 +94,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     std::string caution = HighVoltageCaution(LargestVoltage(circuit, solution));
     if (!caution.empty()) report.cautions.push_back(caution);
     for (const Expectation& e : loaded.design->expects) {
-      report.expectations.push_back(Check(e, solution));
+      report.expectations.push_back(CheckExpectation(e, solution));
       if (!report.expectations.back().met) result.outcome.expect_missed = true;
     }
   } else {

@@ -11,5 +11,6 @@ int RunCheck(const std::string& file, AnalysisOptions options);
 int RunBias(const std::string& file, AnalysisOptions options);
 int RunSweep(const std::string& file, AnalysisOptions options);
 int RunRun(const std::string& file, AnalysisOptions options);
+int RunHand(const std::string& file, AnalysisOptions options);  // cli/analysis_hand.cc
 
 }  // namespace knee::cli

@@ -92,6 +92,8 @@ int main(int argc, char** argv) {
       {"sweep", "DC sweep: TARGET=RANGE..., the first TARGET is the inner loop",
        knee::cli::RunSweep},
       {"run", "Whatever the file requests (bias and/or sweeps)", knee::cli::RunRun},
+      {"hand", "Bias point by the simplified diode models of hand calculation, beside the exact one",
+       knee::cli::RunHand},
   };
   for (Command& c : commands) {
     c.app = app.add_subcommand(c.name, c.help);
@@ -102,6 +104,27 @@ int main(int argc, char** argv) {
           ->required();
     }
     AddShared(c.app, &options, &format);
+    const std::string name = c.name;
+    if (name == "bias" || name == "hand" || name == "run") {
+      c.app->add_option("--expect", options.expects,
+                        "Check a quantity against an expected value: QUANTITY=VALUE[~TOL], TOL "
+                        "absolute (50m) or relative (5%), default 5 %; repeatable")
+          ->type_name("Q=VALUE[~TOL]")
+          ->allow_extra_args(false);
+    }
+    if (name == "hand") {
+      c.app->add_option("--drop", options.hand_drop,
+                        "On-voltage of the drop models in V (default 0.7)")
+          ->type_name("V");
+      c.app->add_option("--on-res", options.hand_on_res,
+                        "On-resistance of the piecewise-linear model in ohms (default: each "
+                        "part's series_res)")
+          ->type_name("OHMS");
+      c.app->add_option("--fit-at", options.hand_fit_at,
+                        "Piecewise-linear model: the tangent to each part's exact curve at this "
+                        "current in A")
+          ->type_name("CURRENT");
+    }
   }
 
   try {

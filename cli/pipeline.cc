@@ -115,6 +115,15 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
     PrintDiagnostics(topology, loaded.source);
     return std::nullopt;
   }
+  // --expect QUANTITY=VALUE[~TOL] joins the file's expect statements.
+  for (const std::string& text : options.expects) {
+    Result<Expectation> e = ParseExpectOption(text, design->circuit, OptionLocation("--expect"));
+    if (!e) {
+      PrintDiagnostics(e.errors(), "");
+      return std::nullopt;
+    }
+    design->expects.push_back(std::move(e).value());
+  }
   loaded.design.emplace(std::move(design).value());
   return loaded;
 }

@@ -116,6 +116,17 @@ struct Design {
 };
 
 Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides);
+
+// A command-line expectation "QUANTITY=VALUE[~TOL]" (docs/cli.md, --expect): the quantity
+// as in 'show', VALUE a number literal of netlist-format.md whose unit must fit the
+// quantity, TOL absolute ("50m", "20mV") or relative ("5%"), default 5 % relative.
+// Errors are located at `where` (the option).
+Result<Expectation> ParseExpectOption(std::string_view text, const Circuit& circuit,
+                                      const SourceLocation& where);
+// One number literal of netlist-format.md ("650m", "4R7", "1mA") at a place whose unit is
+// `unit` ("V", "A", "Ohm"; the unit may be omitted); `what` names the place in errors.
+Result<double> ParseNumberText(std::string_view text, std::string_view unit,
+                               std::string_view what, const SourceLocation& where);
 // Only the circuit values (no requests), for sweeps over a param: the topology is the
 // same as Elaborate's for any values of the params.
 Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overrides);
