@@ -16,7 +16,7 @@ constexpr const char* kColours[] = {"#1f5fa6", "#c8452c", "#2a8c5a", "#8a4fb0",
                                     "#d08a12", "#2394a8", "#7a5230", "#b8336a"};
 constexpr int kLeft = 86;
 constexpr int kRight = 220;  // room for the legend
-constexpr int kTop = 48;
+constexpr int kTop = 62;
 constexpr int kGap = 46;
 
 std::string Escape(const std::string& text) {
@@ -76,6 +76,16 @@ Axis FitAxis(double lo, double hi, bool log) {
   axis.lo = std::floor(lo / step + 1e-9) * step;
   axis.hi = std::ceil(hi / step - 1e-9) * step;
   return axis;
+}
+
+std::string PanelLabel(const std::string& unit, bool log_y) {
+  if (log_y) return "|current| [A], logarithmic";
+  if (unit == "V") return "voltage [V]";
+  if (unit == "A") return "current [A]";
+  if (unit == "W") return "power [W]";
+  if (unit == "Ohm") return "resistance [Ω]";
+  if (unit.empty()) return "(no unit)";
+  return "[" + DisplayUnit(unit) + "]";
 }
 
 struct Trace {
@@ -239,7 +249,7 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
     }
     svg += fmt::format("<text x=\"{}\" y=\"{}\" fill=\"#22262b\" font-weight=\"bold\">{}</text>\n",
                        left, top - 8,
-                       Escape(unit.empty() ? "(no unit)" : (log_y ? "|current| [A]" : "[" + DisplayUnit(unit) + "]")));
+                       Escape(PanelLabel(unit, log_y)));
     svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
                        (left + right) / 2, bottom + 34,
                        Escape(x_column.name + (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));

@@ -259,3 +259,25 @@ TEST(Cli, OutThroughASymlinkReplacesTheTargetNotTheLink) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+// The README's sweep example, as written there (chart to a temporary path).
+TEST(Cli, ReadmeSweepExampleRuns) {
+  const std::string readme = ReadWhole(SourcePath("README.md"));
+  const std::string command =
+      "sweep netlists/input-clamp.knee Vfield=-24..24:0.25 \\\n"
+      "    --show pin.v,Dhi.i,Dlo.i --plot docs/input-clamp-sweep.svg";
+  ASSERT_NE(readme.find(command), std::string::npos) << "README example changed";
+  const std::string chart = TempPath("readme.svg");
+  KneeRun run = RunKnee("sweep " + Netlist("input-clamp.knee") +
+                        " Vfield=-24..24:0.25 --show pin.v,Dhi.i,Dlo.i --plot " + chart);
+  EXPECT_EQ(run.status, 0) << run.err;
+  EXPECT_NE(ReadWhole(chart).find("<svg"), std::string::npos);
+  EXPECT_TRUE(std::filesystem::exists(SourcePath("docs/input-clamp-sweep.svg")));
+  std::filesystem::remove(chart);
+}
+
+}  // namespace
+}  // namespace knee::testing
