@@ -14,6 +14,10 @@
 namespace knee::cli {
 namespace {
 
+std::string Count(long long n, const char* one, const char* many) {
+  return fmt::format("{} {}", n, n == 1 ? one : many);
+}
+
 int Fail(const std::string& message) {
   fmt::print(stderr, "knee: error: {}\n", message);
   return static_cast<int>(ExitStatus::kBadInput);
@@ -130,19 +134,32 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
   const Circuit& c = loaded->design->circuit;
   int counts[4] = {0, 0, 0, 0};
   for (const Element& e : c.elements) ++counts[static_cast<int>(e.kind)];
-  long long sweep_points = 0;
+  static constexpr const char* kKindNames[4][2] = {{"resistor", "resistors"},
+                                                   {"voltage source", "voltage sources"},
+                                                   {"current source", "current sources"},
+                                                   {"diode", "diodes"}};
+  std::vector<std::string> kinds;
+  for (int k = 0; k < 4; ++k) {
+    if (counts[k] > 0) kinds.push_back(Count(counts[k], kKindNames[k][0], kKindNames[k][1]));
+  }
+  std::vector<std::string> requests;
+  if (loaded->design->bias_requested) requests.push_back("bias point");
   for (const auto& sweep : loaded->design->sweeps) {
     long long points = 1;
     for (const SweepAxis& axis : sweep) points *= static_cast<long long>(axis.values.size());
-    sweep_points += points;
+    requests.push_back(fmt::format("sweep of {}", Count(points, "point", "points")));
+  }
+  if (!loaded->design->expects.empty()) {
+    requests.push_back(Count(static_cast<long long>(loaded->design->expects.size()),
+                             "expectation", "expectations"));
   }
   std::string text = fmt::format(
-      "{}: ok: {} nodes besides gnd, {} elements ({} resistors, {} voltage sources, {} current "
-      "sources, {} diodes), {} parts; requests: {}{} sweep(s) with {} points, {} expectation(s)\n",
-      loaded->file == "-" ? "<stdin>" : loaded->file, c.nodes.size() - 1, c.elements.size(),
-      counts[0], counts[1], counts[2], counts[3], c.parts.size(),
-      loaded->design->bias_requested ? "bias, " : "", loaded->design->sweeps.size(), sweep_points,
-      loaded->design->expects.size());
+      "{}: ok: {} besides gnd, {} ({}), {}; requests: {}\n",
+      loaded->file == "-" ? "<stdin>" : loaded->file,
+      Count(static_cast<long long>(c.nodes.size()) - 1, "node", "nodes"),
+      Count(static_cast<long long>(c.elements.size()), "element", "elements"),
+      fmt::join(kinds, ", "), Count(static_cast<long long>(c.parts.size()), "part", "parts"),
+      requests.empty() ? std::string("none") : fmt::format("{}", fmt::join(requests, ", ")));
   problem = options.out_path.empty() ? WriteStdout(text)
                                      : WriteFileAtomically(options.out_path, text);
   if (!problem.empty()) return Fail(problem);
