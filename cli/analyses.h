@@ -41,5 +41,7 @@ Report StartReport(const LoadedDesign& loaded, const char* analysis);
 
 // Name of the solver method for reports.
 const char* SolverMethodName(const SolverOptions& options);
+// Name of the solver that produced a result (SolveSummary::method).
+const char* SolverMethodName(SolverMethod method);
 
 }  // namespace knee::cli

@@ -195,7 +195,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   const size_t stress_column = axes.size() + show.size();
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
     std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
-    std::vector<long long> indices(axes.size());
+    thread_local std::vector<long long> indices;  // per worker thread, reused across points
+    indices.resize(axes.size());
     grid.Indices(index, indices);
     for (size_t a = 0; a < axes.size(); ++a) row[a] = axes[a].values[indices[a]];
     if (solution) {
@@ -247,6 +248,14 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   account.newton_steps = stats.newton_steps;
   account.max_newton_steps = stats.max_newton_steps;
   account.aids = stats.aids;
+  if (!stats.methods.empty()) {
+    std::string methods;
+    for (SolverMethod m : stats.methods) {
+      methods += (methods.empty() ? "" : "; ") + std::string(SolverMethodName(m));
+    }
+    account.method = methods;
+  }
+  account.unique = stats.unique && stats.points > stats.failed;
   account.max_kcl_residual = stats.max_kcl_residual;
   account.worst_node = stats.worst_node;
   result.outcome.point_failed = stats.failed > 0;

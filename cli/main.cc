@@ -4,6 +4,7 @@
 #include <fmt/format.h>
 
 #include <csignal>
+#include <map>
 #include <string>
 
 #include "commands.h"
@@ -55,6 +56,17 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
                    "Turn off junction-voltage limiting");
   solver->add_option("--aids", o->aids,
                      "Convergence aids to try, in order: gmin,source (default) or none");
+  const std::map<std::string, knee::SolverMethod> methods{
+      {"auto", knee::SolverMethod::kAuto},
+      {"potential", knee::SolverMethod::kPotential},
+      {"classic", knee::SolverMethod::kClassic}};
+  solver
+      ->add_option("--method", o->solver.method,
+                   "Bias solver: potential (line search on the network's potential; monotone "
+                   "networks), classic (junction limiting and the aid ladder), or auto "
+                   "(default: potential when the network is monotone)")
+      ->transform(CLI::CheckedTransformer(methods))
+      ->type_name("auto|potential|classic");
 }
 
 ReportFormat ParseFormat(const std::string& text) {

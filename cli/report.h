@@ -52,6 +52,7 @@ struct StressLine {
 
 struct SolverAccount {
   std::string method;               // which solver ran
+  bool unique = false;              // the network is monotone: its solution is unique
   long long points = 0;             // solved points (1 for a bias point)
   long long newton_steps = 0;       // over all points
   int max_newton_steps = 0;         // at the hardest point

@@ -63,6 +63,7 @@ std::string WriteJson(const Report& report) {
   j["expectations"] = expectations;
   const SolverAccount& a = report.account;
   j["solver"] = {{"method", a.method},
+                 {"unique", a.unique},
                  {"points", a.points},
                  {"newton_steps", a.newton_steps},
                  {"max_newton_steps_per_point", a.max_newton_steps},

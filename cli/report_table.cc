@@ -62,7 +62,8 @@ std::string Account(const Report& report) {
   }
   std::string residual = fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
   if (!a.worst_node.empty()) residual += " at " + a.worst_node;
-  return fmt::format("solver: {}, {}, {}; {}\n", a.method, steps, aids, residual);
+  const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
+  return fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
 }
 
 std::string Vertical(const Report& report) {

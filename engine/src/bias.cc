@@ -13,6 +13,7 @@
 #include "knee/solver.h"
 #include "mna.h"
 #include "newton.h"
+#include "potential.h"
 
 namespace knee {
 
@@ -51,6 +52,30 @@ Diagnostic MessageOnly(std::string message) {
   return d;
 }
 
+// to = from, but when both have the same nodes, parts and elements (a sweep point) only
+// the numbers are copied: names and source locations stay as they are, so no string is
+// copied per point.
+void AssignValues(const Circuit& from, Circuit* to) {
+  if (from.nodes.size() != to->nodes.size() || from.parts.size() != to->parts.size() ||
+      from.elements.size() != to->elements.size()) {
+    *to = from;
+    return;
+  }
+  to->temp = from.temp;
+  for (size_t p = 0; p < from.parts.size(); ++p) to->parts[p].model = from.parts[p].model;
+  for (size_t e = 0; e < from.elements.size(); ++e) {
+    const Element& f = from.elements[e];
+    Element& t = to->elements[e];
+    t.kind = f.kind;
+    t.node_a = f.node_a;
+    t.node_b = f.node_b;
+    t.value = f.value;
+    t.part = f.part;
+    t.area = f.area;
+    t.temp = f.temp;
+  }
+}
+
 AssemblyAids WithGmin(double gmin) {
   AssemblyAids aids;
   aids.gmin = gmin;
@@ -71,6 +96,11 @@ struct BiasSolver::Impl {
   MnaSystem mna;
   KluSolver klu;
   NewtonSolver newton;
+  internal::PotentialSolver potential;
+  // Per circuit values (set at Create and UpdateValues): why the network is not
+  // monotone, and why a monotone one has no solution, when so.
+  std::optional<std::string> non_monotone;
+  std::optional<std::string> unbounded;
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
@@ -78,8 +108,19 @@ struct BiasSolver::Impl {
   std::vector<NewtonStepRecord> trace;
 
   Impl(const Circuit& c, const SolverOptions& o)
-      : circuit(c), options(o), mna(c), newton(&mna, &klu, o, mna.size()) {
+      : circuit(c),
+        options(o),
+        mna(c),
+        newton(&mna, &klu, o, mna.size()),
+        potential(&mna, &klu, o, mna.size()) {
     Resize();
+    Classify();
+  }
+
+  void Classify() {
+    non_monotone = internal::NonMonotoneReason(circuit);
+    unbounded.reset();
+    if (!non_monotone) unbounded = internal::FindUnboundedCut(circuit);
   }
 
   void Resize() {
@@ -234,7 +275,8 @@ BiasSolver::~BiasSolver() = default;
 
 void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
-  m.circuit = circuit;
+  AssignValues(circuit, &m.circuit);
+  m.Classify();
   if (m.mna.StructureMatches(circuit)) {
     m.mna.UpdateValues(circuit);
     return;
@@ -243,6 +285,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   // the unknowns and the pattern are rebuilt (and warm starts of the old size are ignored).
   m.mna = MnaSystem(circuit);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
+  m.potential = internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.Resize();
   const auto problem = m.Analyze();
   KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
@@ -260,9 +303,44 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
       std::fill(m.x.begin(), m.x.end(), 0.0);
     }
   };
+  // The potential method for monotone networks (docs/solver.md, "The potential method").
+  s.unique = !m.non_monotone;
+  std::string log;
+  const SolverMethod method = m.options.method;
+  if (method == SolverMethod::kPotential && m.non_monotone) {
+    s.method = SolverMethod::kPotential;
+    s.detail = "the potential method needs a monotone network: " + *m.non_monotone;
+    return s;
+  }
+  if (method != SolverMethod::kClassic && !m.non_monotone) {
+    s.method = SolverMethod::kPotential;
+    if (m.unbounded) {
+      s.status = SolveStatus::kNoSolution;
+      s.detail = *m.unbounded;
+      return s;
+    }
+    reset();
+    m.potential.set_stiff_conductance(internal::StiffJunctionConductance(m.circuit));
+    const NewtonOutcome run = m.potential.Run(m.x, m.trace_on ? &m.trace : nullptr);
+    s.newton_steps += run.steps;
+    if (run.exit == NewtonExit::kConverged || method == SolverMethod::kPotential) {
+      s.detail = run.detail;
+      if (run.exit != NewtonExit::kConverged) {
+        s.status = StatusOf(run.exit);
+        s.unsettled = m.potential.Unsettled(m.x);
+        return s;
+      }
+      m.Verify(&s);
+      if (solution != nullptr) m.Fill(solution);
+      if (s.status == SolveStatus::kConverged) m.converged = m.x;
+      return s;
+    }
+    log = "potential: " + run.detail + "; then the classic ladder: ";
+  }
+  s.method = SolverMethod::kClassic;
   reset();
   NewtonOutcome out = m.Run(AssemblyAids{}, "newton", &s);
-  std::string log = "newton: " + out.detail;
+  log += "newton: " + out.detail;
   const auto try_aid = [&](bool enabled, const char* name, auto ladder) {
     if (!enabled || !allow_aids || out.exit == NewtonExit::kConverged ||
         out.exit == NewtonExit::kFatal)

@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "check.h"
+#include "knee/co_content.h"
 
 namespace knee::internal {
 
@@ -62,6 +63,8 @@ class Resistor final : public Device {
     const double terms = g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_)));
     ctx.AddMagnitude(a_, terms);
     ctx.AddMagnitude(b_, terms);
+    // Co-content of a linear resistor: G v^2 / 2.
+    if (ctx.want_potential) ctx.AddPotential(0.5 * i * (ctx.X(a_) - ctx.X(b_)));
     return true;
   }
   DeviceReport Measure(std::span<const double> x) const override {
@@ -140,6 +143,9 @@ class CurrentSource final : public Device {
     const double i = ctx.source_scale * i_;
     ctx.AddCurrent(a_, i);
     ctx.AddCurrent(b_, -i);
+    // A current source's term of the potential is linear: its gradient is the current
+    // it draws out of a and delivers into b, i.e. its KCL contribution.
+    if (ctx.want_potential) ctx.AddPotential(i * (ctx.X(a_) - ctx.X(b_)));
     return true;
   }
   DeviceReport Measure(std::span<const double> x) const override {
@@ -153,6 +159,14 @@ class CurrentSource final : public Device {
   int a_ = -1, b_ = -1;
   double i_ = 0;
 };
+
+bool SameModel(const DiodeModel& p, const DiodeModel& q) {
+  return p.sat_current == q.sat_current && p.ideality == q.ideality &&
+         p.series_res == q.series_res && p.breakdown_v == q.breakdown_v &&
+         p.breakdown_i == q.breakdown_i && p.breakdown_ideality == q.breakdown_ideality &&
+         p.breakdown_tc == q.breakdown_tc && p.bandgap == q.bandgap &&
+         p.sat_temp_exp == q.sat_temp_exp && p.ref_temp == q.ref_temp;
+}
 
 // Anode a, cathode b; with series_res > 0 the junction sits between the internal node j
 // and b, and series_res/area between a and j. Otherwise j == a.
@@ -177,7 +191,15 @@ class Diode final : public Device {
   void UpdateValues(const Circuit& c) override {
     const Element& e = c.elements[static_cast<size_t>(element())];
     const DiodeModel& model = c.parts[static_cast<size_t>(e.part)].model;
-    d_ = ComputeDiodeConstants(model, e.area, c.DeviceTemp(e));
+    // A sweep point usually changes a source, not this diode: the temperature laws (a
+    // log and an exp per diode) are recomputed only when their inputs changed.
+    const double temp = c.DeviceTemp(e);
+    if (have_inputs_ && SameModel(model, model_) && e.area == area_ && temp == temp_) return;
+    model_ = model;
+    area_ = e.area;
+    temp_ = temp;
+    have_inputs_ = true;
+    d_ = ComputeDiodeConstants(model, e.area, temp);
     // The internal node exists iff series_res > 0 at Create(); values may not remove it.
     KNEE_CHECK((j_ != a_) == (d_.rs > 0.0));
     g_series_ = d_.rs > 0.0 ? 1.0 / d_.rs : 0.0;
@@ -198,7 +220,7 @@ class Diode final : public Device {
     const JunctionPoint p = EvaluateJunction(d_, at);
     const double i = p.current + p.conductance * (vj - at);
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
-    junction_.Stamp(ctx, p.conductance);
+    junction_.Stamp(ctx, ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance);
     ctx.AddCurrent(j_, i);
     ctx.AddCurrent(b_, -i);
     // Rounding of vj itself moves the current by g * eps * (|v(j)| + |v(b)|).
@@ -206,6 +228,8 @@ class Diode final : public Device {
         p.conductance * (std::fabs(ctx.X(j_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr;
     ctx.AddMagnitude(j_, terms);
     ctx.AddMagnitude(b_, terms);
+    // Junction co-content at vj itself (the potential method never limits junctions).
+    if (ctx.want_potential) ctx.AddPotential(JunctionCoContent(d_, vj));
     if (j_ != a_) {
       const double is = g_series_ * (ctx.X(a_) - ctx.X(j_));
       if (!std::isfinite(is)) return false;
@@ -215,6 +239,7 @@ class Diode final : public Device {
       const double series_terms = g_series_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(j_)));
       ctx.AddMagnitude(a_, series_terms);
       ctx.AddMagnitude(j_, series_terms);
+      if (ctx.want_potential) ctx.AddPotential(0.5 * is * (ctx.X(a_) - ctx.X(j_)));
     }
     return true;
   }
@@ -232,6 +257,9 @@ class Diode final : public Device {
  private:
   int a_ = -1, b_ = -1, j_ = -1;
   DiodeConstants d_;
+  DiodeModel model_;  // the inputs d_ was computed from
+  double area_ = 0, temp_ = 0;
+  bool have_inputs_ = false;
   double g_series_ = 0;
   double last_vj_ = 0;
   bool limited_ = false;

@@ -48,6 +48,20 @@ struct StampContext {
   double source_scale = 1.0;    // independent sources are multiplied by this
   bool limit_junctions = false;
   bool limited = false;  // out: some junction's evaluation point was limited
+  // The potential method (docs/solver.md, "The potential method"): when want_potential is
+  // set, every device adds its co-content at x (the integral of its current over its
+  // voltage; sources: the linear term) to `potential`, and the magnitude of that term to
+  // `potential_magnitude` (the round-off scale of the sum).
+  bool want_potential = false;
+  // > 0: every junction stamps this conductance into the Jacobian instead of its own
+  // (the potential method's step onto the voltage sources' constraints; residual as usual).
+  double stiff_junction = 0.0;  // S
+  double potential = 0.0;            // W
+  double potential_magnitude = 0.0;  // W
+  void AddPotential(double c) {
+    potential += c;
+    potential_magnitude += c < 0.0 ? -c : c;
+  }
 
   double X(int u) const { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
   void AddValue(int slot, double v) {

@@ -97,6 +97,8 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   std::fill(magnitude_.begin(), magnitude_.end(), 0.0);
   StampContext ctx{
       x, values_, residual_, flow_, magnitude_, aids.source_scale, aids.limit_junctions, false};
+  ctx.want_potential = aids.want_potential;
+  ctx.stiff_junction = aids.stiff_junction;
   AssemblyOutcome out;
   for (auto& device : devices_) {
     if (!device->Stamp(ctx) && out.finite) {
@@ -108,9 +110,14 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
     for (int r = 0; r < kcl_rows_; ++r) {
       values_[static_cast<size_t>(diagonal_slot_[static_cast<size_t>(r)])] += aids.gmin;
       ctx.AddCurrent(r, aids.gmin * x[static_cast<size_t>(r)]);
+      if (ctx.want_potential) {
+        ctx.AddPotential(0.5 * aids.gmin * x[static_cast<size_t>(r)] * x[static_cast<size_t>(r)]);
+      }
     }
   }
   out.limited = ctx.limited;
+  out.potential = ctx.potential;
+  out.potential_magnitude = ctx.potential_magnitude;
   if (out.finite) {
     for (double r : residual_) {
       if (!std::isfinite(r)) out.finite = false;

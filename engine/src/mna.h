@@ -19,12 +19,16 @@ struct AssemblyAids {
   double gmin = 0.0;          // S from every node row (internal nodes included) to gnd
   double source_scale = 1.0;  // multiplies every independent source
   bool limit_junctions = false;
+  bool want_potential = false;  // also evaluate the network's co-content (potential method)
+  double stiff_junction = 0.0;  // S; > 0: junctions stamp this conductance (see devices.h)
 };
 
 struct AssemblyOutcome {
   bool finite = true;
   int bad_element = -1;  // first element with a non-finite value
   bool limited = false;  // some junction's evaluation point was limited
+  double potential = 0.0;            // W, co-content at x (when want_potential)
+  double potential_magnitude = 0.0;  // W, sum of the magnitudes of its terms
 };
 
 class MnaSystem {

@@ -19,6 +19,11 @@ bool Positive(double v) { return std::isfinite(v) && v > 0.0; }
 }  // namespace
 
 std::optional<std::string> Validate(const SolverOptions& o) {
+  if (o.method != SolverMethod::kAuto && o.method != SolverMethod::kPotential &&
+      o.method != SolverMethod::kClassic) {
+    return Broken("method", static_cast<double>(static_cast<int>(o.method)),
+                  "one of auto, potential, classic");
+  }
   if (!Positive(o.abs_voltage_tol)) return Broken("abs_voltage_tol", o.abs_voltage_tol, "> 0 V");
   if (!Positive(o.abs_current_tol)) return Broken("abs_current_tol", o.abs_current_tol, "> 0 A");
   if (!(std::isfinite(o.rel_tol) && o.rel_tol > 0.0 && o.rel_tol <= 1e-2)) {
@@ -52,6 +57,20 @@ const char* ToString(SolveStatus status) {
       return "non-finite value";
     case SolveStatus::kVerificationFailed:
       return "verification failed";
+    case SolveStatus::kNoSolution:
+      return "no solution";
+  }
+  return "unknown";
+}
+
+const char* ToString(SolverMethod method) {
+  switch (method) {
+    case SolverMethod::kAuto:
+      return "auto";
+    case SolverMethod::kPotential:
+      return "potential";
+    case SolverMethod::kClassic:
+      return "classic";
   }
   return "unknown";
 }

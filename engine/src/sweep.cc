@@ -198,6 +198,11 @@ class Worker {
     ++stats.points;
     stats.newton_steps += summary.newton_steps;
     stats.max_newton_steps = std::max(stats.max_newton_steps, summary.newton_steps);
+    if (std::find(stats.methods.begin(), stats.methods.end(), summary.method) ==
+        stats.methods.end()) {
+      stats.methods.push_back(summary.method);
+    }
+    if (summary.status == SolveStatus::kConverged) stats.unique = stats.unique && summary.unique;
     for (const std::string& aid : summary.aids) {
       if (std::find(stats.aids.begin(), stats.aids.end(), aid) == stats.aids.end()) {
         stats.aids.push_back(aid);
@@ -269,6 +274,12 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
     total.failed += s.failed;
     total.newton_steps += s.newton_steps;
     total.max_newton_steps = std::max(total.max_newton_steps, s.max_newton_steps);
+    for (SolverMethod m : s.methods) {
+      if (std::find(total.methods.begin(), total.methods.end(), m) == total.methods.end()) {
+        total.methods.push_back(m);
+      }
+    }
+    total.unique = total.unique && s.unique;
     for (const std::string& aid : s.aids) {
       if (std::find(total.aids.begin(), total.aids.end(), aid) == total.aids.end()) {
         total.aids.push_back(aid);

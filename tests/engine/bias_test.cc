@@ -244,6 +244,7 @@ TEST(BiasDiode, BridgeRectifierWithoutLimitingSatisfiesKcl) {
   model.sat_current = 1e-14;
   const Circuit c = Bridge(model, 10.0, 1e3);
   SolverOptions o;
+  o.method = SolverMethod::kClassic;  // plain Newton without limiting is under test
   o.junction_limiting = false;
   Solution s;
   const SolveSummary summary = SolveOk(c, &s, o);
@@ -265,6 +266,7 @@ TEST(BiasAids, SourceSteppingReachesTheExactAnswer) {
   model.sat_current = 1e-14;
   const Circuit c = Bridge(model, 10.0, 1e3);
   SolverOptions o;
+  o.method = SolverMethod::kClassic;  // the aid ladder is under test
   o.junction_limiting = false;
   o.max_newton_steps = 30;
   o.gmin_stepping = false;
@@ -291,6 +293,7 @@ TEST(BiasAids, GminSteppingLeavesNoShunt) {
   model.sat_current = 1e-14;
   const Circuit c = Bridge(model, 10.0, 1e3);
   SolverOptions o;
+  o.method = SolverMethod::kClassic;  // the aid ladder is under test
   o.max_newton_steps = 11;
   o.source_stepping = false;
   auto solver = BiasSolver::Create(c, o);
@@ -308,6 +311,7 @@ TEST(BiasAids, FailureIsReportedWithDetail) {
   DiodeModel model;
   const Circuit c = Bridge(model, 10.0, 1e3);
   SolverOptions o;
+  o.method = SolverMethod::kClassic;  // the classic ladder's failure report is under test
   o.max_newton_steps = 2;
   o.gmin_stepping = false;
   o.source_stepping = false;

@@ -13,8 +13,26 @@
 
 namespace knee {
 
+// Which bias solver runs (docs/solver.md, "The potential method").
+enum class SolverMethod {
+  // The potential method when the network is monotone (every resistor > 0, every diode
+  // law increasing: all of knee's devices as the contract defines them), else classic.
+  // If the potential method stops without an answer for a reason other than "no
+  // solution exists", the classic ladder runs after it.
+  kAuto,
+  // Newton directions of the MNA system with a line search on the network's co-content
+  // (a convex function; Millar 1951): converges on every monotone network that has a
+  // solution, without limiting, gmin or source stepping. Monotone networks only.
+  kPotential,
+  // Plain Newton with junction limiting, then the aid ladder (gmin, source stepping).
+  kClassic,
+};
+const char* ToString(SolverMethod method);  // "auto", "potential", "classic"
+
 // Every field has its default and unit beside it; Validate() holds all the rules.
 struct SolverOptions {
+  // Which solver runs; must be one of the SolverMethod values.
+  SolverMethod method = SolverMethod::kAuto;
   // Newton stops when, for every unknown, |dx| <= abs_voltage_tol + rel_tol * |x|
   // (branch-current unknowns use abs_current_tol instead of abs_voltage_tol) AND the KCL
   // residual of every node is <= abs_current_tol + rel_tol * (largest current magnitude
@@ -51,6 +69,10 @@ enum class SolveStatus {
   kSingularMatrix,      // not usable: the Jacobian stayed singular
   kNonFinite,           // not usable: a device produced a non-finite value
   kVerificationFailed,  // not usable: converged, but the KCL residual check failed
+  // Not usable: the network has no DC solution (a set of nodes into which current
+  // sources push more current than the reverse-biased diodes leaving it can carry, so
+  // the potential is unbounded below); the detail names those elements.
+  kNoSolution,
 };
 const char* ToString(SolveStatus status);
 
@@ -66,6 +88,10 @@ struct Solution {
 // The solver's account of one solve.
 struct SolveSummary {
   SolveStatus status = SolveStatus::kNoConvergence;
+  SolverMethod method = SolverMethod::kClassic;  // the solver that produced this result
+  // The network is monotone, so its DC solution (when there is one) is unique: the
+  // strictly convex potential has one minimum (Duffin 1947). Set for monotone networks.
+  bool unique = false;
   int newton_steps = 0;            // all steps, aids included
   std::vector<std::string> aids;   // aids needed, in order ("gmin stepping", ...)
   double max_kcl_residual = 0.0;   // A, largest |KCL residual| of the reported solution
@@ -83,6 +109,14 @@ struct NewtonStepRecord {
   // step, at a limited voltage instead of the one this update reached.
   bool limited = false;
   std::string phase;          // "newton", "gmin 1e-3", "source 40%", ...
+  // Potential method only: the line-search step length t (x += t * dx for the node
+  // voltages), the potential before the step and its change (W), the round-off scale
+  // of those numbers, and the line-search trials it took.
+  double step_length = 1.0;
+  double potential = 0.0;
+  double potential_change = 0.0;
+  double potential_roundoff = 0.0;
+  int line_search_trials = 0;
 };
 
 class BiasSolver {

@@ -61,6 +61,8 @@ struct SweepStats {
   long long newton_steps = 0;
   int max_newton_steps = 0;
   std::vector<std::string> aids;
+  std::vector<SolverMethod> methods;  // solvers that produced the points, first use order
+  bool unique = true;                 // every solved point's solution is unique
   double max_kcl_residual = 0;
   std::string worst_node;
   std::string setup_error;  // BiasSolver::Create failed; nothing was solved

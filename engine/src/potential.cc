@@ -1,0 +1,627 @@
+// The potential method: Newton directions of the MNA system, a line search on the
+// network's co-content, and the structural test for networks without a solution.
+// The mathematics and its sources are in docs/solver.md, "The potential method".
+#include "potential.h"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numeric>
+#include <queue>
+
+#include "knee/diode_law.h"
+
+namespace knee::internal {
+namespace {
+
+double MaxAbs(std::span<const double> v, size_t count) {
+  double m = 0.0;
+  for (size_t i = 0; i < count; ++i) m = std::max(m, std::fabs(v[i]));
+  return m;
+}
+
+bool Finite(double v) { return std::isfinite(v); }
+
+// Union-find over circuit nodes.
+class Groups {
+ public:
+  explicit Groups(size_t n) : parent_(n) { std::iota(parent_.begin(), parent_.end(), 0); }
+  int Find(int i) {
+    while (parent_[static_cast<size_t>(i)] != i) {
+      int& p = parent_[static_cast<size_t>(i)];
+      p = parent_[static_cast<size_t>(p)];
+      i = p;
+    }
+    return i;
+  }
+  void Join(int a, int b) {
+    a = Find(a);
+    b = Find(b);
+    if (a != b) parent_[static_cast<size_t>(std::max(a, b))] = std::min(a, b);
+  }
+
+ private:
+  std::vector<int> parent_;
+};
+
+// Maximum flow (shortest augmenting paths, J. Edmonds and R. M. Karp, J. ACM 19(2),
+// 1972) on a small graph with real capacities; afterwards, the nodes reachable from the
+// source in the residual graph form the source side of a minimum cut.
+class FlowGraph {
+ public:
+  explicit FlowGraph(int n) : adjacent_(static_cast<size_t>(n)) {}
+  void AddEdge(int from, int to, double capacity) {
+    adjacent_[static_cast<size_t>(from)].push_back(static_cast<int>(edges_.size()));
+    edges_.push_back({to, capacity});
+    adjacent_[static_cast<size_t>(to)].push_back(static_cast<int>(edges_.size()));
+    edges_.push_back({from, 0.0});
+  }
+  double MaxFlow(int source, int sink) {
+    double total = 0.0;
+    const size_t n = adjacent_.size();
+    while (true) {
+      std::vector<int> via(n, -1);  // edge used to reach each node
+      std::vector<char> seen(n, 0);
+      std::queue<int> queue;
+      queue.push(source);
+      seen[static_cast<size_t>(source)] = 1;
+      while (!queue.empty() && !seen[static_cast<size_t>(sink)]) {
+        const int u = queue.front();
+        queue.pop();
+        for (int e : adjacent_[static_cast<size_t>(u)]) {
+          const Edge& edge = edges_[static_cast<size_t>(e)];
+          if (edge.capacity > 0.0 && !seen[static_cast<size_t>(edge.to)]) {
+            seen[static_cast<size_t>(edge.to)] = 1;
+            via[static_cast<size_t>(edge.to)] = e;
+            queue.push(edge.to);
+          }
+        }
+      }
+      if (!seen[static_cast<size_t>(sink)]) return total;
+      double push = std::numeric_limits<double>::infinity();
+      for (int v = sink; v != source;) {
+        const int e = via[static_cast<size_t>(v)];
+        push = std::min(push, edges_[static_cast<size_t>(e)].capacity);
+        v = edges_[static_cast<size_t>(e ^ 1)].to;
+      }
+      for (int v = sink; v != source;) {
+        const int e = via[static_cast<size_t>(v)];
+        edges_[static_cast<size_t>(e)].capacity -= push;
+        edges_[static_cast<size_t>(e ^ 1)].capacity += push;
+        v = edges_[static_cast<size_t>(e ^ 1)].to;
+      }
+      total += push;
+    }
+  }
+  std::vector<char> SourceSide(int source) const {
+    std::vector<char> seen(adjacent_.size(), 0);
+    std::queue<int> queue;
+    queue.push(source);
+    seen[static_cast<size_t>(source)] = 1;
+    while (!queue.empty()) {
+      const int u = queue.front();
+      queue.pop();
+      for (int e : adjacent_[static_cast<size_t>(u)]) {
+        const Edge& edge = edges_[static_cast<size_t>(e)];
+        if (edge.capacity > 0.0 && !seen[static_cast<size_t>(edge.to)]) {
+          seen[static_cast<size_t>(edge.to)] = 1;
+          queue.push(edge.to);
+        }
+      }
+    }
+    return seen;
+  }
+
+ private:
+  struct Edge {
+    int to;
+    double capacity;
+  };
+  std::vector<std::vector<int>> adjacent_;
+  std::vector<Edge> edges_;
+};
+
+struct DirectedDiode {
+  int element;
+  int anode_group;
+  int cathode_group;
+  double is;  // A, the most reverse current it can carry
+};
+
+// Maximum-weight closure (Picard 1976): the set S of groups, without gnd's group, closed
+// under `edges` (from in S implies to in S), that maximises sum(profit). Returns the
+// membership per group and the value.
+std::pair<std::vector<char>, double> MaxClosure(const std::vector<double>& profit,
+                                                const std::vector<std::pair<int, int>>& edges,
+                                                int ground) {
+  const int n = static_cast<int>(profit.size());
+  const int source = n;
+  const int sink = n + 1;
+  FlowGraph graph(n + 2);
+  const double infinite = std::numeric_limits<double>::infinity();
+  double positive = 0.0;
+  for (int g = 0; g < n; ++g) {
+    const double p = profit[static_cast<size_t>(g)];
+    if (p > 0.0) {
+      graph.AddEdge(source, g, p);
+      positive += p;
+    } else if (p < 0.0) {
+      graph.AddEdge(g, sink, -p);
+    }
+  }
+  for (const auto& [from, to] : edges) graph.AddEdge(from, to, infinite);
+  graph.AddEdge(ground, sink, infinite);
+  const double cut = graph.MaxFlow(source, sink);
+  std::vector<char> side = graph.SourceSide(source);
+  side.resize(static_cast<size_t>(n));
+  return {side, positive - cut};
+}
+
+std::string NodeList(const Circuit& c, Groups& groups, const std::vector<char>& in_set) {
+  std::vector<std::string> names;
+  for (size_t node = 1; node < c.nodes.size(); ++node) {
+    if (in_set[static_cast<size_t>(groups.Find(static_cast<int>(node)))]) {
+      names.push_back(c.nodes[node]);
+    }
+  }
+  constexpr size_t kShown = 8;
+  std::string out;
+  for (size_t i = 0; i < names.size() && i < kShown; ++i) {
+    out += (i == 0 ? "'" : ", '") + names[i] + "'";
+  }
+  if (names.size() > kShown) out += fmt::format(" and {} more", names.size() - kShown);
+  return out;
+}
+
+std::string NameList(const std::vector<std::string>& names) {
+  std::string out;
+  for (size_t i = 0; i < names.size(); ++i) {
+    if (i > 0) out += (i + 1 == names.size()) ? " and " : ", ";
+    out += "'" + names[i] + "'";
+  }
+  return out;
+}
+
+}  // namespace
+
+std::optional<std::string> NonMonotoneReason(const Circuit& c) {
+  for (const Element& e : c.elements) {
+    switch (e.kind) {
+      case ElementKind::kResistor:
+        if (!(Finite(e.value) && e.value > 0.0)) {
+          return fmt::format("resistor '{}' has {:g} Ohm, not a finite value > 0", e.name,
+                             e.value);
+        }
+        break;
+      case ElementKind::kVoltageSource:
+      case ElementKind::kCurrentSource:
+        if (!Finite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
+        break;
+      case ElementKind::kDiode: {
+        if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) {
+          return fmt::format("diode '{}' has no part", e.name);
+        }
+        const DiodeConstants d =
+            ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area,
+                                  c.DeviceTemp(e));
+        const bool forward_ok = Finite(d.is) && d.is > 0.0 && Finite(d.n_vt) && d.n_vt > 0.0;
+        const bool series_ok = Finite(d.rs) && d.rs >= 0.0;
+        const bool breakdown_ok = !d.has_breakdown || (Finite(d.ibr) && d.ibr > 0.0 &&
+                                                       Finite(d.nbr_vt) && d.nbr_vt > 0.0 &&
+                                                       Finite(d.vbr));
+        if (!(forward_ok && series_ok && breakdown_ok)) {
+          return fmt::format(
+              "diode '{}' has a law that is not strictly increasing at {:g} C (Is {:g} A, "
+              "n*Vt {:g} V, series {:g} Ohm)",
+              e.name, c.DeviceTemp(e), d.is, d.n_vt, d.rs);
+        }
+        break;
+      }
+    }
+  }
+  return std::nullopt;
+}
+
+std::optional<std::string> FindUnboundedCut(const Circuit& c) {
+  const size_t node_count = c.nodes.size();
+  Groups groups(node_count);
+  // Directions that change a resistor's, a voltage source's or a breakdown-capable
+  // diode's voltage raise the potential without bound (quadratically or exponentially):
+  // their ends move together. A diode's series resistance ties its anode to its junction.
+  std::vector<DirectedDiode> diodes;
+  for (int i = 0; i < static_cast<int>(c.elements.size()); ++i) {
+    const Element& e = c.elements[static_cast<size_t>(i)];
+    if (e.kind == ElementKind::kResistor || e.kind == ElementKind::kVoltageSource) {
+      groups.Join(e.node_a, e.node_b);
+    } else if (e.kind == ElementKind::kDiode) {
+      const DiodeConstants d = ComputeDiodeConstants(
+          c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+      if (d.has_breakdown) {
+        groups.Join(e.node_a, e.node_b);
+      } else {
+        diodes.push_back({i, e.node_a, e.node_b, d.is});
+      }
+    }
+  }
+  const int ground = groups.Find(kGroundNode);
+  // Slope of the potential along the indicator of a set S of groups, per group:
+  // w(g) = sum over current sources of I*([a in g] - [b in g]) + sum over diodes of
+  // Is*([cathode in g] - [anode in g]).
+  std::vector<double> weight(node_count, 0.0);
+  double scale = 0.0;
+  for (const Element& e : c.elements) {
+    if (e.kind != ElementKind::kCurrentSource) continue;
+    weight[static_cast<size_t>(groups.Find(e.node_a))] += e.value;
+    weight[static_cast<size_t>(groups.Find(e.node_b))] -= e.value;
+    scale += std::fabs(e.value);
+  }
+  std::vector<std::pair<int, int>> forward_edges, reverse_edges;
+  for (DirectedDiode& d : diodes) {
+    d.anode_group = groups.Find(d.anode_group);
+    d.cathode_group = groups.Find(d.cathode_group);
+    if (d.anode_group == d.cathode_group) continue;
+    weight[static_cast<size_t>(d.cathode_group)] += d.is;
+    weight[static_cast<size_t>(d.anode_group)] -= d.is;
+    scale += d.is;
+    forward_edges.emplace_back(d.anode_group, d.cathode_group);
+    reverse_edges.emplace_back(d.cathode_group, d.anode_group);
+  }
+  if (scale == 0.0) return std::nullopt;
+  // Raising the voltage of S (closed under anode -> cathode, so no diode is forward
+  // biased) changes the potential at the rate sum_S w; lowering a set T (closed under
+  // cathode -> anode) at the rate -sum_T w. Every direction is a positive combination of
+  // such indicators (its level sets), so these two closures decide boundedness.
+  std::vector<double> negated(weight.size());
+  for (size_t g = 0; g < weight.size(); ++g) negated[g] = -weight[g];
+  const double tolerance = 64 * std::numeric_limits<double>::epsilon() * scale;
+  for (int raise = 1; raise >= 0; --raise) {
+    const auto [in_set, value] =
+        MaxClosure(raise ? negated : weight, raise ? forward_edges : reverse_edges, ground);
+    if (!(value > tolerance)) continue;
+    // Name the current sources that cross the set and the diodes that leave it in reverse.
+    std::vector<std::string> sources, blocking;
+    double pushed = 0.0;
+    double capacity = 0.0;
+    for (const Element& e : c.elements) {
+      if (e.kind != ElementKind::kCurrentSource) continue;
+      const bool a_in = in_set[static_cast<size_t>(groups.Find(e.node_a))] != 0;
+      const bool b_in = in_set[static_cast<size_t>(groups.Find(e.node_b))] != 0;
+      if (a_in == b_in) continue;
+      sources.push_back(e.name);
+      // Current I flows from a to b through the source: into the set when b is inside.
+      pushed += (b_in ? e.value : -e.value) * (raise ? 1.0 : -1.0);
+    }
+    for (const DirectedDiode& d : diodes) {
+      const bool a_in = in_set[static_cast<size_t>(d.anode_group)] != 0;
+      const bool k_in = in_set[static_cast<size_t>(d.cathode_group)] != 0;
+      if (a_in == k_in) continue;
+      blocking.push_back(c.elements[static_cast<size_t>(d.element)].name);
+      capacity += d.is;
+    }
+    const std::string nodes = NodeList(c, groups, in_set);
+    std::string message = fmt::format(
+        "no DC solution: current source{} {} {} a net {:.4g} A {} node{} {}",
+        sources.size() == 1 ? "" : "s", NameList(sources), raise ? "push" : "pull", pushed,
+        raise ? "into" : "out of", nodes.find(',') == std::string::npos ? "" : "s", nodes);
+    if (blocking.empty()) {
+      message += ", which have no other path";
+    } else {
+      message += fmt::format(
+          ", but the only other way {} is through diode{} {} without breakdown, in reverse, "
+          "which carr{} at most {:.4g} A",
+          raise ? "out" : "in", blocking.size() == 1 ? "" : "s", NameList(blocking),
+          blocking.size() == 1 ? "ies" : "y", capacity);
+    }
+    message += " (the network's potential is unbounded below)";
+    return message;
+  }
+  return std::nullopt;
+}
+
+double StiffJunctionConductance(const Circuit& c) {
+  double largest = 0.0;
+  for (const Element& e : c.elements) {
+    if (e.kind == ElementKind::kResistor && e.value > 0.0) {
+      largest = std::max(largest, 1.0 / e.value);
+    } else if (e.kind == ElementKind::kDiode && e.part >= 0) {
+      const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+      if (rs > 0.0) largest = std::max(largest, 1.0 / rs);
+    }
+  }
+  return kStiffFactor * (largest > 0.0 && std::isfinite(largest) ? largest : 1.0);
+}
+
+PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
+                                 int size)
+    : mna_(mna),
+      klu_(klu),
+      options_(options),
+      dx_(static_cast<size_t>(size), 0.0),
+      base_(static_cast<size_t>(size), 0.0),
+      branch_dv_(static_cast<size_t>(size - mna->kcl_rows()), 0.0) {}
+
+// d/dt of the potential at x along the node-voltage part dv of dx_: the gradient of the
+// potential is the devices' KCL residual without the voltage sources' currents k, so
+// slope = sum_r F_r dv_r - sum_k x_k (A^T dv)_k, with A^T dv the change of every source's
+// v(P) - v(N) along dv (zero on the feasible set, up to round-off).
+double PotentialSolver::Slope(std::span<const double> x) const {
+  const auto f = mna_->residual();
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+  double slope = 0.0;
+  for (size_t r = 0; r < kcl; ++r) slope += f[r] * dx_[r];
+  for (size_t k = 0; k < branch_dv_.size(); ++k) slope -= x[kcl + k] * branch_dv_[k];
+  return slope;
+}
+
+double PotentialSolver::SlopeRoundOff() const {
+  double bound = 0.0;
+  for (int r = 0; r < mna_->kcl_rows(); ++r) {
+    bound += mna_->RoundOffAllowance(r) * std::fabs(dx_[static_cast<size_t>(r)]);
+  }
+  return bound;
+}
+
+// The source equations hold at the last assembly (within their residual bound).
+bool PotentialSolver::Feasible() const {
+  const auto f = mna_->residual();
+  for (int r = mna_->kcl_rows(); r < mna_->size(); ++r) {
+    if (!(std::fabs(f[static_cast<size_t>(r)]) <=
+          options_.abs_voltage_tol + mna_->RoundOffAllowance(r))) {
+      return false;
+    }
+  }
+  return true;
+}
+
+// x = base + t*dv for the node voltages and base + dk for the source currents (the
+// multipliers of the constraints take the full Newton estimate), then one assembly pass
+// that gives the Jacobian, the residual and the potential.
+PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, double t,
+                                                 std::span<double> x) {
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+  for (size_t i = 0; i < x.size(); ++i) x[i] = base[i] + (i < kcl ? t : 1.0) * dx_[i];
+  AssemblyAids aids;
+  aids.want_potential = true;
+  const AssemblyOutcome out = mna_->Assemble(x, aids);
+  ++evaluations_;
+  Trial trial;
+  trial.finite = out.finite && std::isfinite(out.potential);
+  trial.potential = out.potential;
+  trial.potential_magnitude = out.potential_magnitude;
+  if (trial.finite) trial.slope = Slope(x);
+  trial.finite = trial.finite && std::isfinite(trial.slope);
+  return trial;
+}
+
+// Off the set where the sources hold (a cold start, or a warm start whose sources
+// changed): one step onto it, taken whole (the source equations are linear, so the full
+// step satisfies them; from then on every Newton step keeps them). Among the steps that
+// do, this one is the smallest in the metric of a network in which every junction is a
+// stiff conductance and every resistor keeps its own: the sources' voltages land on the
+// resistors and the junctions keep their voltages, instead of a junction taking a whole
+// source voltage and starting deep in its exponential. On return dx_ holds the step.
+bool PotentialSolver::FeasibilityStep(std::span<double> x, NewtonOutcome* outcome) {
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+  const auto f = mna_->residual();
+  for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = i < kcl ? 0.0 : -f[i];
+  AssemblyAids stiff;
+  stiff.stiff_junction = stiff_;
+  const AssemblyOutcome assembled = mna_->Assemble(x, stiff);
+  ++evaluations_;
+  LinearStatus status = assembled.finite ? klu_->Refactor(mna_->values()) : LinearStatus::kFatal;
+  if (status == LinearStatus::kOk) status = klu_->Solve(dx_);
+  if (status == LinearStatus::kOk) return true;
+  outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
+  outcome->detail = assembled.finite ? klu_->message() : "the starting point is not finite";
+  return false;
+}
+
+bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
+  LinearStatus status = klu_->Refactor(mna_->values());
+  if (status == LinearStatus::kOk) {
+    const auto f = mna_->residual();
+    for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = -f[i];
+    status = klu_->Solve(dx_);
+  }
+  if (status == LinearStatus::kOk) return true;
+  outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
+  outcome->detail = klu_->message();
+  return false;
+}
+
+NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRecord>* trace) {
+  NewtonOutcome outcome;
+  evaluations_ = 0;
+  mna_->BeginRun(x);
+  AssemblyAids aids;
+  aids.want_potential = true;
+  const AssemblyOutcome start = mna_->Assemble(x, aids);
+  ++evaluations_;
+  if (!start.finite || !std::isfinite(start.potential)) {
+    outcome.exit = NewtonExit::kNonFinite;
+    outcome.detail = fmt::format(
+        "the starting point gives element '{}' a non-finite value",
+        start.bad_element >= 0 ? mna_->ElementName(start.bad_element) : "?");
+    return outcome;
+  }
+  double potential = start.potential;
+  double potential_magnitude = start.potential_magnitude;
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+  ToleranceCheck update;
+  update.index = 0;
+  update.value = 1.0;  // no update yet: not settled
+  for (int step = 1; step <= options_.max_newton_steps; ++step) {
+    outcome.steps = step;
+    const ToleranceCheck residual = CheckResidual(*mna_, options_);
+    if (step > 1 && update.passed() && residual.passed()) {
+      outcome.exit = NewtonExit::kConverged;
+      outcome.detail = fmt::format(
+          "potential method converged in {} steps ({} evaluations): worst |dx| at '{}' = "
+          "{:.3g} <= {:.3g}, worst residual at '{}' = {:.3g} <= {:.3g}",
+          step - 1, evaluations_, mna_->UnknownName(update.index), update.value, update.bound,
+          mna_->UnknownName(residual.index), residual.value, residual.bound);
+      Polish(x);
+      return outcome;
+    }
+    const double max_residual = MaxAbs(mna_->residual(), kcl);
+    const bool feasible = Feasible();
+    if (!feasible) {
+      std::copy(x.begin(), x.end(), base_.begin());
+      if (!FeasibilityStep(x, &outcome)) {
+        outcome.detail = fmt::format("step {}: {}", step, outcome.detail);
+        return outcome;
+      }
+    } else if (!SolveStep(&outcome)) {
+      outcome.detail = fmt::format("step {}: {}", step, outcome.detail);
+      return outcome;
+    }
+    // A^T dv from the source rows of the Jacobian (their entries are the constant +-1 of
+    // the source equations).
+    std::fill(branch_dv_.begin(), branch_dv_.end(), 0.0);
+    {
+      const auto col_ptr = mna_->col_ptr();
+      const auto rows = mna_->row_index();
+      const auto values = mna_->values();
+      for (size_t col = 0; col < kcl; ++col) {
+        for (int p = col_ptr[col]; p < col_ptr[col + 1]; ++p) {
+          const auto row = static_cast<size_t>(rows[static_cast<size_t>(p)]);
+          if (row >= kcl) branch_dv_[row - kcl] += values[static_cast<size_t>(p)] * dx_[col];
+        }
+      }
+    }
+    std::copy(x.begin(), x.end(), base_.begin());
+    const double slope0 = Slope(base_);
+    const double slope_roundoff = SlopeRoundOff();
+    const double before = potential;
+    const double before_magnitude = potential_magnitude;
+    const auto roundoff = [&](const Trial& tr) {
+      return MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
+    };
+    double t = 1.0;
+    int trials = 0;
+    Trial accepted;
+    bool ok = false;
+    const char* phase = "potential";
+    if (!feasible) {
+      phase = "potential (sources)";
+      accepted = Evaluate(base_, 1.0, x);
+      trials = 1;
+      ok = accepted.finite;
+    } else if (!(slope0 < -slope_roundoff)) {
+      // The slope along the Newton direction is below its own round-off: the step is
+      // taken when it does not raise the potential by more than the potential's round-off.
+      accepted = Evaluate(base_, 1.0, x);
+      trials = 1;
+      ok = accepted.finite && accepted.potential - before <= roundoff(accepted);
+    } else {
+      // Backtracking (Armijo 1966) with safeguarded quadratic interpolation (Nocedal and
+      // Wright, ch. 3, recalled from memory). A trial is accepted when the sufficient
+      // decrease holds beyond round-off, or when the slope at the trial is at most
+      // kArmijoFraction times the initial slope: for a convex function
+      // phi(t) <= phi(0) + t*phi'(t), so that proves the same decrease without
+      // subtracting two nearly equal potentials.
+      for (trials = 1; trials <= kMaxBacktracks; ++trials) {
+        accepted = Evaluate(base_, t, x);
+        if (accepted.finite) {
+          const double change = accepted.potential - before;
+          const bool armijo = change + roundoff(accepted) <= kArmijoFraction * t * slope0;
+          const bool certified = accepted.slope + slope_roundoff <= kArmijoFraction * slope0;
+          if (armijo || certified) {
+            ok = true;
+            break;
+          }
+          const double curvature = 2.0 * (change - slope0 * t);
+          const double guess = curvature > 0.0 ? -slope0 * t * t / curvature : 0.5 * t;
+          t = std::clamp(guess, 0.1 * t, 0.5 * t);
+        } else {
+          t *= 0.1;
+        }
+      }
+      // A full step that leaves the potential still falling steeply is lengthened while
+      // the slope at the longer step stays negative (which, by convexity, means the
+      // potential fell all the way there).
+      if (ok && trials == 1 && accepted.slope <= kCurvatureFraction * slope0) {
+        for (int e = 0; e < kMaxExpansions; ++e) {
+          const Trial longer = Evaluate(base_, 2.0 * t, x);
+          ++trials;
+          if (!(longer.finite && longer.slope + slope_roundoff <= kArmijoFraction * slope0)) {
+            accepted = Evaluate(base_, t, x);  // back to the last good length
+            ++trials;
+            break;
+          }
+          t *= 2.0;
+          accepted = longer;
+          if (longer.slope > kCurvatureFraction * slope0) break;
+        }
+      }
+    }
+    if (!ok) {
+      outcome.exit = NewtonExit::kStepLimit;
+      outcome.detail = fmt::format(
+          "step {}: the line search found no step that decreases the potential ({:.6g} W, "
+          "slope {:.3g} W, last trial t = {:.3g})",
+          step, before, slope0, t);
+      return outcome;
+    }
+    for (size_t i = 0; i < kcl; ++i) dx_[i] *= t;  // the update actually taken
+    potential = accepted.potential;
+    potential_magnitude = accepted.potential_magnitude;
+    update = CheckUpdate(*mna_, options_, dx_, x);
+    if (!std::isfinite(update.value)) {
+      outcome.exit = NewtonExit::kNonFinite;
+      outcome.detail = fmt::format("step {}: the update of '{}' is not finite", step,
+                                   mna_->UnknownName(update.index));
+      return outcome;
+    }
+    if (trace != nullptr) {
+      NewtonStepRecord record;
+      record.step = step;
+      record.max_update = MaxAbs(dx_, dx_.size());
+      record.max_residual = max_residual;
+      record.phase = phase;
+      record.step_length = t;
+      record.potential = before;
+      record.potential_change = potential - before;
+      record.potential_roundoff = roundoff(accepted);
+      record.line_search_trials = trials;
+      trace->push_back(std::move(record));
+    }
+  }
+  const ToleranceCheck residual = CheckResidual(*mna_, options_);
+  outcome.exit = NewtonExit::kStepLimit;
+  outcome.detail = fmt::format(
+      "potential method: no convergence in {} steps: last |dx| at '{}' = {:.3g} (bound "
+      "{:.3g}), worst residual at '{}' = {:.3g} (bound {:.3g})",
+      options_.max_newton_steps, mna_->UnknownName(update.index), update.value, update.bound,
+      mna_->UnknownName(residual.index), residual.value, residual.bound);
+  return outcome;
+}
+
+// One more full Newton step after convergence (quadratic convergence makes it reach
+// round-off level); kept only if the residual stays within its bound.
+void PotentialSolver::Polish(std::span<double> x) {
+  std::copy(x.begin(), x.end(), base_.begin());
+  NewtonOutcome ignored;
+  if (!SolveStep(&ignored)) return;
+  for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+  const AssemblyOutcome assembled = mna_->Assemble(x, AssemblyAids{});
+  if (assembled.finite && CheckResidual(*mna_, options_).passed()) return;
+  std::copy(base_.begin(), base_.end(), x.begin());
+}
+
+std::vector<std::string> PotentialSolver::Unsettled(std::span<const double> x) const {
+  std::vector<std::string> names;
+  for (int u = 0; u < mna_->size(); ++u) {
+    const auto i = static_cast<size_t>(u);
+    const double abs_tol =
+        mna_->IsCurrentUnknown(u) ? options_.abs_current_tol : options_.abs_voltage_tol;
+    if (!(std::fabs(dx_[i]) <= abs_tol + options_.rel_tol * std::fabs(x[i]))) {
+      names.push_back(fmt::format("{} (last change {:.3g})", mna_->UnknownName(u), dx_[i]));
+    }
+  }
+  return names;
+}
+
+}  // namespace knee::internal

@@ -1,0 +1,102 @@
+// The potential method (docs/solver.md, "The potential method"): for a monotone network
+// (sources, positive resistors, diodes), the DC solution minimises the network's
+// co-content over the node voltages that satisfy the voltage sources (Millar 1951;
+// Duffin 1947). Newton directions come from the MNA system, which is exactly the
+// Newton (KKT) system of that equality-constrained minimisation; a line search on the
+// co-content makes every accepted step decrease it, so no limiting and no aid is needed.
+#pragma once
+
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "klu_solver.h"
+#include "knee/circuit.h"
+#include "knee/solver.h"
+#include "mna.h"
+#include "newton.h"
+
+namespace knee::internal {
+
+// Why the network is outside the class the potential method handles (a resistor that
+// is not > 0, a diode constant that makes its law non-increasing, a non-finite source),
+// or nothing when every element is monotone.
+std::optional<std::string> NonMonotoneReason(const Circuit& circuit);
+
+// A monotone network has no DC solution exactly when its potential is unbounded below
+// along some direction that keeps the voltage sources satisfied. Along a direction d
+// the potential grows without bound unless d changes no resistor, voltage source or
+// breakdown-capable diode voltage and puts every other diode in reverse; then its
+// asymptotic slope is sum(I * (d_a - d_b)) over current sources plus sum(Is * reverse
+// change) over those diodes. Level sets of d reduce this to sets of node groups, and the
+// most negative slope is a maximum-weight closure (J.-C. Picard, "Maximal closure of a
+// graph and applications to combinatorial problems", Management Science 22(11), 1976),
+// found with a maximum flow. Returns the message naming the elements, or nothing.
+std::optional<std::string> FindUnboundedCut(const Circuit& circuit);
+
+// The junction conductance of the step onto the sources' constraints: kStiffFactor times
+// the largest resistor (or series resistance) conductance of the circuit, 1 S if none.
+inline constexpr double kStiffFactor = 1e6;
+double StiffJunctionConductance(const Circuit& circuit);
+
+// Line-search constants. Armijo's sufficient-decrease fraction: L. Armijo, "Minimization
+// of functions having Lipschitz continuous first partial derivatives", Pacific J. Math.
+// 16(1), 1966; the value 1e-4 is the one J. Nocedal and S. J. Wright, Numerical
+// Optimization, 2nd ed., Springer 2006, ch. 3, suggest (recalled from memory).
+inline constexpr double kArmijoFraction = 1e-4;
+// A step accepted at t = 1 whose slope at the new point is still at least this fraction
+// of the initial slope is lengthened (t = 2, 4, ...) while the potential keeps falling:
+// the bracketing phase of a line search for the strong Wolfe conditions (Nocedal and
+// Wright, ch. 3, Algorithm 3.5, recalled from memory; 0.1 is their value for c2 when
+// directions are poorly scaled).
+inline constexpr double kCurvatureFraction = 0.1;
+inline constexpr int kMaxBacktracks = 80;  // each at least divides t by 2
+inline constexpr int kMaxExpansions = 60;  // each doubles t
+
+class PotentialSolver {
+ public:
+  PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size);
+
+  // Minimises the potential from x (updated in place). Appends one record per Newton
+  // step to *trace when trace is not null. The exits are those of NewtonExit.
+  NewtonOutcome Run(std::span<double> x, std::vector<NewtonStepRecord>* trace);
+
+  // After a failed run: unknowns whose last update exceeded its tolerance.
+  std::vector<std::string> Unsettled(std::span<const double> x) const;
+
+  // Line-search evaluations (assembly passes) of the last Run.
+  int evaluations() const { return evaluations_; }
+
+  void set_options(const SolverOptions& options) { options_ = options; }
+  // Conductance (S) that junctions take in the step onto the sources' constraints: far
+  // above every resistor's, so that the sources' voltages land on resistors, not on
+  // junctions (see FeasibilityStep).
+  void set_stiff_conductance(double g) { stiff_ = g; }
+
+ private:
+  struct Trial {
+    bool finite = false;
+    double potential = 0.0;
+    double potential_magnitude = 0.0;
+    double slope = 0.0;  // d/dt of the potential along dx_ at this point
+  };
+  Trial Evaluate(std::span<const double> base, double t, std::span<double> x);
+  double Slope(std::span<const double> x) const;
+  double SlopeRoundOff() const;
+  bool Feasible() const;
+  bool SolveStep(NewtonOutcome* outcome);
+  bool FeasibilityStep(std::span<double> x, NewtonOutcome* outcome);
+  void Polish(std::span<double> x);
+
+  MnaSystem* mna_;
+  KluSolver* klu_;
+  SolverOptions options_;
+  std::vector<double> dx_;
+  std::vector<double> base_;
+  std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
+  int evaluations_ = 0;
+  double stiff_ = 1.0;
+};
+
+}  // namespace knee::internal

@@ -1,0 +1,143 @@
+// Compares the classic ladder with the potential method on the torture suite's random
+// networks (tests/torture): per method the failures, the Newton steps (mean and worst)
+// and the solve time; for every network both solve, the largest relative difference of
+// their node voltages. Every reported solution is verified by its KCL residual (the
+// solver's own verification) and again by the torture suite's independent verifier.
+//   compare_solvers [count] [first_seed]
+// Exit status 0 when the potential method solved and verified every network and both
+// methods agree to 1e-9 relative wherever both converged; 1 otherwise; 2 on bad usage.
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdint>
+#include <cstdlib>
+#include <string>
+#include <vector>
+
+#include "knee/solver.h"
+#include "torture/network_generator.h"
+#include "torture/verify_solution.h"
+
+namespace {
+
+using knee::Circuit;
+using knee::Solution;
+using knee::SolveStatus;
+using knee::SolverMethod;
+
+constexpr double kAgreement = 1e-9;  // relative, the acceptance bound of issue 8
+constexpr double kVoltageFloor = 1e-12;  // V: below this two voltages count as equal
+
+struct Tally {
+  const char* name = "";
+  long long failed = 0;
+  long long unverified = 0;
+  long long steps = 0;
+  int worst_steps = 0;
+  long long worst_seed = 0;
+  double seconds = 0;
+  double worst_residual = 0;
+  std::vector<std::string> failures;
+};
+
+struct Run {
+  bool ok = false;
+  Solution solution;
+};
+
+Run SolveWith(const Circuit& circuit, SolverMethod method, uint64_t seed, Tally* tally) {
+  knee::SolverOptions options;
+  options.method = method;
+  Run run;
+  const auto start = std::chrono::steady_clock::now();
+  auto solver = knee::BiasSolver::Create(circuit, options);
+  knee::SolveSummary summary;
+  if (solver) summary = (*solver)->Solve(&run.solution);
+  tally->seconds +=
+      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  tally->steps += summary.newton_steps;
+  if (summary.newton_steps > tally->worst_steps) {
+    tally->worst_steps = summary.newton_steps;
+    tally->worst_seed = static_cast<long long>(seed);
+  }
+  if (!solver || summary.status != SolveStatus::kConverged) {
+    ++tally->failed;
+    tally->failures.push_back(fmt::format("seed {}: {}: {}", seed, ToString(summary.status),
+                                          solver ? summary.detail : "setup failed"));
+    return run;
+  }
+  const knee::torture::Verification check = knee::torture::VerifySolution(circuit, run.solution);
+  if (!check.ok) {
+    ++tally->unverified;
+    tally->failures.push_back(fmt::format("seed {}: independent check: {}", seed, check.problem));
+    return run;
+  }
+  tally->worst_residual = std::max(tally->worst_residual, summary.max_kcl_residual);
+  run.ok = true;
+  return run;
+}
+
+bool ParseCount(const char* text, long long* out) {
+  char* end = nullptr;
+  const long long value = std::strtoll(text, &end, 10);
+  if (end == text || *end != '\0' || value < 0) return false;
+  *out = value;
+  return true;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  long long count = 10000;
+  long long first = 1;
+  if (argc > 3 || (argc >= 2 && !ParseCount(argv[1], &count)) ||
+      (argc == 3 && !ParseCount(argv[2], &first))) {
+    fmt::print(stderr, "usage: compare_solvers [count] [first_seed]\n");
+    return 2;
+  }
+  Tally classic;
+  classic.name = "classic ladder";
+  Tally potential;
+  potential.name = "potential method";
+  long long both = 0;
+  long long disagree = 0;
+  double worst_difference = 0;
+  long long worst_difference_seed = 0;
+  for (long long k = 0; k < count; ++k) {
+    const auto seed = static_cast<uint64_t>(first + k);
+    const Circuit circuit = knee::torture::GenerateNetwork(seed);
+    const Run a = SolveWith(circuit, SolverMethod::kClassic, seed, &classic);
+    const Run b = SolveWith(circuit, SolverMethod::kPotential, seed, &potential);
+    if (!a.ok || !b.ok) continue;
+    ++both;
+    double difference = 0;
+    for (size_t n = 1; n < circuit.nodes.size(); ++n) {
+      const double va = a.solution.node_voltage[n];
+      const double vb = b.solution.node_voltage[n];
+      const double scale = std::max({std::fabs(va), std::fabs(vb), kVoltageFloor});
+      difference = std::max(difference, std::fabs(va - vb) / scale);
+    }
+    if (difference > worst_difference) {
+      worst_difference = difference;
+      worst_difference_seed = static_cast<long long>(seed);
+    }
+    if (difference > kAgreement) ++disagree;
+  }
+  for (const Tally* t : {&classic, &potential}) {
+    for (const std::string& f : t->failures) fmt::print("{}: {}\n", t->name, f);
+  }
+  fmt::print("\n{} networks, seeds {}..{}\n\n", count, first, first + count - 1);
+  fmt::print("| method | failed | failed the independent check | mean Newton steps | worst (seed) "
+             "| largest KCL residual | time |\n|---|---|---|---|---|---|---|\n");
+  for (const Tally* t : {&classic, &potential}) {
+    fmt::print("| {} | {} | {} | {:.2f} | {} ({}) | {:.2e} A | {:.2f} s |\n", t->name, t->failed,
+               t->unverified, static_cast<double>(t->steps) / static_cast<double>(count),
+               t->worst_steps, t->worst_seed, t->worst_residual, t->seconds);
+  }
+  fmt::print("\nboth converged on {} networks; node voltages differ by more than {:g} relative "
+             "(floor {:g} V) on {}; largest difference {:.2e} (seed {})\n",
+             both, kAgreement, kVoltageFloor, disagree, worst_difference, worst_difference_seed);
+  return potential.failed == 0 && potential.unverified == 0 && disagree == 0 ? 0 : 1;
+}
