@@ -60,6 +60,9 @@ std::string DrawHandChart(const HandReport& r) {
       hi = std::max(hi, d.i[m]);
     }
   }
+  // Leakage-sized bars would add a whole empty step below or above zero: clip them.
+  if (-lo < 0.02 * hi) lo = 0;
+  if (hi < 0.02 * -lo) hi = 0;
   if (hi - lo <= 0) hi = lo + 1e-3;
   const double step = NiceStep(hi - lo, 6);
   lo = std::floor(lo / step - 1e-9) * step;
