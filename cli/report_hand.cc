@@ -170,7 +170,7 @@ std::string WriteHandTable(const HandReport& r) {
     std::string line = PadRight("diode state", name_width);
     for (size_t m = 0; m < r.models.size(); ++m)
       line += "   " + PadRight(r.models[m].name, width[m]);
-    out += line + "\n";
+    out += line.substr(0, line.find_last_not_of(' ') + 1) + "\n";
     for (const HandDiodeRow& d : r.diodes) {
       line = PadRight("  " + d.name, name_width);
       for (size_t m = 0; m < r.models.size(); ++m) {
@@ -180,7 +180,7 @@ std::string WriteHandTable(const HandReport& r) {
         }
         line += "   " + PadRight(s, width[m]);
       }
-      out += line + "\n";
+      out += line.substr(0, line.find_last_not_of(' ') + 1) + "\n";
     }
     out += "\n";
     Block v{"diode voltage", "V", {}, {}};
