@@ -412,7 +412,7 @@ def mesh():
     c = Circuit("mesh3x3.knee")
     c.part("sig", sat_current=4e-9, ideality=1.9, series_res=0.6, breakdown_v=75,
            breakdown_i=1e-6)
-    c.part("zen", sat_current=2e-15, ideality=1.05, series_res=5, breakdown_v=3.9,
+    c.part("zen", sat_current=2e-15, ideality=1.05, series_res=5, breakdown_v=2.2,
            breakdown_i=1e-3, breakdown_ideality=1.6, breakdown_tc=-3e-4)
     c.V("Vdrv", "top", "gnd", 6)
     c.R("Rt", "top", "n11", 100)
@@ -431,7 +431,7 @@ def mesh():
     c.I("Iinj", "gnd", "n22", 1e-3)
     c.R("R31g", "n31", "gnd", 1e3)
     c.R("R33g", "n33", "gnd", 50)
-    return c, [[], [("Vdrv", "-12..12:0.5", linear(-12, 12, 0.5))]]
+    return c, [[], [("Vdrv", "-40..40:0.5", linear(-40, 40, 0.5))]]
 
 
 def breakdown_string():
@@ -624,6 +624,8 @@ def main():
         return 2
     knee, source_dir = sys.argv[1], sys.argv[2]
     total_failures = 0
+    total_points = 0
+    total_values = 0
     for make in CIRCUITS:
         try:
             count, compared, failures, worst = check(knee, source_dir, make)
@@ -631,12 +633,15 @@ def main():
             print(f"FAIL {make.__name__}: {error}")
             total_failures += 1
             continue
+        total_points += count
+        total_values += compared
         status = "ok  " if not failures else "FAIL"
         print(f"{status} {make.__name__:17s} {count:4d} points, {compared:5d} values, "
               f"largest error {worst[0]:.2e} of the bound ({worst[1]})")
         for failure in failures[:10]:
             print("     " + failure)
         total_failures += len(failures)
+    print(f"{len(CIRCUITS)} circuits, {total_points} points, {total_values} values compared")
     print("scipy cross-check:", "PASSED" if total_failures == 0 else
           f"FAILED ({total_failures} disagreements)")
     return 0 if total_failures == 0 else 1
