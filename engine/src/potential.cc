@@ -425,6 +425,30 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
     for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = -f[i];
     status = klu_->Solve(dx_);
   }
+  // A Hessian that is singular in floating point (junction conductances that underflow,
+  // e.g. a node held only by reverse-biased junctions) is modified by adding mu to its
+  // diagonal: (H + mu I) d = -g is still a descent direction, and the line search and
+  // the convergence tests stay those of the exact potential (Newton's method with
+  // Hessian modification, Nocedal and Wright ch. 3.4, recalled from memory). mu grows
+  // from 1e-12 S by 1e3 per try.
+  if (status == LinearStatus::kSingular && x_ != nullptr) {
+    const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+    for (double mu = 1e-12; mu <= 1e-3 && status == LinearStatus::kSingular; mu *= 1e3) {
+      AssemblyAids modified;
+      modified.gmin = mu;
+      if (!mna_->Assemble(*x_, modified).finite) break;
+      ++evaluations_;
+      status = klu_->Refactor(mna_->values());
+      if (status != LinearStatus::kOk) continue;
+      const auto f = mna_->residual();
+      for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = -(f[i] - (i < kcl ? mu * (*x_)[i] : 0.0));
+      status = klu_->Solve(dx_);
+    }
+    AssemblyAids exact;
+    exact.want_potential = true;
+    mna_->Assemble(*x_, exact);  // back to the exact model's residual at x
+    ++evaluations_;
+  }
   if (status == LinearStatus::kOk) return true;
   outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
   outcome->detail = klu_->message();
@@ -434,6 +458,7 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
 NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRecord>* trace) {
   NewtonOutcome outcome;
   evaluations_ = 0;
+  x_ = &x;  // for SolveStep's Hessian modification; only used during this call
   mna_->BeginRun(x);
   AssemblyAids aids;
   aids.want_potential = true;

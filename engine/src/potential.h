@@ -97,6 +97,7 @@ class PotentialSolver {
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
   int evaluations_ = 0;
   double stiff_ = 1.0;
+  std::span<double>* x_ = nullptr;  // the current point, during Run
 };
 
 }  // namespace knee::internal

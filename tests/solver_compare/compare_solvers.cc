@@ -103,6 +103,8 @@ int main(int argc, char** argv) {
   potential.name = "potential method";
   long long both = 0;
   long long disagree = 0;
+  long long disagree_scaled = 0;  // relative to the circuit's largest node voltage
+  double worst_scaled = 0;
   double worst_difference = 0;
   long long worst_difference_seed = 0;
   for (long long k = 0; k < count; ++k) {
@@ -113,12 +115,20 @@ int main(int argc, char** argv) {
     if (!a.ok || !b.ok) continue;
     ++both;
     double difference = 0;
+    double scaled_difference = 0;
+    double circuit_scale = kVoltageFloor;
+    for (size_t n = 1; n < circuit.nodes.size(); ++n) {
+      circuit_scale = std::max(circuit_scale, std::fabs(a.solution.node_voltage[n]));
+    }
     for (size_t n = 1; n < circuit.nodes.size(); ++n) {
       const double va = a.solution.node_voltage[n];
       const double vb = b.solution.node_voltage[n];
       const double scale = std::max({std::fabs(va), std::fabs(vb), kVoltageFloor});
       difference = std::max(difference, std::fabs(va - vb) / scale);
+      scaled_difference = std::max(scaled_difference, std::fabs(va - vb) / circuit_scale);
     }
+    if (scaled_difference > kAgreement) ++disagree_scaled;
+    worst_scaled = std::max(worst_scaled, scaled_difference);
     if (difference > worst_difference) {
       worst_difference = difference;
       worst_difference_seed = static_cast<long long>(seed);
@@ -139,5 +149,8 @@ int main(int argc, char** argv) {
   fmt::print("\nboth converged on {} networks; node voltages differ by more than {:g} relative "
              "(floor {:g} V) on {}; largest difference {:.2e} (seed {})\n",
              both, kAgreement, kVoltageFloor, disagree, worst_difference, worst_difference_seed);
+  fmt::print("relative to each circuit's largest node voltage: differ by more than {:g} on {}; "
+             "largest {:.2e}\n",
+             kAgreement, disagree_scaled, worst_scaled);
   return potential.failed == 0 && potential.unverified == 0 && disagree == 0 ? 0 : 1;
 }
