@@ -102,6 +102,23 @@ class RangeParser {
                             kMaxSweepPoints));
   }
 
+  // The point i of k intervals from a to b. When a and b are decimals with at most 12
+  // fractional digits (as they are typed), the point is computed as one division of
+  // exact integers, so it is the double nearest its decimal value (0 comes out as 0, not
+  // 3e-18; 0.1 as 0.1). Otherwise a + (b - a) * i / k.
+  static double GridPoint(double a, double b, double i, double k) {
+    constexpr double kExactInteger = 9007199254740992.0;  // 2^53
+    double scale = 1;
+    for (int digits = 0; digits <= 12; ++digits, scale *= 10) {
+      const double as = std::round(a * scale);
+      const double bs = std::round(b * scale);
+      if (std::fabs(as) * k > kExactInteger || std::fabs(bs) * k > kExactInteger) break;
+      if (as / scale != a || bs / scale != b) continue;
+      return (as * (k - i) + bs * i) / (k * scale);
+    }
+    return a + (b - a) * i / k;
+  }
+
   Result<std::vector<double>> Linear(double a, double b, double step, std::size_t spec) {
     if (step == 0) return Fail(spec, text_.size(), "the step of a range must not be zero");
     if (a == b) return std::vector<double>{a};
@@ -117,7 +134,7 @@ class RangeParser {
       const auto count = static_cast<std::size_t>(k);
       points.reserve(count + 1);
       for (std::size_t i = 0; i < count; ++i) {
-        points.push_back(a + (b - a) * static_cast<double>(i) / k);
+        points.push_back(GridPoint(a, b, static_cast<double>(i), k));
       }
       points.push_back(b);
     } else {
@@ -183,7 +200,7 @@ class RangeParser {
     points.reserve(count);
     const double intervals = static_cast<double>(n - 1);
     for (std::size_t i = 0; i + 1 < count; ++i) {
-      points.push_back(a + (b - a) * static_cast<double>(i) / intervals);
+      points.push_back(GridPoint(a, b, static_cast<double>(i), intervals));
     }
     points.push_back(b);
     return points;

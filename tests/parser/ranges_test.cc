@@ -51,6 +51,25 @@ TEST(RangesTest, LinearHitsTheEndPointExactly) {
   }
 }
 
+TEST(RangesTest, DecimalPointsAreTheNearestDoubles) {
+  // Every point of a decimal grid is the double nearest its decimal value, as strtod
+  // would read it (IEEE 754 round to nearest), so CSV shows 0.1, not 0.10000000000000009.
+  const std::vector<double> a = Expand("-3..3:0.1");
+  ASSERT_EQ(a.size(), 61u);
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    const int tenths = static_cast<int>(i) - 30;
+    const std::string decimal = std::to_string(tenths / 10) + "." +
+                                std::to_string(std::abs(tenths % 10));
+    const double nearest = tenths < 0 && tenths > -10 ? -std::strtod(decimal.c_str() + 1, nullptr)
+                                                      : std::strtod(decimal.c_str(), nullptr);
+    EXPECT_EQ(a[i], nearest) << decimal;
+  }
+  const std::vector<double> m = Expand("-30m..30m:1m");
+  EXPECT_EQ(m[30], 0.0);
+  EXPECT_EQ(m[31], 1e-3);
+  EXPECT_EQ(Expand("0..1:5pts")[1], 0.25);
+}
+
 TEST(RangesTest, LinearStepSignFollowsTheEnds) {
   EXPECT_EQ(Expand("5..0:1"), (std::vector<double>{5, 4, 3, 2, 1, 0}));
   EXPECT_EQ(Expand("5..0:-1"), (std::vector<double>{5, 4, 3, 2, 1, 0}));
