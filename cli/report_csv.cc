@@ -2,6 +2,10 @@
 // that round-trip a double, nothing else in the stream (cli.md, "Output").
 #include <fmt/format.h>
 
+#include <cmath>
+#include <iterator>
+#include <string_view>
+
 #include "eng_format.h"
 #include "report.h"
 
@@ -32,16 +36,23 @@ std::string WriteCsvHeader(const Report& report) {
 }
 
 std::string WriteCsvRows(const Report& report) {
-  std::string out;
+  // Formatted straight into one buffer (the same text as FormatRoundTrip, without a
+  // string per cell).
+  fmt::memory_buffer out;
   out.reserve(report.rows.size() * report.columns.size() * 24);
+  const auto append = std::back_inserter(out);
   for (const auto& row : report.rows) {
     for (size_t i = 0; i < row.size(); ++i) {
-      if (i) out += ',';
-      out += FormatRoundTrip(row[i]);
+      if (i) out.push_back(',');
+      if (std::isnan(row[i])) {
+        out.append(std::string_view("nan"));
+      } else {
+        fmt::format_to(append, "{}", row[i]);
+      }
     }
-    out += '\n';
+    out.push_back('\n');
   }
-  return out;
+  return fmt::to_string(out);
 }
 
 std::string WriteCsv(const Report& report) {

@@ -45,16 +45,39 @@ DiodeConstants ComputeDiodeConstants(const DiodeModel& model, double area, doubl
   return d;
 }
 
+namespace {
+
+// Below this exponent exp() is exactly 0 in double precision (the smallest subnormal is
+// exp(-744.44)); returning 0 directly skips libm's slow underflow path, which a
+// forward-biased diode's breakdown term (exponent about -15000) takes at every step.
+constexpr double kExpUnderflow = -746.0;
+// Below this exponent expm1() is exactly -1 (e^-40 < 2^-54, half an ulp of 1).
+constexpr double kExpm1Saturation = -40.0;
+
+double ExpOrZero(double x) { return x < kExpUnderflow ? 0.0 : std::exp(x); }
+
+}  // namespace
+
 JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
+  // The same values as is*(SafeExp(x) - 1) (expm1 below the limit, which keeps the
+  // small-signal region accurate: I ~ Is*x near zero bias), is/nVt*SafeExpSlope(x) and
+  // the breakdown terms ibr*SafeExp(y), ibr/nbrVt*SafeExpSlope(y), bit for bit, with one
+  // exponential per term where the two share it.
   JunctionPoint p;
   const double x = vj / d.n_vt;
-  // expm1 keeps the small-signal region accurate (I ~ Is*x near zero bias).
-  p.current = d.is * (x <= kExpLimit ? std::expm1(x) : SafeExp(x) - 1.0);
-  p.conductance = d.is / d.n_vt * SafeExpSlope(x);
+  if (x <= kExpLimit) {
+    p.current = d.is * (x < kExpm1Saturation ? -1.0 : std::expm1(x));
+    p.conductance = d.is / d.n_vt * ExpOrZero(x);
+  } else {
+    const double e = std::exp(kExpLimit);
+    p.current = d.is * (e * (1.0 + (x - kExpLimit)) - 1.0);
+    p.conductance = d.is / d.n_vt * e;
+  }
   if (d.has_breakdown) {
     const double y = -(vj + d.vbr) / d.nbr_vt;
-    p.current -= d.ibr * SafeExp(y);
-    p.conductance += d.ibr / d.nbr_vt * SafeExpSlope(y);
+    const double e = ExpOrZero(y <= kExpLimit ? y : kExpLimit);
+    p.current -= d.ibr * (y <= kExpLimit ? e : e * (1.0 + (y - kExpLimit)));
+    p.conductance += d.ibr / d.nbr_vt * e;
   }
   return p;
 }

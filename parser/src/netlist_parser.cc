@@ -294,7 +294,12 @@ class StatementParser {
     ElementStmt e;
     e.kind = kind;
     const std::string what = ElementKindName(kind);
-    if (!TakeName(fmt::format("a {} name", what).c_str(), &e.name, &e.name_span)) return false;
+    // "a resistor name" ...: constant text, so a million elements format no message.
+    const char* name_what = kind == ElementKind::kResistor        ? "a resistor name"
+                            : kind == ElementKind::kVoltageSource ? "a vsource name"
+                            : kind == ElementKind::kCurrentSource ? "a isource name"
+                                                                  : "a diode name";
+    if (!TakeName(name_what, &e.name, &e.name_span)) return false;
     if (!TakeName("the first node", &e.node_a, &e.a_span, true)) return false;
     const Token arrow = scanner_.NextWord();
     if (arrow.kind != Tok::kArrow) {
