@@ -63,8 +63,8 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
   solver
       ->add_option("--method", o->solver.method,
                    "Bias solver: potential (line search on the network's potential; monotone "
-                   "networks), classic (junction limiting and the aid ladder), or auto "
-                   "(default: potential when the network is monotone)")
+                   "networks), classic (default: junction limiting and the aid ladder), or auto "
+                   "(potential first when the network is monotone, classic if it fails)")
       ->transform(CLI::CheckedTransformer(methods))
       ->type_name("auto|potential|classic");
 }

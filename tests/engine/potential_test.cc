@@ -269,7 +269,7 @@ TEST(PotentialMethod, UnboundedOnlyBeyondTheReverseLimit) {
 // Method selection and validation.
 TEST(PotentialMethod, OptionsAndSelection) {
   SolverOptions o;
-  EXPECT_EQ(o.method, SolverMethod::kAuto);
+  EXPECT_EQ(o.method, SolverMethod::kClassic);  // the default until the potential method meets its goal
   o.method = static_cast<SolverMethod>(7);
   const auto problem = Validate(o);
   ASSERT_TRUE(problem);
