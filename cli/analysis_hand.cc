@@ -20,11 +20,6 @@ namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
-int Fail(const std::string& message) {
-  fmt::print(stderr, "knee: error: {}\n", message);
-  return static_cast<int>(ExitStatus::kBadInput);
-}
-
 struct HandSettings {
   double drop = 0.7;             // V
   std::optional<double> on_res;  // Ohm
@@ -102,21 +97,14 @@ Result<HandModel> PiecewiseModel(const Circuit& circuit, const HandSettings& s) 
 }  // namespace
 
 int RunHand(const std::string& file, AnalysisOptions options) {
-  std::string problem = FinishOptions(&options);
-  if (!problem.empty()) return Fail(problem);
+  if (!options.shard.empty()) {
+    return FailWith("--shard: knee hand computes one bias point, not a sweep");
+  }
+  std::string problem = PrepareOptions(&options);
+  if (!problem.empty()) return FailWith(problem);
   HandSettings settings;
   problem = ReadSettings(options, &settings);
-  if (!problem.empty()) return Fail(problem);
-  if (!options.shard.empty())
-    return Fail("--shard: knee hand computes one bias point, not a sweep");
-  if (!options.out_path.empty()) {
-    problem = CheckWritable(options.out_path);
-    if (!problem.empty()) return Fail("--out: " + problem);
-  }
-  if (!options.plot_path.empty()) {
-    problem = CheckWritable(options.plot_path);
-    if (!problem.empty()) return Fail("--plot: " + problem);
-  }
+  if (!problem.empty()) return FailWith(problem);
   std::optional<LoadedDesign> loaded = LoadDesign(file, options);
   if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
   const Circuit& circuit = loaded->design->circuit;

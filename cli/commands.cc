@@ -18,28 +18,6 @@ std::string Count(long long n, const char* one, const char* many) {
   return fmt::format("{} {}", n, n == 1 ? one : many);
 }
 
-int Fail(const std::string& message) {
-  fmt::print(stderr, "knee: error: {}\n", message);
-  return static_cast<int>(ExitStatus::kBadInput);
-}
-
-// Checks the options and the output path before any work is done.
-std::string Prepare(AnalysisOptions* options) {
-  std::string problem = FinishOptions(options);
-  if (!problem.empty()) return problem;
-  int shard = 0, shards = 1;
-  if (!ParseShard(options->shard, &shard, &shards, &problem)) return problem;
-  if (!options->out_path.empty()) {
-    problem = CheckWritable(options->out_path);
-    if (!problem.empty()) return "--out: " + problem;
-  }
-  if (!options->plot_path.empty()) {
-    problem = CheckWritable(options->plot_path);
-    if (!problem.empty()) return "--plot: " + problem;
-  }
-  return "";
-}
-
 std::string Combine(const std::vector<AnalysisResult>& results, ReportFormat format) {
   if (results.size() == 1) return WriteReport(results.front().report, format);
   if (format == ReportFormat::kJson) {
@@ -123,11 +101,51 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
   return static_cast<int>(outcome.Status());
 }
 
+// Options, netlist and quantities to show: what every analysis command starts from.
+struct Start {
+  LoadedDesign loaded;
+  std::vector<QuantityExpr> show;
+};
+
+// Returns the exit status when something is wrong (after saying what), else fills *start.
+std::optional<int> StartAnalysis(const std::string& file, AnalysisOptions* options,
+                                 std::optional<Start>* start) {
+  std::string problem = PrepareOptions(options);
+  if (!problem.empty()) return FailWith(problem);
+  std::optional<LoadedDesign> loaded = LoadDesign(file, *options);
+  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, *options);
+  if (!show) return static_cast<int>(ExitStatus::kBadInput);
+  start->emplace(Start{std::move(*loaded), std::move(*show)});
+  return std::nullopt;
+}
+
 }  // namespace
 
+int FailWith(const std::string& message) {
+  fmt::print(stderr, "knee: error: {}\n", message);
+  return static_cast<int>(ExitStatus::kBadInput);
+}
+
+std::string PrepareOptions(AnalysisOptions* options) {
+  std::string problem = FinishOptions(options);
+  if (!problem.empty()) return problem;
+  int shard = 0, shards = 1;
+  if (!ParseShard(options->shard, &shard, &shards, &problem)) return problem;
+  if (!options->out_path.empty()) {
+    problem = CheckWritable(options->out_path);
+    if (!problem.empty()) return "--out: " + problem;
+  }
+  if (!options->plot_path.empty()) {
+    problem = CheckWritable(options->plot_path);
+    if (!problem.empty()) return "--plot: " + problem;
+  }
+  return "";
+}
+
 int RunCheck(const std::string& file, AnalysisOptions options) {
-  std::string problem = Prepare(&options);
-  if (!problem.empty()) return Fail(problem);
+  std::string problem = PrepareOptions(&options);
+  if (!problem.empty()) return FailWith(problem);
   std::optional<LoadedDesign> loaded = LoadDesign(file, options);
   if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
   if (!ResolveShow(*loaded, options)) return static_cast<int>(ExitStatus::kBadInput);
@@ -162,52 +180,41 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
       requests.empty() ? std::string("none") : fmt::format("{}", fmt::join(requests, ", ")));
   problem = options.out_path.empty() ? WriteStdout(text)
                                      : WriteFileAtomically(options.out_path, text);
-  if (!problem.empty()) return Fail(problem);
+  if (!problem.empty()) return FailWith(problem);
   return 0;
 }
 
 int RunBias(const std::string& file, AnalysisOptions options) {
-  std::string problem = Prepare(&options);
-  if (!problem.empty()) return Fail(problem);
-  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
-  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
-  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, options);
-  if (!show) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<Start> start;
+  if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   std::vector<AnalysisResult> results;
-  results.push_back(AnalyzeBias(*loaded, *show, options));
+  results.push_back(AnalyzeBias(start->loaded, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   return Emit(results, options);
 }
 
 int RunSweep(const std::string& file, AnalysisOptions options) {
-  std::string problem = Prepare(&options);
-  if (!problem.empty()) return Fail(problem);
-  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
-  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
-  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, options);
-  if (!show) return static_cast<int>(ExitStatus::kBadInput);
-  std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(*loaded, options);
+  std::optional<Start> start;
+  if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
+  std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
   if (!axes) return static_cast<int>(ExitStatus::kBadInput);
   std::vector<AnalysisResult> results;
-  results.push_back(AnalyzeSweep(*loaded, *axes, *show, options));
+  results.push_back(AnalyzeSweep(start->loaded, *axes, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   return Emit(results, options);
 }
 
 int RunRun(const std::string& file, AnalysisOptions options) {
-  std::string problem = Prepare(&options);
-  if (!problem.empty()) return Fail(problem);
-  std::optional<LoadedDesign> loaded = LoadDesign(file, options);
-  if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
-  std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, options);
-  if (!show) return static_cast<int>(ExitStatus::kBadInput);
+  std::optional<Start> start;
+  if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
+  const Design& design = *start->loaded.design;
   std::vector<AnalysisResult> results;
-  if (loaded->design->bias_requested || !loaded->design->expects.empty()) {
-    results.push_back(AnalyzeBias(*loaded, *show, options));
+  if (design.bias_requested || !design.expects.empty()) {
+    results.push_back(AnalyzeBias(start->loaded, start->show, options));
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
-  for (const std::vector<SweepAxis>& axes : loaded->design->sweeps) {
-    results.push_back(AnalyzeSweep(*loaded, axes, *show, options));
+  for (const std::vector<SweepAxis>& axes : design.sweeps) {
+    results.push_back(AnalyzeSweep(start->loaded, axes, start->show, options));
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
   return Emit(results, options);

@@ -8,23 +8,11 @@
 #include <nlohmann/json.hpp>
 
 #include "eng_format.h"
+#include "report_common.h"
 
 namespace knee::cli {
 namespace {
 
-size_t Width(const std::string& text) {
-  size_t width = 0;
-  for (unsigned char c : text) width += (c & 0xC0) != 0x80 ? 1 : 0;
-  return width;
-}
-std::string PadLeft(const std::string& text, size_t width) {
-  const size_t w = Width(text);
-  return w >= width ? text : std::string(width - w, ' ') + text;
-}
-std::string PadRight(const std::string& text, size_t width) {
-  const size_t w = Width(text);
-  return w >= width ? text : text + std::string(width - w, ' ');
-}
 
 double Error(const std::vector<double>& values, size_t model) { return values[model] - values[0]; }
 
@@ -57,9 +45,9 @@ std::string WriteBlock(const HandReport& r, const Block& b, size_t name_width) {
   }
   std::vector<size_t> width(head.size(), 9);
   width[0] = name_width;
-  for (size_t c = 0; c < head.size(); ++c) width[c] = std::max(width[c], Width(head[c]));
+  for (size_t c = 0; c < head.size(); ++c) width[c] = std::max(width[c], DisplayWidth(head[c]));
   for (const auto& line : cells) {
-    for (size_t c = 0; c < line.size(); ++c) width[c] = std::max(width[c], Width(line[c]));
+    for (size_t c = 0; c < line.size(); ++c) width[c] = std::max(width[c], DisplayWidth(line[c]));
   }
   auto emit = [&](const std::vector<std::string>& line) {
     std::string out = PadRight(line[0], width[0]);
@@ -78,22 +66,9 @@ std::string Tolerance(const ExpectationCheck& e) {
   return e.relative ? fmt::format("{:g} %", e.tolerance * 100) : FormatEng(e.tolerance, e.unit);
 }
 
-std::string CsvField(const std::string& text) {
-  if (text.find_first_of(",\"\n\r") == std::string::npos) return text;
-  std::string quoted = "\"";
-  for (char c : text) {
-    if (c == '"') quoted += '"';
-    quoted += c;
-  }
-  return quoted + "\"";
-}
 
 std::string CsvNumber(double value) { return std::isfinite(value) ? FormatRoundTrip(value) : ""; }
 
-nlohmann::ordered_json JsonNumber(double value) {
-  if (!std::isfinite(value)) return nullptr;
-  return value;
-}
 
 // The CSV layout, shared with the JSON "columns"/"rows" members: one row per model.
 struct Table {
@@ -160,13 +135,13 @@ std::string WriteHandTable(const HandReport& r) {
   out += "\n";
 
   size_t name_width = 16;
-  for (const HandDiodeRow& d : r.diodes) name_width = std::max(name_width, Width(d.name) + 2);
-  for (const HandNodeRow& n : r.nodes) name_width = std::max(name_width, Width(n.name) + 2);
+  for (const HandDiodeRow& d : r.diodes) name_width = std::max(name_width, DisplayWidth(d.name) + 2);
+  for (const HandNodeRow& n : r.nodes) name_width = std::max(name_width, DisplayWidth(n.name) + 2);
 
   if (!r.diodes.empty()) {
     // States: one column per model, a mark where a model disagrees with the exact one.
     std::vector<size_t> width;
-    for (const HandModelColumn& m : r.models) width.push_back(std::max<size_t>(Width(m.name), 10));
+    for (const HandModelColumn& m : r.models) width.push_back(std::max<size_t>(DisplayWidth(m.name), 10));
     std::string line = PadRight("diode state", name_width);
     for (size_t m = 0; m < r.models.size(); ++m)
       line += "   " + PadRight(r.models[m].name, width[m]);
@@ -312,31 +287,13 @@ std::string WriteHandJson(const HandReport& r) {
     for (size_t m = 0; m < r.models.size() && m < x.models.size(); ++m) {
       per_model[r.models[m].name] = JsonNumber(x.models[m]);
     }
-    Json location = nullptr;
-    if (e.where.line != 0) {
-      location = {{"file", e.where.file}, {"line", e.where.line}, {"column", e.where.column}};
-    }
-    expectations.push_back({{"quantity", e.quantity},
-                            {"unit", e.unit},
-                            {"expected", e.expected},
-                            {"actual", JsonNumber(e.actual)},
-                            {"error", JsonNumber(e.actual - e.expected)},
-                            {"tolerance", e.tolerance},
-                            {"tolerance_kind", e.relative ? "relative" : "absolute"},
-                            {"met", e.met},
-                            {"location", location},
-                            {"models", std::move(per_model)}});
+    Json expectation = JsonExpectation(e);
+    expectation["models"] = std::move(per_model);
+    expectations.push_back(std::move(expectation));
   }
   j["expectations"] = std::move(expectations);
   j["exact_failure"] = r.exact_failure;
-  const SolverAccount& a = r.account;
-  j["solver"] = {{"method", a.method},
-                 {"points", a.points},
-                 {"newton_steps", a.newton_steps},
-                 {"max_newton_steps_per_point", a.max_newton_steps},
-                 {"aids", a.aids},
-                 {"max_kcl_residual_a", a.max_kcl_residual},
-                 {"worst_node", a.worst_node}};
+  j["solver"] = JsonSolverAccount(r.account);
   j["cautions"] = r.cautions;
   return j.dump(2) + "\n";
 }

@@ -4,22 +4,9 @@
 #include <cmath>
 
 #include "report.h"
+#include "report_common.h"
 
 namespace knee::cli {
-namespace {
-
-// JSON has no NaN: a value of a failed point is null.
-nlohmann::ordered_json Number(double value) {
-  if (!std::isfinite(value)) return nullptr;
-  return value;
-}
-
-nlohmann::ordered_json Location(const SourceLocation& where) {
-  if (where.line == 0) return nullptr;
-  return {{"file", where.file}, {"line", where.line}, {"column", where.column}};
-}
-
-}  // namespace
 
 std::string WriteJson(const Report& report) {
   nlohmann::ordered_json j;
@@ -39,7 +26,7 @@ std::string WriteJson(const Report& report) {
   nlohmann::ordered_json rows = nlohmann::ordered_json::array();
   for (const auto& row : report.rows) {
     nlohmann::ordered_json r = nlohmann::ordered_json::array();
-    for (size_t i = 0; i < shared; ++i) r.push_back(Number(row[i]));
+    for (size_t i = 0; i < shared; ++i) r.push_back(JsonNumber(row[i]));
     rows.push_back(std::move(r));
   }
   j["rows"] = std::move(rows);
@@ -49,39 +36,21 @@ std::string WriteJson(const Report& report) {
   }
   j["failures"] = failures;
   nlohmann::ordered_json expectations = nlohmann::ordered_json::array();
-  for (const ExpectationCheck& e : report.expectations) {
-    expectations.push_back({{"quantity", e.quantity},
-                            {"unit", e.unit},
-                            {"expected", e.expected},
-                            {"actual", Number(e.actual)},
-                            {"error", Number(e.actual - e.expected)},
-                            {"tolerance", e.tolerance},
-                            {"tolerance_kind", e.relative ? "relative" : "absolute"},
-                            {"met", e.met},
-                            {"location", Location(e.where)}});
-  }
+  for (const ExpectationCheck& e : report.expectations) expectations.push_back(JsonExpectation(e));
   j["expectations"] = expectations;
-  const SolverAccount& a = report.account;
-  j["solver"] = {{"method", a.method},
-                 {"unique", a.unique},
-                 {"points", a.points},
-                 {"newton_steps", a.newton_steps},
-                 {"max_newton_steps_per_point", a.max_newton_steps},
-                 {"aids", a.aids},
-                 {"max_kcl_residual_a", a.max_kcl_residual},
-                 {"worst_node", a.worst_node}};
+  j["solver"] = JsonSolverAccount(report.account);
   nlohmann::ordered_json stress = nlohmann::ordered_json::array();
   for (const StressLine& s : report.stress) {
     stress.push_back({{"diode", s.diode},
                       {"rating_key", s.key},
                       {"quantity", s.quantity},
                       {"unit", s.unit},
-                      {"worst", Number(s.worst)},
+                      {"worst", JsonNumber(s.worst)},
                       {"row", s.row},
                       {"where", s.where},
                       {"rating", s.rating},
                       {"limit", s.limit},
-                      {"use_percent", Number(s.use_percent)},
+                      {"use_percent", JsonNumber(s.use_percent)},
                       {"exceeded", s.exceeded}});
   }
   j["derate_percent"] = report.derate_percent;

@@ -7,25 +7,11 @@
 
 #include "eng_format.h"
 #include "report.h"
+#include "report_common.h"
 
 namespace knee::cli {
 namespace {
 
-// Display width of UTF-8 text (code points; every character knee prints is one column).
-size_t Width(const std::string& text) {
-  size_t width = 0;
-  for (unsigned char c : text) width += (c & 0xC0) != 0x80 ? 1 : 0;
-  return width;
-}
-
-std::string PadLeft(const std::string& text, size_t width) {
-  const size_t w = Width(text);
-  return w >= width ? text : std::string(width - w, ' ') + text;
-}
-std::string PadRight(const std::string& text, size_t width) {
-  const size_t w = Width(text);
-  return w >= width ? text : text + std::string(width - w, ' ');
-}
 
 std::string Header(const Report& report) {
   std::string name = report.title.empty() ? report.file : "\"" + report.title + "\"";
@@ -68,7 +54,7 @@ std::string Account(const Report& report) {
 
 std::string Vertical(const Report& report) {
   size_t name_width = 0;
-  for (const Column& c : report.columns) name_width = std::max(name_width, Width(c.name));
+  for (const Column& c : report.columns) name_width = std::max(name_width, DisplayWidth(c.name));
   std::string out;
   const std::vector<double>& row = report.rows.front();
   for (size_t i = 0; i < SharedColumns(report); ++i) {
@@ -85,7 +71,7 @@ std::string Columns(const Report& report) {
   for (size_t i = 0; i < n; ++i) {
     const Column& c = report.columns[i];
     head[i] = c.name;  // the cells carry their units
-    width[i] = std::max<size_t>(Width(head[i]), 10);
+    width[i] = std::max<size_t>(DisplayWidth(head[i]), 10);
   }
   std::vector<std::vector<std::string>> cells;
   cells.reserve(report.rows.size());
@@ -93,7 +79,7 @@ std::string Columns(const Report& report) {
     std::vector<std::string> line(n);
     for (size_t i = 0; i < n; ++i) {
       line[i] = FormatEng(row[i], report.columns[i].unit);
-      width[i] = std::max(width[i], Width(line[i]));
+      width[i] = std::max(width[i], DisplayWidth(line[i]));
     }
     cells.push_back(std::move(line));
   }
@@ -120,7 +106,7 @@ std::string Stress(const Report& report) {
   if (report.stress.empty()) return "";
   std::string out = fmt::format("\nstress (each rating usable to {:g} %):\n", report.derate_percent);
   size_t name_width = 0;
-  for (const StressLine& s : report.stress) name_width = std::max(name_width, Width(s.diode));
+  for (const StressLine& s : report.stress) name_width = std::max(name_width, DisplayWidth(s.diode));
   for (const StressLine& s : report.stress) {
     std::string at = s.where.empty() ? "" : " at " + s.where;
     out += fmt::format("  {} {}  {:<15}  worst {:>10}{}, rating {} ({}): {:.0f} % of rating\n",

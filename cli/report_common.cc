@@ -1,0 +1,66 @@
+#include "report_common.h"
+
+#include <cmath>
+
+namespace knee::cli {
+
+size_t DisplayWidth(const std::string& text) {
+  size_t width = 0;
+  for (unsigned char c : text) width += (c & 0xC0) != 0x80 ? 1 : 0;
+  return width;
+}
+
+std::string PadLeft(const std::string& text, size_t width) {
+  const size_t w = DisplayWidth(text);
+  return w >= width ? text : std::string(width - w, ' ') + text;
+}
+
+std::string PadRight(const std::string& text, size_t width) {
+  const size_t w = DisplayWidth(text);
+  return w >= width ? text : text + std::string(width - w, ' ');
+}
+
+std::string CsvField(const std::string& text) {
+  if (text.find_first_of(",\"\n\r") == std::string::npos) return text;
+  std::string quoted = "\"";
+  for (char c : text) {
+    if (c == '"') quoted += '"';
+    quoted += c;
+  }
+  return quoted + "\"";
+}
+
+nlohmann::ordered_json JsonNumber(double value) {
+  if (!std::isfinite(value)) return nullptr;
+  return value;
+}
+
+nlohmann::ordered_json JsonLocation(const SourceLocation& where) {
+  if (where.line == 0) return nullptr;
+  return {{"file", where.file}, {"line", where.line}, {"column", where.column}};
+}
+
+nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
+  return {{"method", a.method},
+          {"unique", a.unique},
+          {"points", a.points},
+          {"newton_steps", a.newton_steps},
+          {"max_newton_steps_per_point", a.max_newton_steps},
+          {"aids", a.aids},
+          {"max_kcl_residual_a", a.max_kcl_residual},
+          {"worst_node", a.worst_node}};
+}
+
+nlohmann::ordered_json JsonExpectation(const ExpectationCheck& e) {
+  return {{"quantity", e.quantity},
+          {"unit", e.unit},
+          {"expected", e.expected},
+          {"actual", JsonNumber(e.actual)},
+          {"error", JsonNumber(e.actual - e.expected)},
+          {"tolerance", e.tolerance},
+          {"tolerance_kind", e.relative ? "relative" : "absolute"},
+          {"met", e.met},
+          {"location", JsonLocation(e.where)}};
+}
+
+}  // namespace knee::cli
