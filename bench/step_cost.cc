@@ -182,8 +182,8 @@ int main(int argc, char** argv) {
   const int n = mna.size();
   klu_symbolic* symbolic = klu_analyze(n, col_ptr.data(), row_index.data(), &common);
   if (symbolic == nullptr) Die("klu_analyze");
-  klu_numeric* numeric = klu_factor(col_ptr.data(), row_index.data(), values.data(), symbolic,
-                                    &common);
+  klu_numeric* numeric =
+      klu_factor(col_ptr.data(), row_index.data(), values.data(), symbolic, &common);
   if (numeric == nullptr) Die("klu_factor");
   const double klu_s = BestTime(
       [&] {
@@ -197,8 +197,10 @@ int main(int argc, char** argv) {
 
   const double step_s = solve_s / steps;
   std::printf(
-      "unknowns=%d nnz=%zu steps=%d create_solve_s=%.6e solve_s=%.6e step_s=%.6e loop_s=%.6e klu_s=%.6e ratio=%.3f "
+      "unknowns=%d nnz=%zu steps=%d create_solve_s=%.6e solve_s=%.6e step_s=%.6e loop_s=%.6e "
+      "klu_s=%.6e ratio=%.3f "
       "loop_ratio=%.3f\n",
-      n, values.size(), steps, create_solve_s, solve_s, step_s, loop_s, klu_s, step_s / klu_s, loop_s / klu_s);
+      n, values.size(), steps, create_solve_s, solve_s, step_s, loop_s, klu_s, step_s / klu_s,
+      loop_s / klu_s);
   return 0;
 }
