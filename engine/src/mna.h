@@ -50,6 +50,8 @@ class MnaSystem {
   std::span<const double> residual() const { return residual_; }
   std::span<const double> flow() const { return flow_; }
   std::span<const double> magnitude() const { return magnitude_; }
+  // Value slot of the diagonal entry of each KCL row.
+  std::span<const int> diagonal_slots() const { return diagonal_slot_; }
   // The part of a residual bound that allows for floating-point evaluation of F_r.
   double RoundOffAllowance(int row) const {
     return kRoundOffFactor * magnitude_[static_cast<size_t>(row)];

@@ -54,7 +54,8 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& 
       klu_(klu),
       options_(options),
       dx_(static_cast<size_t>(size), 0.0),
-      saved_x_(static_cast<size_t>(size), 0.0) {}
+      saved_x_(static_cast<size_t>(size), 0.0),
+      regularized_(mna->values().size(), 0.0) {}
 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                                 std::vector<NewtonStepRecord>* trace) {
@@ -125,10 +126,31 @@ bool NewtonSolver::SolveStep(std::span<double> dx, NewtonOutcome* outcome) {
     for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
     status = klu_->Solve(dx);
   }
+  if (status == LinearStatus::kSingular) status = SolveRegularized(dx);
   if (status == LinearStatus::kOk) return true;
   outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
   outcome->detail = klu_->message();
   return false;
+}
+
+// A Jacobian made singular by junctions whose conductance underflowed (deeply reverse
+// biased strings: exp(-800) is 0 in double precision) leaves the voltages of the nodes
+// between them undetermined. The step is then taken with a small shunt on each KCL
+// diagonal (1e-12 of the entry, at least 1e-18 S), in the manner of a Levenberg-Marquardt
+// step: only the direction changes, F(x) is still the exact model's, so the converged
+// point satisfies the exact equations and carries no aid (common practice, no source).
+LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
+  const auto values = mna_->values();
+  std::copy(values.begin(), values.end(), regularized_.begin());
+  for (int slot : mna_->diagonal_slots()) {
+    double& v = regularized_[static_cast<size_t>(slot)];
+    v += std::max(1e-12 * std::fabs(v), 1e-18);
+  }
+  LinearStatus status = klu_->Factor(regularized_);
+  if (status != LinearStatus::kOk) return status;
+  const auto f = mna_->residual();
+  for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
+  return klu_->Solve(dx);
 }
 
 // One more Newton step after convergence: a converged Newton iteration is quadratic, so

@@ -59,6 +59,7 @@ class NewtonSolver {
 
  private:
   bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
+  LinearStatus SolveRegularized(std::span<double> dx);
   void Polish(const AssemblyAids& aids, std::span<double> x);
 
   MnaSystem* mna_;
@@ -66,6 +67,7 @@ class NewtonSolver {
   SolverOptions options_;
   std::vector<double> dx_;
   std::vector<double> saved_x_;
+  std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
 };
 
 }  // namespace knee::internal

@@ -1,0 +1,129 @@
+#include "torture/verify_solution.h"
+
+#include <fmt/format.h>
+
+#include <cmath>
+#include <limits>
+#include <vector>
+
+namespace knee::torture {
+namespace {
+
+// CODATA 2018 exact values (SI 2019 redefinition of the kelvin and the ampere).
+constexpr double kBoltzmannJPerK = 1.380649e-23;
+constexpr double kChargeC = 1.602176634e-19;
+constexpr double kEps = std::numeric_limits<double>::epsilon();
+
+double Vt(double celsius) { return kBoltzmannJPerK * (celsius + 273.15) / kChargeC; }
+
+void Fail(Verification* v, std::string problem) {
+  if (v->ok) v->problem = std::move(problem);
+  v->ok = false;
+}
+
+}  // namespace
+
+// netlist-format.md, "Diode parameters": I = area*Is(T)*(exp(Vj/(n Vt)) - 1)
+//   - area*Ibr*exp(-(Vj + Vbr(T))/(nbr Vt)),
+// Is(T) = Is(T0) (T/T0)^(sat_temp_exp/n) exp((Eg/(n Vt0)) (1 - T0/T)),
+// Vbr(T) = breakdown_v (1 + breakdown_tc (T - T0)).
+double ContractDiodeCurrent(const DiodeModel& m, double area, double temp_celsius, double vj) {
+  const double t = temp_celsius + 273.15;
+  const double t0 = m.ref_temp + 273.15;
+  const double n = m.ideality;
+  const double is = m.sat_current * std::pow(t / t0, m.sat_temp_exp / n) *
+                    std::exp(m.bandgap / (n * Vt(m.ref_temp)) * (1.0 - t0 / t));
+  const double vt = Vt(temp_celsius);
+  double current = area * is * std::expm1(vj / (n * vt));
+  if (m.breakdown_v) {
+    const double vbr = *m.breakdown_v * (1.0 + m.breakdown_tc * (temp_celsius - m.ref_temp));
+    current -= area * m.breakdown_i * std::exp(-(vj + vbr) / (m.breakdown_ideality * vt));
+  }
+  return current;
+}
+
+Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTolerances& tol) {
+  Verification v;
+  const size_t nodes = c.nodes.size();
+  if (s.node_voltage.size() != nodes || s.element_current.size() != c.elements.size() ||
+      s.junction_voltage.size() != c.elements.size()) {
+    Fail(&v, "solution vectors do not match the circuit");
+    return v;
+  }
+  std::vector<double> sum(nodes, 0.0), magnitude(nodes, 0.0), largest(nodes, 0.0);
+  for (size_t k = 0; k < c.elements.size(); ++k) {
+    const Element& e = c.elements[k];
+    const double i = s.element_current[k];
+    const double va = s.node_voltage[static_cast<size_t>(e.node_a)];
+    const double vb = s.node_voltage[static_cast<size_t>(e.node_b)];
+    const double u = va - vb;
+    if (!std::isfinite(i) || !std::isfinite(va) || !std::isfinite(vb)) {
+      Fail(&v, fmt::format("{}: non-finite value", e.name));
+      continue;
+    }
+    // The element's current leaves node_a and enters node_b.
+    sum[static_cast<size_t>(e.node_a)] -= i;
+    sum[static_cast<size_t>(e.node_b)] += i;
+    for (int n : {e.node_a, e.node_b}) {
+      magnitude[static_cast<size_t>(n)] += std::fabs(i);
+      largest[static_cast<size_t>(n)] = std::max(largest[static_cast<size_t>(n)], std::fabs(i));
+    }
+    const double vbound = tol.abs_voltage + tol.rel * std::max(std::fabs(va), std::fabs(vb));
+    switch (e.kind) {
+      case ElementKind::kResistor: {
+        const double expected = u / e.value;
+        // Ohm's law; the voltage difference carries the nodes' round-off.
+        const double bound = 8 * kEps * (std::fabs(va) + std::fabs(vb)) / e.value +
+                             8 * kEps * std::fabs(expected) + 1e-300;
+        if (!(std::fabs(i - expected) <= bound)) {
+          Fail(&v, fmt::format("{}: I = {:.6g} A but V/R = {:.6g} A", e.name, i, expected));
+        }
+        break;
+      }
+      case ElementKind::kVoltageSource:
+        if (!(std::fabs(u - e.value) <= vbound)) {
+          Fail(&v, fmt::format("{}: V = {:.9g} V, source {:.9g} V", e.name, u, e.value));
+        }
+        break;
+      case ElementKind::kCurrentSource:
+        if (!(i == e.value)) {
+          Fail(&v, fmt::format("{}: I = {:.9g} A, source {:.9g} A", e.name, i, e.value));
+        }
+        break;
+      case ElementKind::kDiode: {
+        const DiodeModel& m = c.parts[static_cast<size_t>(e.part)].model;
+        const double vj = s.junction_voltage[k];
+        const double rs = m.series_res / e.area;
+        // Series resistance: V = Vj + I*rs.
+        if (!(std::fabs(u - (vj + i * rs)) <= vbound)) {
+          Fail(&v, fmt::format("{}: V = {:.9g} V but Vj + I*rs = {:.9g} V", e.name, u,
+                               vj + i * rs));
+        }
+        // Junction: I = law(Vj). The exponential's argument carries Vj's round-off, and
+        // a junction current near zero against its saturation current gets abs_current.
+        const double law = ContractDiodeCurrent(m, e.area, c.DeviceTemp(e), vj);
+        const double bound = tol.abs_current + tol.rel * std::max(std::fabs(i), std::fabs(law));
+        if (!std::isfinite(law) || !(std::fabs(i - law) <= bound)) {
+          Fail(&v, fmt::format("{}: I = {:.9g} A but the diode law at Vj = {:.9g} V gives "
+                               "{:.9g} A",
+                               e.name, i, vj, law));
+        }
+        break;
+      }
+    }
+  }
+  for (size_t n = 1; n < nodes; ++n) {
+    const double residual = std::fabs(sum[n]);
+    v.max_kcl_residual = std::max(v.max_kcl_residual, residual);
+    // The same form as the engine's verification: abs + rel * largest branch current,
+    // plus 16 eps times the sum of the terms for floating-point evaluation.
+    const double bound = tol.abs_current + tol.rel * largest[n] + 16 * kEps * magnitude[n];
+    if (!(residual <= bound)) {
+      Fail(&v, fmt::format("node '{}': KCL residual {:.3g} A > {:.3g} A", c.nodes[n], residual,
+                           bound));
+    }
+  }
+  return v;
+}
+
+}  // namespace knee::torture
