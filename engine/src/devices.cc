@@ -220,7 +220,13 @@ class Diode final : public Device {
     const JunctionPoint p = EvaluateJunction(d_, at);
     const double i = p.current + p.conductance * (vj - at);
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
-    junction_.Stamp(ctx, ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance);
+    ctx.max_exponent = std::max(ctx.max_exponent, vj / d_.n_vt);
+    if (d_.has_breakdown) {
+      ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d_.vbr) / d_.nbr_vt);
+    }
+    double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
+    if (ctx.junction_floor) g = std::max(g, d_.is / d_.n_vt);
+    junction_.Stamp(ctx, g);
     ctx.AddCurrent(j_, i);
     ctx.AddCurrent(b_, -i);
     // Rounding of vj itself moves the current by g * eps * (|v(j)| + |v(b)|).

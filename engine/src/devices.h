@@ -56,6 +56,12 @@ struct StampContext {
   // > 0: every junction stamps this conductance into the Jacobian instead of its own
   // (the potential method's step onto the voltage sources' constraints; residual as usual).
   double stiff_junction = 0.0;  // S
+  // The potential method's Hessian modification: every junction stamps at least its
+  // zero-bias conductance Is/(n*Vt) into the Jacobian (residual and potential exact).
+  bool junction_floor = false;
+  // Out: the largest exponent of any junction law at x (forward vj/(n*Vt) or breakdown
+  // -(vj+Vbr)/(nbr*Vt)); the potential method keeps trial points below a cap on it.
+  double max_exponent = -1e300;
   double potential = 0.0;            // W
   double potential_magnitude = 0.0;  // W
   void AddPotential(double c) {

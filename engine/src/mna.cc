@@ -99,6 +99,7 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
       x, values_, residual_, flow_, magnitude_, aids.source_scale, aids.limit_junctions, false};
   ctx.want_potential = aids.want_potential;
   ctx.stiff_junction = aids.stiff_junction;
+  ctx.junction_floor = aids.junction_floor;
   AssemblyOutcome out;
   for (auto& device : devices_) {
     if (!device->Stamp(ctx) && out.finite) {
@@ -118,6 +119,7 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   out.limited = ctx.limited;
   out.potential = ctx.potential;
   out.potential_magnitude = ctx.potential_magnitude;
+  out.max_exponent = ctx.max_exponent;
   if (out.finite) {
     for (double r : residual_) {
       if (!std::isfinite(r)) out.finite = false;

@@ -21,6 +21,7 @@ struct AssemblyAids {
   bool limit_junctions = false;
   bool want_potential = false;  // also evaluate the network's co-content (potential method)
   double stiff_junction = 0.0;  // S; > 0: junctions stamp this conductance (see devices.h)
+  bool junction_floor = false;  // junctions stamp at least Is/(n*Vt) (see devices.h)
 };
 
 struct AssemblyOutcome {
@@ -29,6 +30,7 @@ struct AssemblyOutcome {
   bool limited = false;  // some junction's evaluation point was limited
   double potential = 0.0;            // W, co-content at x (when want_potential)
   double potential_magnitude = 0.0;  // W, sum of the magnitudes of its terms
+  double max_exponent = -1e300;      // largest junction-law exponent at x (see devices.h)
 };
 
 class MnaSystem {

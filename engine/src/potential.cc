@@ -191,8 +191,7 @@ std::optional<std::string> NonMonotoneReason(const Circuit& c) {
     switch (e.kind) {
       case ElementKind::kResistor:
         if (!(Finite(e.value) && e.value > 0.0)) {
-          return fmt::format("resistor '{}' has {:g} Ohm, not a finite value > 0", e.name,
-                             e.value);
+          return fmt::format("resistor '{}' has {:g} Ohm, not a finite value > 0", e.name, e.value);
         }
         break;
       case ElementKind::kVoltageSource:
@@ -203,14 +202,13 @@ std::optional<std::string> NonMonotoneReason(const Circuit& c) {
         if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) {
           return fmt::format("diode '{}' has no part", e.name);
         }
-        const DiodeConstants d =
-            ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area,
-                                  c.DeviceTemp(e));
+        const DiodeConstants d = ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model,
+                                                       e.area, c.DeviceTemp(e));
         const bool forward_ok = Finite(d.is) && d.is > 0.0 && Finite(d.n_vt) && d.n_vt > 0.0;
         const bool series_ok = Finite(d.rs) && d.rs >= 0.0;
-        const bool breakdown_ok = !d.has_breakdown || (Finite(d.ibr) && d.ibr > 0.0 &&
-                                                       Finite(d.nbr_vt) && d.nbr_vt > 0.0 &&
-                                                       Finite(d.vbr));
+        const bool breakdown_ok =
+            !d.has_breakdown ||
+            (Finite(d.ibr) && d.ibr > 0.0 && Finite(d.nbr_vt) && d.nbr_vt > 0.0 && Finite(d.vbr));
         if (!(forward_ok && series_ok && breakdown_ok)) {
           return fmt::format(
               "diode '{}' has a law that is not strictly increasing at {:g} C (Is {:g} A, "
@@ -236,8 +234,8 @@ std::optional<std::string> FindUnboundedCut(const Circuit& c) {
     if (e.kind == ElementKind::kResistor || e.kind == ElementKind::kVoltageSource) {
       groups.Join(e.node_a, e.node_b);
     } else if (e.kind == ElementKind::kDiode) {
-      const DiodeConstants d = ComputeDiodeConstants(
-          c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+      const DiodeConstants d = ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model,
+                                                     e.area, c.DeviceTemp(e));
       if (d.has_breakdown) {
         groups.Join(e.node_a, e.node_b);
       } else {
@@ -384,12 +382,14 @@ PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, d
   for (size_t i = 0; i < x.size(); ++i) x[i] = base[i] + (i < kcl ? t : 1.0) * dx_[i];
   AssemblyAids aids;
   aids.want_potential = true;
+  aids.junction_floor = floor_;
   const AssemblyOutcome out = mna_->Assemble(x, aids);
   ++evaluations_;
   Trial trial;
   trial.finite = out.finite && std::isfinite(out.potential);
   trial.potential = out.potential;
   trial.potential_magnitude = out.potential_magnitude;
+  trial.max_exponent = out.max_exponent;
   if (trial.finite) trial.slope = Slope(x);
   trial.finite = trial.finite && std::isfinite(trial.slope);
   return trial;
@@ -419,7 +419,11 @@ bool PotentialSolver::FeasibilityStep(std::span<double> x, NewtonOutcome* outcom
 }
 
 bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
-  LinearStatus status = klu_->Refactor(mna_->values());
+  // Fresh pivots at every step: conductances across a network span 1e-25 S to 1e15 S and
+  // move by decades per step, so pivots chosen at another point can leave the direction
+  // inaccurate beyond what the line search can resolve (KLU's pivot-growth test does not
+  // catch all of it). The networks are small; a full factorisation costs little more.
+  LinearStatus status = klu_->Factor(mna_->values());
   if (status == LinearStatus::kOk) {
     const auto f = mna_->residual();
     for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = -f[i];
@@ -446,6 +450,7 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
     }
     AssemblyAids exact;
     exact.want_potential = true;
+    exact.junction_floor = floor_;
     mna_->Assemble(*x_, exact);  // back to the exact model's residual at x
     ++evaluations_;
   }
@@ -458,21 +463,24 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
 NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRecord>* trace) {
   NewtonOutcome outcome;
   evaluations_ = 0;
+  floor_ = false;
   x_ = &x;  // for SolveStep's Hessian modification; only used during this call
   mna_->BeginRun(x);
   AssemblyAids aids;
   aids.want_potential = true;
+  aids.junction_floor = floor_;
   const AssemblyOutcome start = mna_->Assemble(x, aids);
   ++evaluations_;
   if (!start.finite || !std::isfinite(start.potential)) {
     outcome.exit = NewtonExit::kNonFinite;
-    outcome.detail = fmt::format(
-        "the starting point gives element '{}' a non-finite value",
-        start.bad_element >= 0 ? mna_->ElementName(start.bad_element) : "?");
+    outcome.detail =
+        fmt::format("the starting point gives element '{}' a non-finite value",
+                    start.bad_element >= 0 ? mna_->ElementName(start.bad_element) : "?");
     return outcome;
   }
   double potential = start.potential;
   double potential_magnitude = start.potential_magnitude;
+  double base_exponent = start.max_exponent;  // largest junction exponent at x
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   ToleranceCheck update;
   update.index = 0;
@@ -491,7 +499,9 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       return outcome;
     }
     const double max_residual = MaxAbs(mna_->residual(), kcl);
-    const bool feasible = Feasible();
+    // The step onto the sources' constraints is taken once, at the start; afterwards the
+    // Newton system's source rows correct any drift of round-off size within each step.
+    const bool feasible = step > 1 || Feasible();
     if (!feasible) {
       std::copy(x.begin(), x.end(), base_.begin());
       if (!FeasibilityStep(x, &outcome)) {
@@ -535,52 +545,35 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       trials = 1;
       ok = accepted.finite;
     } else if (!(slope0 < -slope_roundoff)) {
-      // The slope along the Newton direction is below its own round-off: the step is
-      // taken when it does not raise the potential by more than the potential's round-off.
-      accepted = Evaluate(base_, 1.0, x);
-      trials = 1;
-      ok = accepted.finite && accepted.potential - before <= roundoff(accepted);
-    } else {
-      // Backtracking (Armijo 1966) with safeguarded quadratic interpolation (Nocedal and
-      // Wright, ch. 3, recalled from memory). A trial is accepted when the sufficient
-      // decrease holds beyond round-off, or when the slope at the trial is at most
-      // kArmijoFraction times the initial slope: for a convex function
-      // phi(t) <= phi(0) + t*phi'(t), so that proves the same decrease without
-      // subtracting two nearly equal potentials.
-      for (trials = 1; trials <= kMaxBacktracks; ++trials) {
+      // The slope along the Newton direction is below its own round-off: the point is
+      // stationary as far as floating point can tell. The full step is taken when it
+      // does not raise the potential by more than the potential's round-off, else the
+      // shortest of a few halvings that does; none: the point stays (a zero step), and
+      // the convergence tests decide.
+      for (trials = 1; trials <= kMaxStationaryHalvings; ++trials, t *= 0.5) {
         accepted = Evaluate(base_, t, x);
-        if (accepted.finite) {
-          const double change = accepted.potential - before;
-          const bool armijo = change + roundoff(accepted) <= kArmijoFraction * t * slope0;
-          const bool certified = accepted.slope + slope_roundoff <= kArmijoFraction * slope0;
-          if (armijo || certified) {
-            ok = true;
-            break;
-          }
-          const double curvature = 2.0 * (change - slope0 * t);
-          const double guess = curvature > 0.0 ? -slope0 * t * t / curvature : 0.5 * t;
-          t = std::clamp(guess, 0.1 * t, 0.5 * t);
-        } else {
-          t *= 0.1;
-        }
+        if (accepted.finite && accepted.potential - before <= roundoff(accepted)) break;
       }
-      // A full step that leaves the potential still falling steeply is lengthened while
-      // the slope at the longer step stays negative (which, by convexity, means the
-      // potential fell all the way there).
-      if (ok && trials == 1 && accepted.slope <= kCurvatureFraction * slope0) {
-        for (int e = 0; e < kMaxExpansions; ++e) {
-          const Trial longer = Evaluate(base_, 2.0 * t, x);
-          ++trials;
-          if (!(longer.finite && longer.slope + slope_roundoff <= kArmijoFraction * slope0)) {
-            accepted = Evaluate(base_, t, x);  // back to the last good length
-            ++trials;
-            break;
-          }
-          t *= 2.0;
-          accepted = longer;
-          if (longer.slope > kCurvatureFraction * slope0) break;
-        }
+      if (trials > kMaxStationaryHalvings) {
+        t = 0.0;
+        accepted = Evaluate(base_, 0.0, x);
+        ++trials;
       }
+      ok = accepted.finite;
+    } else {
+      ok = LineSearch(slope0, slope_roundoff, before, before_magnitude,
+                      std::max(kExponentCap, base_exponent), x, &t, &trials, &accepted);
+      if (!ok) {
+        int more = 0;
+        ok = LineSearch(slope0, slope_roundoff, before, before_magnitude,
+                        std::numeric_limits<double>::infinity(), x, &t, &more, &accepted);
+        trials += more;
+      }
+    }
+    if (!ok && !floor_) {
+      // No step along the exact Newton direction: once more with the modified Hessian.
+      SetFloor(true, x);
+      continue;
     }
     if (!ok) {
       outcome.exit = NewtonExit::kStepLimit;
@@ -590,9 +583,20 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
           step, before, slope0, t);
       return outcome;
     }
+    // A short step means the exact Newton direction is dominated by a node that the
+    // Hessian barely holds (e.g. one joined to the rest only by reverse-biased
+    // junctions, whose conductance may be 1e-300 S): the next direction is then computed
+    // with every junction's conductance at least its zero-bias value Is/(n*Vt). That
+    // Hessian is still positive definite and at least the exact one, so the direction
+    // is still a descent direction (Newton's method with Hessian modification, Nocedal
+    // and Wright ch. 3.4, recalled from memory); the potential, the line search and the
+    // convergence tests stay those of the exact model. A full step switches it off again,
+    // so the last steps are exact Newton steps.
+    SetFloor(t < kShortStep, x);
     for (size_t i = 0; i < kcl; ++i) dx_[i] *= t;  // the update actually taken
     potential = accepted.potential;
     potential_magnitude = accepted.potential_magnitude;
+    base_exponent = accepted.max_exponent;
     update = CheckUpdate(*mna_, options_, dx_, x);
     if (!std::isfinite(update.value)) {
       outcome.exit = NewtonExit::kNonFinite;
@@ -622,6 +626,86 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       options_.max_newton_steps, mna_->UnknownName(update.index), update.value, update.bound,
       mna_->UnknownName(residual.index), residual.value, residual.bound);
   return outcome;
+}
+
+// A line search for the weak Wolfe conditions (Nocedal and Wright, ch. 3: Armijo's
+// sufficient decrease, Armijo 1966, and the curvature condition phi'(t) >= c2 phi'(0);
+// the bracketing and zoom phases of their Algorithms 3.5 and 3.6, recalled from memory,
+// with bisection as the interpolation). A step that satisfies sufficient decrease while
+// the potential still falls at nearly the initial rate is too short: taking it would let
+// one junction far below its knee hold the whole network to a tiny step, step after step.
+// The search lengthens such a step (t = 2, 4, ...) or, when a longer trial has already
+// failed, bisects between the two (geometrically while they differ by more than 4x),
+// until the slope has flattened. Sufficient decrease is tested beyond round-off, or
+// certified by the slope: for a convex phi, phi(t) <= phi(0) + t*phi'(t), so
+// phi'(t) <= c1*phi'(0) proves phi(t) <= phi(0) + c1*t*phi'(0) without subtracting two
+// nearly equal potentials. If the budget of trials runs out, the longest step known to
+// satisfy sufficient decrease is taken.
+bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double before,
+                                 double before_magnitude, double exponent_cap, std::span<double> x,
+                                 double* t_out, int* trials_out, Trial* accepted) {
+  const auto decreases = [&](const Trial& tr, double t) {
+    const double roundoff =
+        MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
+    return (tr.potential - before) + roundoff <= kArmijoFraction * t * slope0 ||
+           tr.slope + slope_roundoff <= kArmijoFraction * slope0;
+  };
+  double lo = 0.0;  // longest step known to satisfy sufficient decrease
+  double hi = std::numeric_limits<double>::infinity();  // shortest step known to fail it
+  double t = 1.0;
+  int trials = 0;
+  while (trials < kMaxLineSearchTrials) {
+    Trial trial = Evaluate(base_, t, x);
+    ++trials;
+    if (trial.finite && trial.max_exponent <= exponent_cap && decreases(trial, t)) {
+      if (trial.slope >= kCurvatureFraction * slope0) {  // flattened (or past the minimum)
+        *accepted = trial;
+        *t_out = t;
+        *trials_out = trials;
+        return true;
+      }
+      lo = t;
+    } else {
+      hi = t;
+    }
+    if (std::isinf(hi)) {
+      if (t >= kMaxStepLength) break;
+      t *= 2.0;
+    } else if (lo == 0.0) {
+      // Only failures so far: shorten, by quadratic interpolation of phi(0), phi'(0) and
+      // phi(t) where that is finite, within [0.1 t, 0.5 t] (Nocedal and Wright, ch. 3).
+      const double change = trial.potential - before;
+      const double curvature = 2.0 * (change - slope0 * t);
+      const double guess = trial.finite && curvature > 0.0 ? -slope0 * t * t / curvature : 0.1 * t;
+      t = std::clamp(guess, 0.1 * t, 0.5 * t);
+    } else {
+      t = hi > 4.0 * lo ? std::sqrt(lo * hi) : 0.5 * (lo + hi);
+      if (!(t > lo && t < hi)) break;  // the bracket is as narrow as doubles allow
+    }
+  }
+  if (lo == 0.0) {
+    *t_out = t;
+    *trials_out = trials;
+    return false;
+  }
+  // Out of trials (or of bracket) with a step that satisfies sufficient decrease: take it.
+  // The assembly of the last trial is not that point's, so assemble it again.
+  *accepted = Evaluate(base_, lo, x);
+  *t_out = lo;
+  *trials_out = trials + 1;
+  return accepted->finite;
+}
+
+// Switches the Hessian modification on or off; the Jacobian at x is assembled again when
+// it changes (the residual and the potential do not change).
+void PotentialSolver::SetFloor(bool on, std::span<const double> x) {
+  if (on == floor_) return;
+  floor_ = on;
+  AssemblyAids aids;
+  aids.want_potential = true;
+  aids.junction_floor = floor_;
+  mna_->Assemble(x, aids);
+  ++evaluations_;
 }
 
 // One more full Newton step after convergence (quadratic convergence makes it reach

@@ -45,14 +45,26 @@ double StiffJunctionConductance(const Circuit& circuit);
 // 16(1), 1966; the value 1e-4 is the one J. Nocedal and S. J. Wright, Numerical
 // Optimization, 2nd ed., Springer 2006, ch. 3, suggest (recalled from memory).
 inline constexpr double kArmijoFraction = 1e-4;
-// A step accepted at t = 1 whose slope at the new point is still at least this fraction
-// of the initial slope is lengthened (t = 2, 4, ...) while the potential keeps falling:
-// the bracketing phase of a line search for the strong Wolfe conditions (Nocedal and
-// Wright, ch. 3, Algorithm 3.5, recalled from memory; 0.1 is their value for c2 when
-// directions are poorly scaled).
-inline constexpr double kCurvatureFraction = 0.1;
-inline constexpr int kMaxBacktracks = 80;  // each at least divides t by 2
-inline constexpr int kMaxExpansions = 60;  // each doubles t
+// The curvature condition of the weak Wolfe conditions, phi'(t) >= c2 * phi'(0): a step
+// after which the potential still falls at more than c2 of its initial rate is too short
+// and is lengthened or refined (Nocedal and Wright, ch. 3, recalled from memory: 0.9 is
+// their value for Newton-type directions).
+inline constexpr double kCurvatureFraction = 0.9;
+inline constexpr int kMaxLineSearchTrials = 80;      // potential evaluations per line search
+inline constexpr double kMaxStepLength = 1048576.0;  // 2^20 Newton steps along one direction
+// Trial points of the line search keep every junction-law exponent at or below
+// max(kExponentCap, the largest exponent at the start of the step), so no iterate enters
+// the overflow-safe exponential's continuation above kExpLimit, where conductances near
+// 1e30 S leave neither the Newton direction nor the potential resolvable. e^70 * Is is
+// far above any current a knee network can carry (at least 2.5e10 A for Is = 1e-20 A),
+// so the cap is inactive at the solution; should the line search find no step under it,
+// it searches once more without it.
+inline constexpr double kExponentCap = 70.0;
+// A step shorter than this fraction of the Newton step switches the Hessian modification
+// on for the next direction (PotentialSolver::Run).
+inline constexpr double kShortStep = 1e-3;
+// Halvings of a step along a direction whose slope is below its round-off.
+inline constexpr int kMaxStationaryHalvings = 8;
 
 class PotentialSolver {
  public:
@@ -79,12 +91,17 @@ class PotentialSolver {
     bool finite = false;
     double potential = 0.0;
     double potential_magnitude = 0.0;
-    double slope = 0.0;  // d/dt of the potential along dx_ at this point
+    double slope = 0.0;         // d/dt of the potential along dx_ at this point
+    double max_exponent = 0.0;  // largest junction-law exponent at this point
   };
   Trial Evaluate(std::span<const double> base, double t, std::span<double> x);
+  bool LineSearch(double slope0, double slope_roundoff, double before, double before_magnitude,
+                  double exponent_cap, std::span<double> x, double* t, int* trials,
+                  Trial* accepted);
   double Slope(std::span<const double> x) const;
   double SlopeRoundOff() const;
   bool Feasible() const;
+  void SetFloor(bool on, std::span<const double> x);
   bool SolveStep(NewtonOutcome* outcome);
   bool FeasibilityStep(std::span<double> x, NewtonOutcome* outcome);
   void Polish(std::span<double> x);
@@ -97,6 +114,7 @@ class PotentialSolver {
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
   int evaluations_ = 0;
   double stiff_ = 1.0;
+  bool floor_ = false;              // the Hessian modification of short steps (see Run)
   std::span<double>* x_ = nullptr;  // the current point, during Run
 };
 

@@ -4,6 +4,7 @@
 // their node voltages. Every reported solution is verified by its KCL residual (the
 // solver's own verification) and again by the torture suite's independent verifier.
 //   compare_solvers [count] [first_seed]
+//   compare_solvers --trace SEED [potential|classic]   (one network, every step printed)
 // Exit status 0 when the potential method solved and verified every network and both
 // methods agree to 1e-9 relative wherever both converged; 1 otherwise; 2 on bad usage.
 #include <fmt/format.h>
@@ -24,10 +25,10 @@ namespace {
 
 using knee::Circuit;
 using knee::Solution;
-using knee::SolveStatus;
 using knee::SolverMethod;
+using knee::SolveStatus;
 
-constexpr double kAgreement = 1e-9;  // relative, the acceptance bound of issue 8
+constexpr double kAgreement = 1e-9;      // relative, the acceptance bound of issue 8
 constexpr double kVoltageFloor = 1e-12;  // V: below this two voltages count as equal
 
 struct Tally {
@@ -55,8 +56,7 @@ Run SolveWith(const Circuit& circuit, SolverMethod method, uint64_t seed, Tally*
   auto solver = knee::BiasSolver::Create(circuit, options);
   knee::SolveSummary summary;
   if (solver) summary = (*solver)->Solve(&run.solution);
-  tally->seconds +=
-      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  tally->seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   tally->steps += summary.newton_steps;
   if (summary.newton_steps > tally->worst_steps) {
     tally->worst_steps = summary.newton_steps;
@@ -87,9 +87,37 @@ bool ParseCount(const char* text, long long* out) {
   return true;
 }
 
+// One network with the per-step records of the solver, for looking into a failure.
+int TraceOne(uint64_t seed, SolverMethod method) {
+  const Circuit circuit = knee::torture::GenerateNetwork(seed);
+  knee::SolverOptions options;
+  options.method = method;
+  auto solver = knee::BiasSolver::Create(circuit, options);
+  if (!solver) return 2;
+  (*solver)->set_trace(true);
+  Solution solution;
+  const knee::SolveSummary summary = (*solver)->Solve(&solution);
+  for (const knee::NewtonStepRecord& r : (*solver)->trace()) {
+    fmt::print(
+        "{:4} {:<20} |F| {:9.3e} |dx| {:9.3e} t {:9.3e} phi {:13.6e} dphi {:10.3e} "
+        "(round-off {:8.2e}) trials {}\n",
+        r.step, r.phase, r.max_residual, r.max_update, r.step_length, r.potential,
+        r.potential_change, r.potential_roundoff, r.line_search_trials);
+  }
+  fmt::print("{}: {} steps: {}\n", ToString(summary.status), summary.newton_steps, summary.detail);
+  return summary.status == SolveStatus::kConverged ? 0 : 1;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
+  if (argc >= 3 && std::string(argv[1]) == "--trace") {
+    long long seed = 0;
+    if (!ParseCount(argv[2], &seed)) return 2;
+    const bool classic = argc >= 4 && std::string(argv[3]) == "classic";
+    return TraceOne(static_cast<uint64_t>(seed),
+                    classic ? SolverMethod::kClassic : SolverMethod::kPotential);
+  }
   long long count = 10000;
   long long first = 1;
   if (argc > 3 || (argc >= 2 && !ParseCount(argv[1], &count)) ||
@@ -139,18 +167,21 @@ int main(int argc, char** argv) {
     for (const std::string& f : t->failures) fmt::print("{}: {}\n", t->name, f);
   }
   fmt::print("\n{} networks, seeds {}..{}\n\n", count, first, first + count - 1);
-  fmt::print("| method | failed | failed the independent check | mean Newton steps | worst (seed) "
-             "| largest KCL residual | time |\n|---|---|---|---|---|---|---|\n");
+  fmt::print(
+      "| method | failed | failed the independent check | mean Newton steps | worst (seed) "
+      "| largest KCL residual | time |\n|---|---|---|---|---|---|---|\n");
   for (const Tally* t : {&classic, &potential}) {
     fmt::print("| {} | {} | {} | {:.2f} | {} ({}) | {:.2e} A | {:.2f} s |\n", t->name, t->failed,
                t->unverified, static_cast<double>(t->steps) / static_cast<double>(count),
                t->worst_steps, t->worst_seed, t->worst_residual, t->seconds);
   }
-  fmt::print("\nboth converged on {} networks; node voltages differ by more than {:g} relative "
-             "(floor {:g} V) on {}; largest difference {:.2e} (seed {})\n",
-             both, kAgreement, kVoltageFloor, disagree, worst_difference, worst_difference_seed);
-  fmt::print("relative to each circuit's largest node voltage: differ by more than {:g} on {}; "
-             "largest {:.2e}\n",
-             kAgreement, disagree_scaled, worst_scaled);
+  fmt::print(
+      "\nboth converged on {} networks; node voltages differ by more than {:g} relative "
+      "(floor {:g} V) on {}; largest difference {:.2e} (seed {})\n",
+      both, kAgreement, kVoltageFloor, disagree, worst_difference, worst_difference_seed);
+  fmt::print(
+      "relative to each circuit's largest node voltage: differ by more than {:g} on {}; "
+      "largest {:.2e}\n",
+      kAgreement, disagree_scaled, worst_scaled);
   return potential.failed == 0 && potential.unverified == 0 && disagree == 0 ? 0 : 1;
 }
