@@ -52,20 +52,66 @@ Diagnostic MessageOnly(std::string message) {
   return d;
 }
 
+// The solver's own copy of a circuit: everything but the elements' source locations
+// (messages name elements; none points into the file), which for a file name longer
+// than a short string is one allocation per element.
+Circuit SolverCopy(const Circuit& c) {
+  Circuit copy;
+  copy.title = c.title;
+  copy.temp = c.temp;
+  copy.nodes = c.nodes;
+  copy.parts = c.parts;
+  copy.elements.resize(c.elements.size());
+  for (size_t e = 0; e < c.elements.size(); ++e) {
+    const Element& f = c.elements[e];
+    Element& t = copy.elements[e];
+    t.kind = f.kind;
+    t.name = f.name;
+    t.node_a = f.node_a;
+    t.node_b = f.node_b;
+    t.value = f.value;
+    t.part = f.part;
+    t.area = f.area;
+    t.temp = f.temp;
+  }
+  return copy;
+}
+
+bool SameModel(const DiodeModel& p, const DiodeModel& q) {
+  return p.sat_current == q.sat_current && p.ideality == q.ideality &&
+         p.series_res == q.series_res && p.breakdown_v == q.breakdown_v &&
+         p.breakdown_i == q.breakdown_i && p.breakdown_ideality == q.breakdown_ideality &&
+         p.breakdown_tc == q.breakdown_tc && p.bandgap == q.bandgap &&
+         p.sat_temp_exp == q.sat_temp_exp && p.ref_temp == q.ref_temp &&
+         p.max_current == q.max_current && p.max_reverse_v == q.max_reverse_v &&
+         p.max_power == q.max_power;
+}
+
 // to = from, but when both have the same nodes, parts and elements (a sweep point) only
 // the numbers are copied: names and source locations stay as they are, so no string is
-// copied per point.
-void AssignValues(const Circuit& from, Circuit* to) {
+// copied per point. Returns true when at most the values of voltage sources changed,
+// each to a finite number (what a sweep of a supply does at every point).
+bool AssignValues(const Circuit& from, Circuit* to) {
   if (from.nodes.size() != to->nodes.size() || from.parts.size() != to->parts.size() ||
       from.elements.size() != to->elements.size()) {
-    *to = from;
-    return;
+    *to = SolverCopy(from);
+    return false;
   }
+  bool sources_only = from.temp == to->temp;
   to->temp = from.temp;
-  for (size_t p = 0; p < from.parts.size(); ++p) to->parts[p].model = from.parts[p].model;
+  for (size_t p = 0; p < from.parts.size(); ++p) {
+    sources_only = sources_only && SameModel(from.parts[p].model, to->parts[p].model);
+    to->parts[p].model = from.parts[p].model;
+  }
   for (size_t e = 0; e < from.elements.size(); ++e) {
     const Element& f = from.elements[e];
     Element& t = to->elements[e];
+    if (sources_only && !(f.kind == t.kind && f.node_a == t.node_a && f.node_b == t.node_b &&
+                          f.part == t.part && f.area == t.area && f.temp == t.temp &&
+                          (f.value == t.value ||
+                           (f.kind == ElementKind::kVoltageSource && std::isfinite(f.value))))) {
+      sources_only = false;
+    }
     t.kind = f.kind;
     t.node_a = f.node_a;
     t.node_b = f.node_b;
@@ -74,6 +120,7 @@ void AssignValues(const Circuit& from, Circuit* to) {
     t.area = f.area;
     t.temp = f.temp;
   }
+  return sources_only;
 }
 
 AssemblyAids WithGmin(double gmin) {
@@ -108,9 +155,9 @@ struct BiasSolver::Impl {
   std::vector<NewtonStepRecord> trace;
 
   Impl(const Circuit& c, const SolverOptions& o)
-      : circuit(c),
+      : circuit(SolverCopy(c)),
         options(o),
-        mna(c),
+        mna(circuit),
         newton(&mna, &klu, o, mna.size()),
         potential(&mna, &klu, o, mna.size()) {
     Resize();
@@ -275,15 +322,17 @@ BiasSolver::~BiasSolver() = default;
 
 void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
-  AssignValues(circuit, &m.circuit);
-  m.Classify();
+  // Neither classification depends on the value of a voltage source, except through its
+  // finiteness: a sweep of a supply skips both (a max-flow over the network per point).
+  const bool sources_only = AssignValues(circuit, &m.circuit);
+  if (!sources_only || m.non_monotone) m.Classify();
   if (m.mna.StructureMatches(circuit)) {
     m.mna.UpdateValues(circuit);
     return;
   }
   // A diode's series_res became zero or non-zero: its internal node appears or goes, so
   // the unknowns and the pattern are rebuilt (and warm starts of the old size are ignored).
-  m.mna = MnaSystem(circuit);
+  m.mna = MnaSystem(m.circuit);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.potential = internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.Resize();

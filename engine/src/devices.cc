@@ -47,11 +47,11 @@ class Resistor final : public Device {
     const Element& e = c.elements[static_cast<size_t>(element)];
     a_ = UnknownOfNode(e.node_a);
     b_ = UnknownOfNode(e.node_b);
-    UpdateValues(c);
+    UpdateValues(c, {});
   }
   void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
   void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
-  void UpdateValues(const Circuit& c) override {
+  void UpdateValues(const Circuit& c, std::span<const char>) override {
     g_ = 1.0 / c.elements[static_cast<size_t>(element())].value;
   }
   bool Stamp(StampContext& ctx) override {
@@ -87,7 +87,7 @@ class VoltageSource final : public Device {
     const Element& e = c.elements[static_cast<size_t>(element)];
     p_ = UnknownOfNode(e.node_a);
     n_ = UnknownOfNode(e.node_b);
-    UpdateValues(c);
+    UpdateValues(c, {});
   }
   void DeclareEntries(EntryCollector& c) override {
     slots_ = {c.Add(p_, k_), c.Add(n_, k_), c.Add(k_, p_), c.Add(k_, n_)};
@@ -95,7 +95,7 @@ class VoltageSource final : public Device {
   void BindSlots(std::span<const int> slot_of) override {
     for (int& s : slots_) s = Bind(s, slot_of);
   }
-  void UpdateValues(const Circuit& c) override {
+  void UpdateValues(const Circuit& c, std::span<const char>) override {
     v_ = c.elements[static_cast<size_t>(element())].value;
   }
   bool Stamp(StampContext& ctx) override {
@@ -132,11 +132,11 @@ class CurrentSource final : public Device {
     const Element& e = c.elements[static_cast<size_t>(element)];
     a_ = UnknownOfNode(e.node_a);
     b_ = UnknownOfNode(e.node_b);
-    UpdateValues(c);
+    UpdateValues(c, {});
   }
   void DeclareEntries(EntryCollector&) override {}
   void BindSlots(std::span<const int>) override {}
-  void UpdateValues(const Circuit& c) override {
+  void UpdateValues(const Circuit& c, std::span<const char>) override {
     i_ = c.elements[static_cast<size_t>(element())].value;
   }
   bool Stamp(StampContext& ctx) override {
@@ -160,14 +160,6 @@ class CurrentSource final : public Device {
   double i_ = 0;
 };
 
-bool SameModel(const DiodeModel& p, const DiodeModel& q) {
-  return p.sat_current == q.sat_current && p.ideality == q.ideality &&
-         p.series_res == q.series_res && p.breakdown_v == q.breakdown_v &&
-         p.breakdown_i == q.breakdown_i && p.breakdown_ideality == q.breakdown_ideality &&
-         p.breakdown_tc == q.breakdown_tc && p.bandgap == q.bandgap &&
-         p.sat_temp_exp == q.sat_temp_exp && p.ref_temp == q.ref_temp;
-}
-
 // Anode a, cathode b; with series_res > 0 the junction sits between the internal node j
 // and b, and series_res/area between a and j. Otherwise j == a.
 class Diode final : public Device {
@@ -178,7 +170,7 @@ class Diode final : public Device {
     b_ = UnknownOfNode(e.node_b);
     j_ = internal >= 0 ? internal : a_;
     KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
-    UpdateValues(c);
+    UpdateValues(c, {});
   }
   void DeclareEntries(EntryCollector& c) override {
     junction_.Declare(c, j_, b_);
@@ -188,14 +180,17 @@ class Diode final : public Device {
     junction_.Bind(slot_of);
     series_.Bind(slot_of);
   }
-  void UpdateValues(const Circuit& c) override {
+  void UpdateValues(const Circuit& c, std::span<const char> part_changed) override {
     const Element& e = c.elements[static_cast<size_t>(element())];
     const DiodeModel& model = c.parts[static_cast<size_t>(e.part)].model;
     // A sweep point usually changes a source, not this diode: the temperature laws (a
-    // log and an exp per diode) are recomputed only when their inputs changed.
+    // log and an exp per diode) are recomputed only when their inputs changed. The
+    // part's model is compared once per part by the caller, not kept per diode.
     const double temp = c.DeviceTemp(e);
-    if (have_inputs_ && SameModel(model, model_) && e.area == area_ && temp == temp_) return;
-    model_ = model;
+    if (have_inputs_ && part_changed[static_cast<size_t>(e.part)] == 0 && e.area == area_ &&
+        temp == temp_) {
+      return;
+    }
     area_ = e.area;
     temp_ = temp;
     have_inputs_ = true;
@@ -263,8 +258,7 @@ class Diode final : public Device {
  private:
   int a_ = -1, b_ = -1, j_ = -1;
   DiodeConstants d_;
-  DiodeModel model_;  // the inputs d_ was computed from
-  double area_ = 0, temp_ = 0;
+  double area_ = 0, temp_ = 0;  // inputs d_ was computed from (with the part's model)
   bool have_inputs_ = false;
   double g_series_ = 0;
   double last_vj_ = 0;

@@ -98,8 +98,9 @@ class Device {
   // Setup: declare entries; then receive slot_of[ticket] for every ticket handed out.
   virtual void DeclareEntries(EntryCollector& collector) = 0;
   virtual void BindSlots(std::span<const int> slot_of) = 0;
-  // New values (same topology).
-  virtual void UpdateValues(const Circuit& circuit) = 0;
+  // New values (same topology). part_changed[p] != 0 when part p's model differs from
+  // the one of the last call (devices whose inputs did not change may skip work).
+  virtual void UpdateValues(const Circuit& circuit, std::span<const char> part_changed) = 0;
   // Start of a Newton run from x: nonlinear devices forget their previous evaluation point.
   virtual void BeginRun(std::span<const double> /*x*/) {}
   // Adds this device's contribution at ctx.x; false on a non-finite value.

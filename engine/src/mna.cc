@@ -10,6 +10,14 @@
 namespace knee::internal {
 namespace {
 
+bool SameModel(const DiodeModel& p, const DiodeModel& q) {
+  return p.sat_current == q.sat_current && p.ideality == q.ideality &&
+         p.series_res == q.series_res && p.breakdown_v == q.breakdown_v &&
+         p.breakdown_i == q.breakdown_i && p.breakdown_ideality == q.breakdown_ideality &&
+         p.breakdown_tc == q.breakdown_tc && p.bandgap == q.bandgap &&
+         p.sat_temp_exp == q.sat_temp_exp && p.ref_temp == q.ref_temp;
+}
+
 bool NeedsInternalNode(const Circuit& c, const Element& e) {
   return e.kind == ElementKind::kDiode &&
          c.parts[static_cast<size_t>(e.part)].model.series_res > 0.0;
@@ -17,21 +25,23 @@ bool NeedsInternalNode(const Circuit& c, const Element& e) {
 
 }  // namespace
 
-MnaSystem::MnaSystem(const Circuit& c) {
+MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
   node_count_ = c.nodes.size();
-  for (size_t n = 1; n < c.nodes.size(); ++n) names_.push_back(c.nodes[n]);
-  for (const Element& e : c.elements) {
-    shape_.emplace_back(e.kind, e.node_a, e.node_b);
-    element_names_.push_back(e.name);
-  }
+  int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
+  shape_.reserve(c.elements.size());
+  for (const Element& e : c.elements) shape_.emplace_back(e.kind, e.node_a, e.node_b);
   internal_of_element_.assign(c.elements.size(), -1);
   for (size_t e = 0; e < c.elements.size(); ++e) {
     if (!NeedsInternalNode(c, c.elements[e])) continue;
-    internal_of_element_[e] = static_cast<int>(names_.size());
-    names_.push_back(c.elements[e].name + ":internal");
+    internal_of_element_[e] = next++;
+    element_of_extra_.push_back(static_cast<int>(e));
   }
-  kcl_rows_ = static_cast<int>(names_.size());
+  kcl_rows_ = next;
+  part_models_.reserve(c.parts.size());
+  for (const Part& part : c.parts) part_models_.push_back(part.model);
+  part_changed_.assign(c.parts.size(), 0);
 
+  devices_.reserve(c.elements.size());
   for (int e = 0; e < static_cast<int>(c.elements.size()); ++e) {
     const Element& element = c.elements[static_cast<size_t>(e)];
     switch (element.kind) {
@@ -39,8 +49,8 @@ MnaSystem::MnaSystem(const Circuit& c) {
         devices_.push_back(MakeResistor(c, e));
         break;
       case ElementKind::kVoltageSource:
-        devices_.push_back(MakeVoltageSource(c, e, static_cast<int>(names_.size())));
-        names_.push_back(element.name + ":current");
+        devices_.push_back(MakeVoltageSource(c, e, next++));
+        element_of_extra_.push_back(e);
         break;
       case ElementKind::kCurrentSource:
         devices_.push_back(MakeCurrentSource(c, e));
@@ -50,43 +60,61 @@ MnaSystem::MnaSystem(const Circuit& c) {
         break;
     }
   }
+  size_ = next;
 
   // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
   EntryCollector collector;
   for (auto& device : devices_) device->DeclareEntries(collector);
-  std::vector<int> diagonal_ticket;
-  for (int r = 0; r < kcl_rows_; ++r) diagonal_ticket.push_back(collector.Add(r, r));
+  std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
+  for (int r = 0; r < kcl_rows_; ++r) diagonal_ticket[static_cast<size_t>(r)] = collector.Add(r, r);
 
+  // CSC order (column, then row) by a counting pass over the columns and a sort of each
+  // column's few entries: linear in the entries, where one sort of all of them was not.
   const auto& entries = collector.entries();
-  std::vector<int> order(entries.size());
-  for (size_t t = 0; t < order.size(); ++t) order[t] = static_cast<int>(t);
-  const auto key = [&](int t) {
-    const auto& en = entries[static_cast<size_t>(t)];
-    return std::make_tuple(en.col, en.row);
-  };
-  std::sort(order.begin(), order.end(), [&](int p, int q) { return key(p) < key(q); });
-
   const int n = size();
+  std::vector<int> start(static_cast<size_t>(n) + 1, 0);
+  for (const auto& en : entries) ++start[static_cast<size_t>(en.col) + 1];
+  for (int col = 0; col < n; ++col) {
+    start[static_cast<size_t>(col) + 1] += start[static_cast<size_t>(col)];
+  }
+  std::vector<int> order(entries.size());
+  {
+    std::vector<int> fill(start.begin(), start.end() - 1);
+    for (size_t t = 0; t < entries.size(); ++t) {
+      order[static_cast<size_t>(fill[static_cast<size_t>(entries[t].col)]++)] = static_cast<int>(t);
+    }
+  }
+  const auto row_of = [&](int t) { return entries[static_cast<size_t>(t)].row; };
   std::vector<int> slot_of(entries.size(), -1);
   col_ptr_.assign(static_cast<size_t>(n) + 1, 0);
-  for (size_t k = 0; k < order.size(); ++k) {
-    const auto& en = entries[static_cast<size_t>(order[k])];
-    if (k == 0 || key(order[k]) != key(order[k - 1])) {
-      row_index_.push_back(en.row);
-      ++col_ptr_[static_cast<size_t>(en.col) + 1];
-    }
-    slot_of[static_cast<size_t>(order[k])] = static_cast<int>(row_index_.size()) - 1;
-  }
+  row_index_.reserve(entries.size());
   for (int col = 0; col < n; ++col) {
-    col_ptr_[static_cast<size_t>(col) + 1] += col_ptr_[static_cast<size_t>(col)];
+    const auto first = order.begin() + start[static_cast<size_t>(col)];
+    const auto last = order.begin() + start[static_cast<size_t>(col) + 1];
+    std::sort(first, last, [&](int p, int q) { return row_of(p) < row_of(q); });
+    for (auto it = first; it != last; ++it) {
+      if (it == first || row_of(*it) != row_of(*(it - 1))) row_index_.push_back(row_of(*it));
+      slot_of[static_cast<size_t>(*it)] = static_cast<int>(row_index_.size()) - 1;
+    }
+    col_ptr_[static_cast<size_t>(col) + 1] = static_cast<int>(row_index_.size());
   }
+  row_index_.shrink_to_fit();
   for (auto& device : devices_) device->BindSlots(slot_of);
+  diagonal_slot_.reserve(diagonal_ticket.size());
   for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
 
   values_.assign(row_index_.size(), 0.0);
   residual_.assign(static_cast<size_t>(n), 0.0);
   flow_.assign(static_cast<size_t>(n), 0.0);
   magnitude_.assign(static_cast<size_t>(n), 0.0);
+}
+
+std::string MnaSystem::UnknownName(int u) const {
+  const auto nodes = static_cast<int>(node_count_) - 1;
+  if (u < nodes) return circuit_->nodes[static_cast<size_t>(u) + 1];
+  const Element& e =
+      circuit_->elements[static_cast<size_t>(element_of_extra_[static_cast<size_t>(u - nodes)])];
+  return e.name + (u < kcl_rows_ ? ":internal" : ":current");
 }
 
 AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAids& aids) {
@@ -133,7 +161,10 @@ void MnaSystem::BeginRun(std::span<const double> x) {
 }
 
 bool MnaSystem::StructureMatches(const Circuit& c) const {
-  if (c.nodes.size() != node_count_ || c.elements.size() != shape_.size()) return false;
+  if (c.nodes.size() != node_count_ || c.elements.size() != shape_.size() ||
+      c.parts.size() != part_models_.size()) {
+    return false;
+  }
   for (size_t e = 0; e < c.elements.size(); ++e) {
     const Element& el = c.elements[e];
     if (std::make_tuple(el.kind, el.node_a, el.node_b) != shape_[e]) return false;
@@ -143,8 +174,12 @@ bool MnaSystem::StructureMatches(const Circuit& c) const {
 }
 
 void MnaSystem::UpdateValues(const Circuit& c) {
-  KNEE_CHECK(StructureMatches(c));
-  for (auto& device : devices_) device->UpdateValues(c);
+  KNEE_CHECK(StructureMatches(c) && c.parts.size() == part_models_.size());
+  for (size_t p = 0; p < c.parts.size(); ++p) {
+    part_changed_[p] = SameModel(c.parts[p].model, part_models_[p]) ? 0 : 1;
+    if (part_changed_[p] != 0) part_models_[p] = c.parts[p].model;
+  }
+  for (auto& device : devices_) device->UpdateValues(c, part_changed_);
 }
 
 }  // namespace knee::internal

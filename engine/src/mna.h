@@ -35,16 +35,20 @@ struct AssemblyOutcome {
 
 class MnaSystem {
  public:
+  // `circuit` must outlive the system: names of unknowns and elements are read from it
+  // when a message needs them (a million-node circuit would otherwise keep a second copy
+  // of every name here).
   explicit MnaSystem(const Circuit& circuit);
   MnaSystem(MnaSystem&&) = default;
   MnaSystem& operator=(MnaSystem&&) = default;
 
-  int size() const { return static_cast<int>(names_.size()); }
+  int size() const { return size_; }
   // Rows [0, kcl_rows()) are KCL rows (nodes and internal nodes); the rest are vsource
   // branch equations whose unknowns are currents.
   int kcl_rows() const { return kcl_rows_; }
   bool IsCurrentUnknown(int u) const { return u >= kcl_rows_; }
-  const std::string& UnknownName(int u) const { return names_[static_cast<size_t>(u)]; }
+  // "node", "D1:internal" or "V1:current"; built on demand (messages only).
+  std::string UnknownName(int u) const;
 
   std::span<const int> col_ptr() const { return col_ptr_; }
   std::span<const int> row_index() const { return row_index_; }
@@ -70,14 +74,19 @@ class MnaSystem {
   void UpdateValues(const Circuit& circuit);
 
   const std::vector<std::unique_ptr<Device>>& devices() const { return devices_; }
-  const std::string& ElementName(int e) const { return element_names_[static_cast<size_t>(e)]; }
+  const std::string& ElementName(int e) const {
+    return circuit_->elements[static_cast<size_t>(e)].name;
+  }
 
  private:
+  const Circuit* circuit_ = nullptr;
   size_t node_count_ = 0;
+  int size_ = 0;
   std::vector<std::tuple<ElementKind, int, int>> shape_;  // per element, for StructureMatches
   int kcl_rows_ = 0;
-  std::vector<std::string> names_;
-  std::vector<std::string> element_names_;
+  std::vector<int> element_of_extra_;     // element of each unknown after the circuit nodes
+  std::vector<DiodeModel> part_models_;   // the models of the last build or update
+  std::vector<char> part_changed_;        // per part, during UpdateValues
   std::vector<int> internal_of_element_;  // unknown index of a diode's internal node, or -1
   std::vector<std::unique_ptr<Device>> devices_;
   std::vector<int> col_ptr_, row_index_;

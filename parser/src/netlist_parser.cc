@@ -329,7 +329,7 @@ class StatementParser {
                                    Quote(option)),
                        hint);
         }
-        std::optional<Value>& slot = option.text == "area" ? e.area : e.temp;
+        std::unique_ptr<Value>& slot = option.text == "area" ? e.area : e.temp;
         if (slot) {
           return Error(option,
                        fmt::format("option '{}' given twice for diode '{}'", option.text, e.name));
@@ -339,7 +339,7 @@ class StatementParser {
         if (!TakeValue(option.text == "area" ? "an area factor" : "a temperature", &v)) {
           return false;
         }
-        slot = std::move(v);
+        slot = std::make_unique<Value>(std::move(v));
       }
     } else {
       const char* place = kind == ElementKind::kResistor        ? "a resistance"

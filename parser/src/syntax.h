@@ -81,8 +81,11 @@ struct ElementStmt {
   Value value;       // R, V, I
   std::string part;  // diode
   Span part_span;
-  std::optional<Value> area;  // diode
-  std::optional<Value> temp;  // diode
+  // Diode options, by pointer: most diodes have none, and an empty std::optional<Value>
+  // would still take the size of a Value in every statement (a million-element netlist
+  // keeps all its statements alive through elaboration).
+  std::unique_ptr<Value> area;  // diode
+  std::unique_ptr<Value> temp;  // diode
 };
 
 struct SweepPairStmt {
