@@ -1,5 +1,6 @@
 // Scripts' CSV: one header row of quantity names with units, one row per point, numbers
 // that round-trip a double, nothing else in the stream (cli.md, "Output").
+#include <fmt/compile.h>
 #include <fmt/format.h>
 
 #include <cmath>
@@ -40,14 +41,14 @@ std::string WriteCsvRows(const Report& report) {
   // string per cell).
   fmt::memory_buffer out;
   out.reserve(report.rows.size() * report.columns.size() * 24);
-  const auto append = std::back_inserter(out);
+  const auto append = fmt::appender(out);
   for (const auto& row : report.rows) {
     for (size_t i = 0; i < row.size(); ++i) {
       if (i) out.push_back(',');
       if (std::isnan(row[i])) {
         out.append(std::string_view("nan"));
       } else {
-        fmt::format_to(append, "{}", row[i]);
+        fmt::format_to(append, FMT_COMPILE("{}"), row[i]);
       }
     }
     out.push_back('\n');

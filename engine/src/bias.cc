@@ -255,7 +255,7 @@ bool BiasSolver::Impl::SourceLadder(SolveSummary* s, std::string* log) {
 
 // The KCL residual of every node (internal nodes included) of the exact model.
 void BiasSolver::Impl::Verify(SolveSummary* s) {
-  const internal::AssemblyOutcome exact = mna.Assemble(x, AssemblyAids{});
+  const internal::AssemblyOutcome exact = mna.AssembleExact(x);
   const auto f = mna.residual();
   const auto flow = mna.flow();
   int worst = -1;

@@ -66,6 +66,9 @@ class MnaSystem {
 
   // Refills values, residual and flow at x. No allocation.
   AssemblyOutcome Assemble(std::span<const double> x, const AssemblyAids& aids);
+  // Assemble(x, AssemblyAids{}), skipped when the last assembly was exactly that (the
+  // verification after a polishing step that was kept). The same numbers either way.
+  AssemblyOutcome AssembleExact(std::span<const double> x);
   // Start of a Newton run from x (forgets the junctions' previous evaluation points).
   void BeginRun(std::span<const double> x);
 
@@ -92,6 +95,10 @@ class MnaSystem {
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
   std::vector<double> values_, residual_, flow_, magnitude_;
+  // Whether the arrays hold Assemble(exact_x_, AssemblyAids{}), and its outcome.
+  bool exact_valid_ = false;
+  std::vector<double> exact_x_;
+  AssemblyOutcome exact_outcome_;
 };
 
 }  // namespace knee::internal
