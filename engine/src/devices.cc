@@ -195,6 +195,7 @@ class Diode final : public Device {
     temp_ = temp;
     have_inputs_ = true;
     d_ = ComputeDiodeConstants(model, e.area, temp);
+    limits_ = ComputeJunctionLimits(d_);
     // The internal node exists iff series_res > 0 at Create(); values may not remove it.
     KNEE_CHECK((j_ != a_) == (d_.rs > 0.0));
     g_series_ = d_.rs > 0.0 ? 1.0 / d_.rs : 0.0;
@@ -206,7 +207,7 @@ class Diode final : public Device {
   bool Stamp(StampContext& ctx) override {
     const double vj = ctx.X(j_) - ctx.X(b_);
     double at = vj;
-    if (ctx.limit_junctions) at = LimitJunctionStep(d_, last_vj_, vj);
+    if (ctx.limit_junctions) at = LimitJunctionStep(d_, limits_, last_vj_, vj);
     limited_ = at != vj;
     ctx.limited = ctx.limited || limited_;
     last_vj_ = at;
@@ -258,6 +259,7 @@ class Diode final : public Device {
  private:
   int a_ = -1, b_ = -1, j_ = -1;
   DiodeConstants d_;
+  JunctionLimits limits_;
   double area_ = 0, temp_ = 0;  // inputs d_ was computed from (with the part's model)
   bool have_inputs_ = false;
   double g_series_ = 0;
@@ -280,17 +282,29 @@ double LogStep(double base, double proposed, double n_vt) {
 
 }  // namespace
 
+JunctionLimits ComputeJunctionLimits(const DiodeConstants& d) {
+  JunctionLimits limits;
+  limits.v_crit = CriticalVoltage(d.is, d.n_vt);
+  if (d.has_breakdown) limits.u_crit = CriticalVoltage(d.ibr, d.nbr_vt);
+  return limits;
+}
+
 double LimitJunctionStep(const DiodeConstants& d, double previous, double proposed) {
+  return LimitJunctionStep(d, ComputeJunctionLimits(d), previous, proposed);
+}
+
+double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, double previous,
+                         double proposed) {
   // Forward side: only rising steps overshoot (Newton on a convex increasing exponential
   // approached from above never passes the root).
-  const double v_crit = CriticalVoltage(d.is, d.n_vt);
+  const double v_crit = limits.v_crit;
   if (proposed > v_crit && proposed - previous > 2.0 * d.n_vt) {
     const double base = std::max(previous, v_crit);
     if (proposed > base) return LogStep(base, proposed, d.n_vt);
   }
   if (d.has_breakdown) {
     // Breakdown side, mirrored: u = -(vj + vbr) plays the role of the forward voltage.
-    const double u_crit = CriticalVoltage(d.ibr, d.nbr_vt);
+    const double u_crit = limits.u_crit;
     const double u_prev = -(previous + d.vbr);
     const double u_prop = -(proposed + d.vbr);
     if (u_prop > u_crit && u_prop - u_prev > 2.0 * d.nbr_vt) {

@@ -133,4 +133,14 @@ std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element, int inter
 // `previous`. See docs/solver.md, "Junction limiting".
 double LimitJunctionStep(const DiodeConstants& d, double previous, double proposed);
 
+// The critical voltages of LimitJunctionStep (forward, and breakdown in u = -(vj + vbr)),
+// which depend on the diode's constants only: computed once per diode, not per step.
+struct JunctionLimits {
+  double v_crit = 0;  // V
+  double u_crit = 0;  // V, when d.has_breakdown
+};
+JunctionLimits ComputeJunctionLimits(const DiodeConstants& d);
+double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, double previous,
+                         double proposed);
+
 }  // namespace knee::internal
