@@ -4,9 +4,13 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <deque>
+#include <functional>
 #include <map>
+#include <string_view>
 #include <unordered_map>
+#include <utility>
 
 #include "expr.h"
 #include "knee/diagnostics.h"
@@ -35,6 +39,69 @@ struct Definition {
   DefKind kind = DefKind::kNode;
   int index = -1;  // into params / parts / elements / circuit nodes
   Span span;       // first appearance
+};
+
+// The one namespace of elements, nodes, parts and params: an open-addressing table of
+// (name, definition) entries kept in insertion order. Names are views into the parsed
+// statements, which outlive the elaboration; a million-element netlist thus costs one
+// entry and one slot per name, not a heap node and a string copy per name.
+class NameTable {
+ public:
+  using Entry = std::pair<std::string_view, Definition>;
+  using iterator = std::vector<Entry>::iterator;
+
+  void reserve(std::size_t n) {
+    entries_.reserve(n);
+    if (n * 2 > slots_.size()) Rehash(n * 2);
+  }
+  iterator begin() { return entries_.begin(); }
+  iterator end() { return entries_.end(); }
+  std::vector<Entry>::const_iterator begin() const { return entries_.begin(); }
+  std::vector<Entry>::const_iterator end() const { return entries_.end(); }
+
+  iterator find(std::string_view name) {
+    if (slots_.empty()) return end();
+    const std::size_t mask = slots_.size() - 1;
+    for (std::size_t s = Hash(name) & mask;; s = (s + 1) & mask) {
+      const std::uint32_t e = slots_[s];
+      if (e == 0) return end();
+      if (entries_[e - 1].first == name) return entries_.begin() + (e - 1);
+    }
+  }
+  // Inserts (name, def) unless the name is present; the iterator is valid until the next
+  // insertion.
+  std::pair<iterator, bool> try_emplace(std::string_view name, const Definition& def) {
+    if ((entries_.size() + 1) * 2 > slots_.size()) {
+      Rehash(std::max<std::size_t>(16, slots_.size() * 2));
+    }
+    const std::size_t mask = slots_.size() - 1;
+    std::size_t s = Hash(name) & mask;
+    for (;; s = (s + 1) & mask) {
+      const std::uint32_t e = slots_[s];
+      if (e == 0) break;
+      if (entries_[e - 1].first == name) return {entries_.begin() + (e - 1), false};
+    }
+    entries_.emplace_back(name, def);
+    slots_[s] = static_cast<std::uint32_t>(entries_.size());
+    return {entries_.end() - 1, true};
+  }
+
+ private:
+  static std::size_t Hash(std::string_view name) { return std::hash<std::string_view>{}(name); }
+  void Rehash(std::size_t at_least) {
+    std::size_t size = 16;
+    while (size < at_least) size *= 2;
+    slots_.assign(size, 0);
+    const std::size_t mask = size - 1;
+    for (std::size_t i = 0; i < entries_.size(); ++i) {
+      std::size_t s = Hash(entries_[i].first) & mask;
+      while (slots_[s] != 0) s = (s + 1) & mask;
+      slots_[s] = static_cast<std::uint32_t>(i + 1);
+    }
+  }
+
+  std::vector<Entry> entries_;
+  std::vector<std::uint32_t> slots_;  // 0: empty, else 1 + index into entries_
 };
 
 std::string KindWord(const NetlistData& d, const Definition& def) {
@@ -185,7 +252,9 @@ class Elaborator {
   std::vector<std::string> NamesOf(std::initializer_list<DefKind> kinds) const {
     std::vector<std::string> names;
     for (const auto& [name, def] : names_) {
-      if (std::find(kinds.begin(), kinds.end(), def.kind) != kinds.end()) names.push_back(name);
+      if (std::find(kinds.begin(), kinds.end(), def.kind) != kinds.end()) {
+        names.push_back(std::string(name));
+      }
     }
     std::sort(names.begin(), names.end());
     return names;
@@ -652,7 +721,9 @@ class Elaborator {
                                         "statement",
                                         s.part),
                             near.empty() ? "" : fmt::format("did you mean '{}'?", near));
-      if (!near.empty()) Note(&d, names_[near].span, fmt::format("'{}' is defined here", near));
+      if (!near.empty()) {
+        Note(&d, names_.find(near)->second.span, fmt::format("'{}' is defined here", near));
+      }
       return;
     }
     e->part = it->second.index;
@@ -684,7 +755,7 @@ class Elaborator {
   const std::string& file_;
   const Overrides& overrides_;
   std::vector<Diagnostic> errors_;
-  std::unordered_map<std::string, Definition> names_;
+  NameTable names_;
   std::deque<Value> kept_;  // override values (stable addresses)
   std::map<int, const Value*> param_overrides_;
   std::map<int, const Value*> element_overrides_;
