@@ -139,6 +139,9 @@ bool NewtonSolver::SolveStep(std::span<double> dx, NewtonOutcome* outcome) {
 // diagonal (1e-12 of the entry, at least 1e-18 S), in the manner of a Levenberg-Marquardt
 // step: only the direction changes, F(x) is still the exact model's, so the converged
 // point satisfies the exact equations and carries no aid (common practice, no source).
+// Largest change of any unknown (V or A) a regularised step may make.
+constexpr double kMaxRegularizedStep = 1e6;
+
 LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
   const auto values = mna_->values();
   std::copy(values.begin(), values.end(), regularized_.begin());
@@ -150,7 +153,16 @@ LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
   if (status != LinearStatus::kOk) return status;
   const auto f = mna_->residual();
   for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
-  return klu_->Solve(dx);
+  status = klu_->Solve(dx);
+  if (status != LinearStatus::kOk) return status;
+  // The shunt only resolves nodes whose residual is already negligible. A step that the
+  // shunt itself makes enormous (a current pushed into a node held by nothing but the
+  // shunt) is no Newton step: report the matrix as singular so the aid ladder takes over
+  // instead of a point at 1e14 V whose KCL residual drowns in rounding.
+  for (double d : dx) {
+    if (!(std::fabs(d) <= kMaxRegularizedStep)) return LinearStatus::kSingular;
+  }
+  return status;
 }
 
 // One more Newton step after convergence: a converged Newton iteration is quadratic, so

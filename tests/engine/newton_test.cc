@@ -68,11 +68,14 @@ TEST(Newton, WithoutLimitingTheSameSystemStillConverges) {
 }
 
 TEST(Newton, SingularJacobianIsReportedNotHidden) {
-  // Skips CheckTopology on purpose: x and y float.
+  // Skips CheckTopology on purpose: x and y float, and a current source pushes 1 mA into
+  // them that nothing can carry away. A regularised step would move them by ~1e15 V: that
+  // must come out as a singular matrix, not as a "solution".
   testing::CircuitBuilder b;
   b.V("V1", "a", "gnd", 1.0);
   b.R("R1", "a", "gnd", 1.0);
   b.R("R2", "x", "y", 1.0);
+  b.I("I1", "gnd", "x", 1e-3);
   MnaSystem mna(b.circuit());
   KluSolver klu;
   ASSERT_EQ(klu.Analyze(mna.size(), mna.col_ptr(), mna.row_index()), LinearStatus::kOk);
