@@ -3,6 +3,8 @@
 
 #include <array>
 #include <cmath>
+#include <cstdint>
+#include <utility>
 
 #include "check.h"
 #include "knee/co_content.h"
@@ -313,6 +315,97 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
     }
   }
   return proposed;
+}
+
+// Kind tags of DeviceStore's order (the index of the array a device is in).
+enum : std::uint8_t { kResistorTag, kVoltageSourceTag, kCurrentSourceTag, kDiodeTag };
+
+struct DeviceStore::Arrays {
+  std::vector<Resistor> resistors;
+  std::vector<VoltageSource> vsources;
+  std::vector<CurrentSource> isources;
+  std::vector<Diode> diodes;
+  std::vector<std::pair<std::uint8_t, int>> order;  // (tag, index in its array) per device
+};
+
+DeviceStore::DeviceStore() : arrays_(std::make_unique<Arrays>()) {}
+DeviceStore::~DeviceStore() = default;
+DeviceStore::DeviceStore(DeviceStore&&) noexcept = default;
+DeviceStore& DeviceStore::operator=(DeviceStore&&) noexcept = default;
+
+void DeviceStore::Reserve(const std::array<size_t, 4>& counts) {
+  Arrays& a = *arrays_;
+  a.resistors.reserve(counts[static_cast<size_t>(ElementKind::kResistor)]);
+  a.vsources.reserve(counts[static_cast<size_t>(ElementKind::kVoltageSource)]);
+  a.isources.reserve(counts[static_cast<size_t>(ElementKind::kCurrentSource)]);
+  a.diodes.reserve(counts[static_cast<size_t>(ElementKind::kDiode)]);
+  a.order.reserve(counts[0] + counts[1] + counts[2] + counts[3]);
+  all_.reserve(counts[0] + counts[1] + counts[2] + counts[3]);
+}
+
+// A device is added to its array and to the order. The pointers of all() are taken
+// after each addition; an array that had to grow beyond its reservation moves its
+// devices, so the pointers are then renewed.
+namespace {
+template <typename T>
+void Append(std::vector<T>& array, T device, std::uint8_t tag,
+            std::vector<std::pair<std::uint8_t, int>>& order, std::vector<Device*>& all) {
+  const T* before = array.data();
+  array.push_back(std::move(device));
+  order.emplace_back(tag, static_cast<int>(array.size()) - 1);
+  all.push_back(&array.back());
+  if (array.data() != before) {
+    size_t k = 0;
+    for (size_t i = 0; i < order.size(); ++i) {
+      if (order[i].first == tag) all[i] = &array[k++];
+    }
+  }
+}
+}  // namespace
+
+void DeviceStore::AddResistor(const Circuit& circuit, int element) {
+  Append(arrays_->resistors, Resistor(circuit, element), kResistorTag, arrays_->order, all_);
+}
+void DeviceStore::AddVoltageSource(const Circuit& circuit, int element, int branch) {
+  Append(arrays_->vsources, VoltageSource(circuit, element, branch), kVoltageSourceTag,
+         arrays_->order, all_);
+}
+void DeviceStore::AddCurrentSource(const Circuit& circuit, int element) {
+  Append(arrays_->isources, CurrentSource(circuit, element), kCurrentSourceTag, arrays_->order,
+         all_);
+}
+void DeviceStore::AddDiode(const Circuit& circuit, int element, int internal) {
+  Append(arrays_->diodes, Diode(circuit, element, internal), kDiodeTag, arrays_->order, all_);
+}
+
+int DeviceStore::Stamp(StampContext& ctx) {
+  Arrays& a = *arrays_;
+  int bad = -1;
+  for (const auto& [tag, i] : a.order) {
+    const auto k = static_cast<size_t>(i);
+    bool ok = true;
+    int element = -1;
+    switch (tag) {
+      case kResistorTag:
+        ok = a.resistors[k].Stamp(ctx);
+        element = a.resistors[k].element();
+        break;
+      case kVoltageSourceTag:
+        ok = a.vsources[k].Stamp(ctx);
+        element = a.vsources[k].element();
+        break;
+      case kCurrentSourceTag:
+        ok = a.isources[k].Stamp(ctx);
+        element = a.isources[k].element();
+        break;
+      default:
+        ok = a.diodes[k].Stamp(ctx);
+        element = a.diodes[k].element();
+        break;
+    }
+    if (!ok && bad < 0) bad = element;
+  }
+  return bad;
 }
 
 std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element) {

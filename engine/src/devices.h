@@ -4,6 +4,7 @@
 // indices; -1 is gnd and is never stamped.
 #pragma once
 
+#include <array>
 #include <memory>
 #include <span>
 #include <vector>
@@ -127,6 +128,34 @@ std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, i
 std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element);
 // `internal` is the unknown index of the internal node, or -1 when series_res == 0.
 std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element, int internal);
+
+// Every device of a circuit, kept by kind in flat arrays (one allocation per kind rather
+// than one per device) and stamped in element order by direct, non-virtual calls. The
+// Newton loop's assembly pass is a walk over these arrays.
+class DeviceStore {
+ public:
+  DeviceStore();
+  ~DeviceStore();
+  DeviceStore(DeviceStore&&) noexcept;
+  DeviceStore& operator=(DeviceStore&&) noexcept;
+
+  // counts[k]: how many elements of ElementKind k will be added (reserves the arrays).
+  void Reserve(const std::array<size_t, 4>& counts);
+  void AddResistor(const Circuit& circuit, int element);
+  void AddVoltageSource(const Circuit& circuit, int element, int branch);
+  void AddCurrentSource(const Circuit& circuit, int element);
+  void AddDiode(const Circuit& circuit, int element, int internal);
+  // Every device in the order added; valid once all devices are added.
+  const std::vector<Device*>& all() const { return all_; }
+  // Stamps every device; returns the element of the first one with a non-finite value,
+  // or -1.
+  int Stamp(StampContext& ctx);
+
+ private:
+  struct Arrays;
+  std::unique_ptr<Arrays> arrays_;
+  std::vector<Device*> all_;
+};
 
 // The junction-voltage limit for one Newton step: returns the voltage at which to
 // evaluate the junction when the linearised step asked for `proposed` coming from

@@ -41,22 +41,24 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
   for (const Part& part : c.parts) part_models_.push_back(part.model);
   part_changed_.assign(c.parts.size(), 0);
 
-  devices_.reserve(c.elements.size());
+  std::array<size_t, 4> counts{};
+  for (const Element& element : c.elements) ++counts[static_cast<size_t>(element.kind)];
+  devices_.Reserve(counts);
   for (int e = 0; e < static_cast<int>(c.elements.size()); ++e) {
     const Element& element = c.elements[static_cast<size_t>(e)];
     switch (element.kind) {
       case ElementKind::kResistor:
-        devices_.push_back(MakeResistor(c, e));
+        devices_.AddResistor(c, e);
         break;
       case ElementKind::kVoltageSource:
-        devices_.push_back(MakeVoltageSource(c, e, next++));
+        devices_.AddVoltageSource(c, e, next++);
         element_of_extra_.push_back(e);
         break;
       case ElementKind::kCurrentSource:
-        devices_.push_back(MakeCurrentSource(c, e));
+        devices_.AddCurrentSource(c, e);
         break;
       case ElementKind::kDiode:
-        devices_.push_back(MakeDiode(c, e, internal_of_element_[static_cast<size_t>(e)]));
+        devices_.AddDiode(c, e, internal_of_element_[static_cast<size_t>(e)]);
         break;
     }
   }
@@ -64,7 +66,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
 
   // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
   EntryCollector collector;
-  for (auto& device : devices_) device->DeclareEntries(collector);
+  for (Device* device : devices_.all()) device->DeclareEntries(collector);
   std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
   for (int r = 0; r < kcl_rows_; ++r) diagonal_ticket[static_cast<size_t>(r)] = collector.Add(r, r);
 
@@ -99,7 +101,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
     col_ptr_[static_cast<size_t>(col) + 1] = static_cast<int>(row_index_.size());
   }
   row_index_.shrink_to_fit();
-  for (auto& device : devices_) device->BindSlots(slot_of);
+  for (Device* device : devices_.all()) device->BindSlots(slot_of);
   diagonal_slot_.reserve(diagonal_ticket.size());
   for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
 
@@ -130,11 +132,10 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   ctx.stiff_junction = aids.stiff_junction;
   ctx.junction_floor = aids.junction_floor;
   AssemblyOutcome out;
-  for (auto& device : devices_) {
-    if (!device->Stamp(ctx) && out.finite) {
-      out.finite = false;
-      out.bad_element = device->element();
-    }
+  const int bad = devices_.Stamp(ctx);
+  if (bad >= 0) {
+    out.finite = false;
+    out.bad_element = bad;
   }
   if (aids.gmin > 0.0) {
     for (int r = 0; r < kcl_rows_; ++r) {
@@ -169,7 +170,7 @@ AssemblyOutcome MnaSystem::AssembleExact(std::span<const double> x) {
 }
 
 void MnaSystem::BeginRun(std::span<const double> x) {
-  for (auto& device : devices_) device->BeginRun(x);
+  for (Device* device : devices_.all()) device->BeginRun(x);
 }
 
 bool MnaSystem::StructureMatches(const Circuit& c) const {
@@ -191,7 +192,7 @@ void MnaSystem::UpdateValues(const Circuit& c) {
     part_changed_[p] = SameModel(c.parts[p].model, part_models_[p]) ? 0 : 1;
     if (part_changed_[p] != 0) part_models_[p] = c.parts[p].model;
   }
-  for (auto& device : devices_) device->UpdateValues(c, part_changed_);
+  for (Device* device : devices_.all()) device->UpdateValues(c, part_changed_);
   exact_valid_ = false;
 }
 

@@ -76,7 +76,7 @@ class MnaSystem {
   bool StructureMatches(const Circuit& circuit) const;
   void UpdateValues(const Circuit& circuit);
 
-  const std::vector<std::unique_ptr<Device>>& devices() const { return devices_; }
+  const std::vector<Device*>& devices() const { return devices_.all(); }
   const std::string& ElementName(int e) const {
     return circuit_->elements[static_cast<size_t>(e)].name;
   }
@@ -91,7 +91,7 @@ class MnaSystem {
   std::vector<DiodeModel> part_models_;   // the models of the last build or update
   std::vector<char> part_changed_;        // per part, during UpdateValues
   std::vector<int> internal_of_element_;  // unknown index of a diode's internal node, or -1
-  std::vector<std::unique_ptr<Device>> devices_;
+  DeviceStore devices_;
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
   std::vector<double> values_, residual_, flow_, magnitude_;
