@@ -24,6 +24,24 @@ std::string CsvField(const std::string& text) {
   return quoted + "\"";
 }
 
+// The rows, formatted straight into `out` (the same text as FormatRoundTrip, without a
+// string per cell).
+void AppendCsvRows(const Report& report, fmt::memory_buffer& out) {
+  out.reserve(out.size() + report.rows.size() * report.columns.size() * 24);
+  const auto append = fmt::appender(out);
+  for (const auto& row : report.rows) {
+    for (size_t i = 0; i < row.size(); ++i) {
+      if (i) out.push_back(',');
+      if (std::isnan(row[i])) {
+        out.append(std::string_view("nan"));
+      } else {
+        fmt::format_to(append, FMT_COMPILE("{}"), row[i]);
+      }
+    }
+    out.push_back('\n');
+  }
+}
+
 }  // namespace
 
 std::string WriteCsvHeader(const Report& report) {
@@ -37,27 +55,20 @@ std::string WriteCsvHeader(const Report& report) {
 }
 
 std::string WriteCsvRows(const Report& report) {
-  // Formatted straight into one buffer (the same text as FormatRoundTrip, without a
-  // string per cell).
   fmt::memory_buffer out;
-  out.reserve(report.rows.size() * report.columns.size() * 24);
-  const auto append = fmt::appender(out);
-  for (const auto& row : report.rows) {
-    for (size_t i = 0; i < row.size(); ++i) {
-      if (i) out.push_back(',');
-      if (std::isnan(row[i])) {
-        out.append(std::string_view("nan"));
-      } else {
-        fmt::format_to(append, FMT_COMPILE("{}"), row[i]);
-      }
-    }
-    out.push_back('\n');
-  }
+  AppendCsvRows(report, out);
   return fmt::to_string(out);
 }
 
 std::string WriteCsv(const Report& report) {
-  return (report.csv_header ? WriteCsvHeader(report) : std::string()) + WriteCsvRows(report);
+  // Header and rows in one buffer: one copy of a large sweep's text, not two.
+  fmt::memory_buffer out;
+  if (report.csv_header) {
+    const std::string header = WriteCsvHeader(report);
+    out.append(std::string_view(header));
+  }
+  AppendCsvRows(report, out);
+  return fmt::to_string(out);
 }
 
 }  // namespace knee::cli
