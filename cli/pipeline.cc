@@ -149,16 +149,12 @@ std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
     return show;
   }
   if (!loaded.design->show.empty()) return loaded.design->show;
-  std::vector<std::string> defaults;
-  for (size_t n = 1; n < circuit.nodes.size(); ++n) defaults.push_back(circuit.nodes[n] + ".v");
-  for (const Element& e : circuit.elements) defaults.push_back(e.name + ".i");
-  for (const std::string& text : defaults) {
-    Result<QuantityExpr> q = ParseQuantity(text, circuit, SourceLocation{});
-    if (!q) {
-      PrintDiagnostics(q.errors(), loaded.source);
-      return std::nullopt;
-    }
-    show.push_back(std::move(q).value());
+  show.reserve(circuit.nodes.size() - 1 + circuit.elements.size());
+  for (size_t n = 1; n < circuit.nodes.size(); ++n) {
+    show.push_back(PlainQuantity(circuit, {QuantityKind::kNodeVoltage, static_cast<int>(n)}));
+  }
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    show.push_back(PlainQuantity(circuit, {QuantityKind::kElementCurrent, static_cast<int>(e)}));
   }
   return show;
 }

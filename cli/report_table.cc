@@ -14,7 +14,8 @@ namespace {
 
 
 std::string Header(const Report& report) {
-  std::string name = report.title.empty() ? report.file : "\"" + report.title + "\"";
+  const std::string file = report.file == "-" ? "<stdin>" : report.file;
+  std::string name = report.title.empty() ? file : "\"" + report.title + "\"";
   std::string analysis = report.analysis == "bias" ? "bias point" : report.analysis;
   return fmt::format("{}: {} at {}\n", name, analysis, FormatEng(report.temp, "°C", 4));
 }

@@ -215,6 +215,13 @@ double QuantityExpr::Evaluate(const Solution& solution) const {
   return root_ ? EvaluateNode(*root_, solution) : std::nan("");
 }
 
+QuantityExpr PlainQuantity(const Circuit& circuit, const QuantityRef& ref) {
+  auto node = std::make_shared<Node>();
+  node->kind = Node::Kind::kRef;
+  node->ref = ref;
+  return QuantityExpr(QuantityName(circuit, ref), UnitSymbol(ref.kind), std::move(node));
+}
+
 Result<QuantityExpr> ParseQuantity(std::string_view text, const Circuit& circuit,
                                    const SourceLocation& where) {
   const std::string& file = where.file;

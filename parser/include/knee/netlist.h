@@ -64,6 +64,9 @@ class QuantityExpr {
 
 Result<QuantityExpr> ParseQuantity(std::string_view text, const Circuit& circuit,
                                    const SourceLocation& where);
+// A plain quantity (no expression) straight from its reference, without a name look-up:
+// for the default report of every node voltage and element current of a large circuit.
+QuantityExpr PlainQuantity(const Circuit& circuit, const QuantityRef& ref);
 
 // Sweep targets and ranges (netlist-format.md, "Sweep ranges").
 struct SweepTarget {
