@@ -254,6 +254,12 @@ bool BiasSolver::Impl::SourceLadder(SolveSummary* s, std::string* log) {
 }
 
 // The KCL residual of every node (internal nodes included) of the exact model.
+double MaxAbs(std::span<const double> v) {
+  double m = 0.0;
+  for (double e : v) m = std::max(m, std::fabs(e));
+  return m;
+}
+
 void BiasSolver::Impl::Verify(SolveSummary* s) {
   const internal::AssemblyOutcome exact = mna.AssembleExact(x);
   const auto f = mna.residual();
@@ -277,6 +283,12 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
   if (!exact.finite) {
     s->status = SolveStatus::kVerificationFailed;
     s->detail += "; verification: the exact model is not finite at the solution";
+  } else if (exact.unresolved_element >= 0) {
+    s->status = SolveStatus::kVerificationFailed;
+    s->detail += fmt::format(
+        "; verification: the junction voltage of '{}' is lost in the rounding of its node "
+        "voltages (largest |v| {:.3g} V): not a solution",
+        mna.ElementName(exact.unresolved_element), MaxAbs(x));
   } else if (failed >= 0) {
     s->status = SolveStatus::kVerificationFailed;
     s->detail += fmt::format("; verification: KCL residual at '{}' is {:.3g} A > {:.3g} A",

@@ -11,6 +11,9 @@
 
 namespace knee::internal {
 
+// Relative rounding of a difference of two doubles (unit round-off, IEEE 754 binary64).
+constexpr double kJunctionRounding = 1.1102230246251565e-16;
+
 void StampContext::AddCurrent(int row, double i) {
   if (row < 0) return;
   const auto r = static_cast<size_t>(row);
@@ -201,6 +204,7 @@ class Diode final : public Device {
     // The internal node exists iff series_res > 0 at Create(); values may not remove it.
     KNEE_CHECK((j_ != a_) == (d_.rs > 0.0));
     g_series_ = d_.rs > 0.0 ? 1.0 / d_.rs : 0.0;
+    resolution_scale_ = d_.has_breakdown ? std::min(d_.n_vt, d_.nbr_vt) : d_.n_vt;
   }
   void BeginRun(std::span<const double> x) override {
     last_vj_ = At(x, j_) - At(x, b_);
@@ -208,6 +212,15 @@ class Diode final : public Device {
   }
   bool Stamp(StampContext& ctx) override {
     const double vj = ctx.X(j_) - ctx.X(b_);
+    // vj is a difference of two node voltages. Where their rounding reaches a thousandth
+    // of the junction's thermal scale (node voltages near 1e11 V), the numbers no longer
+    // determine the diode's current at all, whatever the KCL residual says: such a point
+    // is never accepted as a solution (newton.cc, bias.cc Verify).
+    if (ctx.unresolved_element < 0 &&
+        kJunctionRounding * (std::fabs(ctx.X(j_)) + std::fabs(ctx.X(b_))) >
+            1e-3 * resolution_scale_) {
+      ctx.unresolved_element = element();
+    }
     double at = vj;
     if (ctx.limit_junctions) at = LimitJunctionStep(d_, limits_, last_vj_, vj);
     limited_ = at != vj;
@@ -260,6 +273,7 @@ class Diode final : public Device {
 
  private:
   int a_ = -1, b_ = -1, j_ = -1;
+  double resolution_scale_ = 0.0;  // V: the smaller thermal scale of the junction law
   DiodeConstants d_;
   JunctionLimits limits_;
   double area_ = 0, temp_ = 0;  // inputs d_ was computed from (with the part's model)

@@ -49,6 +49,9 @@ struct StampContext {
   double source_scale = 1.0;    // independent sources are multiplied by this
   bool limit_junctions = false;
   bool limited = false;  // out: some junction's evaluation point was limited
+  // out: first diode whose junction voltage is lost in the rounding of its node voltages
+  // (see Diode::Stamp); -1 when every junction is resolved.
+  int unresolved_element = -1;
   // The potential method (docs/solver.md, "The potential method"): when want_potential is
   // set, every device adds its co-content at x (the integral of its current over its
   // voltage; sources: the linear term) to `potential`, and the magnitude of that term to

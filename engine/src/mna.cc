@@ -147,6 +147,7 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
     }
   }
   out.limited = ctx.limited;
+  out.unresolved_element = ctx.unresolved_element;
   out.potential = ctx.potential;
   out.potential_magnitude = ctx.potential_magnitude;
   out.max_exponent = ctx.max_exponent;

@@ -80,7 +80,8 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     // previous step's record.
     if (trace != nullptr && step > 1) trace->back().limited = assembled.limited;
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
-    if (step > 1 && update.passed() && !assembled.limited && residual.passed()) {
+    if (step > 1 && update.passed() && !assembled.limited && residual.passed() &&
+        assembled.unresolved_element < 0) {
       outcome.exit = NewtonExit::kConverged;
       outcome.detail = fmt::format(
           "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g}, worst residual at "

@@ -281,3 +281,26 @@ TEST(Cli, ReadmeSweepExampleRuns) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+// A point whose junction voltages are lost in the rounding of huge node voltages is never
+// reported as a solution, whatever its KCL residual (regression: torture seed 8174).
+TEST(Cli, UnresolvedJunctionsAreNeverASolution) {
+  KneeRun run = RunKnee("bias " + SourcePath("tests/cli/regression/unresolved-junction.knee") +
+                        " --format json --quiet");
+  if (run.status == 0) {
+    const auto j = nlohmann::json::parse(run.out);
+    for (const auto& v : j["rows"][0]) {
+      ASSERT_TRUE(v.is_number());
+      EXPECT_LT(std::fabs(v.get<double>()), 1e6) << "absurd value reported as a solution";
+    }
+  } else {
+    EXPECT_EQ(run.status, 1) << run.err;
+    EXPECT_FALSE(nlohmann::json::parse(run.out)["failures"].empty());
+  }
+}
+
+}  // namespace
+}  // namespace knee::testing
