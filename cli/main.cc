@@ -9,6 +9,7 @@
 
 #include "commands.h"
 #include "options.h"
+#include "output.h"
 #include "version.h"
 
 namespace {
@@ -80,6 +81,7 @@ ReportFormat ParseFormat(const std::string& text) {
 int main(int argc, char** argv) {
   // A closed standard output pipe becomes a write error we report, not a silent death.
   std::signal(SIGPIPE, SIG_IGN);
+  knee::cli::InstallInterruptHandler();
 
   CLI::App app{
       "knee: DC bias points and sweeps of diode networks, exact and verified.\n"

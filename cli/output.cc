@@ -5,6 +5,7 @@
 #include <unistd.h>
 
 #include <cerrno>
+#include <csignal>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -14,6 +15,18 @@
 
 namespace knee::cli {
 namespace {
+
+// The temporary file being written, for the signal handler (async-signal-safe access
+// only: a fixed buffer, unlink and write).
+char g_temp_path[4096] = {0};
+volatile std::sig_atomic_t g_temp_active = 0;
+
+extern "C" void OnInterrupt(int signal_number) {
+  if (g_temp_active) ::unlink(g_temp_path);
+  static const char kMessage[] = "\nknee: interrupted\n";
+  [[maybe_unused]] const ssize_t ignored = ::write(STDERR_FILENO, kMessage, sizeof kMessage - 1);
+  ::_exit(128 + signal_number);
+}
 
 std::string FolderOf(const std::string& path) {
   std::filesystem::path folder = std::filesystem::path(path).parent_path();
@@ -84,8 +97,13 @@ std::string WriteFileAtomically(const std::string& given_path, const std::string
   std::string problem = CheckWritable(path);
   if (!problem.empty()) return problem;
   std::string temp = FolderOf(path) + "/.knee-XXXXXX";
+  if (temp.size() >= sizeof g_temp_path) {
+    return fmt::format("cannot write '{}': the path is too long", path);
+  }
   int fd = ::mkstemp(temp.data());
   if (fd < 0) return fmt::format("cannot write '{}': {}", path, std::strerror(errno));
+  std::memcpy(g_temp_path, temp.c_str(), temp.size() + 1);
+  g_temp_active = 1;
   int err = WriteAll(fd, content);
   if (err == 0 && ::fsync(fd) != 0) err = errno;
   if (::close(fd) != 0 && err == 0) err = errno;
@@ -96,11 +114,18 @@ std::string WriteFileAtomically(const std::string& given_path, const std::string
     ::chmod(temp.c_str(), 0666 & ~mask);
     if (std::rename(temp.c_str(), path.c_str()) != 0) err = errno;
   }
-  if (err != 0) {
-    ::unlink(temp.c_str());
-    return fmt::format("cannot write '{}': {}", path, std::strerror(err));
-  }
+  if (err != 0) ::unlink(temp.c_str());
+  g_temp_active = 0;
+  if (err != 0) return fmt::format("cannot write '{}': {}", path, std::strerror(err));
   return "";
+}
+
+void InstallInterruptHandler() {
+  struct sigaction action {};
+  action.sa_handler = OnInterrupt;
+  sigemptyset(&action.sa_mask);
+  ::sigaction(SIGINT, &action, nullptr);
+  ::sigaction(SIGTERM, &action, nullptr);
 }
 
 std::string WriteStdout(const std::string& content) {

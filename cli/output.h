@@ -14,6 +14,11 @@ std::string CheckWritable(const std::string& path);
 // message. On failure no file is left behind.
 std::string WriteFileAtomically(const std::string& path, const std::string& content);
 
+// On SIGINT or SIGTERM: removes the temporary file being written (if any), says
+// "knee: interrupted" on standard error and exits with 128 + the signal number (130 for
+// SIGINT), so that no partial report is ever left behind (docs/errors.md).
+void InstallInterruptHandler();
+
 // Writes to standard output; "" on success, else a message (e.g. a closed pipe).
 std::string WriteStdout(const std::string& content);
 

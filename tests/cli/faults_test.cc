@@ -118,6 +118,7 @@ TEST_F(Faults, InterruptDuringSweepLeavesNoFile) {
                           " Vfield=-24..24:0.0001 --jobs 1 --format csv --quiet --out " + out +
                           " & pid=$!; sleep 0.3; kill -INT $pid; wait $pid");
   EXPECT_EQ(run.status, 130);
+  EXPECT_NE(run.err.find("knee: interrupted"), std::string::npos) << run.err;
   EXPECT_FALSE(fs::exists(out));
   EXPECT_EQ(FileCount(), 0);
 }
