@@ -118,3 +118,25 @@ TEST(Stress, DerateChangesTheVerdictAtTheMargin) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+TEST(Stress, ChartShadesTheRangeWhereARatingIsExceeded) {
+  const std::string over = TempPath("over.svg");
+  const std::string within = TempPath("within.svg");
+  EXPECT_EQ(RunKnee("sweep - Vin=0..24:0.5 --show D1.i --plot " + over, Clamp("max_current=5m"))
+                .status,
+            3);
+  EXPECT_EQ(RunKnee("sweep - Vin=0..24:0.5 --show D1.i --plot " + within,
+                    Clamp("max_current=50m"))
+                .status,
+            0);
+  EXPECT_NE(ReadWhole(over).find("class=\"over-rating\""), std::string::npos);
+  EXPECT_EQ(ReadWhole(within).find("class=\"over-rating\""), std::string::npos);
+  std::remove(over.c_str());
+  std::remove(within.c_str());
+}
+
+}  // namespace
+}  // namespace knee::testing
