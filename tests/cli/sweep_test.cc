@@ -27,10 +27,10 @@ double LambertW0OfExp(double y) {
 
 // Saturation current at T by the format contract's law (netlist-format.md, "Model"),
 // written out here independently of the engine.
-double SatCurrent(double is0, double n, double eg, double xti, double t_c, double t0_c) {
+double SatCurrent(double is0, double n, double eg, double temp_exp, double t_c, double t0_c) {
   const double t = t_c + 273.15, t0 = t0_c + 273.15;
   const double vt0 = kBoltzmann * t0 / kCharge;
-  return is0 * std::pow(t / t0, xti / n) * std::exp(eg / (n * vt0) * (1 - t0 / t));
+  return is0 * std::pow(t / t0, temp_exp / n) * std::exp(eg / (n * vt0) * (1 - t0 / t));
 }
 
 // A diode (no series resistance) fed from V through R: Banwell & Jayakumar, Electronics
