@@ -2,7 +2,7 @@
 // never a crash or a report (issue acceptance list of the foundation).
 #include <gtest/gtest.h>
 
-#include <regex>
+#include <vector>
 #include <string>
 
 #include "run_knee.h"

@@ -7,7 +7,7 @@
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
 
-#include <regex>
+#include <algorithm>
 
 #include "run_knee.h"
 
@@ -26,12 +26,17 @@ TEST(Golden, Check) {
 TEST(Golden, Table) {
   KneeRun run = RunKnee("bias " + SourcePath(kFile));
   ASSERT_EQ(run.status, 0) << run.err;
-  const std::regex footer(R"(\nsolver: Newton-Raphson[^\n]*, \d+ Newton steps, no aids; )"
-                          R"(largest KCL residual \d\.\d\de[-+]\d+ A at \w+\n$)");
-  EXPECT_TRUE(std::regex_search(run.out, footer)) << run.out;
-  const std::string normalised =
-      std::regex_replace(run.out, std::regex("\nsolver: [^\n]*\n$"), "\nsolver: <account>\n");
-  EXPECT_EQ(normalised, ReadWhole(SourcePath("tests/cli/golden/divider.table")));
+  // The last line is the solver's account; its numbers belong to the solver.
+  const size_t footer = run.out.rfind("\nsolver: ");
+  ASSERT_NE(footer, std::string::npos) << run.out;
+  const std::string account = run.out.substr(footer + 1);
+  EXPECT_EQ(account.rfind("solver: Newton-Raphson", 0), 0u) << account;
+  EXPECT_NE(account.find(" Newton steps, no aids; largest KCL residual "), std::string::npos)
+      << account;
+  EXPECT_NE(account.find(" A at "), std::string::npos) << account;
+  EXPECT_EQ(std::count(account.begin(), account.end(), '\n'), 1) << account;
+  EXPECT_EQ(run.out.substr(0, footer + 1) + "solver: <account>\n",
+            ReadWhole(SourcePath("tests/cli/golden/divider.table")));
 }
 
 TEST(Golden, Csv) {
