@@ -119,7 +119,8 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     result.outcome.point_failed = true;
   }
   report.rows.push_back(std::move(row));
-  stress.Finish(circuit, derate, [](long long) { return std::string(); }, &report);
+  stress.Finish(
+      circuit, derate, [](long long) { return std::string(); }, &report);
   for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;
   return result;
 }

@@ -13,9 +13,9 @@
 #include <thread>
 
 #include "analyses.h"
-#include "stress.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
+#include "stress.h"
 
 namespace knee::cli {
 namespace {
@@ -68,8 +68,9 @@ std::string DescribePoint(const std::vector<SweepAxis>& axes, const Circuit& cir
   std::string where;
   for (size_t a = 0; a < axes.size(); ++a) {
     if (a) where += ", ";
-    where += fmt::format("{} = {}", axes[a].target.name,
-                         FormatEng(axes[a].values[indices[a]], SweepTargetUnit(axes[a].target, circuit), 6));
+    where += fmt::format(
+        "{} = {}", axes[a].target.name,
+        FormatEng(axes[a].values[indices[a]], SweepTargetUnit(axes[a].target, circuit), 6));
   }
   return where;
 }
@@ -102,13 +103,15 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
     where.file = "knee sweep";
     const size_t eq = spec.find('=');
     if (eq == std::string::npos || eq == 0) {
-      errors.push_back({where, fmt::format("'{}' is not TARGET=RANGE", spec),
-                        "write for example Vline=-30..30:0.1 or temp=-40,25,85", {}});
+      errors.push_back({where,
+                        fmt::format("'{}' is not TARGET=RANGE", spec),
+                        "write for example Vline=-30..30:0.1 or temp=-40,25,85",
+                        {}});
       continue;
     }
-    Result<SweepAxis> axis = ResolveSweepAxis(spec.substr(0, eq), spec.substr(eq + 1),
-                                              *loaded.netlist, loaded.design->circuit, where,
-                                              where);
+    Result<SweepAxis> axis =
+        ResolveSweepAxis(spec.substr(0, eq), spec.substr(eq + 1), *loaded.netlist,
+                         loaded.design->circuit, where, where);
     if (!axis) {
       for (const Diagnostic& d : axis.errors()) errors.push_back(d);
       continue;
@@ -123,8 +126,7 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
 }
 
 AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
-                            const std::vector<QuantityExpr>& show,
-                            const AnalysisOptions& options) {
+                            const std::vector<QuantityExpr>& show, const AnalysisOptions& options) {
   AnalysisResult result;
   Report& report = result.report;
   report = StartReport(loaded, "sweep");
@@ -155,8 +157,9 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     any_param |= axis.target.kind == SweepTarget::Kind::kParam;
   }
   SweepOptions sweep_options;
-  sweep_options.jobs =
-      options.jobs > 0 ? options.jobs : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  sweep_options.jobs = options.jobs > 0
+                           ? options.jobs
+                           : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   const SweepBlocks blocks = CutIntoBlocks(grid, sweep_options.block_size);
   const auto [first_block, last_block] = ShardBlocks(grid, blocks, shard, shards);
   report.csv_header = shard == 0;
@@ -187,7 +190,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   };
 
   const size_t width = report.columns.size();
-  report.rows.assign(static_cast<size_t>(end_point - first_point), std::vector<double>(width, kNaN));
+  report.rows.assign(static_cast<size_t>(end_point - first_point),
+                     std::vector<double>(width, kNaN));
   std::vector<std::string> failure_why(report.rows.size());
   Progress progress(end_point - first_point, !options.quiet);
   StressRecorder stress(checks, end_point - first_point);
@@ -221,8 +225,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     if (failure_why[r].empty()) continue;
     std::vector<long long> indices(axes.size());
     grid.Indices(first_point + static_cast<long long>(r), indices);
-    report.failures.push_back({static_cast<long long>(r), DescribePoint(axes, base, indices),
-                               failure_why[r]});
+    report.failures.push_back(
+        {static_cast<long long>(r), DescribePoint(axes, base, indices), failure_why[r]});
   }
   auto describe = [&](long long row) {
     std::vector<long long> indices(axes.size());

@@ -79,8 +79,8 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
     outcome.bad_input = true;
   }
   const std::string text = Combine(results, options.format);
-  std::string problem = options.out_path.empty() ? WriteStdout(text)
-                                                 : WriteFileAtomically(options.out_path, text);
+  std::string problem =
+      options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
   if (!problem.empty()) {
     fmt::print(stderr, "knee: error: {}\n", problem);
     outcome.bad_input = true;
@@ -168,8 +168,8 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
     requests.push_back(fmt::format("sweep of {}", Count(points, "point", "points")));
   }
   if (!loaded->design->expects.empty()) {
-    requests.push_back(Count(static_cast<long long>(loaded->design->expects.size()),
-                             "expectation", "expectations"));
+    requests.push_back(Count(static_cast<long long>(loaded->design->expects.size()), "expectation",
+                             "expectations"));
   }
   std::string text = fmt::format(
       "{}: ok: {} besides gnd, {} ({}), {}; requests: {}\n",
@@ -178,8 +178,8 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
       Count(static_cast<long long>(c.elements.size()), "element", "elements"),
       fmt::join(kinds, ", "), Count(static_cast<long long>(c.parts.size()), "part", "parts"),
       requests.empty() ? std::string("none") : fmt::format("{}", fmt::join(requests, ", ")));
-  problem = options.out_path.empty() ? WriteStdout(text)
-                                     : WriteFileAtomically(options.out_path, text);
+  problem =
+      options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
   if (!problem.empty()) return FailWith(problem);
   return 0;
 }

@@ -6,10 +6,10 @@ namespace knee::cli {
 
 enum class ExitStatus : int {
   kSuccess = 0,
-  kNoSolution = 1,     // the analysis ran but found no solution at some point
-  kBadInput = 2,       // usage error, unreadable file, netlist error, unsolvable as drawn
-  kStressFailed = 3,   // a diode beyond its ratings
-  kExpectMissed = 4,   // an expect statement missed
+  kNoSolution = 1,    // the analysis ran but found no solution at some point
+  kBadInput = 2,      // usage error, unreadable file, netlist error, unsolvable as drawn
+  kStressFailed = 3,  // a diode beyond its ratings
+  kExpectMissed = 4,  // an expect statement missed
 };
 
 // What an analysis found; Status() picks the lowest non-zero code that applies.

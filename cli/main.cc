@@ -1,8 +1,8 @@
 // knee's command line (cli.md). CLI11 reads the words; everything else is in commands.
 // Exceptions from CLI11 end here, at the edge, as exit status 2 (0 for --help).
-#include <CLI/CLI.hpp>
 #include <fmt/format.h>
 
+#include <CLI/CLI.hpp>
 #include <csignal>
 #include <map>
 #include <string>
@@ -18,9 +18,10 @@ using knee::cli::AnalysisOptions;
 using knee::cli::ReportFormat;
 
 void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
-  command->add_option("--set", o->sets,
-                      "Override a param, an element value or a part parameter (PART.key): "
-                      "NAME=VALUE; repeatable")
+  command
+      ->add_option("--set", o->sets,
+                   "Override a param, an element value or a part parameter (PART.key): "
+                   "NAME=VALUE; repeatable")
       ->type_name("NAME=VALUE")
       ->allow_extra_args(false);
   command->add_option("--temp", o->temp, "Circuit temperature in °C (overrides the file's temp)")
@@ -39,8 +40,9 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
       ->type_name("N");
   command->add_option("--shard", o->shard, "Compute only the K-th of N slices of a sweep")
       ->type_name("K/N");
-  command->add_option("--derate", o->derate,
-                      "Share of each diode rating that may be used, in % (default 100)")
+  command
+      ->add_option("--derate", o->derate,
+                   "Share of each diode rating that may be used, in % (default 100)")
       ->type_name("PERCENT");
   command->add_flag("--quiet", o->quiet, "No progress display and no notes on standard error");
   command->add_flag("--trace", o->trace, "Print every Newton step on standard error");
@@ -106,37 +108,43 @@ int main(int argc, char** argv) {
       {"sweep", "DC sweep: TARGET=RANGE..., the first TARGET is the inner loop",
        knee::cli::RunSweep},
       {"run", "Whatever the file requests (bias and/or sweeps)", knee::cli::RunRun},
-      {"hand", "Bias point by the simplified diode models of hand calculation, beside the exact one",
+      {"hand",
+       "Bias point by the simplified diode models of hand calculation, beside the exact one",
        knee::cli::RunHand},
   };
   for (Command& c : commands) {
     c.app = app.add_subcommand(c.name, c.help);
     c.app->add_option("FILE", file, "Netlist (.knee), or - for standard input")->required();
     if (std::string(c.name) == "sweep") {
-      c.app->add_option("TARGET=RANGE", options.sweeps,
-                        "Sweep target and range, e.g. Vline=-30..30:0.1 temp=-40,25,85")
+      c.app
+          ->add_option("TARGET=RANGE", options.sweeps,
+                       "Sweep target and range, e.g. Vline=-30..30:0.1 temp=-40,25,85")
           ->required();
     }
     AddShared(c.app, &options, &format);
     const std::string name = c.name;
     if (name == "bias" || name == "hand" || name == "run") {
-      c.app->add_option("--expect", options.expects,
-                        "Check a quantity against an expected value: QUANTITY=VALUE[~TOL], TOL "
-                        "absolute (50m) or relative (5%), default 5 %; repeatable")
+      c.app
+          ->add_option("--expect", options.expects,
+                       "Check a quantity against an expected value: QUANTITY=VALUE[~TOL], TOL "
+                       "absolute (50m) or relative (5%), default 5 %; repeatable")
           ->type_name("Q=VALUE[~TOL]")
           ->allow_extra_args(false);
     }
     if (name == "hand") {
-      c.app->add_option("--drop", options.hand_drop,
-                        "On-voltage of the drop models in V (default 0.7)")
+      c.app
+          ->add_option("--drop", options.hand_drop,
+                       "On-voltage of the drop models in V (default 0.7)")
           ->type_name("V");
-      c.app->add_option("--on-res", options.hand_on_res,
-                        "On-resistance of the piecewise-linear model in ohms (default: each "
-                        "part's series_res)")
+      c.app
+          ->add_option("--on-res", options.hand_on_res,
+                       "On-resistance of the piecewise-linear model in ohms (default: each "
+                       "part's series_res)")
           ->type_name("OHMS");
-      c.app->add_option("--fit-at", options.hand_fit_at,
-                        "Piecewise-linear model: the tangent to each part's exact curve at this "
-                        "current in A")
+      c.app
+          ->add_option("--fit-at", options.hand_fit_at,
+                       "Piecewise-linear model: the tangent to each part's exact curve at this "
+                       "current in A")
           ->type_name("CURRENT");
     }
   }

@@ -38,18 +38,21 @@ std::string FinishOptions(AnalysisOptions* options) {
       } else if (aid == "source") {
         solver.source_stepping = true;
       } else {
-        return fmt::format("--aids: unknown aid '{}'; expected a comma list of gmin and source, "
-                           "or none",
-                           aid);
+        return fmt::format(
+            "--aids: unknown aid '{}'; expected a comma list of gmin and source, "
+            "or none",
+            aid);
       }
     }
   }
   if (!(options->derate > 0 && options->derate <= 100)) {
-    return fmt::format("--derate: {} is outside (0, 100]; expected the percentage of each rating a "
-                       "diode may use, e.g. --derate 80",
-                       options->derate);
+    return fmt::format(
+        "--derate: {} is outside (0, 100]; expected the percentage of each rating a "
+        "diode may use, e.g. --derate 80",
+        options->derate);
   }
-  if (options->jobs < 0) return fmt::format("--jobs: {} is negative; expected N >= 1", options->jobs);
+  if (options->jobs < 0)
+    return fmt::format("--jobs: {} is negative; expected N >= 1", options->jobs);
   if (std::optional<std::string> problem = Validate(solver)) return *problem;
   return "";
 }

@@ -12,26 +12,26 @@
 namespace knee::cli {
 
 struct AnalysisOptions {
-  std::vector<std::string> sets;    // --set NAME=VALUE, in order
-  std::optional<double> temp;       // --temp C
-  std::string show;                 // --show Q1,Q2,... (top-level commas separate)
+  std::vector<std::string> sets;               // --set NAME=VALUE, in order
+  std::optional<double> temp;                  // --temp C
+  std::string show;                            // --show Q1,Q2,... (top-level commas separate)
   ReportFormat format = ReportFormat::kTable;  // --format
-  std::string out_path;             // --out PATH ("" = standard output)
-  std::string plot_path;            // --plot PATH.svg ("" = no chart)
-  bool plot_log_current = false;    // --plot-log-current: currents on a log axis of |I|
-  int jobs = 0;                     // --jobs N (0 = all cores)
-  std::string shard;                // --shard K/N ("" = whole sweep)
-  double derate = 100;              // --derate PERCENT: usable share of each rating
-  bool quiet = false;               // --quiet
-  bool trace = false;               // --trace: Newton step records on standard error
-  std::vector<std::string> sweeps;  // knee sweep: TARGET=RANGE, first = inner loop
-  std::vector<std::string> expects;  // --expect QUANTITY=VALUE[~TOL] (bias, hand, run)
+  std::string out_path;                        // --out PATH ("" = standard output)
+  std::string plot_path;                       // --plot PATH.svg ("" = no chart)
+  bool plot_log_current = false;               // --plot-log-current: currents on a log axis of |I|
+  int jobs = 0;                                // --jobs N (0 = all cores)
+  std::string shard;                           // --shard K/N ("" = whole sweep)
+  double derate = 100;                         // --derate PERCENT: usable share of each rating
+  bool quiet = false;                          // --quiet
+  bool trace = false;                          // --trace: Newton step records on standard error
+  std::vector<std::string> sweeps;             // knee sweep: TARGET=RANGE, first = inner loop
+  std::vector<std::string> expects;            // --expect QUANTITY=VALUE[~TOL] (bias, hand, run)
   // knee hand (docs/hand-models.md): number texts in the netlist's forms ("" = default).
-  std::string hand_drop;    // --drop V: on-voltage of the drop models (default 0.7 V)
-  std::string hand_on_res;  // --on-res Ohm: on-resistance of the piecewise-linear model
-  std::string hand_fit_at;  // --fit-at A: piecewise-linear model tangent at this current
-  SolverOptions solver;             // --voltage-tol, --current-tol, --rel-tol, ...
-  std::string aids = "gmin,source"; // --aids: comma list of gmin, source; or none
+  std::string hand_drop;             // --drop V: on-voltage of the drop models (default 0.7 V)
+  std::string hand_on_res;           // --on-res Ohm: on-resistance of the piecewise-linear model
+  std::string hand_fit_at;           // --fit-at A: piecewise-linear model tangent at this current
+  SolverOptions solver;              // --voltage-tol, --current-tol, --rel-tol, ...
+  std::string aids = "gmin,source";  // --aids: comma list of gmin, source; or none
 };
 
 // Splits "a,b,(max(c.v,d.v))" at commas outside parentheses.

@@ -1,6 +1,7 @@
 #include "output.h"
 
 #include <fcntl.h>
+#include <fmt/format.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -10,8 +11,6 @@
 #include <cstring>
 #include <filesystem>
 #include <string>
-
-#include <fmt/format.h>
 
 namespace knee::cli {
 namespace {

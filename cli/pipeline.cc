@@ -1,5 +1,6 @@
 #include "pipeline.h"
 
+#include <fmt/format.h>
 #include <unistd.h>
 
 #include <cerrno>
@@ -10,8 +11,6 @@
 #include <iostream>
 #include <iterator>
 #include <sstream>
-
-#include <fmt/format.h>
 
 #include "knee/diagnostics.h"
 #include "knee/solver.h"

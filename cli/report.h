@@ -51,36 +51,36 @@ struct StressLine {
 };
 
 struct SolverAccount {
-  std::string method;               // which solver ran
-  bool unique = false;              // the network is monotone: its solution is unique
-  long long points = 0;             // solved points (1 for a bias point)
-  long long newton_steps = 0;       // over all points
-  int max_newton_steps = 0;         // at the hardest point
-  std::vector<std::string> aids;    // every aid needed at any point, first use order
-  double max_kcl_residual = 0;      // A, largest over all reported points
+  std::string method;             // which solver ran
+  bool unique = false;            // the network is monotone: its solution is unique
+  long long points = 0;           // solved points (1 for a bias point)
+  long long newton_steps = 0;     // over all points
+  int max_newton_steps = 0;       // at the hardest point
+  std::vector<std::string> aids;  // every aid needed at any point, first use order
+  double max_kcl_residual = 0;    // A, largest over all reported points
   std::string worst_node;
 };
 
 struct Report {
-  std::string title;       // circuit title (may be empty)
-  std::string file;        // netlist file as given
-  std::string analysis;    // "bias", "sweep", ...
-  double temp = 25;        // degC of the circuit (for a temperature sweep: the base)
-  int sweep_axes = 0;      // leading columns that are sweep variables (0 for bias)
+  std::string title;     // circuit title (may be empty)
+  std::string file;      // netlist file as given
+  std::string analysis;  // "bias", "sweep", ...
+  double temp = 25;      // degC of the circuit (for a temperature sweep: the base)
+  int sweep_axes = 0;    // leading columns that are sweep variables (0 for bias)
   std::vector<Column> columns;
   std::vector<std::vector<double>> rows;  // NaN where a point failed
   std::vector<PointFailure> failures;
   SolverAccount account;
   std::vector<ExpectationCheck> expectations;
   std::vector<std::string> cautions;  // safety cautions shown with the report
-  std::vector<StressLine> stress;        // empty when no diode has ratings
-  double derate_percent = 100;           // --derate
+  std::vector<StressLine> stress;     // empty when no diode has ratings
+  double derate_percent = 100;        // --derate
   std::vector<char> row_over_rating;
   // Trailing columns that only CSV prints: the use of each rating in % per row
   // ("Dhi.i/max_current [%]"); the table and JSON show the stress section instead.
-  int csv_only_columns = 0;     // per row: some rating exceeded there (charts)
-  bool log_inner = false;  // the inner sweep axis is logarithmic (charts use a log x axis)
-  bool csv_header = true;  // false for the 2nd..Nth shard of a sweep, so shards concatenate
+  int csv_only_columns = 0;  // per row: some rating exceeded there (charts)
+  bool log_inner = false;    // the inner sweep axis is logarithmic (charts use a log x axis)
+  bool csv_header = true;    // false for the 2nd..Nth shard of a sweep, so shards concatenate
 };
 
 // Columns every format shows (all but the CSV-only stress columns).

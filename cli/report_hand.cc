@@ -13,7 +13,6 @@
 namespace knee::cli {
 namespace {
 
-
 double Error(const std::vector<double>& values, size_t model) { return values[model] - values[0]; }
 
 // A block of rows: name, exact value, then value and error per simplified model.
@@ -66,9 +65,7 @@ std::string Tolerance(const ExpectationCheck& e) {
   return e.relative ? fmt::format("{:g} %", e.tolerance * 100) : FormatEng(e.tolerance, e.unit);
 }
 
-
 std::string CsvNumber(double value) { return std::isfinite(value) ? FormatRoundTrip(value) : ""; }
-
 
 // The CSV layout, shared with the JSON "columns"/"rows" members: one row per model.
 struct Table {
@@ -135,13 +132,15 @@ std::string WriteHandTable(const HandReport& r) {
   out += "\n";
 
   size_t name_width = 16;
-  for (const HandDiodeRow& d : r.diodes) name_width = std::max(name_width, DisplayWidth(d.name) + 2);
+  for (const HandDiodeRow& d : r.diodes)
+    name_width = std::max(name_width, DisplayWidth(d.name) + 2);
   for (const HandNodeRow& n : r.nodes) name_width = std::max(name_width, DisplayWidth(n.name) + 2);
 
   if (!r.diodes.empty()) {
     // States: one column per model, a mark where a model disagrees with the exact one.
     std::vector<size_t> width;
-    for (const HandModelColumn& m : r.models) width.push_back(std::max<size_t>(DisplayWidth(m.name), 10));
+    for (const HandModelColumn& m : r.models)
+      width.push_back(std::max<size_t>(DisplayWidth(m.name), 10));
     std::string line = PadRight("diode state", name_width);
     for (size_t m = 0; m < r.models.size(); ++m)
       line += "   " + PadRight(r.models[m].name, width[m]);

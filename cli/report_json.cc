@@ -1,7 +1,6 @@
 // Scripts' JSON: one object, schema "knee-result/1" (docs/json-schema.md).
-#include <nlohmann/json.hpp>
-
 #include <cmath>
+#include <nlohmann/json.hpp>
 
 #include "report.h"
 #include "report_common.h"

@@ -12,7 +12,6 @@
 namespace knee::cli {
 namespace {
 
-
 std::string Header(const Report& report) {
   const std::string file = report.file == "-" ? "<stdin>" : report.file;
   std::string name = report.title.empty() ? file : "\"" + report.title + "\"";
@@ -38,14 +37,15 @@ std::string Expectations(const Report& report) {
 
 std::string Account(const Report& report) {
   const SolverAccount& a = report.account;
-  std::string aids = a.aids.empty() ? "no aids" : "aids: " + fmt::format("{}", fmt::join(a.aids, ", "));
+  std::string aids =
+      a.aids.empty() ? "no aids" : "aids: " + fmt::format("{}", fmt::join(a.aids, ", "));
   std::string steps;
   if (a.points <= 1) {
     steps = fmt::format("{} Newton steps", a.newton_steps);
   } else {
-    steps = fmt::format("{} points, {} Newton steps ({:.2f} per point, at most {})", a.points,
-                        a.newton_steps, static_cast<double>(a.newton_steps) / static_cast<double>(a.points),
-                        a.max_newton_steps);
+    steps = fmt::format(
+        "{} points, {} Newton steps ({:.2f} per point, at most {})", a.points, a.newton_steps,
+        static_cast<double>(a.newton_steps) / static_cast<double>(a.points), a.max_newton_steps);
   }
   std::string residual = fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
   if (!a.worst_node.empty()) residual += " at " + a.worst_node;
@@ -105,9 +105,11 @@ std::string Columns(const Report& report) {
 
 std::string Stress(const Report& report) {
   if (report.stress.empty()) return "";
-  std::string out = fmt::format("\nstress (each rating usable to {:g} %):\n", report.derate_percent);
+  std::string out =
+      fmt::format("\nstress (each rating usable to {:g} %):\n", report.derate_percent);
   size_t name_width = 0;
-  for (const StressLine& s : report.stress) name_width = std::max(name_width, DisplayWidth(s.diode));
+  for (const StressLine& s : report.stress)
+    name_width = std::max(name_width, DisplayWidth(s.diode));
   for (const StressLine& s : report.stress) {
     std::string at = s.where.empty() ? "" : " at " + s.where;
     out += fmt::format("  {} {}  {:<15}  worst {:>10}{}, rating {} ({}): {:.0f} % of rating\n",

@@ -23,11 +23,20 @@ std::string Escape(const std::string& text) {
   std::string out;
   for (char c : text) {
     switch (c) {
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '&': out += "&amp;"; break;
-      case '"': out += "&quot;"; break;
-      default: out += c;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '&':
+        out += "&amp;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
@@ -111,17 +120,22 @@ std::string OverRatingBands(const Report& report, const Axis& x_axis, int left, 
     size_t j = i;
     while (j + 1 < xs.size() && xs[j + 1].second) ++j;
     auto pixel = [&](double v) { return x_axis.Map(v, left, right); };
-    const double x0 = i == 0 ? pixel(xs[i].first) : (pixel(xs[i - 1].first) + pixel(xs[i].first)) / 2;
+    const double x0 =
+        i == 0 ? pixel(xs[i].first) : (pixel(xs[i - 1].first) + pixel(xs[i].first)) / 2;
     const double x1 =
         j + 1 == xs.size() ? pixel(xs[j].first) : (pixel(xs[j].first) + pixel(xs[j + 1].first)) / 2;
-    svg += fmt::format("<rect class=\"over-rating\" x=\"{:.1f}\" y=\"{}\" width=\"{:.1f}\" "
-                       "height=\"{}\" fill=\"#c8452c\" fill-opacity=\"0.12\"/>\n",
-                       std::max<double>(x0, left), top, std::max(1.0, std::min<double>(x1, right) - std::max<double>(x0, left)), height);
+    svg += fmt::format(
+        "<rect class=\"over-rating\" x=\"{:.1f}\" y=\"{}\" width=\"{:.1f}\" "
+        "height=\"{}\" fill=\"#c8452c\" fill-opacity=\"0.12\"/>\n",
+        std::max<double>(x0, left), top,
+        std::max(1.0, std::min<double>(x1, right) - std::max<double>(x0, left)), height);
     i = j;
   }
   if (!svg.empty()) {
-    svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"end\" fill=\"#c8452c\">shaded: a rating "
-                       "is exceeded</text>\n", right - 4, top + height - 6);
+    svg += fmt::format(
+        "<text x=\"{}\" y=\"{}\" text-anchor=\"end\" fill=\"#c8452c\">shaded: a rating "
+        "is exceeded</text>\n",
+        right - 4, top + height - 6);
   }
   return svg;
 }
@@ -226,35 +240,41 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
       }
     }
     Axis y_axis = FitAxis(y_lo, y_hi, log_y);
-    svg += fmt::format("<g class=\"panel\">\n<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" "
-                       "fill=\"#ffffff\" stroke=\"#c9ccd1\"/>\n",
-                       left, top, plot_width, options.panel_height);
+    svg += fmt::format(
+        "<g class=\"panel\">\n<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" "
+        "fill=\"#ffffff\" stroke=\"#c9ccd1\"/>\n",
+        left, top, plot_width, options.panel_height);
     for (double t : y_axis.Ticks()) {
       const double y = y_axis.Map(t, bottom, top);
-      svg += fmt::format("<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#e6e8eb\"/>"
-                         "<text x=\"{}\" y=\"{:.1f}\" text-anchor=\"end\" fill=\"#4a5058\">{}</text>\n",
-                         left, right, y, y, left - 6, y + 4, Escape(FormatEng(t, unit, 3)));
+      svg += fmt::format(
+          "<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#e6e8eb\"/>"
+          "<text x=\"{}\" y=\"{:.1f}\" text-anchor=\"end\" fill=\"#4a5058\">{}</text>\n",
+          left, right, y, y, left - 6, y + 4, Escape(FormatEng(t, unit, 3)));
     }
     for (double t : x_axis.Ticks()) {
       const double x = x_axis.Map(t, left, right);
-      svg += fmt::format("<line x1=\"{:.1f}\" x2=\"{:.1f}\" y1=\"{}\" y2=\"{}\" stroke=\"#e6e8eb\"/>"
-                         "<text x=\"{:.1f}\" y=\"{}\" text-anchor=\"middle\" fill=\"#4a5058\">{}</text>\n",
-                         x, x, top, bottom, x, bottom + 16,
-                         Escape(FormatEng(t, x_column.unit, 3)));
+      svg += fmt::format(
+          "<line x1=\"{:.1f}\" x2=\"{:.1f}\" y1=\"{}\" y2=\"{}\" stroke=\"#e6e8eb\"/>"
+          "<text x=\"{:.1f}\" y=\"{}\" text-anchor=\"middle\" fill=\"#4a5058\">{}</text>\n",
+          x, x, top, bottom, x, bottom + 16, Escape(FormatEng(t, x_column.unit, 3)));
     }
     if (y_axis.lo < 0 && y_axis.hi > 0 && !y_axis.log) {
       const double y0 = y_axis.Map(0, bottom, top);
-      svg += fmt::format("<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#9aa0a8\"/>\n",
-                         left, right, y0, y0);
+      svg += fmt::format(
+          "<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#9aa0a8\"/>\n", left,
+          right, y0, y0);
     }
     svg += fmt::format("<text x=\"{}\" y=\"{}\" fill=\"#22262b\" font-weight=\"bold\">{}</text>\n",
-                       left, top - 8,
-                       Escape(PanelLabel(unit, log_y)));
-    svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
-                       (left + right) / 2, bottom + 34,
-                       Escape(x_column.name + (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
-    svg += fmt::format("<clipPath id=\"clip{0}\"><rect x=\"{1}\" y=\"{2}\" width=\"{3}\" height=\"{4}\"/></clipPath>\n",
-                       p, left, top, plot_width, options.panel_height);
+                       left, top - 8, Escape(PanelLabel(unit, log_y)));
+    svg +=
+        fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
+                    (left + right) / 2, bottom + 34,
+                    Escape(x_column.name +
+                           (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
+    svg += fmt::format(
+        "<clipPath id=\"clip{0}\"><rect x=\"{1}\" y=\"{2}\" width=\"{3}\" "
+        "height=\"{4}\"/></clipPath>\n",
+        p, left, top, plot_width, options.panel_height);
     svg += OverRatingBands(report, x_axis, left, right, top, options.panel_height);
     const std::vector<Trace>& traces = traces_of_unit[unit];
     for (size_t t = 0; t < traces.size(); ++t) {
@@ -271,15 +291,15 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
                          x_axis.Map(x, left, right), y_axis.Map(y, bottom, top));
         pen_down = true;
       }
-      svg += fmt::format("<path class=\"trace\" d=\"{}\" fill=\"none\" stroke=\"{}\" "
-                         "stroke-width=\"1.8\"{} clip-path=\"url(#clip{})\"/>\n",
-                         d.empty() ? "M0,0" : d, colour,
-                         dashed ? " stroke-dasharray=\"6 3\"" : "", p);
+      svg += fmt::format(
+          "<path class=\"trace\" d=\"{}\" fill=\"none\" stroke=\"{}\" "
+          "stroke-width=\"1.8\"{} clip-path=\"url(#clip{})\"/>\n",
+          d.empty() ? "M0,0" : d, colour, dashed ? " stroke-dasharray=\"6 3\"" : "", p);
       const int ly = top + 14 + static_cast<int>(t) * 18;
-      svg += fmt::format("<line x1=\"{}\" x2=\"{}\" y1=\"{}\" y2=\"{}\" stroke=\"{}\" stroke-width=\"2.5\"/>"
-                         "<text x=\"{}\" y=\"{}\" fill=\"#22262b\">{}</text>\n",
-                         right + 12, right + 32, ly, ly, colour, right + 38, ly + 4,
-                         Escape(traces[t].label));
+      svg += fmt::format(
+          "<line x1=\"{}\" x2=\"{}\" y1=\"{}\" y2=\"{}\" stroke=\"{}\" stroke-width=\"2.5\"/>"
+          "<text x=\"{}\" y=\"{}\" fill=\"#22262b\">{}</text>\n",
+          right + 12, right + 32, ly, ly, colour, right + 38, ly + 4, Escape(traces[t].label));
     }
     svg += "</g>\n";
   }

@@ -20,8 +20,8 @@ inline ::testing::AssertionResult IsClose(double actual, double expected, double
   const double bound = rel * std::fabs(expected) + abs_floor;
   if (std::isfinite(actual) && err <= bound) return ::testing::AssertionSuccess();
   return ::testing::AssertionFailure()
-         << "actual " << actual << " vs expected " << expected << ": |error| " << err
-         << " > bound " << bound << " (rel " << rel << ", floor " << abs_floor << ")";
+         << "actual " << actual << " vs expected " << expected << ": |error| " << err << " > bound "
+         << bound << " (rel " << rel << ", floor " << abs_floor << ")";
 }
 
 }  // namespace knee::testing

@@ -26,8 +26,8 @@ struct AssemblyAids {
 
 struct AssemblyOutcome {
   bool finite = true;
-  int bad_element = -1;  // first element with a non-finite value
-  bool limited = false;  // some junction's evaluation point was limited
+  int bad_element = -1;              // first element with a non-finite value
+  bool limited = false;              // some junction's evaluation point was limited
   int unresolved_element = -1;       // a diode whose junction voltage rounding hides
   double potential = 0.0;            // W, co-content at x (when want_potential)
   double potential_magnitude = 0.0;  // W, sum of the magnitudes of its terms

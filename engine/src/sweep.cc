@@ -243,8 +243,8 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
                     const SolverOptions& solver_options, const SweepOptions& options,
                     const PointSink& sink) {
   const long long block_count = last_block - first_block;
-  const int jobs = static_cast<int>(std::max<long long>(
-      1, std::min<long long>(options.jobs, block_count)));
+  const int jobs =
+      static_cast<int>(std::max<long long>(1, std::min<long long>(options.jobs, block_count)));
   std::vector<std::unique_ptr<Worker>> workers;
   SweepStats total;
   for (int j = 0; j < jobs; ++j) {
@@ -290,8 +290,9 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
       total.worst_node = s.worst_node;
     }
   }
-  std::stable_sort(total.aids.begin(), total.aids.end(),
-                   [](const std::string& a, const std::string& b) { return AidRank(a) < AidRank(b); });
+  std::stable_sort(
+      total.aids.begin(), total.aids.end(),
+      [](const std::string& a, const std::string& b) { return AidRank(a) < AidRank(b); });
   return total;
 }
 

@@ -36,12 +36,14 @@ std::string SweepTargetUnit(const SweepTarget& target, const Circuit& circuit) {
 }
 
 std::string ApplySweepValue(const SweepTarget& target, double value, Circuit* circuit) {
-  if (!std::isfinite(value)) return fmt::format("{} = {} is not a finite number", target.name, value);
+  if (!std::isfinite(value))
+    return fmt::format("{} = {} is not a finite number", target.name, value);
   switch (target.kind) {
     case SweepTarget::Kind::kParam:
       return "";
     case SweepTarget::Kind::kTemp:
-      if (value <= -kZeroCelsius) return fmt::format("temp = {} C is at or below absolute zero", value);
+      if (value <= -kZeroCelsius)
+        return fmt::format("temp = {} C is at or below absolute zero", value);
       circuit->temp = value;
       return "";
     case SweepTarget::Kind::kElement: {

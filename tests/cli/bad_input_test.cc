@@ -2,8 +2,8 @@
 // never a crash or a report (issue acceptance list of the foundation).
 #include <gtest/gtest.h>
 
-#include <vector>
 #include <string>
+#include <vector>
 
 #include "run_knee.h"
 
@@ -32,19 +32,24 @@ std::vector<BadInput> Cases() {
        "<stdin>:1:"},
       {"unclosed string", "title \"clamp\n" + kGood, "<stdin>:1:7"},
       {"param cycle", "param x = y\nparam y = x\n" + kGood, "<stdin>:1:"},
-      {"undefined param", "vsource V1 a -> gnd Vsupply\nresistor R1 a -> gnd 1k\n",
-       "<stdin>:1:21"},
+      {"undefined param", "vsource V1 a -> gnd Vsupply\nresistor R1 a -> gnd 1k\n", "<stdin>:1:21"},
       {"zero resistance", "vsource V1 a -> gnd 5\nresistor R1 a -> gnd 0\n", "<stdin>:2:22"},
       {"negative resistance", "vsource V1 a -> gnd 5\nresistor R1 a -> gnd -1k\n", "<stdin>:2:"},
       {"out-of-range part value", "part P diode ideality=0\n" + kGood + "diode D1 a -> gnd P\n",
        "<stdin>:1:"},
       {"floating subnetwork", kGood + "resistor R2 x -> y 1k\n", "<stdin>:3:"},
       {"loop of voltage sources", kGood + "vsource V2 a -> gnd 3\n", "<stdin>:"},
-      {"cut set of current sources", kGood + "isource I1 a -> b 1m\nresistor R2 b -> c 1k\n"
-                                             "isource I2 c -> gnd 1m\n", "<stdin>:"},
+      {"cut set of current sources",
+       kGood + "isource I1 a -> b 1m\nresistor R2 b -> c 1k\n"
+               "isource I2 c -> gnd 1m\n",
+       "<stdin>:"},
       {"empty file", "", "<stdin>"},
       {"comments only", "# nothing here\n\n", "<stdin>"},
-      {"binary bytes", std::string("\x7f" "ELF\x02\x01\x01\xff\xfe", 9), "<stdin>:1:"},
+      {"binary bytes",
+       std::string("\x7f"
+                   "ELF\x02\x01\x01\xff\xfe",
+                   9),
+       "<stdin>:1:"},
       {"non-UTF-8 text", "title \"caf\xe9\"\n" + kGood, "<stdin>:1:"},
       {"NUL byte", std::string("vsource V1 a -> gnd 5\0\n", 23) + kGood, "<stdin>:1:"},
       {"overlong line", "# " + std::string(20000, 'x') + "\n" + kGood, "<stdin>:1:"},
@@ -61,8 +66,9 @@ TEST(BadInput, EveryKindExitsTwoWithALocation) {
     KneeRun run = RunKnee("bias - --format csv", c.text);
     EXPECT_EQ(run.status, 2) << c.name << "\n" << run.err;
     EXPECT_TRUE(run.out.empty()) << c.name << ": a report was printed";
-    EXPECT_EQ(run.err.rfind(c.place, 0), 0u) << c.name << ": expected " << c.place
-                                             << " at the start of:\n" << run.err;
+    EXPECT_EQ(run.err.rfind(c.place, 0), 0u)
+        << c.name << ": expected " << c.place << " at the start of:\n"
+        << run.err;
     EXPECT_NE(run.err.find("error: "), std::string::npos) << c.name;
   }
 }

@@ -1,11 +1,11 @@
 // End-to-end checks of the knee command line: what a user types, what comes back.
 #include <gtest/gtest.h>
-#include <nlohmann/json.hpp>
 
 #include <boost/math/special_functions/lambert_w.hpp>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <nlohmann/json.hpp>
 
 #include "run_knee.h"
 #include "test_util.h"
@@ -82,10 +82,9 @@ TEST(Cli, BiasJsonAgreesWithLambertW) {
 }
 
 TEST(Cli, ReverseDiodeCarriesMinusIsWithoutLeftoverShunt) {
-  KneeRun run = RunKnee(
-      "bias - --format json --show D1.i",
-      "part d1 diode sat_current=2e-12 ideality=1.3\nvsource V1 a -> gnd -5\n"
-      "diode D1 a -> gnd d1 area=3\n");
+  KneeRun run = RunKnee("bias - --format json --show D1.i",
+                        "part d1 diode sat_current=2e-12 ideality=1.3\nvsource V1 a -> gnd -5\n"
+                        "diode D1 a -> gnd d1 area=3\n");
   ASSERT_EQ(run.status, 0) << run.err;
   // I = area * Is * (exp(-5 / (n Vt)) - 1) = -area * Is to far better than 1e-6.
   EXPECT_CLOSE(json::parse(run.out)["rows"][0][0].get<double>(), -6e-12, 1e-6, 0);
@@ -104,8 +103,7 @@ TEST(Cli, TableHasHeaderNumbersAndSolverFooter) {
 TEST(Cli, CsvIsOnlyTheHeaderAndTheRows) {
   KneeRun run = RunKnee("bias - --format csv --show k.v,D1.i,D1.p,D1.rd", kSingleDiode);
   ASSERT_EQ(run.status, 0) << run.err;
-  EXPECT_EQ(run.out.substr(0, run.out.find('\n')),
-            "k.v [V],D1.i [A],D1.p [W],D1.rd [Ohm]");
+  EXPECT_EQ(run.out.substr(0, run.out.find('\n')), "k.v [V],D1.i [A],D1.p [W],D1.rd [Ohm]");
   EXPECT_EQ(std::count(run.out.begin(), run.out.end(), '\n'), 2);
   EXPECT_TRUE(run.err.empty()) << run.err;
 }
@@ -142,8 +140,8 @@ TEST(Cli, FloatingNodeExitsTwoNamingTheElements) {
 TEST(Cli, ExpectationsMetAndMissed) {
   const double i = LambertCurrent(5.0, 1e3, 1e-14, ThermalVoltage25());
   const std::string base = kSingleDiode;
-  KneeRun met = RunKnee("run - --format json", base + "expect D1.i = " + std::to_string(i * 1.01) +
-                                                  " within 2%\n");
+  KneeRun met = RunKnee("run - --format json",
+                        base + "expect D1.i = " + std::to_string(i * 1.01) + " within 2%\n");
   ASSERT_EQ(met.status, 0) << met.err;
   EXPECT_TRUE(json::parse(met.out)["expectations"][0]["met"].get<bool>());
 
@@ -225,8 +223,10 @@ TEST(Cli, PlotIsWellFormedSvgWithOnePathPerTrace) {
   }
   EXPECT_EQ(paths, 6u);  // 2 quantities x 3 temperatures
   if (std::filesystem::exists("/usr/bin/python3")) {
-    const std::string check = "/usr/bin/python3 -c \"import sys, xml.dom.minidom; "
-                              "xml.dom.minidom.parse(sys.argv[1])\" " + path;
+    const std::string check =
+        "/usr/bin/python3 -c \"import sys, xml.dom.minidom; "
+        "xml.dom.minidom.parse(sys.argv[1])\" " +
+        path;
     EXPECT_EQ(std::system(check.c_str()), 0) << "SVG does not parse as XML";
   }
   std::filesystem::remove(path);

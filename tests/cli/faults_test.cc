@@ -73,8 +73,8 @@ TEST_F(Faults, OutIsAFolder) {
 // /dev/full accepts opens and fails every write with ENOSPC: a full disk.
 TEST_F(Faults, FullStandardOutput) {
   if (!fs::exists("/dev/full")) GTEST_SKIP() << "no /dev/full";
-  ShellRun run = RunShell(std::string(KNEE_BINARY) + " bias " + Netlist("input-clamp.knee") +
-                          " >/dev/full");
+  ShellRun run =
+      RunShell(std::string(KNEE_BINARY) + " bias " + Netlist("input-clamp.knee") + " >/dev/full");
   EXPECT_EQ(run.status, 2);
   EXPECT_NE(run.err.find("cannot write to standard output"), std::string::npos) << run.err;
 }
@@ -113,10 +113,10 @@ TEST_F(Faults, ClosedPipe) {
 TEST_F(Faults, InterruptDuringSweepLeavesNoFile) {
   const std::string out = folder_ + "/sweep.csv";
   // set -m: a background job of a non-interactive shell would otherwise ignore SIGINT.
-  ShellRun run = RunShell("set -m; " + std::string(KNEE_BINARY) + " sweep " +
-                          Netlist("input-clamp.knee") +
-                          " Vfield=-24..24:0.0001 --jobs 1 --format csv --quiet --out " + out +
-                          " & pid=$!; sleep 0.3; kill -INT $pid; wait $pid");
+  ShellRun run =
+      RunShell("set -m; " + std::string(KNEE_BINARY) + " sweep " + Netlist("input-clamp.knee") +
+               " Vfield=-24..24:0.0001 --jobs 1 --format csv --quiet --out " + out +
+               " & pid=$!; sleep 0.3; kill -INT $pid; wait $pid");
   EXPECT_EQ(run.status, 130);
   EXPECT_NE(run.err.find("knee: interrupted"), std::string::npos) << run.err;
   EXPECT_FALSE(fs::exists(out));

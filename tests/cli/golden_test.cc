@@ -5,9 +5,9 @@
 // The table's solver footer line is compared by shape, since step counts and the last
 // bits of the residual belong to the solver, not to the format.
 #include <gtest/gtest.h>
-#include <nlohmann/json.hpp>
 
 #include <algorithm>
+#include <nlohmann/json.hpp>
 
 #include "run_knee.h"
 

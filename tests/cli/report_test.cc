@@ -1,10 +1,11 @@
+#include "report.h"
+
 #include <gtest/gtest.h>
-#include <nlohmann/json.hpp>
 
 #include <cmath>
 #include <limits>
+#include <nlohmann/json.hpp>
 
-#include "report.h"
 #include "svg_chart.h"
 
 namespace knee::cli {

@@ -44,8 +44,8 @@ inline KneeRun RunKnee(const std::string& args, const std::string& input = "") {
     std::ofstream in(in_path, std::ios::binary);
     in << input;
   }
-  const std::string command = std::string(KNEE_BINARY) + " " + args + " <" + in_path + " >" +
-                              out_path + " 2>" + err_path;
+  const std::string command =
+      std::string(KNEE_BINARY) + " " + args + " <" + in_path + " >" + out_path + " 2>" + err_path;
   const int raw = std::system(command.c_str());
   KneeRun run;
   run.status = WIFEXITED(raw) ? WEXITSTATUS(raw) : 128 + WTERMSIG(raw);

@@ -1,9 +1,9 @@
 // Stress checks end to end: each rating exceeded and not, in bias and in sweeps, the
 // worst point located, --derate, and exit statuses (docs/stress.md).
 #include <gtest/gtest.h>
-#include <nlohmann/json.hpp>
 
 #include <cmath>
+#include <nlohmann/json.hpp>
 #include <sstream>
 
 #include "run_knee.h"
@@ -30,9 +30,9 @@ TEST(Stress, EachRatingExceededAndNotInABiasPoint) {
     std::string ratings;
     int status;
   };
-  for (const Case& c : {Case{"max_current=20m", 0}, Case{"max_current=5m", 3},
-                        Case{"max_reverse_v=10", 0}, Case{"max_reverse_v=3", 3},
-                        Case{"max_power=50m", 0}, Case{"max_power=2m", 3}}) {
+  for (const Case& c :
+       {Case{"max_current=20m", 0}, Case{"max_current=5m", 3}, Case{"max_reverse_v=10", 0},
+        Case{"max_reverse_v=3", 3}, Case{"max_power=50m", 0}, Case{"max_power=2m", 3}}) {
     KneeRun run = RunKnee("bias - --format json", Clamp(c.ratings));
     EXPECT_EQ(run.status, c.status) << c.ratings << "\n" << run.err;
     const json stress = Stress(run);
@@ -54,8 +54,8 @@ double D1Current(double vin) {
   std::ostringstream set;
   set.precision(17);
   set << vin;
-  KneeRun run = RunKnee("bias - --format json --show D1.i --set Vin=" + set.str(),
-                        Clamp("max_current=5m"));
+  KneeRun run =
+      RunKnee("bias - --format json --show D1.i --set Vin=" + set.str(), Clamp("max_current=5m"));
   return json::parse(run.out)["rows"][0][0].get<double>();
 }
 
@@ -125,11 +125,10 @@ namespace {
 TEST(Stress, ChartShadesTheRangeWhereARatingIsExceeded) {
   const std::string over = TempPath("over.svg");
   const std::string within = TempPath("within.svg");
-  EXPECT_EQ(RunKnee("sweep - Vin=0..24:0.5 --show D1.i --plot " + over, Clamp("max_current=5m"))
-                .status,
-            3);
-  EXPECT_EQ(RunKnee("sweep - Vin=0..24:0.5 --show D1.i --plot " + within,
-                    Clamp("max_current=50m"))
+  EXPECT_EQ(
+      RunKnee("sweep - Vin=0..24:0.5 --show D1.i --plot " + over, Clamp("max_current=5m")).status,
+      3);
+  EXPECT_EQ(RunKnee("sweep - Vin=0..24:0.5 --show D1.i --plot " + within, Clamp("max_current=50m"))
                 .status,
             0);
   EXPECT_NE(ReadWhole(over).find("class=\"over-rating\""), std::string::npos);

@@ -1,9 +1,9 @@
 // Sweeps checked against outside references and physical symmetry, end to end.
 #include <gtest/gtest.h>
-#include <nlohmann/json.hpp>
 
 #include <boost/math/special_functions/lambert_w.hpp>
 #include <cmath>
+#include <nlohmann/json.hpp>
 
 #include "run_knee.h"
 #include "test_util.h"
@@ -13,8 +13,8 @@ namespace {
 
 using nlohmann::json;
 
-constexpr double kBoltzmann = 1.380649e-23;           // J/K, CODATA 2018 (exact)
-constexpr double kCharge = 1.602176634e-19;           // C, CODATA 2018 (exact)
+constexpr double kBoltzmann = 1.380649e-23;  // J/K, CODATA 2018 (exact)
+constexpr double kCharge = 1.602176634e-19;  // C, CODATA 2018 (exact)
 
 // W0(e^y) without overflow: Boost.Math's lambert_w0 while e^y is representable, else
 // Newton on w + ln w = y (the defining equation of W, taken in logarithms).
@@ -44,8 +44,8 @@ TEST(Sweep, DiodeOverVoltageAndTemperatureAgreesWithLambertW) {
   const std::string net =
       "part d diode sat_current=2n ideality=1.6 bandgap=1.11 sat_temp_exp=3\n"
       "vsource V1 a -> gnd 1\nresistor R1 a -> k 2k2\ndiode D1 k -> gnd d\n";
-  KneeRun run = RunKnee("sweep - V1=-5..10:0.25 temp=-40,0,25,85,125 --format json --show D1.i",
-                        net);
+  KneeRun run =
+      RunKnee("sweep - V1=-5..10:0.25 temp=-40,0,25,85,125 --format json --show D1.i", net);
   ASSERT_EQ(run.status, 0) << run.err;
   const json j = json::parse(run.out);
   ASSERT_EQ(j["rows"].size(), 61u * 5u);
@@ -68,8 +68,8 @@ TEST(Sweep, BridgeOutputIsAnEvenFunctionOfTheInput) {
       "vsource Vin a -> b 1\nresistor Ra a -> gnd 1M\nresistor Rb b -> gnd 1M\n"
       "diode D1 a -> out r\ndiode D2 b -> out r\ndiode D3 ret -> a r\ndiode D4 ret -> b r\n"
       "resistor Rload out -> ret 47\n";
-  KneeRun run = RunKnee("sweep - Vin=-20..20:0.5 --format json --show '(out.v-ret.v),Rload.i'",
-                        net);
+  KneeRun run =
+      RunKnee("sweep - Vin=-20..20:0.5 --format json --show '(out.v-ret.v),Rload.i'", net);
   ASSERT_EQ(run.status, 0) << run.err;
   const json rows = json::parse(run.out)["rows"];
   ASSERT_EQ(rows.size(), 81u);

@@ -2,6 +2,8 @@
 // is the device current, its second derivative the conductance, so it is convex), the
 // line search's decrease of the network potential on hard circuits, agreement with the
 // classic ladder, and the structural test for networks without a solution.
+#include "potential.h"
+
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -12,7 +14,6 @@
 #include "knee/diode_law.h"
 #include "knee/solver.h"
 #include "mna.h"
-#include "potential.h"
 #include "test_util.h"
 
 namespace knee {
@@ -32,8 +33,19 @@ DiodeConstants Zener() {
 // Junction voltages at reverse, zero, knee, forward, breakdown bias and above the
 // overflow-safe exponential's limit on both branches (forward x > 80, breakdown y > 80).
 std::vector<double> Biases(const DiodeConstants& d) {
-  return {-3.0, -1e-3, 0.0, 1e-3, 0.4, 0.6, 0.75, -5.0, -5.6, -5.8,
-          85.0 * d.n_vt, 120.0 * d.n_vt, -d.vbr - 90.0 * d.nbr_vt};
+  return {-3.0,
+          -1e-3,
+          0.0,
+          1e-3,
+          0.4,
+          0.6,
+          0.75,
+          -5.0,
+          -5.6,
+          -5.8,
+          85.0 * d.n_vt,
+          120.0 * d.n_vt,
+          -d.vbr - 90.0 * d.nbr_vt};
 }
 
 // Central differences (common practice, no source): dC/dv is the junction current.
@@ -269,7 +281,8 @@ TEST(PotentialMethod, UnboundedOnlyBeyondTheReverseLimit) {
 // Method selection and validation.
 TEST(PotentialMethod, OptionsAndSelection) {
   SolverOptions o;
-  EXPECT_EQ(o.method, SolverMethod::kClassic);  // the default until the potential method meets its goal
+  EXPECT_EQ(o.method,
+            SolverMethod::kClassic);  // the default until the potential method meets its goal
   o.method = static_cast<SolverMethod>(7);
   const auto problem = Validate(o);
   ASSERT_TRUE(problem);

@@ -58,8 +58,8 @@ TEST(RangesTest, DecimalPointsAreTheNearestDoubles) {
   ASSERT_EQ(a.size(), 61u);
   for (std::size_t i = 0; i < a.size(); ++i) {
     const int tenths = static_cast<int>(i) - 30;
-    const std::string decimal = std::to_string(tenths / 10) + "." +
-                                std::to_string(std::abs(tenths % 10));
+    const std::string decimal =
+        std::to_string(tenths / 10) + "." + std::to_string(std::abs(tenths % 10));
     const double nearest = tenths < 0 && tenths > -10 ? -std::strtod(decimal.c_str() + 1, nullptr)
                                                       : std::strtod(decimal.c_str(), nullptr);
     EXPECT_EQ(a[i], nearest) << decimal;

@@ -17,9 +17,7 @@ class Builder {
   // Uniform in [0, 1) from the top 53 bits.
   double Unit() { return static_cast<double>(rng_() >> 11) * 0x1.0p-53; }
   double Uniform(double lo, double hi) { return lo + (hi - lo) * Unit(); }
-  double LogUniform(double lo, double hi) {
-    return std::exp(Uniform(std::log(lo), std::log(hi)));
-  }
+  double LogUniform(double lo, double hi) { return std::exp(Uniform(std::log(lo), std::log(hi))); }
   int Int(int lo, int hi) {  // inclusive
     return lo + static_cast<int>(rng_() % static_cast<uint64_t>(hi - lo + 1));
   }
@@ -31,7 +29,9 @@ class Builder {
     return static_cast<int>(c_.nodes.size()) - 1;
   }
   // A node that blocks may attach to (never a source's own terminal).
-  int AnyNetNode() { return net_nodes_[static_cast<size_t>(Int(0, static_cast<int>(net_nodes_.size()) - 1))]; }
+  int AnyNetNode() {
+    return net_nodes_[static_cast<size_t>(Int(0, static_cast<int>(net_nodes_.size()) - 1))];
+  }
   std::pair<int, int> TwoNetNodes() {
     const int a = AnyNetNode();
     int b = AnyNetNode();
@@ -238,8 +238,8 @@ std::string ToNetlist(const Circuit& c) {
       if (e.area != 1.0) text += fmt::format(" area={:.17g}", e.area);
       text += "\n";
     } else {
-      text += fmt::format("{} {} {} -> {} {:.17g}\n", ElementKindName(e.kind), e.name, a, b,
-                          e.value);
+      text +=
+          fmt::format("{} {} {} -> {} {:.17g}\n", ElementKindName(e.kind), e.name, a, b, e.value);
     }
   }
   return text + "bias\n";

@@ -18,9 +18,9 @@ namespace knee::torture {
 struct GeneratorOptions {
   int min_blocks = 2;  // structures (strings, banks, pairs, bridges, meshes, resistors)
   int max_blocks = 8;
-  int max_sources = 3;             // voltage sources, at least one
-  double max_source_volts = 1e4;   // V, magnitudes log-uniform in [1e-2, this]
-  double max_source_amps = 0.1;    // A, Norton current sources, magnitudes log-uniform
+  int max_sources = 3;            // voltage sources, at least one
+  double max_source_volts = 1e4;  // V, magnitudes log-uniform in [1e-2, this]
+  double max_source_amps = 0.1;   // A, Norton current sources, magnitudes log-uniform
   bool current_sources = true;
   double min_res = 1e-3;           // Ohm, resistors log-uniform in [min_res, max_res]
   double max_res = 1e9;            // Ohm
@@ -28,10 +28,10 @@ struct GeneratorOptions {
   double max_sat_current = 1e-6;   // A
   double min_ideality = 0.8;
   double max_ideality = 4.0;
-  double max_series_res = 1e3;     // Ohm; a third of the parts have none
-  double min_breakdown_v = 1.0;    // V; half of the parts have a breakdown
-  double max_breakdown_v = 1e3;    // V
-  double min_temp = -40.0;         // degC, circuit temperature
+  double max_series_res = 1e3;   // Ohm; a third of the parts have none
+  double min_breakdown_v = 1.0;  // V; half of the parts have a breakdown
+  double max_breakdown_v = 1e3;  // V
+  double min_temp = -40.0;       // degC, circuit temperature
   double max_temp = 125.0;
 };
 

@@ -46,8 +46,8 @@ int main(int argc, char** argv) {
     } else if (arg == "--netlist" && a + 1 < argc) {
       long long seed = 0;
       if (!ParseCount(argv[++a], &seed)) return 2;
-      fmt::print("{}", knee::torture::ToNetlist(knee::torture::GenerateNetwork(
-                           static_cast<uint64_t>(seed))));
+      fmt::print("{}", knee::torture::ToNetlist(
+                           knee::torture::GenerateNetwork(static_cast<uint64_t>(seed))));
       return 0;
     } else if (arg == "--verbose") {
       verbose = true;
@@ -55,7 +55,8 @@ int main(int argc, char** argv) {
       positional.push_back(arg);
     }
   }
-  if (positional.size() > 2 || (positional.size() >= 1 && !ParseCount(positional[0].c_str(), &count)) ||
+  if (positional.size() > 2 ||
+      (positional.size() >= 1 && !ParseCount(positional[0].c_str(), &count)) ||
       (positional.size() == 2 && !ParseCount(positional[1].c_str(), &first))) {
     fmt::print(stderr, "usage: run_torture [count] [first_seed] [--jobs N] [--verbose]\n");
     return 2;
@@ -97,15 +98,16 @@ int main(int argc, char** argv) {
   fmt::print("torture: {} failed, {} converged and verified\n", failed, steps.size());
   if (!steps.empty()) {
     auto pct = [&](double p) {
-      return steps[std::min(steps.size() - 1, static_cast<size_t>(p * static_cast<double>(steps.size())))];
+      return steps[std::min(steps.size() - 1,
+                            static_cast<size_t>(p * static_cast<double>(steps.size())))];
     };
-    fmt::print("newton steps: min {}  median {}  p90 {}  p99 {}  max {}\n", steps.front(),
-               pct(0.5), pct(0.9), pct(0.99), steps.back());
+    fmt::print("newton steps: min {}  median {}  p90 {}  p99 {}  max {}\n", steps.front(), pct(0.5),
+               pct(0.9), pct(0.99), steps.back());
     const int edges[] = {5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000};
     int lo = 0;
     for (int edge : edges) {
-      const auto n = std::count_if(steps.begin(), steps.end(),
-                                   [&](int s) { return s > lo && s <= edge; });
+      const auto n =
+          std::count_if(steps.begin(), steps.end(), [&](int s) { return s > lo && s <= edge; });
       if (n) fmt::print("  {:>5}..{:<5} steps: {}\n", lo + 1, edge, n);
       lo = edge;
     }

@@ -27,8 +27,8 @@ CaseResult RunCase(uint64_t seed, const GeneratorOptions& options,
   r.newton_steps = summary.newton_steps;
   r.aids = fmt::format("{}", fmt::join(summary.aids, ","));
   if (summary.status != SolveStatus::kConverged) {
-    r.problem = fmt::format("{} after {} steps: {}", ToString(summary.status),
-                            summary.newton_steps, summary.detail);
+    r.problem = fmt::format("{} after {} steps: {}", ToString(summary.status), summary.newton_steps,
+                            summary.detail);
     return r;
   }
   const Verification v = VerifySolution(circuit, solution);

@@ -96,8 +96,8 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
         const double rs = m.series_res / e.area;
         // Series resistance: V = Vj + I*rs.
         if (!(std::fabs(u - (vj + i * rs)) <= vbound)) {
-          Fail(&v, fmt::format("{}: V = {:.9g} V but Vj + I*rs = {:.9g} V", e.name, u,
-                               vj + i * rs));
+          Fail(&v,
+               fmt::format("{}: V = {:.9g} V but Vj + I*rs = {:.9g} V", e.name, u, vj + i * rs));
         }
         // Junction: I = law(Vj). The exponential's argument carries Vj's round-off, and
         // a junction current near zero against its saturation current gets abs_current.
@@ -119,8 +119,8 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
     // plus 16 eps times the sum of the terms for floating-point evaluation.
     const double bound = tol.abs_current + tol.rel * largest[n] + 16 * kEps * magnitude[n];
     if (!(residual <= bound)) {
-      Fail(&v, fmt::format("node '{}': KCL residual {:.3g} A > {:.3g} A", c.nodes[n], residual,
-                           bound));
+      Fail(&v,
+           fmt::format("node '{}': KCL residual {:.3g} A > {:.3g} A", c.nodes[n], residual, bound));
     }
   }
   return v;

@@ -25,10 +25,10 @@ struct DiodeModel {
   double breakdown_tc = 0.0;          // 1/K
   double bandgap = 1.11;              // eV, > 0
   double sat_temp_exp = 3.0;
-  double ref_temp = 25.0;                // degC, above absolute zero
-  std::optional<double> max_current;     // A, rated forward current
-  std::optional<double> max_reverse_v;   // V, rated reverse voltage
-  std::optional<double> max_power;       // W, rated dissipation
+  double ref_temp = 25.0;               // degC, above absolute zero
+  std::optional<double> max_current;    // A, rated forward current
+  std::optional<double> max_reverse_v;  // V, rated reverse voltage
+  std::optional<double> max_power;      // W, rated dissipation
 };
 
 struct Part {
@@ -42,11 +42,11 @@ enum class ElementKind { kResistor, kVoltageSource, kCurrentSource, kDiode };
 struct Element {
   ElementKind kind = ElementKind::kResistor;
   std::string name;
-  int node_a = kGroundNode;  // first terminal (anode of a diode, P of a vsource)
-  int node_b = kGroundNode;  // second terminal (cathode, N)
-  double value = 0.0;        // Ohm, V or A; unused for diodes
-  int part = -1;             // diodes: index into Circuit::parts
-  double area = 1.0;         // diodes: > 0
+  int node_a = kGroundNode;    // first terminal (anode of a diode, P of a vsource)
+  int node_b = kGroundNode;    // second terminal (cathode, N)
+  double value = 0.0;          // Ohm, V or A; unused for diodes
+  int part = -1;               // diodes: index into Circuit::parts
+  double area = 1.0;           // diodes: > 0
   std::optional<double> temp;  // diodes: own temperature in degC, overrides Circuit::temp
   SourceLocation where;        // the element's name in its statement
 };
@@ -65,9 +65,7 @@ struct Circuit {
   int FindElement(std::string_view name) const;
   int FindPart(std::string_view name) const;
   // Temperature of a diode element in degC: its own temp= or the circuit's.
-  double DeviceTemp(const Element& element) const {
-    return element.temp ? *element.temp : temp;
-  }
+  double DeviceTemp(const Element& element) const { return element.temp ? *element.temp : temp; }
 };
 
 const char* ElementKindName(ElementKind kind);  // "resistor", "vsource", ...

@@ -7,22 +7,22 @@
 namespace knee {
 
 // CODATA 2018 exact values (SI 2019 redefinition).
-inline constexpr double kBoltzmann = 1.380649e-23;        // J/K
+inline constexpr double kBoltzmann = 1.380649e-23;            // J/K
 inline constexpr double kElementaryCharge = 1.602176634e-19;  // C
-inline constexpr double kZeroCelsius = 273.15;            // K
+inline constexpr double kZeroCelsius = 273.15;                // K
 
 inline double ToKelvin(double celsius) { return celsius + kZeroCelsius; }
 inline double ThermalVoltage(double kelvin) { return kBoltzmann * kelvin / kElementaryCharge; }
 
 // Temperature-adjusted constants of one diode element (area applied).
 struct DiodeConstants {
-  double is = 0;        // A: area * Is(T)
-  double n_vt = 0;      // V: ideality * Vt(T)
-  double rs = 0;        // Ohm: series_res / area
+  double is = 0;    // A: area * Is(T)
+  double n_vt = 0;  // V: ideality * Vt(T)
+  double rs = 0;    // Ohm: series_res / area
   bool has_breakdown = false;
-  double ibr = 0;       // A: area * breakdown_i
-  double nbr_vt = 0;    // V: breakdown_ideality * Vt(T)
-  double vbr = 0;       // V: breakdown_v(T)
+  double ibr = 0;     // A: area * breakdown_i
+  double nbr_vt = 0;  // V: breakdown_ideality * Vt(T)
+  double vbr = 0;     // V: breakdown_v(T)
 };
 
 DiodeConstants ComputeDiodeConstants(const DiodeModel& model, double area, double temp_celsius);

@@ -23,7 +23,7 @@ struct QuantityRef {
 };
 
 double Evaluate(const Solution& solution, const QuantityRef& ref);
-const char* UnitSymbol(QuantityKind kind);  // "V", "A", "W", "Ohm"
+const char* UnitSymbol(QuantityKind kind);                                 // "V", "A", "W", "Ohm"
 std::string QuantityName(const Circuit& circuit, const QuantityRef& ref);  // "pin.v"
 
 }  // namespace knee

@@ -32,7 +32,7 @@ class [[nodiscard]] Result {
  public:
   Result(T value) : content_(std::move(value)) {}  // NOLINT: implicit by design
   Result(Diagnostic error) : content_(std::vector<Diagnostic>{std::move(error)}) {}  // NOLINT
-  Result(std::vector<Diagnostic> errors) : content_(std::move(errors)) {}  // NOLINT
+  Result(std::vector<Diagnostic> errors) : content_(std::move(errors)) {}            // NOLINT
 
   bool ok() const { return content_.index() == 0; }
   explicit operator bool() const { return ok(); }

@@ -51,11 +51,11 @@ struct SolverOptions {
   // The aid ladder, tried in order when plain Newton fails. The reported solution is
   // always a final plain Newton run on the exact model with no aid left in it.
   bool gmin_stepping = true;
-  double gmin_start = 1e-2;        // S, shunt from every node to gnd at the first rung
-  double gmin_factor = 10.0;       // gmin divided by this at each rung, > 1
-  double gmin_stop = 1e-14;        // S, last rung before removing the shunt altogether
+  double gmin_start = 1e-2;   // S, shunt from every node to gnd at the first rung
+  double gmin_factor = 10.0;  // gmin divided by this at each rung, > 1
+  double gmin_stop = 1e-14;   // S, last rung before removing the shunt altogether
   bool source_stepping = true;
-  int source_steps = 20;           // initial number of equal source ramp steps, >= 1
+  int source_steps = 20;  // initial number of equal source ramp steps, >= 1
 
   // Verification of a reported solution: the largest KCL residual (A) must be at most
   // verify_current_tol + rel_tol * (largest branch current magnitude at that node).
@@ -81,11 +81,11 @@ const char* ToString(SolveStatus status);
 
 // The numbers of a solved circuit, indexed like the Circuit it came from.
 struct Solution {
-  std::vector<double> node_voltage;       // V, per circuit node; [0] is gnd = 0
-  std::vector<double> element_voltage;    // V, v(node_a) - v(node_b), per element
-  std::vector<double> element_current;    // A, from node_a through the element to node_b
-  std::vector<double> junction_voltage;   // V, diodes only (NaN for other elements)
-  std::vector<double> small_signal_res;   // Ohm, dV/dI of diodes (NaN for others)
+  std::vector<double> node_voltage;      // V, per circuit node; [0] is gnd = 0
+  std::vector<double> element_voltage;   // V, v(node_a) - v(node_b), per element
+  std::vector<double> element_current;   // A, from node_a through the element to node_b
+  std::vector<double> junction_voltage;  // V, diodes only (NaN for other elements)
+  std::vector<double> small_signal_res;  // Ohm, dV/dI of diodes (NaN for others)
 };
 
 // The solver's account of one solve.
@@ -95,11 +95,11 @@ struct SolveSummary {
   // The network is monotone, so its DC solution (when there is one) is unique: the
   // strictly convex potential has one minimum (Duffin 1947). Set for monotone networks.
   bool unique = false;
-  int newton_steps = 0;            // all steps, aids included
-  std::vector<std::string> aids;   // aids needed, in order ("gmin stepping", ...)
-  double max_kcl_residual = 0.0;   // A, largest |KCL residual| of the reported solution
-  std::string worst_node;          // node where that residual occurs
-  std::string detail;              // why it stopped, with the numbers
+  int newton_steps = 0;                // all steps, aids included
+  std::vector<std::string> aids;       // aids needed, in order ("gmin stepping", ...)
+  double max_kcl_residual = 0.0;       // A, largest |KCL residual| of the reported solution
+  std::string worst_node;              // node where that residual occurs
+  std::string detail;                  // why it stopped, with the numbers
   std::vector<std::string> unsettled;  // nodes/devices still moving at the end, on failure
 };
 
@@ -111,7 +111,7 @@ struct NewtonStepRecord {
   // Junction limiting shortened this step: some junction is evaluated, at the next
   // step, at a limited voltage instead of the one this update reached.
   bool limited = false;
-  std::string phase;          // "newton", "gmin 1e-3", "source 40%", ...
+  std::string phase;  // "newton", "gmin 1e-3", "source 40%", ...
   // Potential method only: the line-search step length t (x += t * dx for the node
   // voltages), the potential before the step and its change (W), the round-off scale
   // of those numbers, and the line-search trials it took.

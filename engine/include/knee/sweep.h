@@ -52,8 +52,8 @@ using ApplyPoint = std::function<std::string(std::span<const double> values, Cir
 
 // Receives each point as it is solved: `solution` is null when the point failed. Called
 // from worker threads, never twice for one index.
-using PointSink = std::function<void(long long index, const SolveSummary& summary,
-                                     const Solution* solution)>;
+using PointSink =
+    std::function<void(long long index, const SolveSummary& summary, const Solution* solution)>;
 
 struct SweepStats {
   long long points = 0;

@@ -128,8 +128,8 @@ Result<Expectation> ParseExpectOption(std::string_view text, const Circuit& circ
                                       const SourceLocation& where);
 // One number literal of netlist-format.md ("650m", "4R7", "1mA") at a place whose unit is
 // `unit` ("V", "A", "Ohm"; the unit may be omitted); `what` names the place in errors.
-Result<double> ParseNumberText(std::string_view text, std::string_view unit,
-                               std::string_view what, const SourceLocation& where);
+Result<double> ParseNumberText(std::string_view text, std::string_view unit, std::string_view what,
+                               const SourceLocation& where);
 // Only the circuit values (no requests), for sweeps over a param: the topology is the
 // same as Elaborate's for any values of the params.
 Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overrides);
