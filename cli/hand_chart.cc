@@ -6,6 +6,7 @@
 #include <cmath>
 
 #include "eng_format.h"
+#include "report_common.h"
 #include "report_hand.h"
 
 namespace knee::cli {
@@ -13,29 +14,6 @@ namespace {
 
 // Exact in a dark slate, the simplified models in three hues that stay apart in grey.
 constexpr const char* kBarColours[] = {"#2f3b4c", "#3d7cc9", "#e08a2c", "#4aa36c", "#a0529c"};
-
-std::string Escape(const std::string& text) {
-  std::string out;
-  for (char c : text) {
-    switch (c) {
-      case '<':
-        out += "&lt;";
-        break;
-      case '>':
-        out += "&gt;";
-        break;
-      case '&':
-        out += "&amp;";
-        break;
-      case '"':
-        out += "&quot;";
-        break;
-      default:
-        out += c;
-    }
-  }
-  return out;
-}
 
 // A step of 1, 2 or 5 times a power of ten giving about `count` intervals over `span`.
 double NiceStep(double span, int count) {
@@ -84,10 +62,10 @@ std::string DrawHandChart(const HandReport& r) {
   const std::string title = r.title.empty() ? r.file : r.title;
   svg += fmt::format(
       "<text x=\"{}\" y=\"24\" font-size=\"15\" font-weight=\"bold\" fill=\"#222\">{}</text>\n",
-      left, Escape(title));
+      left, XmlEscape(title));
   svg += fmt::format(
       "<text x=\"{}\" y=\"42\" fill=\"#555\">diode current under each model at {}</text>\n", left,
-      Escape(FormatEng(r.temp, "°C", 4)));
+      XmlEscape(FormatEng(r.temp, "°C", 4)));
   // Grid and current axis.
   for (double v = lo; v <= hi + step * 1e-6; v += step) {
     const double y = y_of(std::fabs(v) < step * 1e-9 ? 0.0 : v);
@@ -96,7 +74,7 @@ std::string DrawHandChart(const HandReport& r) {
                     left, left + plot_w, y, y);
     svg += fmt::format("<text x=\"{}\" y=\"{:.1f}\" text-anchor=\"end\" fill=\"#444\">{}</text>\n",
                        left - 8, y + 4,
-                       Escape(FormatEng(std::fabs(v) < step * 1e-9 ? 0.0 : v, "A", 3)));
+                       XmlEscape(FormatEng(std::fabs(v) < step * 1e-9 ? 0.0 : v, "A", 3)));
   }
   svg += fmt::format(
       "<line x1=\"{0}\" x2=\"{1}\" y1=\"{2:.1f}\" y2=\"{2:.1f}\" stroke=\"#555\" "
@@ -116,11 +94,11 @@ std::string DrawHandChart(const HandReport& r) {
       svg += fmt::format(
           "<rect x=\"{}\" y=\"{:.1f}\" width=\"{}\" height=\"{:.1f}\" fill=\"{}\">"
           "<title>{} {}: {} ({})</title></rect>\n",
-          x0 + static_cast<int>(m) * bar, y, bar - 3, h, kBarColours[m % 5], Escape(d.name),
-          Escape(r.models[m].name), Escape(FormatEng(d.i[m], "A")), Escape(d.state[m]));
+          x0 + static_cast<int>(m) * bar, y, bar - 3, h, kBarColours[m % 5], XmlEscape(d.name),
+          XmlEscape(r.models[m].name), XmlEscape(FormatEng(d.i[m], "A")), XmlEscape(d.state[m]));
     }
     svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#222\">{}</text>\n",
-                       x0 + static_cast<int>(models) * bar / 2, top + plot_h + 20, Escape(d.name));
+                       x0 + static_cast<int>(models) * bar / 2, top + plot_h + 20, XmlEscape(d.name));
   }
   // Legend.
   const int lx = left + plot_w + 24;
@@ -129,7 +107,7 @@ std::string DrawHandChart(const HandReport& r) {
     svg += fmt::format(
         "<rect x=\"{}\" y=\"{}\" width=\"14\" height=\"14\" fill=\"{}\"/>\n"
         "<text x=\"{}\" y=\"{}\" fill=\"#222\">{}{}</text>\n",
-        lx, ly, kBarColours[m % 5], lx + 20, ly + 11, Escape(r.models[m].name),
+        lx, ly, kBarColours[m % 5], lx + 20, ly + 11, XmlEscape(r.models[m].name),
         r.models[m].has_answer ? "" : " (no answer)");
   }
   svg += "</svg>\n";

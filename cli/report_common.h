@@ -14,6 +14,9 @@ size_t DisplayWidth(const std::string& text);
 std::string PadLeft(const std::string& text, size_t width);
 std::string PadRight(const std::string& text, size_t width);
 
+// Text for SVG/XML content and attribute values (&, <, > and " escaped).
+std::string XmlEscape(const std::string& text);
+
 // RFC 4180 quoting for a field that contains a comma, a quote or a line break.
 std::string CsvField(const std::string& text);
 

@@ -7,6 +7,7 @@
 #include <map>
 
 #include "eng_format.h"
+#include "report_common.h"
 
 namespace knee::cli {
 namespace {
@@ -18,29 +19,6 @@ constexpr int kLeft = 86;
 constexpr int kRight = 220;  // room for the legend
 constexpr int kTop = 62;
 constexpr int kGap = 46;
-
-std::string Escape(const std::string& text) {
-  std::string out;
-  for (char c : text) {
-    switch (c) {
-      case '<':
-        out += "&lt;";
-        break;
-      case '>':
-        out += "&gt;";
-        break;
-      case '&':
-        out += "&amp;";
-        break;
-      case '"':
-        out += "&quot;";
-        break;
-      default:
-        out += c;
-    }
-  }
-  return out;
-}
 
 struct Axis {
   double lo = 0, hi = 1;
@@ -207,7 +185,7 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
   const std::string title = report.title.empty() ? report.file : report.title;
   svg += fmt::format(
       "<text x=\"{}\" y=\"26\" font-size=\"16\" font-weight=\"bold\" fill=\"#22262b\">{}</text>\n",
-      kLeft, Escape(title + ": DC sweep at " + FormatEng(report.temp, "°C", 4)));
+      kLeft, XmlEscape(title + ": DC sweep at " + FormatEng(report.temp, "°C", 4)));
 
   // Shared x axis.
   double x_lo = INFINITY, x_hi = -INFINITY;
@@ -249,14 +227,14 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
       svg += fmt::format(
           "<line x1=\"{}\" x2=\"{}\" y1=\"{:.1f}\" y2=\"{:.1f}\" stroke=\"#e6e8eb\"/>"
           "<text x=\"{}\" y=\"{:.1f}\" text-anchor=\"end\" fill=\"#4a5058\">{}</text>\n",
-          left, right, y, y, left - 6, y + 4, Escape(FormatEng(t, unit, 3)));
+          left, right, y, y, left - 6, y + 4, XmlEscape(FormatEng(t, unit, 3)));
     }
     for (double t : x_axis.Ticks()) {
       const double x = x_axis.Map(t, left, right);
       svg += fmt::format(
           "<line x1=\"{:.1f}\" x2=\"{:.1f}\" y1=\"{}\" y2=\"{}\" stroke=\"#e6e8eb\"/>"
           "<text x=\"{:.1f}\" y=\"{}\" text-anchor=\"middle\" fill=\"#4a5058\">{}</text>\n",
-          x, x, top, bottom, x, bottom + 16, Escape(FormatEng(t, x_column.unit, 3)));
+          x, x, top, bottom, x, bottom + 16, XmlEscape(FormatEng(t, x_column.unit, 3)));
     }
     if (y_axis.lo < 0 && y_axis.hi > 0 && !y_axis.log) {
       const double y0 = y_axis.Map(0, bottom, top);
@@ -265,11 +243,11 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
           right, y0, y0);
     }
     svg += fmt::format("<text x=\"{}\" y=\"{}\" fill=\"#22262b\" font-weight=\"bold\">{}</text>\n",
-                       left, top - 8, Escape(PanelLabel(unit, log_y)));
+                       left, top - 8, XmlEscape(PanelLabel(unit, log_y)));
     svg +=
         fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
                     (left + right) / 2, bottom + 34,
-                    Escape(x_column.name +
+                    XmlEscape(x_column.name +
                            (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
     svg += fmt::format(
         "<clipPath id=\"clip{0}\"><rect x=\"{1}\" y=\"{2}\" width=\"{3}\" "
@@ -299,7 +277,7 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
       svg += fmt::format(
           "<line x1=\"{}\" x2=\"{}\" y1=\"{}\" y2=\"{}\" stroke=\"{}\" stroke-width=\"2.5\"/>"
           "<text x=\"{}\" y=\"{}\" fill=\"#22262b\">{}</text>\n",
-          right + 12, right + 32, ly, ly, colour, right + 38, ly + 4, Escape(traces[t].label));
+          right + 12, right + 32, ly, ly, colour, right + 38, ly + 4, XmlEscape(traces[t].label));
     }
     svg += "</g>\n";
   }
