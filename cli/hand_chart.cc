@@ -97,8 +97,9 @@ std::string DrawHandChart(const HandReport& r) {
           x0 + static_cast<int>(m) * bar, y, bar - 3, h, kBarColours[m % 5], XmlEscape(d.name),
           XmlEscape(r.models[m].name), XmlEscape(FormatEng(d.i[m], "A")), XmlEscape(d.state[m]));
     }
-    svg += fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#222\">{}</text>\n",
-                       x0 + static_cast<int>(models) * bar / 2, top + plot_h + 20, XmlEscape(d.name));
+    svg +=
+        fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#222\">{}</text>\n",
+                    x0 + static_cast<int>(models) * bar / 2, top + plot_h + 20, XmlEscape(d.name));
   }
   // Legend.
   const int lx = left + plot_w + 24;

@@ -244,11 +244,11 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
     }
     svg += fmt::format("<text x=\"{}\" y=\"{}\" fill=\"#22262b\" font-weight=\"bold\">{}</text>\n",
                        left, top - 8, XmlEscape(PanelLabel(unit, log_y)));
-    svg +=
-        fmt::format("<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
-                    (left + right) / 2, bottom + 34,
-                    XmlEscape(x_column.name +
-                           (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
+    svg += fmt::format(
+        "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\" fill=\"#22262b\">{}</text>\n",
+        (left + right) / 2, bottom + 34,
+        XmlEscape(x_column.name +
+                  (x_column.unit.empty() ? "" : " [" + DisplayUnit(x_column.unit) + "]")));
     svg += fmt::format(
         "<clipPath id=\"clip{0}\"><rect x=\"{1}\" y=\"{2}\" width=\"{3}\" "
         "height=\"{4}\"/></clipPath>\n",
