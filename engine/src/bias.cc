@@ -194,6 +194,12 @@ struct BiasSolver::Impl {
   bool GminLadder(SolveSummary* s, std::string* log);
   bool SourceLadder(SolveSummary* s, std::string* log);
   void Verify(SolveSummary* s);
+  // A converged run: verified on the exact model, filled in, kept for warm starts.
+  void Conclude(SolveSummary* s, Solution* solution) {
+    Verify(s);
+    if (solution != nullptr) Fill(solution);
+    if (s->status == SolveStatus::kConverged) converged = x;
+  }
   void Fill(Solution* solution) const;
 };
 
@@ -391,9 +397,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
         s.unsettled = m.potential.Unsettled(m.x);
         return s;
       }
-      m.Verify(&s);
-      if (solution != nullptr) m.Fill(solution);
-      if (s.status == SolveStatus::kConverged) m.converged = m.x;
+      m.Conclude(&s, solution);
       return s;
     }
     log = "potential: " + run.detail + "; then the classic ladder: ";
@@ -421,9 +425,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
     s.unsettled = m.newton.Unsettled(m.x);
     return s;
   }
-  m.Verify(&s);
-  if (solution != nullptr) m.Fill(solution);
-  if (s.status == SolveStatus::kConverged) m.converged = m.x;
+  m.Conclude(&s, solution);
   return s;
 }
 
