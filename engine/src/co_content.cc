@@ -26,7 +26,11 @@ double JunctionCoContent(const DiodeConstants& d, double vj) {
     const double y0 = -d.vbr / b;
     const double y = -(vj + d.vbr) / b;
     if (y <= kExpLimit && y0 <= kExpLimit) {
-      c += d.ibr * b * std::exp(y0) * std::expm1(y - y0);
+      // e^{y0} * expm1(y - y0) keeps digits when y is near y0; far from it, e^{y0} can
+      // underflow to 0 while expm1 overflows (a 400 V part reverse-biased past ~18 V),
+      // and the plain difference is exact enough.
+      c += y - y0 < 700.0 ? d.ibr * b * std::exp(y0) * std::expm1(y - y0)
+                          : d.ibr * b * (std::exp(y) - std::exp(y0));
     } else {
       c += d.ibr * b * (SafeExpIntegral(y) - SafeExpIntegral(y0));
     }

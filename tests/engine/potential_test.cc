@@ -62,6 +62,23 @@ TEST(CoContent, DerivativeIsTheCurrent) {
   EXPECT_EQ(JunctionCoContent(d, 0.0), 0.0);
 }
 
+// A high-voltage part far into reverse bias but short of breakdown: e^{-Vbr/(nbr Vt)}
+// underflows to 0 while the ratio to it overflows; the co-content must stay finite and
+// keep its derivative (regression: 0 * inf gave NaN past ~18 V on a 400 V part).
+TEST(CoContent, FiniteForAHighVoltagePartInDeepReverse) {
+  DiodeModel m;
+  m.breakdown_v = 400.0;
+  const DiodeConstants d = ComputeDiodeConstants(m, 1.0, 25.0);
+  for (double v : {-10.0, -18.0, -20.0, -100.0, -350.0}) {
+    const double c = JunctionCoContent(d, v);
+    EXPECT_TRUE(std::isfinite(c)) << v;
+    const double h = 1e-3;
+    const double numeric = (JunctionCoContent(d, v + h) - JunctionCoContent(d, v - h)) / (2 * h);
+    // Deep reverse: the current is -Is (minus a negligible breakdown term).
+    EXPECT_CLOSE(numeric, EvaluateJunction(d, v).current, 1e-3, 1e-12 * std::fabs(c) / h) << v;
+  }
+}
+
 // Second derivative = conductance >= 0 (Millar 1951: the co-content of a monotone
 // resistor is convex), checked by central differences of the current, and convexity
 // itself by the midpoint inequality on a grid across every region.
