@@ -115,7 +115,7 @@ std::string Stress(const Report& report) {
     out += fmt::format("  {} {}  {:<15}  worst {:>10}{}, rating {} ({}): {:.0f} % of rating\n",
                        s.exceeded ? "EXCEEDED" : "ok      ", PadRight(s.diode, name_width),
                        s.quantity, FormatEng(s.worst, s.unit), at, FormatEng(s.rating, s.unit),
-                       s.key, s.use_percent);
+                       s.key, std::max(0.0, s.use_percent));  // unused in that sense: 0 %
   }
   const bool any_marked = std::find(report.row_over_rating.begin(), report.row_over_rating.end(),
                                     1) != report.row_over_rating.end();
