@@ -55,6 +55,17 @@ Diagnostic MessageOnly(std::string message) {
 // The solver's own copy of a circuit: everything but the elements' source locations
 // (messages name elements; none points into the file), which for a file name longer
 // than a short string is one allocation per element.
+// Everything of an element but its name and source location.
+void CopyElementNumbers(const Element& from, Element* to) {
+  to->kind = from.kind;
+  to->node_a = from.node_a;
+  to->node_b = from.node_b;
+  to->value = from.value;
+  to->part = from.part;
+  to->area = from.area;
+  to->temp = from.temp;
+}
+
 Circuit SolverCopy(const Circuit& c) {
   Circuit copy;
   copy.title = c.title;
@@ -63,16 +74,8 @@ Circuit SolverCopy(const Circuit& c) {
   copy.parts = c.parts;
   copy.elements.resize(c.elements.size());
   for (size_t e = 0; e < c.elements.size(); ++e) {
-    const Element& f = c.elements[e];
-    Element& t = copy.elements[e];
-    t.kind = f.kind;
-    t.name = f.name;
-    t.node_a = f.node_a;
-    t.node_b = f.node_b;
-    t.value = f.value;
-    t.part = f.part;
-    t.area = f.area;
-    t.temp = f.temp;
+    copy.elements[e].name = c.elements[e].name;
+    CopyElementNumbers(c.elements[e], &copy.elements[e]);
   }
   return copy;
 }
@@ -112,13 +115,7 @@ bool AssignValues(const Circuit& from, Circuit* to) {
                            (f.kind == ElementKind::kVoltageSource && std::isfinite(f.value))))) {
       sources_only = false;
     }
-    t.kind = f.kind;
-    t.node_a = f.node_a;
-    t.node_b = f.node_b;
-    t.value = f.value;
-    t.part = f.part;
-    t.area = f.area;
-    t.temp = f.temp;
+    CopyElementNumbers(f, &t);
   }
   return sources_only;
 }

@@ -182,16 +182,22 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
   std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
 }
 
-std::vector<std::string> NewtonSolver::Unsettled(std::span<const double> x) const {
+std::vector<std::string> UnsettledUnknowns(const MnaSystem& mna, const SolverOptions& options,
+                                           std::span<const double> dx, std::span<const double> x) {
   std::vector<std::string> names;
-  for (int u = 0; u < mna_->size(); ++u) {
+  for (int u = 0; u < mna.size(); ++u) {
     const auto i = static_cast<size_t>(u);
     const double abs_tol =
-        mna_->IsCurrentUnknown(u) ? options_.abs_current_tol : options_.abs_voltage_tol;
-    if (!(std::fabs(dx_[i]) <= abs_tol + options_.rel_tol * std::fabs(x[i]))) {
-      names.push_back(fmt::format("{} (last change {:.3g})", mna_->UnknownName(u), dx_[i]));
+        mna.IsCurrentUnknown(u) ? options.abs_current_tol : options.abs_voltage_tol;
+    if (!(std::fabs(dx[i]) <= abs_tol + options.rel_tol * std::fabs(x[i]))) {
+      names.push_back(fmt::format("{} (last change {:.3g})", mna.UnknownName(u), dx[i]));
     }
   }
+  return names;
+}
+
+std::vector<std::string> NewtonSolver::Unsettled(std::span<const double> x) const {
+  std::vector<std::string> names = UnsettledUnknowns(*mna_, options_, dx_, x);
   for (const auto& device : mna_->devices()) {
     if (device->limited()) {
       names.push_back(

@@ -42,6 +42,11 @@ ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
 // both plus the round-off allowance of row r.
 ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options);
 
+// "NAME (last change D)" for every unknown whose last update `dx` at `x` broke the update
+// tolerance of CheckUpdate: what a failed run reports as still moving.
+std::vector<std::string> UnsettledUnknowns(const MnaSystem& mna, const SolverOptions& options,
+                                           std::span<const double> dx, std::span<const double> x);
+
 class NewtonSolver {
  public:
   NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size);

@@ -721,16 +721,7 @@ void PotentialSolver::Polish(std::span<double> x) {
 }
 
 std::vector<std::string> PotentialSolver::Unsettled(std::span<const double> x) const {
-  std::vector<std::string> names;
-  for (int u = 0; u < mna_->size(); ++u) {
-    const auto i = static_cast<size_t>(u);
-    const double abs_tol =
-        mna_->IsCurrentUnknown(u) ? options_.abs_current_tol : options_.abs_voltage_tol;
-    if (!(std::fabs(dx_[i]) <= abs_tol + options_.rel_tol * std::fabs(x[i]))) {
-      names.push_back(fmt::format("{} (last change {:.3g})", mna_->UnknownName(u), dx_[i]));
-    }
-  }
-  return names;
+  return UnsettledUnknowns(*mna_, options_, dx_, x);
 }
 
 }  // namespace knee::internal
