@@ -345,8 +345,8 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
     m.mna.UpdateValues(circuit);
     return;
   }
-  // A diode's series_res became zero or non-zero: its internal node appears or goes, so
-  // the unknowns and the pattern are rebuilt (and warm starts of the old size are ignored).
+  // The structure changed: the unknowns and the pattern are rebuilt (and warm starts of
+  // the old size are ignored).
   m.mna = MnaSystem(m.circuit);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.potential = internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size());

@@ -13,6 +13,12 @@ namespace knee::internal {
 
 // Relative rounding of a difference of two doubles (unit round-off, IEEE 754 binary64).
 constexpr double kJunctionRounding = 1.1102230246251565e-16;
+// FallingStep trusts a predicted current down to this fraction of the branch's scale
+// above its reverse limit (at most about 14 n*Vt into reverse bias).
+constexpr double kFallingFloor = 1e-6;
+// ... and acts only where Newton's line predicts a fall of the current below this
+// fraction of its present value (a step of more than about 0.9 n*Vt).
+constexpr double kFallingFraction = 0.1;
 
 void StampContext::AddCurrent(int row, double i) {
   if (row < 0) return;
@@ -165,26 +171,24 @@ class CurrentSource final : public Device {
   double i_ = 0;
 };
 
-// Anode a, cathode b; with series_res > 0 the junction sits between the internal node j
-// and b, and series_res/area between a and j. Otherwise j == a.
+// Anode a, cathode b. The series resistance is part of the device: the junction voltage
+// vj is the root of v(a) - v(b) = vj + rs*I(vj), solved inside the device, and the device
+// stamps the two-terminal conductance g/(1 + rs*g). An internal node between rs and the
+// junction would carry 1/rs + g on its diagonal, and where g < eps/rs (a junction in
+// reverse, a few pA against milliohms) the sum rounds to 1/rs: the node pair between two
+// such diodes is then singular in floating point, although the exact equations determine
+// it. The two-terminal form keeps every node's equation in its own current scale.
 class Diode final : public Device {
  public:
-  Diode(const Circuit& c, int element, int internal) : Device(element) {
+  Diode(const Circuit& c, int element) : Device(element) {
     const Element& e = c.elements[static_cast<size_t>(element)];
     a_ = UnknownOfNode(e.node_a);
     b_ = UnknownOfNode(e.node_b);
-    j_ = internal >= 0 ? internal : a_;
     KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
     UpdateValues(c, {});
   }
-  void DeclareEntries(EntryCollector& c) override {
-    junction_.Declare(c, j_, b_);
-    if (j_ != a_) series_.Declare(c, a_, j_);
-  }
-  void BindSlots(std::span<const int> slot_of) override {
-    junction_.Bind(slot_of);
-    series_.Bind(slot_of);
-  }
+  void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
+  void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
   void UpdateValues(const Circuit& c, std::span<const char> part_changed) override {
     const Element& e = c.elements[static_cast<size_t>(element())];
     const DiodeModel& model = c.parts[static_cast<size_t>(e.part)].model;
@@ -201,23 +205,21 @@ class Diode final : public Device {
     have_inputs_ = true;
     d_ = ComputeDiodeConstants(model, e.area, temp);
     limits_ = ComputeJunctionLimits(d_);
-    // The internal node exists iff series_res > 0 at Create(); values may not remove it.
-    KNEE_CHECK((j_ != a_) == (d_.rs > 0.0));
-    g_series_ = d_.rs > 0.0 ? 1.0 / d_.rs : 0.0;
     resolution_scale_ = d_.has_breakdown ? std::min(d_.n_vt, d_.nbr_vt) : d_.n_vt;
   }
   void BeginRun(std::span<const double> x) override {
-    last_vj_ = At(x, j_) - At(x, b_);
+    last_vj_ = JunctionVoltageAt(d_, At(x, a_) - At(x, b_), 0.0);
     limited_ = false;
   }
   bool Stamp(StampContext& ctx) override {
-    const double vj = ctx.X(j_) - ctx.X(b_);
-    // vj is a difference of two node voltages. Where their rounding reaches a thousandth
-    // of the junction's thermal scale (node voltages near 1e11 V), the numbers no longer
-    // determine the diode's current at all, whatever the KCL residual says: such a point
-    // is never accepted as a solution (newton.cc, bias.cc Verify).
+    const double v = ctx.X(a_) - ctx.X(b_);
+    const double vj = JunctionVoltageAt(d_, v, last_vj_);
+    // vj comes from a difference of two node voltages. Where their rounding reaches a
+    // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
+    // no longer determine the diode's current at all, whatever the KCL residual says:
+    // such a point is never accepted as a solution (newton.cc, bias.cc Verify).
     if (ctx.unresolved_element < 0 &&
-        kJunctionRounding * (std::fabs(ctx.X(j_)) + std::fabs(ctx.X(b_))) >
+        kJunctionRounding * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) >
             1e-3 * resolution_scale_) {
       ctx.unresolved_element = element();
     }
@@ -226,44 +228,36 @@ class Diode final : public Device {
     limited_ = at != vj;
     ctx.limited = ctx.limited || limited_;
     last_vj_ = at;
-    // Linearisation of the junction at the (possibly limited) point `at`, evaluated at vj:
-    // exact when no limiting happened.
+    // Linearisation at the (possibly limited) junction point `at`, whose terminal voltage
+    // is at + rs*I(at), evaluated at v: the exact current when no limiting happened.
     const JunctionPoint p = EvaluateJunction(d_, at);
-    const double i = p.current + p.conductance * (vj - at);
+    double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
+    if (ctx.junction_floor) g = std::max(g, d_.is / d_.n_vt);
+    const double g_exact = TwoTerminal(p.conductance);
+    const double i = limited_ ? p.current + g_exact * (v - (at + d_.rs * p.current)) : p.current;
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
     ctx.max_exponent = std::max(ctx.max_exponent, vj / d_.n_vt);
     if (d_.has_breakdown) {
       ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d_.vbr) / d_.nbr_vt);
     }
-    double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
-    if (ctx.junction_floor) g = std::max(g, d_.is / d_.n_vt);
-    junction_.Stamp(ctx, g);
-    ctx.AddCurrent(j_, i);
+    slots_.Stamp(ctx, TwoTerminal(g));
+    ctx.AddCurrent(a_, i);
     ctx.AddCurrent(b_, -i);
-    // Rounding of vj itself moves the current by g * eps * (|v(j)| + |v(b)|).
-    const double terms =
-        p.conductance * (std::fabs(ctx.X(j_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr;
-    ctx.AddMagnitude(j_, terms);
+    // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|).
+    const double terms = g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr;
+    ctx.AddMagnitude(a_, terms);
     ctx.AddMagnitude(b_, terms);
-    // Junction co-content at vj itself (the potential method never limits junctions).
-    if (ctx.want_potential) ctx.AddPotential(JunctionCoContent(d_, vj));
-    if (j_ != a_) {
-      const double is = g_series_ * (ctx.X(a_) - ctx.X(j_));
-      if (!std::isfinite(is)) return false;
-      series_.Stamp(ctx, g_series_);
-      ctx.AddCurrent(a_, is);
-      ctx.AddCurrent(j_, -is);
-      const double series_terms = g_series_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(j_)));
-      ctx.AddMagnitude(a_, series_terms);
-      ctx.AddMagnitude(j_, series_terms);
-      if (ctx.want_potential) ctx.AddPotential(0.5 * is * (ctx.X(a_) - ctx.X(j_)));
+    // Co-content of junction and series resistance at v: with v = vj + rs*I(vj),
+    // the integral of I dv is the junction's integral of I dvj plus rs*I^2/2.
+    if (ctx.want_potential) {
+      ctx.AddPotential(JunctionCoContent(d_, vj) + 0.5 * d_.rs * p.current * p.current);
     }
     return true;
   }
   DeviceReport Measure(std::span<const double> x) const override {
     DeviceReport r;
     r.voltage = At(x, a_) - At(x, b_);
-    r.junction_voltage = At(x, j_) - At(x, b_);
+    r.junction_voltage = JunctionVoltageAt(d_, r.voltage, last_vj_);
     const JunctionPoint p = EvaluateJunction(d_, r.junction_voltage);
     r.current = p.current;
     r.small_signal_res = 1.0 / p.conductance + d_.rs;
@@ -272,17 +266,18 @@ class Diode final : public Device {
   bool limited() const override { return limited_; }
 
  private:
-  int a_ = -1, b_ = -1, j_ = -1;
+  // Conductance of the junction (g) in series with rs.
+  double TwoTerminal(double g) const { return d_.rs > 0.0 ? g / (1.0 + d_.rs * g) : g; }
+
+  int a_ = -1, b_ = -1;
   double resolution_scale_ = 0.0;  // V: the smaller thermal scale of the junction law
   DiodeConstants d_;
   JunctionLimits limits_;
   double area_ = 0, temp_ = 0;  // inputs d_ was computed from (with the part's model)
   bool have_inputs_ = false;
-  double g_series_ = 0;
   double last_vj_ = 0;
   bool limited_ = false;
-  ConductanceSlots junction_;
-  ConductanceSlots series_;
+  ConductanceSlots slots_;
 };
 
 // Above the critical voltage the exponential's slope grows so fast that the linearised
@@ -294,6 +289,30 @@ double CriticalVoltage(double i_scale, double n_vt) {
 
 double LogStep(double base, double proposed, double n_vt) {
   return base + n_vt * std::log1p((proposed - base) / n_vt);
+}
+
+// The inverse of SafeExp for y > 0.
+double SafeLog(double y) {
+  const double top = std::exp(kExpLimit);
+  return y <= top ? std::log(y) : kExpLimit + (y / top - 1.0);
+}
+
+// A falling step of an exponential branch i_scale*(SafeExp(w/n_vt) - 1) from `previous`
+// to `proposed`: Newton's line for the branch predicts the current i_pred there. From
+// far up the exponential, Newton moves by only about n_vt per step toward a much
+// smaller current (the tangent reaches zero current one n_vt below the point), so a
+// junction that must come down by volts would crawl for hundreds of steps. The voltage
+// at which the law itself carries i_pred is where the step is headed: it is taken
+// instead (at or below `proposed`, since the tangent of a convex law lies below it).
+// Returns `proposed` when the prediction is at or beyond the branch's reverse limit.
+double FallingStep(double previous, double proposed, double i_scale, double n_vt) {
+  const double x = previous / n_vt;
+  const double now = i_scale * (SafeExp(x) - 1.0);
+  const double predicted = now + i_scale / n_vt * SafeExpSlope(x) * (proposed - previous);
+  if (!(predicted < kFallingFraction * now)) return proposed;  // Newton's step is fine
+  const double ratio = 1.0 + predicted / i_scale;
+  if (!(ratio > kFallingFloor)) return proposed;
+  return std::min(proposed, n_vt * SafeLog(ratio));
 }
 
 }  // namespace
@@ -318,6 +337,9 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
     const double base = std::max(previous, v_crit);
     if (proposed > base) return LogStep(base, proposed, d.n_vt);
   }
+  if (previous > 0.0 && proposed < previous) {
+    proposed = FallingStep(previous, proposed, d.is, d.n_vt);
+  }
   if (d.has_breakdown) {
     // Breakdown side, mirrored: u = -(vj + vbr) plays the role of the forward voltage.
     const double u_crit = limits.u_crit;
@@ -326,6 +348,9 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
     if (u_prop > u_crit && u_prop - u_prev > 2.0 * d.nbr_vt) {
       const double base = std::max(u_prev, u_crit);
       if (u_prop > base) return -LogStep(base, u_prop, d.nbr_vt) - d.vbr;
+    }
+    if (u_prev > 0.0 && u_prop < u_prev) {
+      return -FallingStep(u_prev, u_prop, d.ibr, d.nbr_vt) - d.vbr;
     }
   }
   return proposed;
@@ -388,8 +413,8 @@ void DeviceStore::AddCurrentSource(const Circuit& circuit, int element) {
   Append(arrays_->isources, CurrentSource(circuit, element), kCurrentSourceTag, arrays_->order,
          all_);
 }
-void DeviceStore::AddDiode(const Circuit& circuit, int element, int internal) {
-  Append(arrays_->diodes, Diode(circuit, element, internal), kDiodeTag, arrays_->order, all_);
+void DeviceStore::AddDiode(const Circuit& circuit, int element) {
+  Append(arrays_->diodes, Diode(circuit, element), kDiodeTag, arrays_->order, all_);
 }
 
 int DeviceStore::Stamp(StampContext& ctx) {
@@ -431,8 +456,8 @@ std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, i
 std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element) {
   return std::make_unique<CurrentSource>(circuit, element);
 }
-std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element, int internal) {
-  return std::make_unique<Diode>(circuit, element, internal);
+std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element) {
+  return std::make_unique<Diode>(circuit, element);
 }
 
 }  // namespace knee::internal

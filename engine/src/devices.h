@@ -129,8 +129,7 @@ std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element);
 // `branch` is the unknown index of the source current.
 std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, int branch);
 std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element);
-// `internal` is the unknown index of the internal node, or -1 when series_res == 0.
-std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element, int internal);
+std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element);
 
 // Every device of a circuit, kept by kind in flat arrays (one allocation per kind rather
 // than one per device) and stamped in element order by direct, non-virtual calls. The
@@ -147,7 +146,7 @@ class DeviceStore {
   void AddResistor(const Circuit& circuit, int element);
   void AddVoltageSource(const Circuit& circuit, int element, int branch);
   void AddCurrentSource(const Circuit& circuit, int element);
-  void AddDiode(const Circuit& circuit, int element, int internal);
+  void AddDiode(const Circuit& circuit, int element);
   // Every device in the order added; valid once all devices are added.
   const std::vector<Device*>& all() const { return all_; }
   // Stamps every device; returns the element of the first one with a non-finite value,

@@ -1,6 +1,7 @@
 // The diode law of the netlist contract: junction (Shockley) term, breakdown term,
 // temperature laws. The equations and their sources are in docs/model.md.
 #include <cmath>
+#include <limits>
 
 #include "knee/diode_law.h"
 
@@ -53,6 +54,8 @@ namespace {
 constexpr double kExpUnderflow = -746.0;
 // Below this exponent expm1() is exactly -1 (e^-40 < 2^-54, half an ulp of 1).
 constexpr double kExpm1Saturation = -40.0;
+// Enough for bisection to narrow any bracket of doubles to adjacent numbers.
+constexpr int kJunctionSolveIterations = 200;
 
 double ExpOrZero(double x) { return x < kExpUnderflow ? 0.0 : std::exp(x); }
 
@@ -80,6 +83,39 @@ JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
     p.conductance += d.ibr / d.nbr_vt * e;
   }
   return p;
+}
+
+// The junction voltage of a diode with series resistance at terminal voltage v: the
+// root of h(vj) = vj + rs*I(vj) - v. h rises with slope 1 + rs*g >= 1, so from any guess
+// g the point g - h(g) lies on the other side of the root: a bracket in one evaluation.
+// Newton's method inside the bracket, bisection where Newton would leave it.
+double JunctionVoltageAt(const DiodeConstants& d, double v, double guess) {
+  if (!(d.rs > 0.0)) return v;
+  const auto h = [&](double vj, double* slope) {
+    const JunctionPoint p = EvaluateJunction(d, vj);
+    *slope = 1.0 + d.rs * p.conductance;
+    return vj + d.rs * p.current - v;
+  };
+  double x = std::isfinite(guess) ? guess : v;
+  double slope = 1.0;
+  double f = h(x, &slope);
+  if (f == 0.0 || !std::isfinite(f)) return x;
+  double lo = f > 0.0 ? x - f : x;
+  double hi = f > 0.0 ? x : x - f;
+  for (int k = 0; k < kJunctionSolveIterations; ++k) {
+    double next = x - f / slope;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    const double change = std::fabs(next - x);
+    x = next;
+    f = h(x, &slope);
+    if (f == 0.0 || !std::isfinite(f)) break;
+    (f > 0.0 ? hi : lo) = x;
+    if (change <= 4.0 * std::numeric_limits<double>::epsilon() * (std::fabs(x) + std::fabs(v)) ||
+        !(lo < hi)) {
+      break;
+    }
+  }
+  return x;
 }
 
 }  // namespace knee

@@ -18,11 +18,6 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
          p.sat_temp_exp == q.sat_temp_exp && p.ref_temp == q.ref_temp;
 }
 
-bool NeedsInternalNode(const Circuit& c, const Element& e) {
-  return e.kind == ElementKind::kDiode &&
-         c.parts[static_cast<size_t>(e.part)].model.series_res > 0.0;
-}
-
 }  // namespace
 
 MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
@@ -30,12 +25,6 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
   int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
   shape_.reserve(c.elements.size());
   for (const Element& e : c.elements) shape_.emplace_back(e.kind, e.node_a, e.node_b);
-  internal_of_element_.assign(c.elements.size(), -1);
-  for (size_t e = 0; e < c.elements.size(); ++e) {
-    if (!NeedsInternalNode(c, c.elements[e])) continue;
-    internal_of_element_[e] = next++;
-    element_of_extra_.push_back(static_cast<int>(e));
-  }
   kcl_rows_ = next;
   part_models_.reserve(c.parts.size());
   for (const Part& part : c.parts) part_models_.push_back(part.model);
@@ -58,7 +47,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
         devices_.AddCurrentSource(c, e);
         break;
       case ElementKind::kDiode:
-        devices_.AddDiode(c, e, internal_of_element_[static_cast<size_t>(e)]);
+        devices_.AddDiode(c, e);
         break;
     }
   }
@@ -117,7 +106,7 @@ std::string MnaSystem::UnknownName(int u) const {
   if (u < nodes) return circuit_->nodes[static_cast<size_t>(u) + 1];
   const Element& e =
       circuit_->elements[static_cast<size_t>(element_of_extra_[static_cast<size_t>(u - nodes)])];
-  return e.name + (u < kcl_rows_ ? ":internal" : ":current");
+  return e.name + ":current";
 }
 
 AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAids& aids) {
@@ -182,7 +171,6 @@ bool MnaSystem::StructureMatches(const Circuit& c) const {
   for (size_t e = 0; e < c.elements.size(); ++e) {
     const Element& el = c.elements[e];
     if (std::make_tuple(el.kind, el.node_a, el.node_b) != shape_[e]) return false;
-    if (NeedsInternalNode(c, el) != (internal_of_element_[e] >= 0)) return false;
   }
   return true;
 }

@@ -1,6 +1,6 @@
 // Modified nodal analysis: the unknown layout, the sparsity pattern (built once) and the
 // assembly pass that refills the Jacobian values and the residual F(x) for Newton's
-// J dx = -F(x). Layout: [circuit nodes 1..N-1][diode internal nodes][vsource currents].
+// J dx = -F(x). Layout: [circuit nodes 1..N-1][vsource currents].
 #pragma once
 
 #include <memory>
@@ -16,7 +16,7 @@ namespace knee::internal {
 
 // Convergence aids and the limiting switch for one assembly pass.
 struct AssemblyAids {
-  double gmin = 0.0;          // S from every node row (internal nodes included) to gnd
+  double gmin = 0.0;          // S from every node row to gnd
   double source_scale = 1.0;  // multiplies every independent source
   bool limit_junctions = false;
   bool want_potential = false;  // also evaluate the network's co-content (potential method)
@@ -44,11 +44,11 @@ class MnaSystem {
   MnaSystem& operator=(MnaSystem&&) = default;
 
   int size() const { return size_; }
-  // Rows [0, kcl_rows()) are KCL rows (nodes and internal nodes); the rest are vsource
+  // Rows [0, kcl_rows()) are KCL rows (the circuit's nodes); the rest are vsource
   // branch equations whose unknowns are currents.
   int kcl_rows() const { return kcl_rows_; }
   bool IsCurrentUnknown(int u) const { return u >= kcl_rows_; }
-  // "node", "D1:internal" or "V1:current"; built on demand (messages only).
+  // "node" or "V1:current"; built on demand (messages only).
   std::string UnknownName(int u) const;
 
   std::span<const int> col_ptr() const { return col_ptr_; }
@@ -88,10 +88,9 @@ class MnaSystem {
   int size_ = 0;
   std::vector<std::tuple<ElementKind, int, int>> shape_;  // per element, for StructureMatches
   int kcl_rows_ = 0;
-  std::vector<int> element_of_extra_;     // element of each unknown after the circuit nodes
-  std::vector<DiodeModel> part_models_;   // the models of the last build or update
-  std::vector<char> part_changed_;        // per part, during UpdateValues
-  std::vector<int> internal_of_element_;  // unknown index of a diode's internal node, or -1
+  std::vector<int> element_of_extra_;    // element of each unknown after the circuit nodes
+  std::vector<DiodeModel> part_models_;  // the models of the last build or update
+  std::vector<char> part_changed_;       // per part, during UpdateValues
   DeviceStore devices_;
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row

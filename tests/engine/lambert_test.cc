@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "circuit_builder.h"
+#include "knee/diode_law.h"
 #include "knee/solver.h"
 #include "test_util.h"
 
@@ -137,6 +138,32 @@ TEST(LambertBreakdown, ZenerClampCurrentMatchesLambertW) {
 INSTANTIATE_TEST_SUITE_P(Diodes, LambertTest,
                          ::testing::Values(LambertCase{0.0, 1.0, 1.0}, LambertCase{0.0, 4.0, 1.8},
                                            LambertCase{2.0, 1.0, 1.0}, LambertCase{5.0, 2.0, 1.3}));
+
+// The diode device solves its own series resistance (JunctionVoltageAt): at terminal
+// voltage V the junction's current must be the Lambert W current with R = series_res
+// alone, from any starting guess (far below, far above, at the answer, not finite).
+TEST(JunctionVoltageAt, CurrentMatchesLambertWFromAnyGuess) {
+  DiodeModel model;
+  model.sat_current = 2e-13;
+  model.ideality = 1.6;
+  model.series_res = 0.35;
+  const double temp = 40.0;
+  const DiodeConstants d = ComputeDiodeConstants(model, 1.0, temp);
+  const double n_vt = model.ideality * kK * (temp + 273.15) / kQ;
+  const double is = SatCurrent(model.sat_current, model.ideality, model.bandgap,
+                               model.sat_temp_exp, model.ref_temp, temp);
+  for (double v : {-400.0, -5.0, -0.01, 0.0, 1e-9, 0.3, 0.6, 0.9, 2.0, 30.0, 4000.0}) {
+    const double exact = ExactCurrent(v, model.series_res, is, n_vt);
+    for (double guess : {0.0, -1e4, 1e4, v, std::nan("")}) {
+      const double vj = JunctionVoltageAt(d, v, guess);
+      const double current = EvaluateJunction(d, vj).current;
+      // Relative 1e-10 (the round-off of v = vj + rs*I amplified by the junction's
+      // slope), floor 1e-24 A where the current is Is-sized.
+      EXPECT_CLOSE(current, exact, 1e-10, 1e-24) << "v " << v << " guess " << guess;
+      EXPECT_NEAR(vj + model.series_res * current, v, 1e-12 * (1.0 + std::fabs(v)));
+    }
+  }
+}
 
 }  // namespace
 }  // namespace knee

@@ -28,7 +28,7 @@ Circuit TestCircuit() {
   b.D("D1", "a", "k", part, 2.0);
   b.R("R2", "k", "gnd", 2e3);
   b.I("I1", "gnd", "k", 1e-3);
-  b.D("D2", "k", "gnd", part);  // same part: an internal node of its own
+  b.D("D2", "k", "gnd", part);  // same part
   return b.circuit();
 }
 
@@ -47,12 +47,13 @@ std::vector<std::vector<double>> Dense(const MnaSystem& mna) {
 TEST(Mna, LayoutAndPattern) {
   const Circuit c = TestCircuit();
   MnaSystem mna(c);
-  // Nodes in, a, k; internal nodes of D1 and D2; the current of V1.
-  ASSERT_EQ(mna.size(), 6);
-  EXPECT_EQ(mna.kcl_rows(), 5);
-  EXPECT_EQ(mna.UnknownName(3), "D1:internal");
-  EXPECT_EQ(mna.UnknownName(5), "V1:current");
-  EXPECT_TRUE(mna.IsCurrentUnknown(5));
+  // Nodes in, a, k and the current of V1: a diode's series resistance is inside the
+  // device (devices.cc, Diode), so it adds no unknown.
+  ASSERT_EQ(mna.size(), 4);
+  EXPECT_EQ(mna.kcl_rows(), 3);
+  EXPECT_EQ(mna.UnknownName(3), "V1:current");
+  EXPECT_TRUE(mna.IsCurrentUnknown(3));
+  EXPECT_FALSE(mna.IsCurrentUnknown(2));
   // CSC: sorted, duplicate-free row indices per column.
   for (int col = 0; col < mna.size(); ++col) {
     for (int k = mna.col_ptr()[static_cast<size_t>(col)] + 1;
@@ -97,9 +98,12 @@ TEST(Mna, JacobianMatchesFiniteDifferences) {
   // n*Vt at 25 degC (Vt = 25.693 mV, rounded): only used to place a bias point 3 units of
   // exponent above kExpLimit, so the rounding does not matter.
   const double n_vt = 1.3 * 0.025693;
-  // x = [in, a, k, D1:internal, D2:internal, V1:current]; D1's junction is internal - k.
+  // x = [in, a, k, V1:current]; D1 (area 2) from a to k is placed at junction voltage vj:
+  // its terminal voltage is vj + rs*I(vj).
+  const DiodeConstants d1 = ComputeDiodeConstants(c.parts[0].model, 2.0, c.temp);
   const auto at = [&](double vj) {
-    return std::vector<double>{3.0, 2.0, 1.0, 1.0 + vj, 0.4, -1e-3};
+    const double v = vj + d1.rs * EvaluateJunction(d1, vj).current;
+    return std::vector<double>{3.0, 1.0 + v, 1.0, -1e-3};
   };
   ExpectJacobianMatches(mna, at(-2.0), "reverse");
   ExpectJacobianMatches(mna, at(0.45), "knee");
@@ -116,11 +120,11 @@ TEST(Mna, SourceScaleAndGminEnterTheResidual) {
   aids.source_scale = 0.5;
   ASSERT_TRUE(mna.Assemble(zero, aids).finite);
   // V1's branch row: v(in) - v(gnd) - 0.5 * 3 V. I1 delivers 0.5 mA into k: F[k] = -0.5 mA.
-  EXPECT_DOUBLE_EQ(mna.residual()[5], -1.5);
+  EXPECT_DOUBLE_EQ(mna.residual()[3], -1.5);
   EXPECT_NEAR(mna.residual()[2], -0.5e-3, 1e-15);
   std::vector<double> one(static_cast<size_t>(mna.size()), 0.0);
   one[0] = 1.0;
-  one[5] = 0.0;
+  one[3] = 0.0;
   aids = {};
   aids.gmin = 1e-3;
   ASSERT_TRUE(mna.Assemble(one, aids).finite);

@@ -42,6 +42,10 @@ struct JunctionPoint {
 inline constexpr double kExpLimit = 80.0;
 JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj);
 
+// The junction voltage of a diode with series resistance d.rs at terminal voltage v (the
+// root of v = vj + rs*I(vj)); `guess` is where the search starts. v itself when rs == 0.
+double JunctionVoltageAt(const DiodeConstants& d, double v, double guess);
+
 // exp(x) for x <= kExpLimit, exp(kExpLimit) * (1 + x - kExpLimit) above.
 double SafeExp(double x);
 // d/dx SafeExp(x): exp(x) for x <= kExpLimit, exp(kExpLimit) above.
