@@ -35,9 +35,13 @@ struct ToleranceCheck {
   bool passed() const { return index < 0 || value <= bound; }
 };
 
-// |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns).
+// |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns), plus
+// kNoiseFactor*|noise_u| when `noise` is given: the part of a step that the residual's
+// round-off alone would cause (NewtonSolver::NoiseFloor).
+inline constexpr double kNoiseFactor = 4.0;
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
-                           std::span<const double> dx, std::span<const double> x);
+                           std::span<const double> dx, std::span<const double> x,
+                           std::span<const double> noise = {});
 // KCL rows: |F_r| <= abs_current_tol + rel_tol*flow_r; branch rows: |F_r| <= abs_voltage_tol;
 // both plus the round-off allowance of row r.
 ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options);
@@ -66,12 +70,14 @@ class NewtonSolver {
   bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
   LinearStatus SolveRegularized(std::span<double> dx);
   void Polish(const AssemblyAids& aids, std::span<double> x);
+  bool NoiseFloor();
 
   MnaSystem* mna_;
   KluSolver* klu_;
   SolverOptions options_;
   std::vector<double> dx_;
   std::vector<double> saved_x_;
+  std::vector<double> noise_;        // J^-1 times the residual's round-off allowance
   std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
 };
 

@@ -150,8 +150,8 @@ TEST(JunctionVoltageAt, CurrentMatchesLambertWFromAnyGuess) {
   const double temp = 40.0;
   const DiodeConstants d = ComputeDiodeConstants(model, 1.0, temp);
   const double n_vt = model.ideality * kK * (temp + 273.15) / kQ;
-  const double is = SatCurrent(model.sat_current, model.ideality, model.bandgap,
-                               model.sat_temp_exp, model.ref_temp, temp);
+  const double is = SatCurrent(model.sat_current, model.ideality, model.bandgap, model.sat_temp_exp,
+                               model.ref_temp, temp);
   for (double v : {-400.0, -5.0, -0.01, 0.0, 1e-9, 0.3, 0.6, 0.9, 2.0, 30.0, 4000.0}) {
     const double exact = ExactCurrent(v, model.series_res, is, n_vt);
     for (double guess : {0.0, -1e4, 1e4, v, std::nan("")}) {
