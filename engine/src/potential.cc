@@ -338,6 +338,7 @@ PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOpt
       options_(options),
       dx_(static_cast<size_t>(size), 0.0),
       base_(static_cast<size_t>(size), 0.0),
+      noise_(static_cast<size_t>(size), 0.0),
       branch_dv_(static_cast<size_t>(size - mna->kcl_rows()), 0.0) {}
 
 // d/dt of the potential at x along the node-voltage part dv of dx_: the gradient of the
@@ -598,6 +599,11 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     potential_magnitude = accepted.potential_magnitude;
     base_exponent = accepted.max_exponent;
     update = CheckUpdate(*mna_, options_, dx_, x);
+    // As in the classic loop (NewtonSolver::NoiseFloor): where the residual passed, the
+    // part of the step that the residual's round-off alone causes is not a move.
+    if (!update.passed() && residual.passed() && feasible && NoiseFloor()) {
+      update = CheckUpdate(*mna_, options_, dx_, x, noise_);
+    }
     if (!std::isfinite(update.value)) {
       outcome.exit = NewtonExit::kNonFinite;
       outcome.detail = fmt::format("step {}: the update of '{}' is not finite", step,
@@ -694,6 +700,15 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   *t_out = lo;
   *trials_out = trials + 1;
   return accepted->finite;
+}
+
+// noise_ = J^-1 a, a the round-off allowance of every row, with the factorisation of
+// the last Newton direction. False if the solve fails.
+bool PotentialSolver::NoiseFloor() {
+  for (int r = 0; r < mna_->size(); ++r) {
+    noise_[static_cast<size_t>(r)] = mna_->RoundOffAllowance(r);
+  }
+  return klu_->Solve(noise_) == LinearStatus::kOk;
 }
 
 // Switches the Hessian modification on or off; the Jacobian at x is assembled again when

@@ -105,12 +105,14 @@ class PotentialSolver {
   bool SolveStep(NewtonOutcome* outcome);
   bool FeasibilityStep(std::span<double> x, NewtonOutcome* outcome);
   void Polish(std::span<double> x);
+  bool NoiseFloor();
 
   MnaSystem* mna_;
   KluSolver* klu_;
   SolverOptions options_;
   std::vector<double> dx_;
   std::vector<double> base_;
+  std::vector<double> noise_;      // J^-1 times the residual's round-off allowance
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
   int evaluations_ = 0;
   double stiff_ = 1.0;
