@@ -58,9 +58,10 @@ std::vector<std::string> DisplayChars(std::string_view line) {
 }
 
 std::string Place(const SourceLocation& where) {
-  if (where.line <= 0) return where.file.empty() ? "" : where.file + ": ";
-  if (where.column <= 0) return fmt::format("{}:{}: ", where.file, where.line);
-  return fmt::format("{}:{}:{}: ", where.file, where.line, where.column);
+  const std::string& file = where.file;
+  if (where.line <= 0) return file.empty() ? "" : file + ": ";
+  if (where.column <= 0) return fmt::format("{}:{}: ", file, where.line);
+  return fmt::format("{}:{}:{}: ", file, where.line, where.column);
 }
 
 // Optimal string alignment distance (Levenshtein with adjacent transpositions).

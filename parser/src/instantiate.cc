@@ -752,7 +752,7 @@ class Elaborator {
 
   const Netlist& netlist_;
   const NetlistData& d_;
-  const std::string& file_;
+  const FileName file_;  // shared by the location of every element and part
   const Overrides& overrides_;
   std::vector<Diagnostic> errors_;
   NameTable names_;

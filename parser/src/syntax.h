@@ -21,7 +21,7 @@ struct Span {
   int length = 1;
 };
 
-inline SourceLocation ToLocation(const std::string& file, const Span& span) {
+inline SourceLocation ToLocation(const FileName& file, const Span& span) {
   if (span.line == 0) return SourceLocation{file, 0, 0, 1};
   return SourceLocation{file, span.line, span.column, span.length};
 }
@@ -112,7 +112,7 @@ struct ExpectStmt {
 };
 
 struct NetlistData {
-  std::string file_name;
+  FileName file_name;
   std::optional<std::string> title;
   Span title_span;
   std::optional<Value> temp;

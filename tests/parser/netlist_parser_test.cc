@@ -12,6 +12,7 @@ namespace {
 using testing::AllErrors;
 using testing::Brief;
 using testing::ElementValue;
+using testing::kFile;
 using testing::MustBuild;
 using testing::OnlyError;
 using testing::ParseErrors;
@@ -159,6 +160,19 @@ TEST(NetlistParserTest, ContinuationAndCommentsAndCrLf) {
 TEST(NetlistParserTest, ArrowWithoutBlanks) {
   const Design d = MustBuild("vsource V a->gnd 1\nresistor R a->0 1k\n");
   EXPECT_EQ(d.circuit.nodes.size(), 2u);
+}
+
+// Every element and part names the file through one shared stored name, not a copy each
+// (a netlist of a million elements would otherwise hold a million copies of the name).
+TEST(NetlistParserTest, ElementsAndPartsShareOneFileName) {
+  const Design d =
+      MustBuild("part P diode\nvsource V a -> gnd 1\nresistor R a -> b 1k\ndiode D b -> gnd P\n");
+  ASSERT_EQ(d.circuit.elements.size(), 3u);
+  const std::string* name = &d.circuit.parts[0].where.file.str();
+  EXPECT_EQ(*name, kFile);
+  for (const Element& e : d.circuit.elements) EXPECT_EQ(&e.where.file.str(), name) << e.name;
+  EXPECT_EQ(d.circuit.elements[2].where.line, 4);
+  EXPECT_EQ(d.circuit.elements[2].where.column, 7);
 }
 
 // --- errors, with their exact text ------------------------------------------------
