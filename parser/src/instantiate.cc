@@ -262,7 +262,7 @@ class Elaborator {
 
   // --- names -------------------------------------------------------------------------
 
-  void Define(const std::string& name, DefKind kind, int index, const Span& span) {
+  void Define(std::string_view name, DefKind kind, int index, const Span& span) {
     if (IsReserved(name)) {
       Error(span, fmt::format("'{}' is a reserved name; choose another name for this {}", name,
                               kind == DefKind::kParam  ? "param"
@@ -284,7 +284,7 @@ class Elaborator {
 
   void RegisterNames() {
     struct Item {
-      const std::string* name;
+      std::string_view name;
       DefKind kind;
       int index;
       Span span;
@@ -293,22 +293,22 @@ class Elaborator {
     items.reserve(d_.params.size() + d_.parts.size() + d_.elements.size());
     for (std::size_t i = 0; i < d_.params.size(); ++i) {
       items.push_back(
-          {&d_.params[i].name, DefKind::kParam, static_cast<int>(i), d_.params[i].name_span});
+          {d_.params[i].name, DefKind::kParam, static_cast<int>(i), d_.params[i].name_span});
     }
     for (std::size_t i = 0; i < d_.parts.size(); ++i) {
       items.push_back(
-          {&d_.parts[i].name, DefKind::kPart, static_cast<int>(i), d_.parts[i].name_span});
+          {d_.parts[i].name, DefKind::kPart, static_cast<int>(i), d_.parts[i].name_span});
     }
     for (std::size_t i = 0; i < d_.elements.size(); ++i) {
       items.push_back(
-          {&d_.elements[i].name, DefKind::kElement, static_cast<int>(i), d_.elements[i].name_span});
+          {d_.elements[i].name, DefKind::kElement, static_cast<int>(i), d_.elements[i].name_span});
     }
     // In file order, so that the later of two definitions is the one reported.
     std::stable_sort(items.begin(), items.end(), [](const Item& a, const Item& b) {
       return a.span.line != b.span.line ? a.span.line < b.span.line : a.span.column < b.span.column;
     });
     names_.reserve(items.size() * 2);
-    for (const Item& item : items) Define(*item.name, item.kind, item.index, item.span);
+    for (const Item& item : items) Define(item.name, item.kind, item.index, item.span);
   }
 
   // --- overrides ---------------------------------------------------------------------
@@ -586,12 +586,12 @@ class Elaborator {
 
   // --- the circuit -------------------------------------------------------------------
 
-  int NodeIndex(const std::string& name, const Span& span, const ElementStmt& e, Circuit* circuit) {
+  int NodeIndex(std::string_view name, const Span& span, const ElementStmt& e, Circuit* circuit) {
     if (name == "gnd" || name == "0") return kGroundNode;
     auto [it, inserted] = names_.try_emplace(name, Definition{DefKind::kNode, -1, span});
     if (inserted) {
       it->second.index = static_cast<int>(circuit->nodes.size());
-      circuit->nodes.push_back(name);
+      circuit->nodes.emplace_back(name);
       return it->second.index;
     }
     if (it->second.kind == DefKind::kNode) return it->second.index;

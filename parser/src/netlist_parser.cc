@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <array>
+#include <memory>
 
 #include "expr.h"
 #include "knee/diagnostics.h"
@@ -170,13 +171,27 @@ class StatementParser {
 
   // A name being defined or referred to; `what` says which ("element name").
   bool TakeName(const char* what, std::string* name, Span* span, bool allow_zero = false) {
+    std::string_view text;
+    if (!TakeNameText(what, &text, span, allow_zero)) return false;
+    *name = std::string(text);
+    return true;
+  }
+  // The same, kept in the netlist's text store (the names of element statements).
+  bool TakeName(const char* what, std::string_view* name, Span* span, bool allow_zero = false) {
+    std::string_view text;
+    if (!TakeNameText(what, &text, span, allow_zero)) return false;
+    *name = data_->text.Keep(text);
+    return true;
+  }
+  // *text is valid until the next statement.
+  bool TakeNameText(const char* what, std::string_view* text, Span* span, bool allow_zero) {
     const Token t = scanner_.NextWord();
     if (t.kind == Tok::kWord && (IsName(t.text) || (allow_zero && t.text == "0"))) {
       if (t.text.size() > kMaxNameLength) {
         return Error(t, fmt::format("name is too long ({} characters); the limit is {}",
                                     t.text.size(), kMaxNameLength));
       }
-      *name = std::string(t.text);
+      *text = t.text;
       *span = scanner_.SpanOf(t);
       return true;
     }
@@ -455,6 +470,18 @@ class StatementParser {
 };
 
 }  // namespace
+
+std::string_view TextStore::Keep(std::string_view text) {
+  if (text.empty()) return {};
+  if (text.size() > kBlockBytes - used_) {
+    blocks_.push_back(std::make_unique_for_overwrite<char[]>(std::max(kBlockBytes, text.size())));
+    used_ = 0;
+  }
+  char* at = blocks_.back().get() + used_;
+  std::copy(text.begin(), text.end(), at);
+  used_ += text.size();
+  return std::string_view(at, text.size());
+}
 
 const std::string& Netlist::file_name() const { return data_->file_name; }
 

@@ -47,10 +47,13 @@ Prefix MatchPrefix(std::string_view text) {
 }
 
 // The accepted units, as written, to their canonical name; "" if not a unit.
-std::string CanonicalUnit(std::string_view u) {
-  if (u == "V" || u == "A" || u == "W" || u == "S" || u == "F" || u == "H" || u == "s" ||
-      u == "Hz" || u == "K" || u == "C" || u == "%" || u == "Ohm") {
-    return std::string(u);
+// Returns a view of a string literal, so that a parsed literal keeps no unit string of
+// its own (a netlist of a million values would hold a million of them).
+std::string_view CanonicalUnit(std::string_view u) {
+  static constexpr std::string_view kUnits[] = {"V", "A",  "W", "S", "F", "H",
+                                                "s", "Hz", "K", "C", "%", "Ohm"};
+  for (std::string_view unit : kUnits) {
+    if (u == unit) return unit;
   }
   // ohm, Ω (U+03A9 GREEK CAPITAL LETTER OMEGA) and Ω (U+2126 OHM SIGN).
   if (u == "ohm" || u == "\xCE\xA9" || u == "\xE2\x84\xA6") return "Ohm";
@@ -146,7 +149,7 @@ bool ParseNumber(std::string_view text, NumberLiteral* out, NumberError* error) 
   }
   const std::string_view head = text.substr(0, i);
   const std::string_view suffix = text.substr(i);
-  std::string unit;
+  std::string_view unit;
   if (!suffix.empty()) {
     if (suffix[0] == '.') {
       *error = Fail(text, i, 1, fmt::format("unexpected '.' after '{}'", head));
@@ -216,7 +219,7 @@ std::string DescribeUnit(std::string_view place_unit) {
 bool ApplyPlace(const NumberLiteral& literal, std::string_view literal_text,
                 const ValuePlace& place, double* value, std::string* message, std::string* hint) {
   *value = literal.value;
-  const std::string& u = literal.unit;
+  const std::string_view u = literal.unit;
   if (u.empty() || place.unit == "*") return true;
   if (u == "%" && (place.unit.empty() || place.unit == "1/K")) return true;
   if (place.unit == "C" && u == "C") return true;

@@ -9,7 +9,8 @@ namespace knee {
 
 struct NumberLiteral {
   double value = 0;             // SI prefix and % applied; kelvin not yet converted
-  std::string unit;             // canonical: "V" "A" "Ohm" "W" "S" "F" "H" "s" "Hz" "K" "C" "%"
+  std::string_view unit;        // canonical: "V" "A" "Ohm" "W" "S" "F" "H" "s" "Hz" "K" "C" "%"
+                                // or "" (a view of static storage)
   std::size_t unit_offset = 0;  // byte offset of the prefix/unit letters in the literal
 };
 

@@ -5,6 +5,7 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "knee/circuit.h"
@@ -46,12 +47,12 @@ using ExprPtr = std::shared_ptr<const Expr>;
 struct Value {
   enum class Kind { kLiteral, kName, kExpr };
   Kind kind = Kind::kLiteral;
-  double number = 0;  // kLiteral
-  std::string unit;   // kLiteral: unit as written, "" if none
-  std::string text;   // as written (the literal, the name, or the parenthesised text)
-  ExprPtr expr;       // kExpr
-  Span span;          // the whole value
-  Span unit_span;     // kLiteral: the prefix/unit letters (or the whole literal)
+  double number = 0;      // kLiteral
+  std::string_view unit;  // kLiteral: canonical unit ("" if none), static storage
+  std::string text;       // as written (the literal, the name, or the parenthesised text)
+  ExprPtr expr;           // kExpr
+  Span span;              // the whole value
+  Span unit_span;         // kLiteral: the prefix/unit letters (or the whole literal)
 };
 
 struct ParamStmt {
@@ -73,19 +74,20 @@ struct PartStmt {
 };
 
 struct ElementStmt {
-  ElementKind kind = ElementKind::kResistor;
-  std::string name;
-  Span name_span;
-  std::string node_a, node_b;
-  Span a_span, b_span;
-  Value value;       // R, V, I
-  std::string part;  // diode
-  Span part_span;
+  // Names are views into NetlistData::text: a netlist of a million elements keeps all its
+  // statements alive through elaboration, and a std::string is 32 bytes per name.
+  std::string_view name;
+  std::string_view node_a, node_b;
+  std::string_view part;  // diode
+  Value value;            // R, V, I
   // Diode options, by pointer: most diodes have none, and an empty std::optional<Value>
-  // would still take the size of a Value in every statement (a million-element netlist
-  // keeps all its statements alive through elaboration).
+  // would still take the size of a Value in every statement.
   std::unique_ptr<Value> area;  // diode
   std::unique_ptr<Value> temp;  // diode
+  Span name_span;
+  Span a_span, b_span;
+  Span part_span;
+  ElementKind kind = ElementKind::kResistor;
 };
 
 struct SweepPairStmt {
@@ -111,8 +113,22 @@ struct ExpectStmt {
   std::optional<Value> tolerance;  // kLiteral only
 };
 
+// Storage for the text of names in statements: appended to blocks that never move, so a
+// std::string_view into it stays valid while the NetlistData lives. One allocation per
+// block, not one per name.
+class TextStore {
+ public:
+  std::string_view Keep(std::string_view text);
+
+ private:
+  static constexpr std::size_t kBlockBytes = std::size_t{1} << 16;
+  std::vector<std::unique_ptr<char[]>> blocks_;
+  std::size_t used_ = kBlockBytes;  // bytes used in blocks_.back()
+};
+
 struct NetlistData {
   FileName file_name;
+  TextStore text;  // the names of element statements
   std::optional<std::string> title;
   Span title_span;
   std::optional<Value> temp;
