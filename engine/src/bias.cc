@@ -27,7 +27,9 @@ using internal::NewtonSolver;
 
 namespace {
 
-constexpr int kMaxGminRetries = 8;     // halvings (in log scale) of a failed gmin rung
+constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin rung
+// The smallest current tolerance ResolveFaintNodes uses (A).
+constexpr double kFaintCurrentFloor = 1e-40;
 constexpr int kMaxSourceRetries = 12;  // subdivisions of a failed source step
 constexpr int kMaxSourceRungs = 2000;  // all source-stepping runs together
 
@@ -193,12 +195,52 @@ struct BiasSolver::Impl {
   void Verify(SolveSummary* s);
   // A converged run: verified on the exact model, filled in, kept for warm starts.
   void Conclude(SolveSummary* s, Solution* solution) {
+    ResolveFaintNodes(s);
     Verify(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
   }
   void Fill(Solution* solution) const;
+  void ResolveFaintNodes(SolveSummary* s);
 };
+
+// A node whose every current is far below abs_current_tol (a node between two reverse
+// junctions of 1e-20 A parts, say) passes the residual test at any voltage in a wide
+// range: the default tolerance does not determine it, and which voltage a solver ends
+// at depends on its path. Such a converged point is taken one Newton run further with
+// the current tolerance scaled to those nodes' own currents (rel_tol times the smallest
+// largest-current among them, down to kFaintCurrentFloor), from the point itself. If
+// that run does not converge, the point stands and the nodes are named in the summary.
+void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
+  mna.AssembleExact(x);
+  const auto flow = mna.flow();
+  double smallest = std::numeric_limits<double>::infinity();
+  bool any = false;
+  for (int r = 0; r < mna.kcl_rows(); ++r) {
+    const double f = flow[static_cast<size_t>(r)];
+    if (!(f < options.abs_current_tol)) continue;
+    any = true;
+    if (f > 0.0) smallest = std::min(smallest, f);
+  }
+  if (!any) return;
+  SolverOptions tight = options;
+  tight.abs_current_tol =
+      std::clamp(options.rel_tol * smallest, kFaintCurrentFloor, options.abs_current_tol);
+  s->faint_tolerance = tight.abs_current_tol;
+  saved = x;
+  newton.set_options(tight);
+  const NewtonOutcome out = Run(AssemblyAids{}, "newton (faint nodes)", s);
+  newton.set_options(options);
+  if (out.exit == NewtonExit::kConverged) return;
+  x = saved;
+  mna.AssembleExact(x);
+  const auto flow_back = mna.flow();
+  for (int r = 0; r < mna.kcl_rows(); ++r) {
+    if (flow_back[static_cast<size_t>(r)] < options.abs_current_tol) {
+      s->faint_nodes.push_back(mna.UnknownName(r));
+    }
+  }
+}
 
 // gmin from gmin_start down by gmin_factor to gmin_stop, each rung warm-started from the
 // previous one; a failed rung is retried with the geometric mean of it and the last good

@@ -52,6 +52,14 @@ class ConductanceSlots {
   std::array<int, 4> slots_{-1, -1, -1, -1};
 };
 
+// out += g (e_a - e_b)(e_a - e_b)^T v.
+void AddConductanceProduct(int a, int b, double g, std::span<const double> v,
+                           std::span<double> out) {
+  const double i = g * (At(v, a) - At(v, b));
+  if (a >= 0) out[static_cast<size_t>(a)] += i;
+  if (b >= 0) out[static_cast<size_t>(b)] -= i;
+}
+
 class Resistor final : public Device {
  public:
   Resistor(const Circuit& c, int element) : Device(element) {
@@ -83,6 +91,9 @@ class Resistor final : public Device {
     r.voltage = At(x, a_) - At(x, b_);
     r.current = g_ * r.voltage;
     return r;
+  }
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
+    AddConductanceProduct(a_, b_, g_, v, out);
   }
 
  private:
@@ -129,6 +140,12 @@ class VoltageSource final : public Device {
     r.current = At(x, k_);
     return r;
   }
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
+    const double i = At(v, k_);
+    if (p_ >= 0) out[static_cast<size_t>(p_)] += i;
+    if (n_ >= 0) out[static_cast<size_t>(n_)] -= i;
+    out[static_cast<size_t>(k_)] += At(v, p_) - At(v, n_);
+  }
 
  private:
   int p_ = -1, n_ = -1, k_ = -1;
@@ -165,6 +182,7 @@ class CurrentSource final : public Device {
     r.current = i_;
     return r;
   }
+  void MultiplyAdd(std::span<const double>, std::span<double>) const override {}
 
  private:
   int a_ = -1, b_ = -1;
@@ -240,7 +258,8 @@ class Diode final : public Device {
     if (d_.has_breakdown) {
       ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d_.vbr) / d_.nbr_vt);
     }
-    slots_.Stamp(ctx, TwoTerminal(g));
+    stamped_g_ = TwoTerminal(g);
+    slots_.Stamp(ctx, stamped_g_);
     ctx.AddCurrent(a_, i);
     ctx.AddCurrent(b_, -i);
     // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|).
@@ -263,6 +282,9 @@ class Diode final : public Device {
     r.small_signal_res = 1.0 / p.conductance + d_.rs;
     return r;
   }
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
+    AddConductanceProduct(a_, b_, stamped_g_, v, out);
+  }
   bool limited() const override { return limited_; }
 
  private:
@@ -276,6 +298,7 @@ class Diode final : public Device {
   double area_ = 0, temp_ = 0;  // inputs d_ was computed from (with the part's model)
   bool have_inputs_ = false;
   double last_vj_ = 0;
+  double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
   bool limited_ = false;
   ConductanceSlots slots_;
 };
@@ -445,6 +468,13 @@ int DeviceStore::Stamp(StampContext& ctx) {
     if (!ok && bad < 0) bad = element;
   }
   return bad;
+}
+
+void DeviceStore::MultiplyAdd(std::span<const double> v, std::span<double> out) const {
+  const Arrays& a = *arrays_;
+  for (const Resistor& d : a.resistors) d.MultiplyAdd(v, out);
+  for (const VoltageSource& d : a.vsources) d.MultiplyAdd(v, out);
+  for (const Diode& d : a.diodes) d.MultiplyAdd(v, out);
 }
 
 std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element) {

@@ -110,6 +110,10 @@ class Device {
   // Adds this device's contribution at ctx.x; false on a non-finite value.
   virtual bool Stamp(StampContext& ctx) = 0;
   virtual DeviceReport Measure(std::span<const double> x) const = 0;
+  // out += J_d v: this device's part of the Jacobian of the last Stamp times v, computed
+  // from its own conductances (no sums of other devices' entries: see
+  // MnaSystem::MultiplyJacobian).
+  virtual void MultiplyAdd(std::span<const double> v, std::span<double> out) const = 0;
   // Whether the last Stamp limited this device's evaluation point.
   virtual bool limited() const { return false; }
 
@@ -152,6 +156,8 @@ class DeviceStore {
   // Stamps every device; returns the element of the first one with a non-finite value,
   // or -1.
   int Stamp(StampContext& ctx);
+  // out += J v over every device (out is not cleared).
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const;
 
  private:
   struct Arrays;

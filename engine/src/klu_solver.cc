@@ -106,6 +106,12 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   return LinearStatus::kOk;
 }
 
+double KluSolver::rcond() {
+  Handles& h = *handles_;
+  if (h.numeric == nullptr || klu_rcond(h.symbolic, h.numeric, &h.common) == 0) return 0.0;
+  return h.common.rcond;
+}
+
 LinearStatus KluSolver::Solve(std::span<double> rhs) {
   Handles& h = *handles_;
   KNEE_CHECK(h.numeric != nullptr && rhs.size() + 1 == col_ptr_.size());

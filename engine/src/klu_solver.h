@@ -33,6 +33,10 @@ class KluSolver {
   // Solves A x = b in place.
   LinearStatus Solve(std::span<double> rhs);
 
+  // KLU's cheap reciprocal condition estimate of the current factors (min/max |U_ii|);
+  // 0 when there are none.
+  double rcond();
+
   // Why the last call did not return kOk, with KLU's status and numbers.
   const std::string& message() const { return message_; }
   int full_factorizations() const { return full_factorizations_; }

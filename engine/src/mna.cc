@@ -126,6 +126,7 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
     out.finite = false;
     out.bad_element = bad;
   }
+  last_gmin_ = aids.gmin;
   if (aids.gmin > 0.0) {
     for (int r = 0; r < kcl_rows_; ++r) {
       values_[static_cast<size_t>(diagonal_slot_[static_cast<size_t>(r)])] += aids.gmin;
@@ -152,6 +153,15 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
     exact_outcome_ = out;
   }
   return out;
+}
+
+void MnaSystem::MultiplyJacobian(std::span<const double> v, std::span<double> out) const {
+  KNEE_CHECK(static_cast<int>(v.size()) == size() && v.size() == out.size());
+  std::fill(out.begin(), out.end(), 0.0);
+  devices_.MultiplyAdd(v, out);
+  if (last_gmin_ > 0.0) {
+    for (size_t r = 0; r < static_cast<size_t>(kcl_rows_); ++r) out[r] += last_gmin_ * v[r];
+  }
 }
 
 AssemblyOutcome MnaSystem::AssembleExact(std::span<const double> x) {

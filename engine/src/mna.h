@@ -67,6 +67,12 @@ class MnaSystem {
 
   // Refills values, residual and flow at x. No allocation.
   AssemblyOutcome Assemble(std::span<const double> x, const AssemblyAids& aids);
+  // out = J v for the Jacobian of the last assembly, summed device by device. The
+  // assembled matrix rounds a node's diagonal 1/R + g to 1/R when g < eps/R, and so
+  // loses the only thing that holds a group of nodes joined by small resistors to the
+  // rest (reverse junctions); this product keeps each device's term, so that a group's
+  // common mode meets exactly g, not the rounding of 1/R - 1/R (linear_refine.cc).
+  void MultiplyJacobian(std::span<const double> v, std::span<double> out) const;
   // Assemble(x, AssemblyAids{}), skipped when the last assembly was exactly that (the
   // verification after a polishing step that was kept). The same numbers either way.
   AssemblyOutcome AssembleExact(std::span<const double> x);
@@ -92,6 +98,7 @@ class MnaSystem {
   std::vector<DiodeModel> part_models_;  // the models of the last build or update
   std::vector<char> part_changed_;       // per part, during UpdateValues
   DeviceStore devices_;
+  double last_gmin_ = 0.0;  // S, the gmin of the last assembly
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
   std::vector<double> values_, residual_, flow_, magnitude_;

@@ -57,6 +57,8 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& 
       dx_(static_cast<size_t>(size), 0.0),
       saved_x_(static_cast<size_t>(size), 0.0),
       noise_(static_cast<size_t>(size), 0.0),
+      minus_f_(static_cast<size_t>(size), 0.0),
+      row_tolerance_(static_cast<size_t>(size), 0.0),
       regularized_(mna->values().size(), 0.0) {}
 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
@@ -144,6 +146,9 @@ bool NewtonSolver::SolveStep(std::span<double> dx, NewtonOutcome* outcome) {
     const auto f = mna_->residual();
     for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
     status = klu_->Solve(dx);
+    if (status == LinearStatus::kOk && klu_->rcond() < StepRefiner::kCheckBelowRcond) {
+      RefineStep(dx);
+    }
   }
   if (status == LinearStatus::kSingular) status = SolveRegularized(dx);
   if (status == LinearStatus::kOk) return true;
@@ -174,6 +179,8 @@ LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
   for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
   status = klu_->Solve(dx);
   if (status != LinearStatus::kOk) return status;
+  // The shunted factors are a preconditioner for the exact Jacobian's step.
+  RefineStep(dx);
   // The shunt only resolves nodes whose residual is already negligible. A step that the
   // shunt itself makes enormous (a current pushed into a node held by nothing but the
   // shunt) is no Newton step: report the matrix as singular so the aid ladder takes over
@@ -182,6 +189,25 @@ LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
     if (!(std::fabs(d) <= kMaxRegularizedStep)) return LinearStatus::kSingular;
   }
   return status;
+}
+
+// Where the factors may have lost a small conductance to rounding (a tiny reciprocal
+// condition estimate, or a shunted matrix), the step is checked against the device-by-
+// device Jacobian and refined (linear_refine.h). Rows are weighed by their residual
+// tolerance, so "accurate" means: the linear model's residual is a tenth of what the
+// convergence test allows.
+void NewtonSolver::RefineStep(std::span<double> dx) {
+  const auto f = mna_->residual();
+  const auto flow = mna_->flow();
+  for (int r = 0; r < mna_->size(); ++r) {
+    const auto i = static_cast<size_t>(r);
+    minus_f_[i] = -f[i];
+    row_tolerance_[i] =
+        (r < mna_->kcl_rows() ? options_.abs_current_tol + options_.rel_tol * flow[i]
+                              : options_.abs_voltage_tol) +
+        mna_->RoundOffAllowance(r);
+  }
+  refiner_.Refine(*mna_, *klu_, minus_f_, row_tolerance_, dx);
 }
 
 // One more Newton step after convergence: a converged Newton iteration is quadratic, so

@@ -9,6 +9,7 @@
 
 #include "klu_solver.h"
 #include "knee/solver.h"
+#include "linear_refine.h"
 #include "mna.h"
 
 namespace knee::internal {
@@ -71,13 +72,16 @@ class NewtonSolver {
   LinearStatus SolveRegularized(std::span<double> dx);
   void Polish(const AssemblyAids& aids, std::span<double> x);
   bool NoiseFloor();
+  void RefineStep(std::span<double> dx);
 
   MnaSystem* mna_;
   KluSolver* klu_;
   SolverOptions options_;
   std::vector<double> dx_;
   std::vector<double> saved_x_;
-  std::vector<double> noise_;        // J^-1 times the residual's round-off allowance
+  std::vector<double> noise_;                    // J^-1 times the residual's round-off allowance
+  std::vector<double> minus_f_, row_tolerance_;  // RefineStep's right side and row weights
+  StepRefiner refiner_;
   std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
 };
 
