@@ -4,6 +4,7 @@
 
 #include <cstdio>
 #include <nlohmann/json.hpp>
+#include <string>
 
 #include "analyses.h"
 #include "eng_format.h"
@@ -187,9 +188,12 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
 int RunBias(const std::string& file, AnalysisOptions options) {
   std::optional<Start> start;
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
-  // A bias point needs the circuit, not the parsed statements: freeing them first lowers
-  // the peak memory of a large netlist by the size of its statements.
+  // A bias point needs the circuit, not the parsed statements nor the text: freeing them
+  // first lowers the peak memory of a large netlist (the solve is its peak) by their size.
+  // What is printed after this point quotes no line of the text: the solver's diagnostics
+  // carry no source location (they name elements and nodes).
   start->loaded.netlist.reset();
+  std::string().swap(start->loaded.source);
   std::vector<AnalysisResult> results;
   results.push_back(AnalyzeBias(start->loaded, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
