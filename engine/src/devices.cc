@@ -28,37 +28,88 @@ void StampContext::AddCurrent(int row, double i) {
   magnitude[r] += std::fabs(i);
 }
 
+Incidence IslandMap::Between(int p, int q) const {
+  Incidence w;
+  const auto add = [&](int u, double c) {
+    if (u < 0) return;
+    for (int k = 0; k < w.count; ++k) {
+      if (w.index[static_cast<size_t>(k)] == u) {
+        w.coef[static_cast<size_t>(k)] += c;
+        return;
+      }
+    }
+    w.index[static_cast<size_t>(w.count)] = u;
+    w.coef[static_cast<size_t>(w.count)] = c;
+    ++w.count;
+  };
+  add(p, 1.0);
+  add(root_of(p), 1.0);
+  add(q, -1.0);
+  add(root_of(q), -1.0);
+  int kept = 0;
+  for (int k = 0; k < w.count; ++k) {
+    if (w.coef[static_cast<size_t>(k)] == 0.0) continue;
+    w.index[static_cast<size_t>(kept)] = w.index[static_cast<size_t>(k)];
+    w.coef[static_cast<size_t>(kept)] = w.coef[static_cast<size_t>(k)];
+    ++kept;
+  }
+  w.count = kept;
+  return w;
+}
+
+void IslandMap::ToNodeSpace(std::span<double> d) const {
+  if (members_ == 0) return;
+  for (size_t u = 0; u < root_of_.size(); ++u) {
+    if (root_of_[u] >= 0) d[u] += d[static_cast<size_t>(root_of_[u])];
+  }
+}
+
 namespace {
 
 double At(std::span<const double> x, int u) { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
 
-// A conductance g between unknowns p and q: four entries.
+// A conductance g between unknowns p and q: g w w^T over the incidence w of (p, q),
+// four entries in nodal coordinates, up to sixteen across an island's root.
 class ConductanceSlots {
  public:
   void Declare(EntryCollector& c, int p, int q) {
-    slots_ = {c.Add(p, p), c.Add(p, q), c.Add(q, p), c.Add(q, q)};
+    w_ = c.islands().Between(p, q);
+    for (int i = 0; i < w_.count; ++i) {
+      for (int j = 0; j < w_.count; ++j) {
+        slots_[static_cast<size_t>(i * 4 + j)] =
+            c.Add(w_.index[static_cast<size_t>(i)], w_.index[static_cast<size_t>(j)]);
+      }
+    }
   }
   void Bind(std::span<const int> slot_of) {
     for (int& s : slots_) s = s < 0 ? -1 : slot_of[static_cast<size_t>(s)];
   }
   void Stamp(StampContext& ctx, double g) const {
-    ctx.AddValue(slots_[0], g);
-    ctx.AddValue(slots_[1], -g);
-    ctx.AddValue(slots_[2], -g);
-    ctx.AddValue(slots_[3], g);
+    for (int i = 0; i < w_.count; ++i) {
+      for (int j = 0; j < w_.count; ++j) {
+        ctx.AddValue(slots_[static_cast<size_t>(i * 4 + j)],
+                     g * w_.coef[static_cast<size_t>(i)] * w_.coef[static_cast<size_t>(j)]);
+      }
+    }
   }
+  // out += g w (w . v).
+  void MultiplyAdd(double g, std::span<const double> v, std::span<double> out) const {
+    double s = 0.0;
+    for (int k = 0; k < w_.count; ++k) {
+      s += w_.coef[static_cast<size_t>(k)] *
+           v[static_cast<size_t>(w_.index[static_cast<size_t>(k)])];
+    }
+    for (int k = 0; k < w_.count; ++k) {
+      out[static_cast<size_t>(w_.index[static_cast<size_t>(k)])] +=
+          g * w_.coef[static_cast<size_t>(k)] * s;
+    }
+  }
+  const Incidence& incidence() const { return w_; }
 
  private:
-  std::array<int, 4> slots_{-1, -1, -1, -1};
+  Incidence w_;
+  std::array<int, 16> slots_{-1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1};
 };
-
-// out += g (e_a - e_b)(e_a - e_b)^T v.
-void AddConductanceProduct(int a, int b, double g, std::span<const double> v,
-                           std::span<double> out) {
-  const double i = g * (At(v, a) - At(v, b));
-  if (a >= 0) out[static_cast<size_t>(a)] += i;
-  if (b >= 0) out[static_cast<size_t>(b)] -= i;
-}
 
 class Resistor final : public Device {
  public:
@@ -77,11 +128,7 @@ class Resistor final : public Device {
     const double i = g_ * (ctx.X(a_) - ctx.X(b_));
     if (!std::isfinite(i)) return false;
     slots_.Stamp(ctx, g_);
-    ctx.AddCurrent(a_, i);
-    ctx.AddCurrent(b_, -i);
-    const double terms = g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_)));
-    ctx.AddMagnitude(a_, terms);
-    ctx.AddMagnitude(b_, terms);
+    ctx.AddBranch(slots_.incidence(), i, g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))));
     // Co-content of a linear resistor: G v^2 / 2.
     if (ctx.want_potential) ctx.AddPotential(0.5 * i * (ctx.X(a_) - ctx.X(b_)));
     return true;
@@ -93,7 +140,7 @@ class Resistor final : public Device {
     return r;
   }
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
-    AddConductanceProduct(a_, b_, g_, v, out);
+    slots_.MultiplyAdd(g_, v, out);
   }
 
  private:
@@ -111,11 +158,19 @@ class VoltageSource final : public Device {
     n_ = UnknownOfNode(e.node_b);
     UpdateValues(c, {});
   }
+  // Column k holds the incidence of (p, n) (the branch current's KCL terms), row k its
+  // transpose (v(p) - v(n) in the solver's coordinates).
   void DeclareEntries(EntryCollector& c) override {
-    slots_ = {c.Add(p_, k_), c.Add(n_, k_), c.Add(k_, p_), c.Add(k_, n_)};
+    w_ = c.islands().Between(p_, n_);
+    for (int t = 0; t < w_.count; ++t) {
+      const int u = w_.index[static_cast<size_t>(t)];
+      column_slots_[static_cast<size_t>(t)] = c.Add(u, k_);
+      row_slots_[static_cast<size_t>(t)] = c.Add(k_, u);
+    }
   }
   void BindSlots(std::span<const int> slot_of) override {
-    for (int& s : slots_) s = Bind(s, slot_of);
+    for (int& s : column_slots_) s = Bind(s, slot_of);
+    for (int& s : row_slots_) s = Bind(s, slot_of);
   }
   void UpdateValues(const Circuit& c, std::span<const char>) override {
     v_ = c.elements[static_cast<size_t>(element())].value;
@@ -123,12 +178,11 @@ class VoltageSource final : public Device {
   bool Stamp(StampContext& ctx) override {
     const double i = ctx.X(k_);
     if (!std::isfinite(i)) return false;
-    ctx.AddValue(slots_[0], 1.0);
-    ctx.AddValue(slots_[1], -1.0);
-    ctx.AddValue(slots_[2], 1.0);
-    ctx.AddValue(slots_[3], -1.0);
-    ctx.AddCurrent(p_, i);
-    ctx.AddCurrent(n_, -i);
+    for (int t = 0; t < w_.count; ++t) {
+      ctx.AddValue(column_slots_[static_cast<size_t>(t)], w_.coef[static_cast<size_t>(t)]);
+      ctx.AddValue(row_slots_[static_cast<size_t>(t)], w_.coef[static_cast<size_t>(t)]);
+    }
+    ctx.AddBranch(w_, i, 0.0);
     ctx.residual[static_cast<size_t>(k_)] += ctx.X(p_) - ctx.X(n_) - ctx.source_scale * v_;
     ctx.AddMagnitude(
         k_, std::fabs(ctx.X(p_)) + std::fabs(ctx.X(n_)) + std::fabs(ctx.source_scale * v_));
@@ -142,15 +196,21 @@ class VoltageSource final : public Device {
   }
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
     const double i = At(v, k_);
-    if (p_ >= 0) out[static_cast<size_t>(p_)] += i;
-    if (n_ >= 0) out[static_cast<size_t>(n_)] -= i;
-    out[static_cast<size_t>(k_)] += At(v, p_) - At(v, n_);
+    double across = 0.0;
+    for (int t = 0; t < w_.count; ++t) {
+      const auto u = static_cast<size_t>(w_.index[static_cast<size_t>(t)]);
+      out[u] += w_.coef[static_cast<size_t>(t)] * i;
+      across += w_.coef[static_cast<size_t>(t)] * v[u];
+    }
+    out[static_cast<size_t>(k_)] += across;
   }
 
  private:
   int p_ = -1, n_ = -1, k_ = -1;
   double v_ = 0;
-  std::array<int, 4> slots_{-1, -1, -1, -1};
+  Incidence w_;
+  std::array<int, 4> column_slots_{-1, -1, -1, -1};
+  std::array<int, 4> row_slots_{-1, -1, -1, -1};
 };
 
 // `value` amperes flow through the source from a to b: out of node a, into node b.
@@ -162,15 +222,14 @@ class CurrentSource final : public Device {
     b_ = UnknownOfNode(e.node_b);
     UpdateValues(c, {});
   }
-  void DeclareEntries(EntryCollector&) override {}
+  void DeclareEntries(EntryCollector& c) override { w_ = c.islands().Between(a_, b_); }
   void BindSlots(std::span<const int>) override {}
   void UpdateValues(const Circuit& c, std::span<const char>) override {
     i_ = c.elements[static_cast<size_t>(element())].value;
   }
   bool Stamp(StampContext& ctx) override {
     const double i = ctx.source_scale * i_;
-    ctx.AddCurrent(a_, i);
-    ctx.AddCurrent(b_, -i);
+    ctx.AddBranch(w_, i, 0.0);
     // A current source's term of the potential is linear: its gradient is the current
     // it draws out of a and delivers into b, i.e. its KCL contribution.
     if (ctx.want_potential) ctx.AddPotential(i * (ctx.X(a_) - ctx.X(b_)));
@@ -187,6 +246,7 @@ class CurrentSource final : public Device {
  private:
   int a_ = -1, b_ = -1;
   double i_ = 0;
+  Incidence w_;
 };
 
 // Anode a, cathode b. The series resistance is part of the device: the junction voltage
@@ -260,12 +320,9 @@ class Diode final : public Device {
     }
     stamped_g_ = TwoTerminal(g);
     slots_.Stamp(ctx, stamped_g_);
-    ctx.AddCurrent(a_, i);
-    ctx.AddCurrent(b_, -i);
     // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|).
-    const double terms = g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr;
-    ctx.AddMagnitude(a_, terms);
-    ctx.AddMagnitude(b_, terms);
+    ctx.AddBranch(slots_.incidence(), i,
+                  g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr);
     // Co-content of junction and series resistance at v: with v = vj + rs*I(vj),
     // the integral of I dv is the junction's integral of I dvj plus rs*I^2/2.
     if (ctx.want_potential) {
@@ -283,7 +340,7 @@ class Diode final : public Device {
     return r;
   }
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
-    AddConductanceProduct(a_, b_, stamped_g_, v, out);
+    slots_.MultiplyAdd(stamped_g_, v, out);
   }
   bool limited() const override { return limited_; }
 

@@ -7,6 +7,7 @@
 #include <array>
 #include <memory>
 #include <span>
+#include <utility>
 #include <vector>
 
 #include "knee/circuit.h"
@@ -14,10 +15,52 @@
 
 namespace knee::internal {
 
+// A two-terminal element's incidence in the solver's coordinates: the rows (and
+// columns) it touches, each with coefficient +1 or -1. In plain nodal coordinates that
+// is {p: +1, q: -1}; see IslandMap for the others.
+struct Incidence {
+  std::array<int, 4> index{};
+  std::array<double, 4> coef{};
+  int count = 0;
+};
+
+// Island coordinates. A group of nodes joined to each other by resistors and voltage
+// sources but not to gnd (a bridge's dc side, a mesh held only by junctions) is an
+// island; its lowest node is its root. For every other member u the solver's unknown is
+// the offset z_u = x_u - x_root, and the root's row is the sum of the island's KCL rows.
+// A resistor inside an island then adds nothing to the root's row or column: its terms
+// cancel exactly, by construction, instead of leaving 1/R + g - 1/R to rounding, which
+// loses the junction conductances g that alone hold the island (a pA/V junction against
+// milliohms is below eps/R). The change of coordinates is exact; x stays the solver's
+// state and steps are mapped back with ToNodeSpace.
+class IslandMap {
+ public:
+  IslandMap() = default;
+  // root_of[u]: the root unknown of node unknown u when u is a non-root island member,
+  // else -1. Node unknowns are [0, root_of.size()).
+  explicit IslandMap(std::vector<int> root_of) : root_of_(std::move(root_of)) {}
+  // e(p) - e(q) with e(u) = {u} plus {root(u)} for a member; gnd (-1) contributes
+  // nothing; equal indices are merged and zero coefficients dropped.
+  Incidence Between(int p, int q) const;
+  int root_of(int u) const {
+    return u >= 0 && u < static_cast<int>(root_of_.size()) ? root_of_[static_cast<size_t>(u)] : -1;
+  }
+  bool empty() const { return members_ == 0; }
+  void set_members(int n) { members_ = n; }
+  // dx_u += dx_root for every member: a step in island coordinates to node voltages.
+  void ToNodeSpace(std::span<double> d) const;
+
+ private:
+  std::vector<int> root_of_;
+  int members_ = 0;
+};
+
 // Collects (row, col) entries during setup; each Add returns a ticket that the
 // assembler later turns into a slot of the CSC value array.
 class EntryCollector {
  public:
+  explicit EntryCollector(const IslandMap* islands) : islands_(islands) {}
+  const IslandMap& islands() const { return *islands_; }
   // Ticket of entry (row, col), or -1 when either index is gnd.
   int Add(int row, int col) {
     if (row < 0 || col < 0) return -1;
@@ -31,6 +74,7 @@ class EntryCollector {
   const std::vector<Entry>& entries() const { return entries_; }
 
  private:
+  const IslandMap* islands_;
   std::vector<Entry> entries_;
 };
 
@@ -79,6 +123,14 @@ struct StampContext {
   }
   // Current `i` leaves row `row` (i.e. flows from that node into the device).
   void AddCurrent(int row, double i);
+  // Current `i` flows through a two-terminal element with incidence w (from its first
+  // terminal to its second), and its rounding scale `terms` enters every row it touches.
+  void AddBranch(const Incidence& w, double i, double terms) {
+    for (int k = 0; k < w.count; ++k) {
+      AddCurrent(w.index[static_cast<size_t>(k)], w.coef[static_cast<size_t>(k)] * i);
+      AddMagnitude(w.index[static_cast<size_t>(k)], terms);
+    }
+  }
   // Adds m to the round-off scale of row `row`.
   void AddMagnitude(int row, double m) {
     if (row >= 0) magnitude[static_cast<size_t>(row)] += m;

@@ -2,6 +2,7 @@
 #include "mna.h"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <tuple>
 
@@ -18,9 +19,41 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
          p.sat_temp_exp == q.sat_temp_exp && p.ref_temp == q.ref_temp;
 }
 
+// IslandMap of the circuit: components of the graph of resistors and voltage sources
+// that do not contain gnd, rooted at their lowest node.
+IslandMap FindIslands(const Circuit& c) {
+  std::vector<int> parent(c.nodes.size());
+  for (size_t n = 0; n < parent.size(); ++n) parent[n] = static_cast<int>(n);
+  const auto find = [&](int n) {
+    while (parent[static_cast<size_t>(n)] != n) {
+      int& p = parent[static_cast<size_t>(n)];
+      p = parent[static_cast<size_t>(p)];
+      n = p;
+    }
+    return n;
+  };
+  for (const Element& e : c.elements) {
+    if (e.kind != ElementKind::kResistor && e.kind != ElementKind::kVoltageSource) continue;
+    const int a = find(e.node_a), b = find(e.node_b);
+    // The lower node stays the representative: gnd (0) wins, else the island's lowest.
+    if (a != b) parent[static_cast<size_t>(std::max(a, b))] = std::min(a, b);
+  }
+  std::vector<int> root_of(c.nodes.empty() ? 0 : c.nodes.size() - 1, -1);
+  int members = 0;
+  for (size_t n = 1; n < c.nodes.size(); ++n) {
+    const int root = find(static_cast<int>(n));
+    if (root == kGroundNode || root == static_cast<int>(n)) continue;
+    root_of[n - 1] = UnknownOfNode(root);
+    ++members;
+  }
+  IslandMap map(std::move(root_of));
+  map.set_members(members);
+  return map;
+}
+
 }  // namespace
 
-MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
+MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) {
   node_count_ = c.nodes.size();
   int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
   shape_.reserve(c.elements.size());
@@ -54,10 +87,19 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
   size_ = next;
 
   // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
-  EntryCollector collector;
+  EntryCollector collector(&islands_);
   for (Device* device : devices_.all()) device->DeclareEntries(collector);
   std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
   for (int r = 0; r < kcl_rows_; ++r) diagonal_ticket[static_cast<size_t>(r)] = collector.Add(r, r);
+  // An island member's shunt to gnd couples its row and column to the root's.
+  std::vector<std::array<int, 3>> shunt_tickets;
+  for (int r = 0; r < kcl_rows_; ++r) {
+    const int root = islands_.root_of(r);
+    if (root < 0) continue;
+    shunt_tickets.push_back(
+        {collector.Add(r, root), collector.Add(root, r), collector.Add(root, root)});
+    member_shunts_.push_back({r, root, {-1, -1, -1}});
+  }
 
   // CSC order (column, then row) by a counting pass over the columns and a sort of each
   // column's few entries: linear in the entries, where one sort of all of them was not.
@@ -93,6 +135,11 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c) {
   for (Device* device : devices_.all()) device->BindSlots(slot_of);
   diagonal_slot_.reserve(diagonal_ticket.size());
   for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
+  for (size_t k = 0; k < member_shunts_.size(); ++k) {
+    for (size_t t = 0; t < 3; ++t) {
+      member_shunts_[k].slots[t] = slot_of[static_cast<size_t>(shunt_tickets[k][t])];
+    }
+  }
 
   values_.assign(row_index_.size(), 0.0);
   exact_x_.assign(static_cast<size_t>(n), 0.0);
@@ -128,6 +175,10 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   }
   last_gmin_ = aids.gmin;
   if (aids.gmin > 0.0) {
+    for (const MemberShunt& m : member_shunts_) {
+      for (int slot : m.slots) values_[static_cast<size_t>(slot)] += aids.gmin;
+      ctx.AddCurrent(m.root, aids.gmin * x[static_cast<size_t>(m.member)]);
+    }
     for (int r = 0; r < kcl_rows_; ++r) {
       values_[static_cast<size_t>(diagonal_slot_[static_cast<size_t>(r)])] += aids.gmin;
       ctx.AddCurrent(r, aids.gmin * x[static_cast<size_t>(r)]);
@@ -161,6 +212,28 @@ void MnaSystem::MultiplyJacobian(std::span<const double> v, std::span<double> ou
   devices_.MultiplyAdd(v, out);
   if (last_gmin_ > 0.0) {
     for (size_t r = 0; r < static_cast<size_t>(kcl_rows_); ++r) out[r] += last_gmin_ * v[r];
+    for (const MemberShunt& m : member_shunts_) {
+      const auto u = static_cast<size_t>(m.member), root = static_cast<size_t>(m.root);
+      out[u] += last_gmin_ * v[root];
+      out[root] += last_gmin_ * (v[u] + v[root]);
+    }
+  }
+}
+
+void MnaSystem::NodeResidual(std::span<double> residual, std::span<double> allowance,
+                             std::span<double> flow) const {
+  for (int r = 0; r < kcl_rows_; ++r) {
+    const auto i = static_cast<size_t>(r);
+    residual[i] = residual_[i];
+    allowance[i] = RoundOffAllowance(r);
+    flow[i] = flow_[i];
+  }
+  // A root's row holds its island's sum: its own KCL is that sum minus the members'.
+  for (const MemberShunt& m : member_shunts_) {
+    const auto root = static_cast<size_t>(m.root), member = static_cast<size_t>(m.member);
+    residual[root] -= residual_[member];
+    allowance[root] += RoundOffAllowance(m.member);
+    flow[root] = std::max(flow[root], flow_[member]);
   }
 }
 

@@ -3,6 +3,7 @@
 // J dx = -F(x). Layout: [circuit nodes 1..N-1][vsource currents].
 #pragma once
 
+#include <array>
 #include <memory>
 #include <span>
 #include <string>
@@ -73,6 +74,15 @@ class MnaSystem {
   // rest (reverse junctions); this product keeps each device's term, so that a group's
   // common mode meets exactly g, not the rounding of 1/R - 1/R (linear_refine.cc).
   void MultiplyJacobian(std::span<const double> v, std::span<double> out) const;
+  // Unknowns and rows are in island coordinates (IslandMap, devices.h): a solve of
+  // J d = -F gives d in them; this maps it to node voltages in place.
+  void ToNodeSpace(std::span<double> d) const { islands_.ToNodeSpace(d); }
+  const IslandMap& islands() const { return islands_; }
+  // Every node's own KCL residual of the last assembly (the rows of island roots hold
+  // their island's sum), its round-off allowance and a bound of its largest current;
+  // KCL rows only.
+  void NodeResidual(std::span<double> residual, std::span<double> allowance,
+                    std::span<double> flow) const;
   // Assemble(x, AssemblyAids{}), skipped when the last assembly was exactly that (the
   // verification after a polishing step that was kept). The same numbers either way.
   AssemblyOutcome AssembleExact(std::span<const double> x);
@@ -97,8 +107,17 @@ class MnaSystem {
   std::vector<int> element_of_extra_;    // element of each unknown after the circuit nodes
   std::vector<DiodeModel> part_models_;  // the models of the last build or update
   std::vector<char> part_changed_;       // per part, during UpdateValues
+  IslandMap islands_;
   DeviceStore devices_;
   double last_gmin_ = 0.0;  // S, the gmin of the last assembly
+  // The gmin shunt of an island member u also has entries (u, root), (root, u) and
+  // (root, root).
+  struct MemberShunt {
+    int member;
+    int root;
+    std::array<int, 3> slots;
+  };
+  std::vector<MemberShunt> member_shunts_;
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
   std::vector<double> values_, residual_, flow_, magnitude_;

@@ -134,9 +134,13 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
 // a residual of 4e-17 A of pure rounding steps 4 uV, forever). noise_ = J^-1 a, with
 // the factorisation of the step just taken. False if the solve fails.
 bool NewtonSolver::NoiseFloor() {
-  for (int r = 0; r < mna_->size(); ++r)
+  for (int r = 0; r < mna_->size(); ++r) {
     noise_[static_cast<size_t>(r)] = mna_->RoundOffAllowance(r);
-  return klu_->Solve(noise_) == LinearStatus::kOk;
+  }
+  if (klu_->Solve(noise_) != LinearStatus::kOk) return false;
+  for (double& n : noise_) n = std::fabs(n);
+  mna_->ToNodeSpace(noise_);
+  return true;
 }
 
 // Solves J dx = -F with the values and residual of the last assembly.
@@ -149,6 +153,7 @@ bool NewtonSolver::SolveStep(std::span<double> dx, NewtonOutcome* outcome) {
     if (status == LinearStatus::kOk && klu_->rcond() < StepRefiner::kCheckBelowRcond) {
       RefineStep(dx);
     }
+    if (status == LinearStatus::kOk) mna_->ToNodeSpace(dx);
   }
   if (status == LinearStatus::kSingular) status = SolveRegularized(dx);
   if (status == LinearStatus::kOk) return true;
@@ -181,6 +186,7 @@ LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
   if (status != LinearStatus::kOk) return status;
   // The shunted factors are a preconditioner for the exact Jacobian's step.
   RefineStep(dx);
+  mna_->ToNodeSpace(dx);
   // The shunt only resolves nodes whose residual is already negligible. A step that the
   // shunt itself makes enormous (a current pushed into a node held by nothing but the
   // shunt) is no Newton step: report the matrix as singular so the aid ladder takes over

@@ -337,6 +337,7 @@ PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOpt
       klu_(klu),
       options_(options),
       dx_(static_cast<size_t>(size), 0.0),
+      step_(static_cast<size_t>(size), 0.0),
       base_(static_cast<size_t>(size), 0.0),
       noise_(static_cast<size_t>(size), 0.0),
       branch_dv_(static_cast<size_t>(size - mna->kcl_rows()), 0.0) {}
@@ -380,7 +381,7 @@ bool PotentialSolver::Feasible() const {
 PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, double t,
                                                  std::span<double> x) {
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
-  for (size_t i = 0; i < x.size(); ++i) x[i] = base[i] + (i < kcl ? t : 1.0) * dx_[i];
+  for (size_t i = 0; i < x.size(); ++i) x[i] = base[i] + (i < kcl ? t : 1.0) * step_[i];
   AssemblyAids aids;
   aids.want_potential = true;
   aids.junction_floor = floor_;
@@ -413,7 +414,10 @@ bool PotentialSolver::FeasibilityStep(std::span<double> x, NewtonOutcome* outcom
   ++evaluations_;
   LinearStatus status = assembled.finite ? klu_->Refactor(mna_->values()) : LinearStatus::kFatal;
   if (status == LinearStatus::kOk) status = klu_->Solve(dx_);
-  if (status == LinearStatus::kOk) return true;
+  if (status == LinearStatus::kOk) {
+    MapStep();
+    return true;
+  }
   outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
   outcome->detail = assembled.finite ? klu_->message() : "the starting point is not finite";
   return false;
@@ -425,9 +429,12 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
   // inaccurate beyond what the line search can resolve (KLU's pivot-growth test does not
   // catch all of it). The networks are small; a full factorisation costs little more.
   LinearStatus status = klu_->Factor(mna_->values());
-  if (status == LinearStatus::kOk) {
+  {
     const auto f = mna_->residual();
-    for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = -f[i];
+    for (size_t i = 0; i < dx_.size(); ++i) step_[i] = -f[i];  // -g, kept for the retries
+  }
+  if (status == LinearStatus::kOk) {
+    std::copy(step_.begin(), step_.end(), dx_.begin());
     status = klu_->Solve(dx_);
   }
   // A Hessian that is singular in floating point (junction conductances that underflow,
@@ -437,7 +444,6 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
   // Hessian modification, Nocedal and Wright ch. 3.4, recalled from memory). mu grows
   // from 1e-12 S by 1e3 per try.
   if (status == LinearStatus::kSingular && x_ != nullptr) {
-    const auto kcl = static_cast<size_t>(mna_->kcl_rows());
     for (double mu = 1e-12; mu <= 1e-3 && status == LinearStatus::kSingular; mu *= 1e3) {
       AssemblyAids modified;
       modified.gmin = mu;
@@ -445,8 +451,7 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
       ++evaluations_;
       status = klu_->Refactor(mna_->values());
       if (status != LinearStatus::kOk) continue;
-      const auto f = mna_->residual();
-      for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = -(f[i] - (i < kcl ? mu * (*x_)[i] : 0.0));
+      std::copy(step_.begin(), step_.end(), dx_.begin());
       status = klu_->Solve(dx_);
     }
     AssemblyAids exact;
@@ -455,7 +460,10 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
     mna_->Assemble(*x_, exact);  // back to the exact model's residual at x
     ++evaluations_;
   }
-  if (status == LinearStatus::kOk) return true;
+  if (status == LinearStatus::kOk) {
+    MapStep();
+    return true;
+  }
   outcome->exit = status == LinearStatus::kSingular ? NewtonExit::kSingular : NewtonExit::kFatal;
   outcome->detail = klu_->message();
   return false;
@@ -594,15 +602,15 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     // convergence tests stay those of the exact model. A full step switches it off again,
     // so the last steps are exact Newton steps.
     SetFloor(t < kShortStep, x);
-    for (size_t i = 0; i < kcl; ++i) dx_[i] *= t;  // the update actually taken
+    for (size_t i = 0; i < kcl; ++i) step_[i] *= t;  // the update actually taken
     potential = accepted.potential;
     potential_magnitude = accepted.potential_magnitude;
     base_exponent = accepted.max_exponent;
-    update = CheckUpdate(*mna_, options_, dx_, x);
+    update = CheckUpdate(*mna_, options_, step_, x);
     // As in the classic loop (NewtonSolver::NoiseFloor): where the residual passed, the
     // part of the step that the residual's round-off alone causes is not a move.
     if (!update.passed() && residual.passed() && feasible && NoiseFloor()) {
-      update = CheckUpdate(*mna_, options_, dx_, x, noise_);
+      update = CheckUpdate(*mna_, options_, step_, x, noise_);
     }
     if (!std::isfinite(update.value)) {
       outcome.exit = NewtonExit::kNonFinite;
@@ -613,7 +621,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     if (trace != nullptr) {
       NewtonStepRecord record;
       record.step = step;
-      record.max_update = MaxAbs(dx_, dx_.size());
+      record.max_update = MaxAbs(step_, step_.size());
       record.max_residual = max_residual;
       record.phase = phase;
       record.step_length = t;
@@ -708,7 +716,16 @@ bool PotentialSolver::NoiseFloor() {
   for (int r = 0; r < mna_->size(); ++r) {
     noise_[static_cast<size_t>(r)] = mna_->RoundOffAllowance(r);
   }
-  return klu_->Solve(noise_) == LinearStatus::kOk;
+  if (klu_->Solve(noise_) != LinearStatus::kOk) return false;
+  for (double& n : noise_) n = std::fabs(n);
+  mna_->ToNodeSpace(noise_);
+  return true;
+}
+
+// step_ = the direction dx_ (island coordinates) as node voltages and source currents.
+void PotentialSolver::MapStep() {
+  std::copy(dx_.begin(), dx_.end(), step_.begin());
+  mna_->ToNodeSpace(step_);
 }
 
 // Switches the Hessian modification on or off; the Jacobian at x is assembled again when
@@ -729,14 +746,14 @@ void PotentialSolver::Polish(std::span<double> x) {
   std::copy(x.begin(), x.end(), base_.begin());
   NewtonOutcome ignored;
   if (!SolveStep(&ignored)) return;
-  for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+  for (size_t i = 0; i < x.size(); ++i) x[i] += step_[i];
   const AssemblyOutcome assembled = mna_->Assemble(x, AssemblyAids{});
   if (assembled.finite && CheckResidual(*mna_, options_).passed()) return;
   std::copy(base_.begin(), base_.end(), x.begin());
 }
 
 std::vector<std::string> PotentialSolver::Unsettled(std::span<const double> x) const {
-  return UnsettledUnknowns(*mna_, options_, dx_, x);
+  return UnsettledUnknowns(*mna_, options_, step_, x);
 }
 
 }  // namespace knee::internal

@@ -106,11 +106,13 @@ class PotentialSolver {
   bool FeasibilityStep(std::span<double> x, NewtonOutcome* outcome);
   void Polish(std::span<double> x);
   bool NoiseFloor();
+  void MapStep();
 
   MnaSystem* mna_;
   KluSolver* klu_;
   SolverOptions options_;
-  std::vector<double> dx_;
+  std::vector<double> dx_;    // Newton direction in the MNA's island coordinates
+  std::vector<double> step_;  // the same as node voltages (and then the step taken)
   std::vector<double> base_;
   std::vector<double> noise_;      // J^-1 times the residual's round-off allowance
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
