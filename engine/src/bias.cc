@@ -30,8 +30,9 @@ namespace {
 constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin rung
 // The smallest current tolerance ResolveFaintNodes uses (A).
 constexpr double kFaintCurrentFloor = 1e-40;
-constexpr int kMaxSourceRetries = 12;  // subdivisions of a failed source step
-constexpr int kMaxSourceRungs = 2000;  // all source-stepping runs together
+constexpr int kFaintNewtonSteps = 1000;  // at least, for ResolveFaintNodes' run
+constexpr int kMaxSourceRetries = 12;    // subdivisions of a failed source step
+constexpr int kMaxSourceRungs = 2000;    // all source-stepping runs together
 
 SolveStatus StatusOf(NewtonExit exit) {
   switch (exit) {
@@ -227,12 +228,20 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   SolverOptions tight = options;
   tight.abs_current_tol =
       std::clamp(options.rel_tol * smallest, kFaintCurrentFloor, options.abs_current_tol);
+  // Leakage-balanced nodes move at most about n*Vt per step (Newton on a balance of two
+  // exponential tails), so this run gets more steps than a rung of the ladder.
+  tight.max_newton_steps = std::max(options.max_newton_steps, kFaintNewtonSteps);
   s->faint_tolerance = tight.abs_current_tol;
   saved = x;
   newton.set_options(tight);
   const NewtonOutcome out = Run(AssemblyAids{}, "newton (faint nodes)", s);
   newton.set_options(options);
-  if (out.exit == NewtonExit::kConverged) return;
+  if (out.exit == NewtonExit::kConverged) {
+    // Kept only if it is a solution at least as good, by the same test as the first.
+    SolveSummary check;
+    Verify(&check);
+    if (check.status == SolveStatus::kConverged) return;
+  }
   x = saved;
   mna.AssembleExact(x);
   const auto flow_back = mna.flow();

@@ -86,9 +86,10 @@ JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
 }
 
 // The junction voltage of a diode with series resistance at terminal voltage v: the
-// root of h(vj) = vj + rs*I(vj) - v. h rises with slope 1 + rs*g >= 1, so from any guess
-// g the point g - h(g) lies on the other side of the root: a bracket in one evaluation.
-// Newton's method inside the bracket, bisection where Newton would leave it.
+// root of h(vj) = vj + rs*I(vj) - v. h rises with slope 1 + rs*g >= 1, so the root lies
+// between v and v - h(v): a bracket from one evaluation at v, free of cancellation
+// (unlike one around a far-off guess). Newton's method from the guess when it lies in
+// the bracket (a warm start), else from v; bisection where Newton would leave it.
 double JunctionVoltageAt(const DiodeConstants& d, double v, double guess) {
   if (!(d.rs > 0.0)) return v;
   const auto h = [&](double vj, double* slope) {
@@ -96,22 +97,30 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess) {
     *slope = 1.0 + d.rs * p.conductance;
     return vj + d.rs * p.current - v;
   };
-  double x = std::isfinite(guess) ? guess : v;
   double slope = 1.0;
-  double f = h(x, &slope);
-  if (f == 0.0 || !std::isfinite(f)) return x;
-  double lo = f > 0.0 ? x - f : x;
-  double hi = f > 0.0 ? x : x - f;
-  for (int k = 0; k < kJunctionSolveIterations; ++k) {
+  const double at_v = h(v, &slope);
+  if (at_v == 0.0 || !std::isfinite(at_v)) return v;
+  double lo = at_v > 0.0 ? v - at_v : v;
+  double hi = at_v > 0.0 ? v : v - at_v;
+  double x = v;
+  double f = at_v;
+  if (guess > lo && guess < hi) {
+    x = guess;
+    f = h(x, &slope);
+    if (!std::isfinite(f)) {
+      x = v;
+      f = h(x, &slope);
+    }
+  }
+  for (int k = 0; k < kJunctionSolveIterations && f != 0.0; ++k) {
+    (f > 0.0 ? hi : lo) = x;
     double next = x - f / slope;
-    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (!(next >= lo && next <= hi)) next = 0.5 * (lo + hi);
     const double change = std::fabs(next - x);
     x = next;
     f = h(x, &slope);
-    if (f == 0.0 || !std::isfinite(f)) break;
-    (f > 0.0 ? hi : lo) = x;
-    if (change <= 4.0 * std::numeric_limits<double>::epsilon() * (std::fabs(x) + std::fabs(v)) ||
-        !(lo < hi)) {
+    if (!std::isfinite(f) ||
+        change <= 4.0 * std::numeric_limits<double>::epsilon() * (std::fabs(x) + std::fabs(v))) {
       break;
     }
   }

@@ -27,8 +27,14 @@ double MaxAbs(std::span<const double> v, size_t count) {
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o, std::span<const double> dx,
                            std::span<const double> x, std::span<const double> noise) {
   ToleranceCheck worst;
+  const auto flow = mna.flow();
   for (int u = 0; u < mna.size(); ++u) {
     const auto i = static_cast<size_t>(u);
+    // A faint node (every current at it below abs_current_tol) is not determined by the
+    // tolerance: its KCL holds across the whole range it may still move in. Its voltage
+    // is settled afterwards with a tolerance scaled to its own currents (bias.cc,
+    // ResolveFaintNodes), or reported as faint.
+    if (!mna.IsCurrentUnknown(u) && flow[i] < o.abs_current_tol) continue;
     const double abs_tol = mna.IsCurrentUnknown(u) ? o.abs_current_tol : o.abs_voltage_tol;
     const double floor = noise.empty() ? 0.0 : kNoiseFactor * std::fabs(noise[i]);
     Consider(&worst, u, std::fabs(dx[i]), abs_tol + o.rel_tol * std::fabs(x[i]) + floor);

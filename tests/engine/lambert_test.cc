@@ -154,7 +154,7 @@ TEST(JunctionVoltageAt, CurrentMatchesLambertWFromAnyGuess) {
                                model.ref_temp, temp);
   for (double v : {-400.0, -5.0, -0.01, 0.0, 1e-9, 0.3, 0.6, 0.9, 2.0, 30.0, 4000.0}) {
     const double exact = ExactCurrent(v, model.series_res, is, n_vt);
-    for (double guess : {0.0, -1e4, 1e4, v, std::nan("")}) {
+    for (double guess : {0.0, -1e4, 1e4, v, std::nan(""), 1e138, -1e138, 1e300, -1e300}) {
       const double vj = JunctionVoltageAt(d, v, guess);
       const double current = EvaluateJunction(d, vj).current;
       // Relative 1e-10 (the round-off of v = vj + rs*I amplified by the junction's
