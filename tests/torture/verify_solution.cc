@@ -42,6 +42,25 @@ double ContractDiodeCurrent(const DiodeModel& m, double area, double temp_celsiu
   return current;
 }
 
+// dI/dV of an element from the contract's equations: 1/R for a resistor; for a diode
+// the junction's slope g (derivative of the law above at vj) in series with rs:
+// 1/(rs + 1/g). Sources: 0 (their currents are not functions of their own voltage).
+double SmallSignalConductance(const Circuit& c, const Element& e, double vj) {
+  if (e.kind == ElementKind::kResistor) return 1.0 / std::fabs(e.value);
+  if (e.kind != ElementKind::kDiode || !std::isfinite(vj)) return 0.0;
+  const DiodeModel& m = c.parts[static_cast<size_t>(e.part)].model;
+  const double temp = c.DeviceTemp(e);
+  // Central difference of the law, relative step: the granularity bound needs the
+  // slope's size, not its last digits.
+  const double h = 1e-6 * std::max(std::fabs(vj), 1e-3);
+  const double g = std::fabs(ContractDiodeCurrent(m, e.area, temp, vj + h) -
+                             ContractDiodeCurrent(m, e.area, temp, vj - h)) /
+                   (2 * h);
+  const double rs = m.series_res / e.area;
+  if (!std::isfinite(g)) return rs > 0.0 ? 1.0 / rs : 0.0;
+  return g / (1.0 + rs * g);
+}
+
 Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTolerances& tol) {
   Verification v;
   const size_t nodes = c.nodes.size();
@@ -51,6 +70,10 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
     return v;
   }
   std::vector<double> sum(nodes, 0.0), magnitude(nodes, 0.0), largest(nodes, 0.0);
+  // Node voltages are doubles: the best a solver can report is the exact solution
+  // rounded, up to an ulp (2 eps |v|) off at each node, which moves an element's current
+  // by its conductance times that. granularity[n] sums it over the elements at node n.
+  std::vector<double> granularity(nodes, 0.0);
   for (size_t k = 0; k < c.elements.size(); ++k) {
     const Element& e = c.elements[k];
     const double i = s.element_current[k];
@@ -69,6 +92,11 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
       largest[static_cast<size_t>(n)] = std::max(largest[static_cast<size_t>(n)], std::fabs(i));
     }
     const double vbound = tol.abs_voltage + tol.rel * std::max(std::fabs(va), std::fabs(vb));
+    const double conductance = SmallSignalConductance(c, e, s.junction_voltage[k]);
+    for (int n : {e.node_a, e.node_b}) {
+      granularity[static_cast<size_t>(n)] +=
+          conductance * 2 * kEps * (std::fabs(va) + std::fabs(vb));
+    }
     switch (e.kind) {
       case ElementKind::kResistor: {
         const double expected = u / e.value;
@@ -117,7 +145,8 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
     v.max_kcl_residual = std::max(v.max_kcl_residual, residual);
     // The same form as the engine's verification: abs + rel * largest branch current,
     // plus 16 eps times the sum of the terms for floating-point evaluation.
-    const double bound = tol.abs_current + tol.rel * largest[n] + 16 * kEps * magnitude[n];
+    const double bound =
+        tol.abs_current + tol.rel * largest[n] + 16 * kEps * magnitude[n] + granularity[n];
     if (!(residual <= bound)) {
       Fail(&v,
            fmt::format("node '{}': KCL residual {:.3g} A > {:.3g} A", c.nodes[n], residual, bound));
