@@ -31,8 +31,12 @@ constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin 
 // The smallest current tolerance ResolveFaintNodes uses (A).
 constexpr double kFaintCurrentFloor = 1e-40;
 constexpr int kFaintNewtonSteps = 1000;  // at least, for ResolveFaintNodes' run
-constexpr int kMaxSourceRetries = 12;    // subdivisions of a failed source step
-constexpr int kMaxSourceRungs = 2000;    // all source-stepping runs together
+// The node-voltage clamp (SetVoltageBound): margin times the bound, plus a floor (V).
+constexpr double kVoltageBoundMargin = 10.0;
+constexpr double kVoltageBoundFloor = 1e4;
+constexpr double kJunctionExponents = 800.0;  // thermal scales a junction law spans
+constexpr int kMaxSourceRetries = 12;         // subdivisions of a failed source step
+constexpr int kMaxSourceRungs = 2000;         // all source-stepping runs together
 
 SolveStatus StatusOf(NewtonExit exit) {
   switch (exit) {
@@ -135,6 +139,25 @@ AssemblyAids WithSourceScale(double scale) {
   return aids;
 }
 
+// The most voltage the junctions can hold, summed: each junction's law spans at most
+// kJunctionExponents thermal scales on either side (beyond it the exponential is 0 or
+// above 1e300 A), plus the breakdown voltage. With the sources' volts and the current
+// sources' amps times every resistance, it bounds |node voltage| in a network of
+// increasing laws (a node above that bound would have every current flowing out of it),
+// in the manner of the maximum principle for resistor networks (common practice, no
+// source); the clamp uses it with a wide margin.
+double JunctionSpan(const Circuit& c) {
+  double span = 0.0;
+  for (const Element& e : c.elements) {
+    if (e.kind != ElementKind::kDiode) continue;
+    const DiodeConstants d =
+        ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+    span += kJunctionExponents * d.n_vt;
+    if (d.has_breakdown) span += std::fabs(d.vbr) + kJunctionExponents * d.nbr_vt;
+  }
+  return std::isfinite(span) ? span : 0.0;
+}
+
 }  // namespace
 
 struct BiasSolver::Impl {
@@ -152,6 +175,7 @@ struct BiasSolver::Impl {
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
   std::vector<double> node_residual, node_allowance, node_flow;  // Verify's per-node KCL
+  double junction_span = 0.0;                                    // V, JunctionSpan(circuit)
   bool trace_on = false;
   std::vector<NewtonStepRecord> trace;
 
@@ -169,6 +193,24 @@ struct BiasSolver::Impl {
     non_monotone = internal::NonMonotoneReason(circuit);
     unbounded.reset();
     if (!non_monotone) unbounded = internal::FindUnboundedCut(circuit);
+    junction_span = JunctionSpan(circuit);
+  }
+
+  // A bound on |node voltage| for the classic loop's clamp (newton.h): the sources'
+  // part is recomputed at every Solve (a sweep of a supply changes it), the junctions'
+  // part only with the parts and temperatures.
+  void SetVoltageBound() {
+    double volts = 0.0, amps = 0.0, ohms = 0.0;
+    for (const Element& e : circuit.elements) {
+      if (e.kind == ElementKind::kVoltageSource) volts += std::fabs(e.value);
+      if (e.kind == ElementKind::kCurrentSource) amps += std::fabs(e.value);
+      if (e.kind == ElementKind::kResistor) ohms += std::fabs(e.value);
+      if (e.kind == ElementKind::kDiode) {
+        ohms += circuit.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+      }
+    }
+    newton.set_voltage_bound(kVoltageBoundMargin * (volts + amps * ohms + junction_span) +
+                             kVoltageBoundFloor);
   }
 
   void Resize() {
@@ -414,6 +456,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
 SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start, bool allow_aids) {
   Impl& m = *impl_;
   m.trace.clear();
+  m.SetVoltageBound();
   SolveSummary s;
   const bool warm = start.size() == m.x.size();
   const auto reset = [&] {

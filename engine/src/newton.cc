@@ -76,6 +76,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   ToleranceCheck update;
   update.index = 0;
   update.value = 1.0;  // no update yet: not settled
+  bool last_clamped = false;
   for (int step = 1; step <= options_.max_newton_steps; ++step) {
     outcome.steps = step;
     const AssemblyOutcome assembled = mna_->Assemble(x, aids);
@@ -90,7 +91,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     // previous step's record.
     if (trace != nullptr && step > 1) trace->back().limited = assembled.limited;
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
-    if (step > 1 && update.passed() && !assembled.limited && residual.passed() &&
+    if (step > 1 && update.passed() && !last_clamped && !assembled.limited && residual.passed() &&
         assembled.unresolved_element < 0) {
       outcome.exit = NewtonExit::kConverged;
       outcome.detail = fmt::format(
@@ -106,11 +107,13 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
       return outcome;
     }
     for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+    const bool clamped = Clamp(x);
     update = CheckUpdate(*mna_, options_, dx_, x);
     if (!update.passed() && residual.passed() && !assembled.limited &&
         assembled.unresolved_element < 0 && NoiseFloor()) {
       update = CheckUpdate(*mna_, options_, dx_, x, noise_);
     }
+    last_clamped = clamped;  // a clamped step is no Newton step: not settled
     if (!std::isfinite(update.value)) {
       outcome.exit = NewtonExit::kNonFinite;
       outcome.detail = fmt::format("step {}: the update of '{}' is not finite", step,
@@ -147,6 +150,19 @@ bool NewtonSolver::NoiseFloor() {
   for (double& n : noise_) n = std::fabs(n);
   mna_->ToNodeSpace(noise_);
   return true;
+}
+
+// Clamps the node voltages to the bound; true if any was clamped.
+bool NewtonSolver::Clamp(std::span<double> x) const {
+  bool clamped = false;
+  for (int u = 0; u < mna_->kcl_rows(); ++u) {
+    double& v = x[static_cast<size_t>(u)];
+    if (std::fabs(v) > voltage_bound_) {
+      v = std::copysign(voltage_bound_, v);
+      clamped = true;
+    }
+  }
+  return clamped;
 }
 
 // Solves J dx = -F with the values and residual of the last assembly.

@@ -2,6 +2,7 @@
 // and the KCL residual pass their tests (docs/solver.md, "Convergence").
 #pragma once
 
+#include <cmath>
 #include <span>
 #include <string>
 #include <string_view>
@@ -66,6 +67,9 @@ class NewtonSolver {
   std::vector<std::string> Unsettled(std::span<const double> x) const;
 
   void set_options(const SolverOptions& options) { options_ = options; }
+  // Node voltages are clamped to [-bound, bound] after each step (a safeguard against
+  // steps that a nearly singular Jacobian blows up; the bound contains every solution).
+  void set_voltage_bound(double bound) { voltage_bound_ = bound; }
 
  private:
   bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
@@ -73,6 +77,7 @@ class NewtonSolver {
   void Polish(const AssemblyAids& aids, std::span<double> x);
   bool NoiseFloor();
   void RefineStep(std::span<double> dx);
+  bool Clamp(std::span<double> x) const;
 
   MnaSystem* mna_;
   KluSolver* klu_;
@@ -82,6 +87,7 @@ class NewtonSolver {
   std::vector<double> noise_;                    // J^-1 times the residual's round-off allowance
   std::vector<double> minus_f_, row_tolerance_;  // RefineStep's right side and row weights
   StepRefiner refiner_;
+  double voltage_bound_ = HUGE_VAL;  // V
   std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
 };
 
