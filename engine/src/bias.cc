@@ -209,8 +209,10 @@ struct BiasSolver::Impl {
         ohms += circuit.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
       }
     }
-    newton.set_voltage_bound(kVoltageBoundMargin * (volts + amps * ohms + junction_span) +
-                             kVoltageBoundFloor);
+    const double bound =
+        kVoltageBoundMargin * (volts + amps * ohms + junction_span) + kVoltageBoundFloor;
+    newton.set_voltage_bound(bound);
+    potential.set_voltage_bound(bound);
   }
 
   void Resize() {

@@ -381,18 +381,26 @@ bool PotentialSolver::Feasible() const {
 PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, double t,
                                                  std::span<double> x) {
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
-  for (size_t i = 0; i < x.size(); ++i) x[i] = base[i] + (i < kcl ? t : 1.0) * step_[i];
+  bool inside = true;
+  for (size_t i = 0; i < x.size(); ++i) {
+    x[i] = base[i] + (i < kcl ? t : 1.0) * step_[i];
+    if (i < kcl && !(std::fabs(x[i]) <= voltage_bound_)) inside = false;
+  }
   AssemblyAids aids;
   aids.want_potential = true;
   aids.junction_floor = floor_;
   const AssemblyOutcome out = mna_->Assemble(x, aids);
   ++evaluations_;
   Trial trial;
-  trial.finite = out.finite && std::isfinite(out.potential);
+  trial.finite = inside && out.finite && std::isfinite(out.potential);
   trial.potential = out.potential;
   trial.potential_magnitude = out.potential_magnitude;
   trial.max_exponent = out.max_exponent;
-  if (trial.finite) trial.slope = Slope(x);
+  if (trial.finite) {
+    trial.slope = Slope(x);
+    const ToleranceCheck residual = CheckResidual(*mna_, options_);
+    trial.residual_ratio = residual.index < 0 ? 0.0 : residual.value / residual.bound;
+  }
   trial.finite = trial.finite && std::isfinite(trial.slope);
   return trial;
 }
@@ -556,12 +564,18 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     } else if (!(slope0 < -slope_roundoff)) {
       // The slope along the Newton direction is below its own round-off: the point is
       // stationary as far as floating point can tell. The full step is taken when it
-      // does not raise the potential by more than the potential's round-off, else the
-      // shortest of a few halvings that does; none: the point stays (a zero step), and
-      // the convergence tests decide.
+      // does not raise the potential by more than the potential's round-off or when it
+      // lowers the worst residual-to-tolerance ratio (the potential, a sum of terms up
+      // to kW, cannot resolve the last nanoamperes of a node), else the longest of a
+      // few halvings that does; none: the point stays (a zero step), and the convergence
+      // tests decide.
+      const double before_ratio = residual.index < 0 ? 0.0 : residual.value / residual.bound;
       for (trials = 1; trials <= kMaxStationaryHalvings; ++trials, t *= 0.5) {
         accepted = Evaluate(base_, t, x);
-        if (accepted.finite && accepted.potential - before <= roundoff(accepted)) break;
+        if (accepted.finite && (accepted.potential - before <= roundoff(accepted) ||
+                                accepted.residual_ratio < before_ratio)) {
+          break;
+        }
       }
       if (trials > kMaxStationaryHalvings) {
         t = 0.0;
@@ -666,7 +680,11 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   };
   double lo = 0.0;  // longest step known to satisfy sufficient decrease
   double hi = std::numeric_limits<double>::infinity();  // shortest step known to fail it
-  double t = 1.0;
+  // A direction that a nearly singular Hessian made enormous (1e100 V) is first cut to
+  // reach no further than the voltage bound: the solution lies inside it.
+  double t = std::min(1.0, voltage_bound_ / MaxAbs(step_, static_cast<size_t>(mna_->kcl_rows())));
+  if (!(t > 0.0)) t = 1.0;
+  if (t < 1.0) hi = 2.0 * t;  // no doubling past the bound
   int trials = 0;
   while (trials < kMaxLineSearchTrials) {
     Trial trial = Evaluate(base_, t, x);

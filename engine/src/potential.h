@@ -6,6 +6,7 @@
 // co-content makes every accepted step decrease it, so no limiting and no aid is needed.
 #pragma once
 
+#include <cmath>
 #include <optional>
 #include <span>
 #include <string>
@@ -85,6 +86,9 @@ class PotentialSolver {
   // above every resistor's, so that the sources' voltages land on resistors, not on
   // junctions (see FeasibilityStep).
   void set_stiff_conductance(double g) { stiff_ = g; }
+  // Trial points with a node voltage beyond this bound (one that contains every
+  // solution, see bias.cc SetVoltageBound) are refused by the line search.
+  void set_voltage_bound(double bound) { voltage_bound_ = bound; }
 
  private:
   struct Trial {
@@ -93,6 +97,9 @@ class PotentialSolver {
     double potential_magnitude = 0.0;
     double slope = 0.0;         // d/dt of the potential along dx_ at this point
     double max_exponent = 0.0;  // largest junction-law exponent at this point
+    // Worst |F_r| / (its tolerance) at this point: the merit for steps whose change of
+    // the potential is below the potential's round-off.
+    double residual_ratio = 0.0;
   };
   Trial Evaluate(std::span<const double> base, double t, std::span<double> x);
   bool LineSearch(double slope0, double slope_roundoff, double before, double before_magnitude,
@@ -118,8 +125,9 @@ class PotentialSolver {
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
   int evaluations_ = 0;
   double stiff_ = 1.0;
-  bool floor_ = false;              // the Hessian modification of short steps (see Run)
-  std::span<double>* x_ = nullptr;  // the current point, during Run
+  double voltage_bound_ = HUGE_VAL;  // V
+  bool floor_ = false;               // the Hessian modification of short steps (see Run)
+  std::span<double>* x_ = nullptr;   // the current point, during Run
 };
 
 }  // namespace knee::internal
