@@ -98,6 +98,8 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   account.unique = summary.unique;
   account.max_kcl_residual = summary.max_kcl_residual;
   account.worst_node = summary.worst_node;
+  account.faint_nodes = summary.faint_nodes;
+  account.current_tol = options.solver.abs_current_tol;
 
   std::vector<double> row(report.columns.size(), kNaN);
   if (summary.status == SolveStatus::kConverged) {

@@ -137,6 +137,8 @@ int RunHand(const std::string& file, AnalysisOptions options) {
   report.account.aids = summary.aids;
   report.account.max_kcl_residual = summary.max_kcl_residual;
   report.account.worst_node = summary.worst_node;
+  report.account.faint_nodes = summary.faint_nodes;
+  report.account.current_tol = options.solver.abs_current_tol;
   if (!exact_ok) {
     report.exact_failure = fmt::format("{}: {}", ToString(summary.status), summary.detail);
     outcome.point_failed = true;

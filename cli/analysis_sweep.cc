@@ -262,6 +262,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   account.unique = stats.unique && stats.points > stats.failed;
   account.max_kcl_residual = stats.max_kcl_residual;
   account.worst_node = stats.worst_node;
+  account.faint_nodes = stats.faint_nodes;
+  account.current_tol = options.solver.abs_current_tol;
   result.outcome.point_failed = stats.failed > 0;
   return result;
 }

@@ -72,7 +72,8 @@ nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
           {"max_newton_steps_per_point", a.max_newton_steps},
           {"aids", a.aids},
           {"max_kcl_residual_a", a.max_kcl_residual},
-          {"worst_node", a.worst_node}};
+          {"worst_node", a.worst_node},
+          {"faint_nodes", a.faint_nodes}};
 }
 
 nlohmann::ordered_json JsonExpectation(const ExpectationCheck& e) {

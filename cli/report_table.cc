@@ -35,6 +35,16 @@ std::string Expectations(const Report& report) {
   return out;
 }
 
+// 'a', 'b' and 'c'
+std::string QuotedList(const std::vector<std::string>& names) {
+  std::string out;
+  for (size_t i = 0; i < names.size(); ++i) {
+    if (i > 0) out += i + 1 == names.size() ? " and " : ", ";
+    out += "'" + names[i] + "'";
+  }
+  return out;
+}
+
 std::string Account(const Report& report) {
   const SolverAccount& a = report.account;
   std::string aids =
@@ -50,7 +60,18 @@ std::string Account(const Report& report) {
   std::string residual = fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
   if (!a.worst_node.empty()) residual += " at " + a.worst_node;
   const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
-  return fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
+  std::string out =
+      fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
+  if (!a.faint_nodes.empty()) {
+    out += fmt::format(
+        "note: every current at node{} {} stays below the current tolerance ({:.3g} A), so "
+        "{} voltage{} fixed only to that tolerance; a smaller --current-tol may resolve "
+        "{}\n",
+        a.faint_nodes.size() == 1 ? "" : "s", QuotedList(a.faint_nodes), a.current_tol,
+        a.faint_nodes.size() == 1 ? "its" : "their", a.faint_nodes.size() == 1 ? " is" : "s are",
+        a.faint_nodes.size() == 1 ? "it" : "them");
+  }
+  return out;
 }
 
 std::string Vertical(const Report& report) {

@@ -76,6 +76,17 @@ std::pair<long long, long long> ShardBlocks(const SweepGrid& grid, const SweepBl
 
 namespace {
 
+// Adds names not seen yet, up to kMaxFaintNodes.
+void AddFaint(const std::vector<std::string>& names, SweepStats* stats) {
+  for (const std::string& n : names) {
+    if (stats->faint_nodes.size() >= kMaxFaintNodes) return;
+    if (std::find(stats->faint_nodes.begin(), stats->faint_nodes.end(), n) ==
+        stats->faint_nodes.end()) {
+      stats->faint_nodes.push_back(n);
+    }
+  }
+}
+
 // The state of one worker thread: its own circuit copy and solver.
 class Worker {
  public:
@@ -208,6 +219,7 @@ class Worker {
         stats.aids.push_back(aid);
       }
     }
+    if (summary.status == SolveStatus::kConverged) AddFaint(summary.faint_nodes, &stats);
     if (summary.status == SolveStatus::kConverged &&
         summary.max_kcl_residual > stats.max_kcl_residual) {
       stats.max_kcl_residual = summary.max_kcl_residual;
@@ -285,6 +297,7 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
         total.aids.push_back(aid);
       }
     }
+    AddFaint(s.faint_nodes, &total);
     if (s.max_kcl_residual > total.max_kcl_residual) {
       total.max_kcl_residual = s.max_kcl_residual;
       total.worst_node = s.worst_node;

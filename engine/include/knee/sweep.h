@@ -55,12 +55,17 @@ using ApplyPoint = std::function<std::string(std::span<const double> values, Cir
 using PointSink =
     std::function<void(long long index, const SolveSummary& summary, const Solution* solution)>;
 
+inline constexpr size_t kMaxFaintNodes = 20;
+
 struct SweepStats {
   long long points = 0;
   long long failed = 0;
   long long newton_steps = 0;
   int max_newton_steps = 0;
   std::vector<std::string> aids;
+  // Nodes reported faint at any solved point (SolveSummary::faint_nodes), first seen
+  // first, at most kMaxFaintNodes of them.
+  std::vector<std::string> faint_nodes;
   std::vector<SolverMethod> methods;  // solvers that produced the points, first use order
   bool unique = true;                 // every solved point's solution is unique
   double max_kcl_residual = 0;
