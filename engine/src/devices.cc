@@ -320,9 +320,14 @@ class Diode final : public Device {
     }
     stamped_g_ = TwoTerminal(g);
     slots_.Stamp(ctx, stamped_g_);
-    // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|).
-    ctx.AddBranch(slots_.incidence(), i,
-                  g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + d_.ibr);
+    // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|); the law's own
+    // terms round at their sizes: the forward term at most |I| + Is, the breakdown term
+    // ibr*e^y = g_breakdown * nbr*Vt <= g * nbr*Vt (not ibr itself: far from breakdown
+    // that term is 1e-300 A, and ibr would swamp the leakage that holds a faint node).
+    const double breakdown_scale = d_.has_breakdown ? p.conductance * d_.nbr_vt : 0.0;
+    ctx.AddBranch(
+        slots_.incidence(), i,
+        g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + breakdown_scale);
     // Co-content of junction and series resistance at v: with v = vj + rs*I(vj),
     // the integral of I dv is the junction's integral of I dvj plus rs*I^2/2.
     if (ctx.want_potential) {
