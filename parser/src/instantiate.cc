@@ -392,7 +392,7 @@ class Elaborator {
         if (e.kind == ElementKind::kDiode) {
           Error(Span{}, fmt::format("{}: diode '{}' has no value to set; set a key of its part "
                                     "instead ({}.KEY)",
-                                    context, o.name, e.part));
+                                    context, o.name, d_.DiodeOf(e).part));
           continue;
         }
         if (auto v = OverrideValue(o, std::string(ElementPlace(e.kind).what))) {
@@ -688,7 +688,7 @@ class Elaborator {
         BuildDiode(s, &e);
       } else {
         auto over = element_overrides_.find(static_cast<int>(i));
-        const Value& value = over != element_overrides_.end() ? *over->second : s.value;
+        const Value& value = over != element_overrides_.end() ? *over->second : d_.ValueOf(s);
         const std::string context =
             over != element_overrides_.end() ? fmt::format("--set {}={}", s.name, value.text) : "";
         const ValuePlace place = ElementPlace(s.kind);
@@ -706,20 +706,21 @@ class Elaborator {
   }
 
   void BuildDiode(const ElementStmt& s, Element* e) {
-    auto it = names_.find(s.part);
+    const DiodeStmt& diode = d_.DiodeOf(s);
+    auto it = names_.find(diode.part);
     if (it == names_.end() || it->second.kind != DefKind::kPart) {
       if (it != names_.end()) {
-        Diagnostic& d = Error(s.part_span, fmt::format("'{}' is a {}, not a part; expected the "
-                                                       "name of a 'part' statement",
-                                                       s.part, KindWord(d_, it->second)));
-        Note(&d, it->second.span, fmt::format("'{}' is defined here", s.part));
+        Diagnostic& d = Error(diode.part_span, fmt::format("'{}' is a {}, not a part; expected the "
+                                                           "name of a 'part' statement",
+                                                           diode.part, KindWord(d_, it->second)));
+        Note(&d, it->second.span, fmt::format("'{}' is defined here", diode.part));
         return;
       }
-      const std::string near = SuggestName(s.part, NamesOf({DefKind::kPart}));
-      Diagnostic& d = Error(s.part_span,
+      const std::string near = SuggestName(diode.part, NamesOf({DefKind::kPart}));
+      Diagnostic& d = Error(diode.part_span,
                             fmt::format("unknown part '{}'; expected the name of a 'part' "
                                         "statement",
-                                        s.part),
+                                        diode.part),
                             near.empty() ? "" : fmt::format("did you mean '{}'?", near));
       if (!near.empty()) {
         Note(&d, names_.find(near)->second.span, fmt::format("'{}' is defined here", near));
@@ -727,22 +728,22 @@ class Elaborator {
       return;
     }
     e->part = it->second.index;
-    if (s.area) {
-      if (auto v = Evaluate(*s.area, &kAreaPlace)) {
+    if (diode.area) {
+      if (auto v = Evaluate(*diode.area, &kAreaPlace)) {
         e->area = *v;
         if (!(*v > 0)) {
-          Error(s.area->span,
+          Error(diode.area->span,
                 fmt::format("diode '{}' has area {}; it must be > 0", s.name, Number(*v)));
         }
       }
     }
-    if (s.temp) {
-      if (auto v = Evaluate(*s.temp, &kTempPlace)) {
+    if (diode.temp) {
+      if (auto v = Evaluate(*diode.temp, &kTempPlace)) {
         e->temp = *v;
         if (!(*v > -kZeroCelsius)) {
-          Error(s.temp->span, fmt::format("diode '{}' has temperature {} C; it must be above "
-                                          "absolute zero (-273.15 C)",
-                                          s.name, Number(*v)));
+          Error(diode.temp->span, fmt::format("diode '{}' has temperature {} C; it must be above "
+                                              "absolute zero (-273.15 C)",
+                                              s.name, Number(*v)));
         }
       }
     }

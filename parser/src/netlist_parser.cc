@@ -327,7 +327,8 @@ class StatementParser {
     }
     if (!TakeName("the second node", &e.node_b, &e.b_span, true)) return false;
     if (kind == ElementKind::kDiode) {
-      if (!TakeName("the name of a part", &e.part, &e.part_span)) return false;
+      DiodeStmt diode;
+      if (!TakeName("the name of a part", &diode.part, &diode.part_span)) return false;
       while (!scanner_.AtEnd()) {
         const Token option = scanner_.NextWord();
         const bool known =
@@ -344,7 +345,7 @@ class StatementParser {
                                    Quote(option)),
                        hint);
         }
-        std::unique_ptr<Value>& slot = option.text == "area" ? e.area : e.temp;
+        std::unique_ptr<Value>& slot = option.text == "area" ? diode.area : diode.temp;
         if (slot) {
           return Error(option,
                        fmt::format("option '{}' given twice for diode '{}'", option.text, e.name));
@@ -356,13 +357,18 @@ class StatementParser {
         }
         slot = std::make_unique<Value>(std::move(v));
       }
+      e.detail = static_cast<int>(data_->diodes.size());
+      data_->diodes.push_back(std::move(diode));
     } else {
       const char* place = kind == ElementKind::kResistor        ? "a resistance"
                           : kind == ElementKind::kVoltageSource ? "a voltage"
                                                                 : "a current";
-      if (!TakeValue(place, &e.value)) return false;
+      Value value;
+      if (!TakeValue(place, &value)) return false;
+      e.detail = static_cast<int>(data_->element_values.size());
+      data_->element_values.push_back(std::move(value));
     }
-    data_->elements.push_back(std::move(e));
+    data_->elements.push_back(e);
     return true;
   }
 
@@ -491,7 +497,10 @@ Result<Netlist> ParseNetlist(std::string_view text, const std::string& file_name
   // At most one element per line: reserving once avoids moving every statement parsed so
   // far each time the vector grows, and the old and new arrays living side by side (for
   // a million elements, over a gigabyte). Pages never written are never made resident.
-  data->elements.reserve(static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n')) + 1);
+  const auto lines = static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n')) + 1;
+  data->elements.reserve(lines);
+  data->element_values.reserve(lines);
+  data->diodes.reserve(lines);
   std::vector<Diagnostic> errors;
   std::vector<LexProblem> problems;
   LineReader reader(text);

@@ -73,21 +73,28 @@ struct PartStmt {
   std::vector<PartKeyStmt> keys;
 };
 
+// An element statement. What only some kinds have lives in side arrays of NetlistData (a
+// value for R, V and I; a part and options for diodes), so that a diode carries no empty
+// Value and a resistor no part: a netlist of a million elements keeps all its statements
+// alive through elaboration. Names are views into NetlistData::text (a std::string would
+// be 32 bytes per name).
 struct ElementStmt {
-  // Names are views into NetlistData::text: a netlist of a million elements keeps all its
-  // statements alive through elaboration, and a std::string is 32 bytes per name.
   std::string_view name;
   std::string_view node_a, node_b;
-  std::string_view part;  // diode
-  Value value;            // R, V, I
-  // Diode options, by pointer: most diodes have none, and an empty std::optional<Value>
-  // would still take the size of a Value in every statement.
-  std::unique_ptr<Value> area;  // diode
-  std::unique_ptr<Value> temp;  // diode
   Span name_span;
   Span a_span, b_span;
-  Span part_span;
+  int detail = -1;  // index into NetlistData::element_values (R, V, I) or ::diodes
   ElementKind kind = ElementKind::kResistor;
+};
+
+// What a diode statement has beyond ElementStmt.
+struct DiodeStmt {
+  std::string_view part;  // a view into NetlistData::text
+  Span part_span;
+  // Options, by pointer: most diodes have none, and an empty std::optional<Value> would
+  // still take the size of a Value.
+  std::unique_ptr<Value> area;
+  std::unique_ptr<Value> temp;
 };
 
 struct SweepPairStmt {
@@ -136,6 +143,15 @@ struct NetlistData {
   std::vector<ParamStmt> params;
   std::vector<PartStmt> parts;
   std::vector<ElementStmt> elements;
+  std::vector<Value> element_values;  // of resistors and sources, by ElementStmt::detail
+  std::vector<DiodeStmt> diodes;      // by ElementStmt::detail
+
+  const Value& ValueOf(const ElementStmt& e) const {
+    return element_values[static_cast<std::size_t>(e.detail)];
+  }
+  const DiodeStmt& DiodeOf(const ElementStmt& e) const {
+    return diodes[static_cast<std::size_t>(e.detail)];
+  }
   bool bias = false;
   Span bias_span;
   std::vector<SweepStmt> sweeps;
