@@ -64,12 +64,12 @@ std::string Account(const Report& report) {
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
   if (!a.faint_nodes.empty()) {
     out += fmt::format(
-        "note: every current at node{} {} stays below the current tolerance ({:.3g} A), so "
-        "{} voltage{} fixed only to that tolerance; a smaller --current-tol may resolve "
-        "{}\n",
-        a.faint_nodes.size() == 1 ? "" : "s", QuotedList(a.faint_nodes), a.current_tol,
-        a.faint_nodes.size() == 1 ? "its" : "their", a.faint_nodes.size() == 1 ? " is" : "s are",
-        a.faint_nodes.size() == 1 ? "it" : "them");
+        "note: the voltage{} of node{} {} barely change{} any current (held only by faint "
+        "or saturated junctions, e.g. matched reverse-biased diodes in series): KCL at "
+        "{:.3g} A does not fix {}, so treat {} as undetermined\n",
+        a.faint_nodes.size() == 1 ? "" : "s", a.faint_nodes.size() == 1 ? "" : "s",
+        QuotedList(a.faint_nodes), a.faint_nodes.size() == 1 ? "s" : "", a.current_tol,
+        a.faint_nodes.size() == 1 ? "it" : "them", a.faint_nodes.size() == 1 ? "it" : "them");
   }
   return out;
 }

@@ -11,6 +11,7 @@
 #include "check.h"
 #include "klu_solver.h"
 #include "knee/solver.h"
+#include "linear_refine.h"
 #include "mna.h"
 #include "newton.h"
 #include "potential.h"
@@ -175,6 +176,7 @@ struct BiasSolver::Impl {
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
   std::vector<double> node_residual, node_allowance, node_flow;  // Verify's per-node KCL
+  std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
   double junction_span = 0.0;                                    // V, JunctionSpan(circuit)
   bool trace_on = false;
   std::vector<NewtonStepRecord> trace;
@@ -248,52 +250,97 @@ struct BiasSolver::Impl {
   }
   void Fill(Solution* solution) const;
   void ResolveFaintNodes(SolveSummary* s);
+  // The nodes that currents of the size of the tolerance (rounding = false) or of the
+  // residual's round-off allowance (rounding = true) move by more than the voltage
+  // tolerance; *scale is the factor on the current tolerance that would fix them.
+  std::vector<int> LooseNodes(const SolverOptions& o, bool rounding, double* scale);
 };
 
-// A node whose every current is far below abs_current_tol (a node between two reverse
-// junctions of 1e-20 A parts, say) passes the residual test at any voltage in a wide
-// range: the default tolerance does not determine it, and which voltage a solver ends
-// at depends on its path. Such a converged point is taken one Newton run further with
-// the current tolerance scaled to those nodes' own currents (rel_tol times the smallest
-// largest-current among them, down to kFaintCurrentFloor), from the point itself. If
-// that run does not converge, the point stands and the nodes are named in the summary.
-void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
+// A loose node: KCL at the current tolerance does not fix its voltage to the voltage
+// tolerance (a node held only by junctions of 1e-20 A parts, or a group of nodes held
+// as a whole only by saturated reverse junctions, whose currents no longer depend on
+// where the group sits). Which voltage a solver ends at there depends on its path. The
+// test: the voltage change that currents of the size of the tolerance cause,
+// |J^-1 t| with t_r = abs_current_tol + rel_tol*flow_r, exceeds the voltage tolerance.
+// A loose point is taken one Newton run further with the current tolerance scaled down
+// until it would fix those nodes (down to kFaintCurrentFloor), from the point itself;
+// the nodes still loose afterwards (all of them, if that run fails or does not verify)
+// are named.
+std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool rounding,
+                                              double* scale) {
+  std::vector<int> loose;
+  *scale = 1.0;
   mna.AssembleExact(x);
   const auto flow = mna.flow();
-  double smallest = std::numeric_limits<double>::infinity();
-  bool any = false;
-  for (int r = 0; r < mna.kcl_rows(); ++r) {
-    const double f = flow[static_cast<size_t>(r)];
-    if (!(f < options.abs_current_tol)) continue;
-    any = true;
-    if (f > 0.0) smallest = std::min(smallest, f);
+  // Cheap screens first: a node whose own conductance fixes it is fixed, and a group of
+  // nodes held as a whole by nothing leaves a tiny pivot in the last factors; when either
+  // screen fails, every node goes through the solve.
+  // A group held as a whole by nothing shows as a tiny pivot of the last factors.
+  bool any = rounding || klu.rcond() < internal::StepRefiner::kCheckBelowRcond;
+  for (int r = 0; r < mna.kcl_rows() && !any; ++r) {
+    const auto i = static_cast<size_t>(r);
+    const double sensitivity = mna.Diagonal(r) * (o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]));
+    any = !mna.IsSourceRow(r) && !(sensitivity >= o.abs_current_tol + o.rel_tol * flow[i]);
   }
-  if (!any) return;
+  if (!any) return loose;
+  spread.assign(x.size(), 0.0);
+  for (int r = 0; r < mna.kcl_rows(); ++r) {
+    spread[static_cast<size_t>(r)] =
+        rounding ? mna.RoundOffAllowance(r)
+                 : o.abs_current_tol + o.rel_tol * flow[static_cast<size_t>(r)];
+  }
+  if (klu.Factor(mna.values()) != LinearStatus::kOk || klu.Solve(spread) != LinearStatus::kOk) {
+    for (int r = 0; r < mna.kcl_rows(); ++r) {
+      if (!mna.IsSourceRow(r)) loose.push_back(r);  // singular: nothing is known to be fixed
+    }
+    *scale = 0.0;
+    return loose;
+  }
+  for (double& v : spread) v = std::fabs(v);
+  mna.ToNodeSpace(spread);
+  for (int u = 0; u < mna.kcl_rows(); ++u) {
+    const auto i = static_cast<size_t>(u);
+    const double tolerance = o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]);
+    if (!(spread[i] <= tolerance)) {
+      loose.push_back(u);
+      *scale = std::min(*scale, tolerance / spread[i]);
+    }
+  }
+  return loose;
+}
+
+void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
+  double scale = 1.0;
+  const std::vector<int> loose = LooseNodes(options, /*rounding=*/false, &scale);
+  if (loose.empty()) return;
   SolverOptions tight = options;
-  tight.abs_current_tol =
-      std::clamp(options.rel_tol * smallest, kFaintCurrentFloor, options.abs_current_tol);
+  tight.abs_current_tol = std::max(0.1 * scale * options.abs_current_tol, kFaintCurrentFloor);
   // Leakage-balanced nodes move at most about n*Vt per step (Newton on a balance of two
   // exponential tails), so this run gets more steps than a rung of the ladder.
   tight.max_newton_steps = std::max(options.max_newton_steps, kFaintNewtonSteps);
   s->faint_tolerance = tight.abs_current_tol;
   saved = x;
   newton.set_options(tight);
-  const NewtonOutcome out = Run(AssemblyAids{}, "newton (faint nodes)", s);
+  const NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
   newton.set_options(options);
+  std::vector<int> still = loose;
+  bool kept = false;
   if (out.exit == NewtonExit::kConverged) {
     // Kept only if it is a solution at least as good, by the same test as the first.
     SolveSummary check;
     Verify(&check);
-    if (check.status == SolveStatus::kConverged) return;
+    kept = check.status == SolveStatus::kConverged;
   }
-  x = saved;
-  mna.AssembleExact(x);
-  const auto flow_back = mna.flow();
-  for (int r = 0; r < mna.kcl_rows(); ++r) {
-    if (flow_back[static_cast<size_t>(r)] < options.abs_current_tol) {
-      s->faint_nodes.push_back(mna.UnknownName(r));
-    }
+  if (kept) {
+    // Settled by that run, except where the rounding of the residual alone moves a node
+    // by more than the voltage tolerance (|J^-1 a|, a the round-off allowance): there the
+    // equations do not fix the voltage in double precision.
+    double ignored = 1.0;
+    still = LooseNodes(tight, /*rounding=*/true, &ignored);
+  } else {
+    x = saved;
   }
+  for (int u : still) s->faint_nodes.push_back(mna.UnknownName(u));
 }
 
 // gmin from gmin_start down by gmin_factor to gmin_stop, each rung warm-started from the

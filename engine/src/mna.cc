@@ -141,6 +141,13 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
     }
   }
 
+  source_row_.assign(static_cast<size_t>(kcl_rows_), 0);
+  for (const Element& e : c.elements) {
+    if (e.kind != ElementKind::kVoltageSource) continue;
+    const Incidence w = islands_.Between(UnknownOfNode(e.node_a), UnknownOfNode(e.node_b));
+    for (int k = 0; k < w.count; ++k)
+      source_row_[static_cast<size_t>(w.index[static_cast<size_t>(k)])] = 1;
+  }
   values_.assign(row_index_.size(), 0.0);
   exact_x_.assign(static_cast<size_t>(n), 0.0);
   residual_.assign(static_cast<size_t>(n), 0.0);

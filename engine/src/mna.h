@@ -83,6 +83,13 @@ class MnaSystem {
   // KCL rows only.
   void NodeResidual(std::span<double> residual, std::span<double> allowance,
                     std::span<double> flow) const;
+  // dF_r/dx_r of the last assembly (a node's total conductance; an island root's, the
+  // conductance that holds the island as a whole).
+  double Diagonal(int r) const {
+    return values_[static_cast<size_t>(diagonal_slot_[static_cast<size_t>(r)])];
+  }
+  // Row r meets a voltage source (its unknown is fixed by the source, not by KCL).
+  bool IsSourceRow(int r) const { return source_row_[static_cast<size_t>(r)] != 0; }
   // Assemble(x, AssemblyAids{}), skipped when the last assembly was exactly that (the
   // verification after a polishing step that was kept). The same numbers either way.
   AssemblyOutcome AssembleExact(std::span<const double> x);
@@ -118,6 +125,7 @@ class MnaSystem {
     std::array<int, 3> slots;
   };
   std::vector<MemberShunt> member_shunts_;
+  std::vector<char> source_row_;  // per KCL row, see IsSourceRow
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
   std::vector<double> values_, residual_, flow_, magnitude_;

@@ -101,10 +101,11 @@ struct SolveSummary {
   std::string worst_node;              // node where that residual occurs
   std::string detail;                  // why it stopped, with the numbers
   std::vector<std::string> unsettled;  // nodes/devices still moving at the end, on failure
-  // Nodes every one of whose currents is below abs_current_tol, so that the tolerance
-  // alone would not fix their voltages. The solve resolves them with a current tolerance
-  // scaled to their own currents (faint_tolerance); the names are of those it could not
-  // resolve that way, whose voltages are then determined only to abs_current_tol.
+  // Loose nodes: moving one by the voltage tolerance changes its current by less than the
+  // current tolerance, so KCL at that tolerance does not fix its voltage (nodes held only
+  // by faint or saturated junctions). The solve tries again with a current tolerance
+  // scaled to them (faint_tolerance); the names are of those still loose after that,
+  // whose voltages are not determined by the equations in double precision.
   std::vector<std::string> faint_nodes;
   double faint_tolerance = 0.0;  // A; 0 when no node was faint
 };
