@@ -291,7 +291,8 @@ class Diode final : public Device {
   }
   bool Stamp(StampContext& ctx) override {
     const double v = ctx.X(a_) - ctx.X(b_);
-    const double vj = JunctionVoltageAt(d_, v, last_vj_);
+    JunctionPoint p;
+    const double vj = JunctionVoltageAt(d_, v, last_vj_, &p);
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
@@ -308,7 +309,7 @@ class Diode final : public Device {
     last_vj_ = at;
     // Linearisation at the (possibly limited) junction point `at`, whose terminal voltage
     // is at + rs*I(at), evaluated at v: the exact current when no limiting happened.
-    const JunctionPoint p = EvaluateJunction(d_, at);
+    if (limited_) p = EvaluateJunction(d_, at);
     double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
     if (ctx.junction_floor) g = std::max(g, d_.is / d_.n_vt);
     const double g_exact = TwoTerminal(p.conductance);

@@ -62,15 +62,21 @@ double ExpOrZero(double x) { return x < kExpUnderflow ? 0.0 : std::exp(x); }
 }  // namespace
 
 JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
-  // The same values as is*(SafeExp(x) - 1) (expm1 below the limit, which keeps the
-  // small-signal region accurate: I ~ Is*x near zero bias), is/nVt*SafeExpSlope(x) and
-  // the breakdown terms ibr*SafeExp(y), ibr/nbrVt*SafeExpSlope(y), bit for bit, with one
-  // exponential per term where the two share it.
+  // The values of is*(SafeExp(x) - 1) (expm1 near zero bias, which keeps the small-signal
+  // region accurate: I ~ Is*x), is/nVt*SafeExpSlope(x) and the breakdown terms
+  // ibr*SafeExp(y), ibr/nbrVt*SafeExpSlope(y), to an ulp, with one exponential per term.
   JunctionPoint p;
   const double x = vj / d.n_vt;
-  if (x <= kExpLimit) {
-    p.current = d.is * (x < kExpm1Saturation ? -1.0 : std::expm1(x));
-    p.conductance = d.is / d.n_vt * ExpOrZero(x);
+  if (x > -1.0 && x <= kExpLimit) {
+    // One transcendental: e^x = expm1(x) + 1 is exact to an ulp here (expm1 > -0.64).
+    const double m = std::expm1(x);
+    p.current = d.is * m;
+    p.conductance = d.is / d.n_vt * (m + 1.0);
+  } else if (x <= kExpLimit) {
+    // e^x < 0.37: e^x - 1 has no cancellation, so expm1 is not needed either.
+    const double e = ExpOrZero(x);
+    p.current = d.is * (x < kExpm1Saturation ? -1.0 : e - 1.0);
+    p.conductance = d.is / d.n_vt * e;
   } else {
     const double e = std::exp(kExpLimit);
     p.current = d.is * (e * (1.0 + (x - kExpLimit)) - 1.0);
@@ -86,44 +92,52 @@ JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
 }
 
 // The junction voltage of a diode with series resistance at terminal voltage v: the
-// root of h(vj) = vj + rs*I(vj) - v. h rises with slope 1 + rs*g >= 1, so the root lies
-// between v and v - h(v): a bracket from one evaluation at v, free of cancellation
-// (unlike one around a far-off guess). Newton's method from the guess when it lies in
-// the bracket (a warm start), else from v; bisection where Newton would leave it.
-double JunctionVoltageAt(const DiodeConstants& d, double v, double guess) {
-  if (!(d.rs > 0.0)) return v;
+// root of h(vj) = vj + rs*I(vj) - v. h rises with slope 1 + rs*g >= 1, so from any point
+// p the point p - h(p) lies on the other side of the root: a bracket from one
+// evaluation. Around a guess of v's size (a warm start: the last junction voltage) that
+// evaluation is the first Newton point too; around a far-off guess p - h(p) would cancel
+// to nothing (guess -1e138, v = 1 nV), so the bracket is then built at v. Newton's
+// method inside the bracket, bisection where Newton would leave it.
+double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, JunctionPoint* at) {
+  JunctionPoint point;
   const auto h = [&](double vj, double* slope) {
-    const JunctionPoint p = EvaluateJunction(d, vj);
-    *slope = 1.0 + d.rs * p.conductance;
-    return vj + d.rs * p.current - v;
+    point = EvaluateJunction(d, vj);
+    *slope = 1.0 + d.rs * point.conductance;
+    return vj + d.rs * point.current - v;
   };
-  double slope = 1.0;
-  const double at_v = h(v, &slope);
-  if (at_v == 0.0 || !std::isfinite(at_v)) return v;
-  double lo = at_v > 0.0 ? v - at_v : v;
-  double hi = at_v > 0.0 ? v : v - at_v;
-  double x = v;
-  double f = at_v;
-  if (guess > lo && guess < hi) {
-    x = guess;
-    f = h(x, &slope);
-    if (!std::isfinite(f)) {
-      x = v;
-      f = h(x, &slope);
-    }
+  if (!(d.rs > 0.0)) {
+    if (at != nullptr) *at = EvaluateJunction(d, v);
+    return v;
   }
+  double slope = 1.0;
+  const bool near = std::isfinite(guess) && std::fabs(guess) <= 2.0 * std::fabs(v) + 1.0;
+  double x = near ? guess : v;
+  double f = h(x, &slope);
+  if (!std::isfinite(f) && x != v) {
+    x = v;
+    f = h(x, &slope);
+  }
+  if (f == 0.0 || !std::isfinite(f)) {
+    if (at != nullptr) *at = point;
+    return x;
+  }
+  double lo = f > 0.0 ? x - f : x;
+  double hi = f > 0.0 ? x : x - f;
+  const double resolution = 4.0 * std::numeric_limits<double>::epsilon();
   for (int k = 0; k < kJunctionSolveIterations && f != 0.0; ++k) {
     (f > 0.0 ? hi : lo) = x;
-    double next = x - f / slope;
+    const double newton = f / slope;
+    // A Newton step below the rounding of x: x is the root as far as doubles go (and
+    // `point` is already x's).
+    if (std::fabs(newton) <= resolution * (std::fabs(x) + std::fabs(v))) break;
+    double next = x - newton;
     if (!(next >= lo && next <= hi)) next = 0.5 * (lo + hi);
     const double change = std::fabs(next - x);
     x = next;
     f = h(x, &slope);
-    if (!std::isfinite(f) ||
-        change <= 4.0 * std::numeric_limits<double>::epsilon() * (std::fabs(x) + std::fabs(v))) {
-      break;
-    }
+    if (!std::isfinite(f) || change <= resolution * (std::fabs(x) + std::fabs(v))) break;
   }
+  if (at != nullptr) *at = point;
   return x;
 }
 

@@ -44,7 +44,9 @@ JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj);
 
 // The junction voltage of a diode with series resistance d.rs at terminal voltage v (the
 // root of v = vj + rs*I(vj)); `guess` is where the search starts. v itself when rs == 0.
-double JunctionVoltageAt(const DiodeConstants& d, double v, double guess);
+// When `at` is given it receives the junction's current and conductance at the result.
+double JunctionVoltageAt(const DiodeConstants& d, double v, double guess,
+                         JunctionPoint* at = nullptr);
 
 // exp(x) for x <= kExpLimit, exp(kExpLimit) * (1 + x - kExpLimit) above.
 double SafeExp(double x);
