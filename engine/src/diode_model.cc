@@ -127,9 +127,10 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
   for (int k = 0; k < kJunctionSolveIterations && f != 0.0; ++k) {
     (f > 0.0 ? hi : lo) = x;
     const double newton = f / slope;
-    // A Newton step below the rounding of x: x is the root as far as doubles go (and
-    // `point` is already x's).
-    if (std::fabs(newton) <= resolution * (std::fabs(x) + std::fabs(v))) break;
+    // x is the root as far as doubles go when both the Newton step is below x's rounding
+    // and v = vj + rs*I already holds to v's rounding (`point` is then x's already).
+    const double scale = resolution * (std::fabs(x) + std::fabs(v));
+    if (std::fabs(newton) <= scale && std::fabs(f) <= scale) break;
     double next = x - newton;
     if (!(next >= lo && next <= hi)) next = 0.5 * (lo + hi);
     const double change = std::fabs(next - x);
