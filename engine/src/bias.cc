@@ -289,10 +289,9 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
         rounding ? mna.RoundOffAllowance(r)
                  : o.abs_current_tol + o.rel_tol * flow[static_cast<size_t>(r)];
   }
-  // The factors of the last Newton step (at this point, up to that step's own size) are
-  // accurate enough for a yes-or-no about the voltage tolerance.
-  const bool factored = klu.has_factors() || klu.Factor(mna.values()) == LinearStatus::kOk;
-  if (!factored || klu.Solve(spread) != LinearStatus::kOk) {
+  // Fresh factors of the exact Jacobian at x: the last step's may be of a shunted or
+  // floored matrix, which would hide exactly the nodes sought here.
+  if (klu.Factor(mna.values()) != LinearStatus::kOk || klu.Solve(spread) != LinearStatus::kOk) {
     for (int r = 0; r < mna.kcl_rows(); ++r) {
       if (!mna.IsSourceRow(r)) loose.push_back(r);  // singular: nothing is known to be fixed
     }

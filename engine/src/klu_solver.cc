@@ -106,8 +106,6 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   return LinearStatus::kOk;
 }
 
-bool KluSolver::has_factors() const { return handles_->numeric != nullptr; }
-
 double KluSolver::rcond() {
   Handles& h = *handles_;
   if (h.numeric == nullptr || klu_rcond(h.symbolic, h.numeric, &h.common) == 0) return 0.0;

@@ -36,8 +36,6 @@ class KluSolver {
   // KLU's cheap reciprocal condition estimate of the current factors (min/max |U_ii|);
   // 0 when there are none.
   double rcond();
-  // Whether factors exist (a failed factorisation leaves none).
-  bool has_factors() const;
 
   // Why the last call did not return kOk, with KLU's status and numbers.
   const std::string& message() const { return message_; }
