@@ -39,11 +39,12 @@ struct ToleranceCheck {
 
 // |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns), plus
 // kNoiseFactor*|noise_u| when `noise` is given: the part of a step that the residual's
-// round-off alone would cause (NewtonSolver::NoiseFloor).
+// round-off alone would cause (NewtonSolver::NoiseFloor). With exempt_loose, node
+// unknowns whose every current is below abs_current_tol are not tested.
 inline constexpr double kNoiseFactor = 4.0;
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
                            std::span<const double> dx, std::span<const double> x,
-                           std::span<const double> noise = {});
+                           std::span<const double> noise = {}, bool exempt_loose = true);
 // KCL rows: |F_r| <= abs_current_tol + rel_tol*flow_r; branch rows: |F_r| <= abs_voltage_tol;
 // both plus the round-off allowance of row r.
 ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options);
