@@ -128,7 +128,8 @@ class Resistor final : public Device {
     const double i = g_ * (ctx.X(a_) - ctx.X(b_));
     if (!std::isfinite(i)) return false;
     slots_.Stamp(ctx, g_);
-    ctx.AddBranch(slots_.incidence(), i, g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))));
+    ctx.AddBranch(slots_.incidence(), i, g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))), a_,
+                  b_);
     // Co-content of a linear resistor: G v^2 / 2.
     if (ctx.want_potential) ctx.AddPotential(0.5 * i * (ctx.X(a_) - ctx.X(b_)));
     return true;
@@ -182,7 +183,7 @@ class VoltageSource final : public Device {
       ctx.AddValue(column_slots_[static_cast<size_t>(t)], w_.coef[static_cast<size_t>(t)]);
       ctx.AddValue(row_slots_[static_cast<size_t>(t)], w_.coef[static_cast<size_t>(t)]);
     }
-    ctx.AddBranch(w_, i, 0.0);
+    ctx.AddBranch(w_, i, 0.0, p_, n_);
     ctx.residual[static_cast<size_t>(k_)] += ctx.X(p_) - ctx.X(n_) - ctx.source_scale * v_;
     ctx.AddMagnitude(
         k_, std::fabs(ctx.X(p_)) + std::fabs(ctx.X(n_)) + std::fabs(ctx.source_scale * v_));
@@ -229,7 +230,7 @@ class CurrentSource final : public Device {
   }
   bool Stamp(StampContext& ctx) override {
     const double i = ctx.source_scale * i_;
-    ctx.AddBranch(w_, i, 0.0);
+    ctx.AddBranch(w_, i, 0.0, a_, b_);
     // A current source's term of the potential is linear: its gradient is the current
     // it draws out of a and delivers into b, i.e. its KCL contribution.
     if (ctx.want_potential) ctx.AddPotential(i * (ctx.X(a_) - ctx.X(b_)));
@@ -326,9 +327,9 @@ class Diode final : public Device {
     // ibr*e^y = g_breakdown * nbr*Vt <= g * nbr*Vt (not ibr itself: far from breakdown
     // that term is 1e-300 A, and ibr would swamp the leakage that holds a faint node).
     const double breakdown_scale = d_.has_breakdown ? p.conductance * d_.nbr_vt : 0.0;
-    ctx.AddBranch(
-        slots_.incidence(), i,
-        g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + breakdown_scale);
+    ctx.AddBranch(slots_.incidence(), i,
+                  g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + breakdown_scale,
+                  a_, b_);
     // Co-content of junction and series resistance at v: with v = vj + rs*I(vj),
     // the integral of I dv is the junction's integral of I dvj plus rs*I^2/2.
     if (ctx.want_potential) {
@@ -423,7 +424,10 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
     const double base = std::max(previous, v_crit);
     if (proposed > base) return LogStep(base, proposed, d.n_vt);
   }
-  if (previous > 0.0 && proposed < previous) {
+  // Only a step of at least half a thermal scale from a forward-biased junction: near
+  // zero bias the law is nearly linear and Newton's step is right (and a step of 1e-17 V
+  // must not count as limited, or a converged point never converges).
+  if (previous > d.n_vt && proposed < previous - 0.5 * d.n_vt) {
     proposed = FallingStep(previous, proposed, d.is, d.n_vt);
   }
   if (d.has_breakdown) {
@@ -435,7 +439,7 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
       const double base = std::max(u_prev, u_crit);
       if (u_prop > base) return -LogStep(base, u_prop, d.nbr_vt) - d.vbr;
     }
-    if (u_prev > 0.0 && u_prop < u_prev) {
+    if (u_prev > d.nbr_vt && u_prop < u_prev - 0.5 * d.nbr_vt) {
       return -FallingStep(u_prev, u_prop, d.ibr, d.nbr_vt) - d.vbr;
     }
   }

@@ -4,6 +4,7 @@
 // indices; -1 is gnd and is never stamped.
 #pragma once
 
+#include <algorithm>
 #include <array>
 #include <memory>
 #include <span>
@@ -86,11 +87,14 @@ class EntryCollector {
 // it): floating-point evaluation of F_r is uncertain by a few eps times this.
 struct StampContext {
   std::span<const double> x;
-  std::span<double> values;     // Jacobian dF/dx, in CSC slot order
-  std::span<double> residual;   // F(x)
-  std::span<double> flow;       // A
-  std::span<double> magnitude;  // A (KCL rows) or V (branch rows)
-  double source_scale = 1.0;    // independent sources are multiplied by this
+  std::span<double> values;          // Jacobian dF/dx, in CSC slot order
+  std::span<double> residual;        // F(x)
+  std::span<double> flow;            // A
+  std::span<double> magnitude;       // A (KCL rows) or V (branch rows)
+  std::span<double> node_flow;       // A, per node unknown: its own largest device current
+  std::span<double> node_magnitude;  // A, per node unknown: its own terms (as magnitude)
+  std::span<double> node_kcl;        // A, per node unknown: its own KCL sum
+  double source_scale = 1.0;         // independent sources are multiplied by this
   bool limit_junctions = false;
   bool limited = false;  // out: some junction's evaluation point was limited
   // out: first diode whose junction voltage is lost in the rounding of its node voltages
@@ -125,7 +129,18 @@ struct StampContext {
   void AddCurrent(int row, double i);
   // Current `i` flows through a two-terminal element with incidence w (from its first
   // terminal to its second), and its rounding scale `terms` enters every row it touches.
-  void AddBranch(const Incidence& w, double i, double terms) {
+  // a and b are the element's node unknowns (-1 for gnd): node_kcl, node_flow and
+  // node_magnitude keep each node's own KCL sum, largest current and terms, which an
+  // island root's row (the island's sum) does not show.
+  void AddBranch(const Incidence& w, double i, double terms, int a, int b) {
+    const double magnitude_i = i < 0.0 ? -i : i;
+    for (int n : {a, b}) {
+      if (n < 0) continue;
+      const auto k = static_cast<size_t>(n);
+      node_kcl[k] += n == a ? i : -i;
+      node_flow[k] = std::max(node_flow[k], magnitude_i);
+      node_magnitude[k] += magnitude_i + terms;
+    }
     for (int k = 0; k < w.count; ++k) {
       AddCurrent(w.index[static_cast<size_t>(k)], w.coef[static_cast<size_t>(k)] * i);
       AddMagnitude(w.index[static_cast<size_t>(k)], terms);

@@ -141,6 +141,18 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
     }
   }
 
+  {
+    std::vector<int> island_of_root(static_cast<size_t>(kcl_rows_), -1);
+    for (const MemberShunt& m : member_shunts_) {
+      int& k = island_of_root[static_cast<size_t>(m.root)];
+      if (k < 0) {
+        k = static_cast<int>(roots_.size());
+        roots_.push_back(m.root);
+        island_members_.emplace_back();
+      }
+      island_members_[static_cast<size_t>(k)].push_back(m.member);
+    }
+  }
   source_row_.assign(static_cast<size_t>(kcl_rows_), 0);
   for (const Element& e : c.elements) {
     if (e.kind != ElementKind::kVoltageSource) continue;
@@ -153,6 +165,9 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
   residual_.assign(static_cast<size_t>(n), 0.0);
   flow_.assign(static_cast<size_t>(n), 0.0);
   magnitude_.assign(static_cast<size_t>(n), 0.0);
+  node_flow_.assign(static_cast<size_t>(kcl_rows_), 0.0);
+  node_magnitude_.assign(static_cast<size_t>(kcl_rows_), 0.0);
+  node_kcl_.assign(static_cast<size_t>(kcl_rows_), 0.0);
 }
 
 std::string MnaSystem::UnknownName(int u) const {
@@ -169,8 +184,20 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   std::fill(residual_.begin(), residual_.end(), 0.0);
   std::fill(flow_.begin(), flow_.end(), 0.0);
   std::fill(magnitude_.begin(), magnitude_.end(), 0.0);
-  StampContext ctx{
-      x, values_, residual_, flow_, magnitude_, aids.source_scale, aids.limit_junctions, false};
+  std::fill(node_flow_.begin(), node_flow_.end(), 0.0);
+  std::fill(node_magnitude_.begin(), node_magnitude_.end(), 0.0);
+  std::fill(node_kcl_.begin(), node_kcl_.end(), 0.0);
+  StampContext ctx{x,
+                   values_,
+                   residual_,
+                   flow_,
+                   magnitude_,
+                   node_flow_,
+                   node_magnitude_,
+                   node_kcl_,
+                   aids.source_scale,
+                   aids.limit_junctions,
+                   false};
   ctx.want_potential = aids.want_potential;
   ctx.stiff_junction = aids.stiff_junction;
   ctx.junction_floor = aids.junction_floor;
@@ -189,6 +216,7 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
     for (int r = 0; r < kcl_rows_; ++r) {
       values_[static_cast<size_t>(diagonal_slot_[static_cast<size_t>(r)])] += aids.gmin;
       ctx.AddCurrent(r, aids.gmin * x[static_cast<size_t>(r)]);
+      node_kcl_[static_cast<size_t>(r)] += aids.gmin * x[static_cast<size_t>(r)];
       if (ctx.want_potential) {
         ctx.AddPotential(0.5 * aids.gmin * x[static_cast<size_t>(r)] * x[static_cast<size_t>(r)]);
       }
@@ -235,12 +263,17 @@ void MnaSystem::NodeResidual(std::span<double> residual, std::span<double> allow
     allowance[i] = RoundOffAllowance(r);
     flow[i] = flow_[i];
   }
-  // A root's row holds its island's sum: its own KCL is that sum minus the members'.
-  for (const MemberShunt& m : member_shunts_) {
-    const auto root = static_cast<size_t>(m.root), member = static_cast<size_t>(m.member);
-    residual[root] -= residual_[member];
-    allowance[root] += RoundOffAllowance(m.member);
-    flow[root] = std::max(flow[root], flow_[member]);
+  // A root's row holds its island's sum: its own KCL is summed separately.
+  for (int r : roots_) {
+    const auto root = static_cast<size_t>(r);
+    residual[root] = node_kcl_[root];
+    flow[root] = node_flow_[root];
+    allowance[root] = kRoundOffFactor * node_magnitude_[root];
+  }
+  for (size_t k = 0; k < roots_.size(); ++k) {
+    for (int m : island_members_[k]) {
+      allowance[static_cast<size_t>(roots_[k])] += RoundOffAllowance(m);
+    }
   }
 }
 

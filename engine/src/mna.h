@@ -3,7 +3,9 @@
 // J dx = -F(x). Layout: [circuit nodes 1..N-1][vsource currents].
 #pragma once
 
+#include <algorithm>
 #include <array>
+#include <cmath>
 #include <memory>
 #include <span>
 #include <string>
@@ -83,6 +85,20 @@ class MnaSystem {
   // KCL rows only.
   void NodeResidual(std::span<double> residual, std::span<double> allowance,
                     std::span<double> flow) const;
+  // For every island root: fn(root, its own KCL residual, its own largest current, its
+  // round-off allowance), from the last assembly.
+  template <typename Fn>
+  void ForEachRootBalance(Fn&& fn) const {
+    for (size_t k = 0; k < roots_.size(); ++k) {
+      const auto i = static_cast<size_t>(roots_[k]);
+      // In island coordinates the root's own KCL is the island's sum less the members'
+      // rows, so the members' round-off is its floor too (their tolerances are not).
+      double members = 0.0;
+      for (int m : island_members_[k]) members += RoundOffAllowance(m);
+      fn(roots_[k], node_kcl_[i], node_flow_[i], kRoundOffFactor * node_magnitude_[i] + members);
+    }
+  }
+
   // dF_r/dx_r of the last assembly (a node's total conductance; an island root's, the
   // conductance that holds the island as a whole).
   double Diagonal(int r) const {
@@ -125,7 +141,12 @@ class MnaSystem {
     std::array<int, 3> slots;
   };
   std::vector<MemberShunt> member_shunts_;
-  std::vector<char> source_row_;  // per KCL row, see IsSourceRow
+  std::vector<char> source_row_;        // per KCL row, see IsSourceRow
+  std::vector<double> node_flow_;       // per node unknown, see StampContext::node_flow
+  std::vector<double> node_magnitude_;  // per node unknown, see StampContext::node_magnitude
+  std::vector<double> node_kcl_;        // per node unknown, see StampContext::node_kcl
+  std::vector<int> roots_;              // the islands' roots
+  std::vector<std::vector<int>> island_members_;  // per root (roots_ order), its members
   std::vector<int> col_ptr_, row_index_;
   std::vector<int> diagonal_slot_;  // per KCL row
   std::vector<double> values_, residual_, flow_, magnitude_;

@@ -54,6 +54,12 @@ ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
         mna.RoundOffAllowance(r);
     Consider(&worst, r, std::fabs(f[i]), bound);
   }
+  // An island root's own KCL (its row holds the island's sum): the sum less the members'
+  // rows, against the island's largest current and the rows' summed allowances.
+  mna.ForEachRootBalance([&](int root, double residual, double largest, double allowance) {
+    Consider(&worst, root, std::fabs(residual),
+             o.abs_current_tol + o.rel_tol * largest + allowance);
+  });
   return worst;
 }
 

@@ -71,9 +71,10 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
   }
   std::vector<double> sum(nodes, 0.0), magnitude(nodes, 0.0), largest(nodes, 0.0);
   // Node voltages are doubles: the best a solver can report is the exact solution
-  // rounded, up to an ulp (2 eps |v|) off at each node, which moves an element's current
-  // by its conductance times that. granularity[n] sums it over the elements at node n.
-  std::vector<double> granularity(nodes, 0.0);
+  // rounded, an ulp or so off at each node, which moves an element's current by its
+  // conductance times that, and evaluating g*(va - vb) rounds in proportion to
+  // g*(|va| + |vb|). That term joins the sum of magnitudes below, as in the engine's
+  // own round-off allowance (mna.h, RoundOffAllowance): 16 eps times the terms.
   for (size_t k = 0; k < c.elements.size(); ++k) {
     const Element& e = c.elements[k];
     const double i = s.element_current[k];
@@ -94,8 +95,7 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
     const double vbound = tol.abs_voltage + tol.rel * std::max(std::fabs(va), std::fabs(vb));
     const double conductance = SmallSignalConductance(c, e, s.junction_voltage[k]);
     for (int n : {e.node_a, e.node_b}) {
-      granularity[static_cast<size_t>(n)] +=
-          conductance * 2 * kEps * (std::fabs(va) + std::fabs(vb));
+      magnitude[static_cast<size_t>(n)] += conductance * (std::fabs(va) + std::fabs(vb));
     }
     switch (e.kind) {
       case ElementKind::kResistor: {
@@ -145,8 +145,7 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
     v.max_kcl_residual = std::max(v.max_kcl_residual, residual);
     // The same form as the engine's verification: abs + rel * largest branch current,
     // plus 16 eps times the sum of the terms for floating-point evaluation.
-    const double bound =
-        tol.abs_current + tol.rel * largest[n] + 16 * kEps * magnitude[n] + granularity[n];
+    const double bound = tol.abs_current + tol.rel * largest[n] + 16 * kEps * magnitude[n];
     if (!(residual <= bound)) {
       Fail(&v,
            fmt::format("node '{}': KCL residual {:.3g} A > {:.3g} A", c.nodes[n], residual, bound));
