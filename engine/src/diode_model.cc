@@ -126,36 +126,17 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
   const double resolution = 4.0 * std::numeric_limits<double>::epsilon();
   for (int k = 0; k < kJunctionSolveIterations && f != 0.0; ++k) {
     (f > 0.0 ? hi : lo) = x;
-    const double scale = resolution * (std::fabs(x) + std::fabs(v));
-    if (std::fabs(f) <= scale) break;  // v = vj + rs*I holds to v's rounding
     const double newton = f / slope;
-    if (std::fabs(newton) <= scale) {
-      // The Newton correction is below x's rounding: take it, evaluate, done.
-      x -= newton;
-      f = h(x, &slope);
-      break;
-    }
+    // x is the root as far as doubles go when both the Newton step is below x's rounding
+    // and v = vj + rs*I already holds to v's rounding (`point` is then x's already).
+    const double scale = resolution * (std::fabs(x) + std::fabs(v));
+    if (std::fabs(newton) <= scale && std::fabs(f) <= scale) break;
     double next = x - newton;
-    // Where the series resistance dominates (rs*g > 1) on the forward exponential, Newton
-    // in the junction voltage creeps down by about n*Vt per iteration; Newton in the
-    // branch current does not (v = vj(I) + rs*I is concave in I, vj = n*Vt*ln(1 + I/Is)),
-    // so that step is taken instead where the forward term alone makes the law and the
-    // logarithm inverts it (below kExpLimit).
-    const double forward = point.current + d.is;  // Is*e^x, when the forward term rules
-    if (d.rs * point.conductance > 1.0 && x > 0.0 && x < kExpLimit * d.n_vt &&
-        std::fabs(point.conductance * d.n_vt - forward) <= 1e-6 * forward) {
-      const double current = point.current - f / (1.0 / point.conductance + d.rs);
-      const double ratio = current / d.is;
-      if (ratio > -1.0 && ratio < std::exp(kExpLimit)) {
-        const double candidate = d.n_vt * std::log1p(ratio);
-        if (candidate > lo && candidate < hi) next = candidate;
-      }
-    }
-    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
-    if (!(next > lo && next < hi)) break;  // the bracket is as narrow as doubles allow
+    if (!(next >= lo && next <= hi)) next = 0.5 * (lo + hi);
+    const double change = std::fabs(next - x);
     x = next;
     f = h(x, &slope);
-    if (!std::isfinite(f)) break;
+    if (!std::isfinite(f) || change <= resolution * (std::fabs(x) + std::fabs(v))) break;
   }
   if (at != nullptr) *at = point;
   return x;
