@@ -166,15 +166,15 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
 // chased, not a move toward the solution (a node held by a conductance of 1e-11 S with
 // a residual of 4e-17 A of pure rounding steps 4 uV, forever). noise_ = J^-1 a, with
 // the factorisation of the step just taken. False if the solve fails.
-bool NewtonSolver::NoiseFloor() {
-  for (int r = 0; r < mna_->size(); ++r) {
-    noise_[static_cast<size_t>(r)] = mna_->RoundOffAllowance(r);
-  }
-  if (klu_->Solve(noise_) != LinearStatus::kOk) return false;
-  for (double& n : noise_) n = std::fabs(n);
-  mna_->ToNodeSpace(noise_);
+bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise) {
+  for (int r = 0; r < mna.size(); ++r) noise[static_cast<size_t>(r)] = mna.RoundOffAllowance(r);
+  if (klu.Solve(noise) != LinearStatus::kOk) return false;
+  for (double& n : noise) n = std::fabs(n);
+  mna.ToNodeSpace(noise);
   return true;
 }
+
+bool NewtonSolver::NoiseFloor() { return RoundingNoise(*mna_, *klu_, noise_); }
 
 // Clamps the node voltages to the bound; true if any was clamped.
 bool NewtonSolver::Clamp(std::span<double> x) const {

@@ -42,6 +42,11 @@ struct ToleranceCheck {
 // round-off alone would cause (NewtonSolver::NoiseFloor). With exempt_loose, node
 // unknowns whose every current is below abs_current_tol are not tested.
 inline constexpr double kNoiseFactor = 4.0;
+// |J^-1 a| in node voltages, a the round-off allowance of every row, with the factors
+// `klu` holds: how far the residual's rounding alone moves a step. False if the solve
+// fails.
+bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise);
+
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
                            std::span<const double> dx, std::span<const double> x,
                            std::span<const double> noise = {}, bool exempt_loose = true);

@@ -728,17 +728,8 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   return accepted->finite;
 }
 
-// noise_ = J^-1 a, a the round-off allowance of every row, with the factorisation of
-// the last Newton direction. False if the solve fails.
-bool PotentialSolver::NoiseFloor() {
-  for (int r = 0; r < mna_->size(); ++r) {
-    noise_[static_cast<size_t>(r)] = mna_->RoundOffAllowance(r);
-  }
-  if (klu_->Solve(noise_) != LinearStatus::kOk) return false;
-  for (double& n : noise_) n = std::fabs(n);
-  mna_->ToNodeSpace(noise_);
-  return true;
-}
+// noise_ = |J^-1 a| with the factorisation of the last Newton direction (newton.h).
+bool PotentialSolver::NoiseFloor() { return RoundingNoise(*mna_, *klu_, noise_); }
 
 // step_ = the direction dx_ (island coordinates) as node voltages and source currents.
 void PotentialSolver::MapStep() {
