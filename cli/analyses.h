@@ -42,6 +42,7 @@ Report StartReport(const LoadedDesign& loaded, const char* analysis);
 // Name of the solver method for reports.
 const char* SolverMethodName(const SolverOptions& options);
 // Name of the solver that produced a result (SolveSummary::method).
-const char* SolverMethodName(SolverMethod method);
+// The classic solver's name says whether junction limiting was on (--no-limiting).
+const char* SolverMethodName(SolverMethod method, bool junction_limiting = true);
 
 }  // namespace knee::cli

@@ -41,17 +41,18 @@ void PrintTrace(const BiasSolver& solver) {
 }  // namespace
 
 const char* SolverMethodName(const SolverOptions& options) {
-  return SolverMethodName(options.method);
+  return SolverMethodName(options.method, options.junction_limiting);
 }
 
-const char* SolverMethodName(SolverMethod method) {
+const char* SolverMethodName(SolverMethod method, bool junction_limiting) {
   switch (method) {
     case SolverMethod::kAuto:
       return "Newton-Raphson (potential method when the network is monotone)";
     case SolverMethod::kPotential:
       return "Newton-Raphson with a line search on the potential";
     case SolverMethod::kClassic:
-      return "Newton-Raphson with junction limiting";
+      return junction_limiting ? "Newton-Raphson with junction limiting"
+                               : "Newton-Raphson without junction limiting";
   }
   return "Newton-Raphson";
 }
@@ -94,7 +95,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   account.newton_steps = summary.newton_steps;
   account.max_newton_steps = summary.newton_steps;
   account.aids = summary.aids;
-  account.method = SolverMethodName(summary.method);
+  account.method = SolverMethodName(summary.method, options.solver.junction_limiting);
   account.unique = summary.unique;
   account.max_kcl_residual = summary.max_kcl_residual;
   account.worst_node = summary.worst_node;

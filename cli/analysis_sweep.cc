@@ -255,7 +255,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   if (!stats.methods.empty()) {
     std::string methods;
     for (SolverMethod m : stats.methods) {
-      methods += (methods.empty() ? "" : "; ") + std::string(SolverMethodName(m));
+      methods += (methods.empty() ? "" : "; ") +
+                 std::string(SolverMethodName(m, options.solver.junction_limiting));
     }
     account.method = methods;
   }

@@ -66,6 +66,16 @@ TEST(Cli, CheckAcceptsEveryDemo) {
   }
 }
 
+// The report names the solver as it ran: --no-limiting turns junction limiting off.
+TEST(Cli, SolverNameSaysWhetherJunctionLimitingRan) {
+  KneeRun on = RunKnee("bias - --method classic --format json", kSingleDiode);
+  ASSERT_EQ(on.status, 0) << on.err;
+  EXPECT_EQ(json::parse(on.out)["solver"]["method"], "Newton-Raphson with junction limiting");
+  KneeRun off = RunKnee("bias - --method classic --no-limiting --format json", kSingleDiode);
+  ASSERT_EQ(off.status, 0) << off.err;
+  EXPECT_EQ(json::parse(off.out)["solver"]["method"], "Newton-Raphson without junction limiting");
+}
+
 TEST(Cli, BiasJsonAgreesWithLambertW) {
   KneeRun run = RunKnee("bias - --format json --show D1.i,k.v", kSingleDiode);
   ASSERT_EQ(run.status, 0) << run.err;
