@@ -150,14 +150,19 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
                         std::string(phase)});
     }
   }
-  const ToleranceCheck residual = CheckResidual(*mna_, options_);
   outcome.exit = NewtonExit::kStepLimit;
-  outcome.detail = fmt::format(
+  outcome.detail = StepLimitDetail(*mna_, options_, update);
+  return outcome;
+}
+
+std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
+                            const ToleranceCheck& update) {
+  const ToleranceCheck residual = CheckResidual(mna, options);
+  return fmt::format(
       "no convergence in {} steps: last |dx| at '{}' = {:.3g} (bound {:.3g}), worst residual "
       "at '{}' = {:.3g} (bound {:.3g})",
-      options_.max_newton_steps, mna_->UnknownName(update.index), update.value, update.bound,
-      mna_->UnknownName(residual.index), residual.value, residual.bound);
-  return outcome;
+      options.max_newton_steps, mna.UnknownName(update.index), update.value, update.bound,
+      mna.UnknownName(residual.index), residual.value, residual.bound);
 }
 
 // The residual of a point is known only to its round-off allowance a_r (16 eps times

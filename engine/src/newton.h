@@ -42,6 +42,11 @@ struct ToleranceCheck {
 // round-off alone would cause (NewtonSolver::NoiseFloor). With exempt_loose, node
 // unknowns whose every current is below abs_current_tol are not tested.
 inline constexpr double kNoiseFactor = 4.0;
+// "no convergence in N steps: last |dx| at ..., worst residual at ...": why a run used
+// up its steps, with the last update's worst check and the residual's at the last point.
+std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
+                            const ToleranceCheck& update);
+
 // |J^-1 a| in node voltages, a the round-off allowance of every row, with the factors
 // `klu` holds: how far the residual's rounding alone moves a step. False if the solve
 // fails.

@@ -646,13 +646,8 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       trace->push_back(std::move(record));
     }
   }
-  const ToleranceCheck residual = CheckResidual(*mna_, options_);
   outcome.exit = NewtonExit::kStepLimit;
-  outcome.detail = fmt::format(
-      "potential method: no convergence in {} steps: last |dx| at '{}' = {:.3g} (bound "
-      "{:.3g}), worst residual at '{}' = {:.3g} (bound {:.3g})",
-      options_.max_newton_steps, mna_->UnknownName(update.index), update.value, update.bound,
-      mna_->UnknownName(residual.index), residual.value, residual.bound);
+  outcome.detail = "potential method: " + StepLimitDetail(*mna_, options_, update);
   return outcome;
 }
 
