@@ -9,20 +9,10 @@
 
 #include "eng_format.h"
 #include "report.h"
+#include "report_common.h"
 
 namespace knee::cli {
 namespace {
-
-// RFC 4180 quoting for names that contain a comma, a quote or a line break.
-std::string CsvField(const std::string& text) {
-  if (text.find_first_of(",\"\n\r") == std::string::npos) return text;
-  std::string quoted = "\"";
-  for (char c : text) {
-    if (c == '"') quoted += '"';
-    quoted += c;
-  }
-  return quoted + "\"";
-}
 
 // The rows, formatted straight into `out` (the same text as FormatRoundTrip, without a
 // string per cell).

@@ -94,7 +94,8 @@ struct StampContext {
   std::span<double> node_flow;       // A, per node unknown: its own largest device current
   std::span<double> node_magnitude;  // A, per node unknown: its own terms (as magnitude)
   std::span<double> node_kcl;        // A, per node unknown: its own KCL sum
-  double source_scale = 1.0;         // independent sources are multiplied by this
+  // (the three node_ spans are empty in a circuit without islands)
+  double source_scale = 1.0;  // independent sources are multiplied by this
   bool limit_junctions = false;
   bool limited = false;  // out: some junction's evaluation point was limited
   // out: first diode whose junction voltage is lost in the rounding of its node voltages
@@ -135,6 +136,7 @@ struct StampContext {
   void AddBranch(const Incidence& w, double i, double terms, int a, int b) {
     const double magnitude_i = i < 0.0 ? -i : i;
     for (int n : {a, b}) {
+      if (node_kcl.empty()) break;  // no islands: nobody reads them
       if (n < 0) continue;
       const auto k = static_cast<size_t>(n);
       node_kcl[k] += n == a ? i : -i;

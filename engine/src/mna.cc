@@ -165,9 +165,13 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
   residual_.assign(static_cast<size_t>(n), 0.0);
   flow_.assign(static_cast<size_t>(n), 0.0);
   magnitude_.assign(static_cast<size_t>(n), 0.0);
-  node_flow_.assign(static_cast<size_t>(kcl_rows_), 0.0);
-  node_magnitude_.assign(static_cast<size_t>(kcl_rows_), 0.0);
-  node_kcl_.assign(static_cast<size_t>(kcl_rows_), 0.0);
+  // Each node's own sums are read only for island roots: without islands the stamps
+  // skip them (empty spans).
+  if (!roots_.empty()) {
+    node_flow_.assign(static_cast<size_t>(kcl_rows_), 0.0);
+    node_magnitude_.assign(static_cast<size_t>(kcl_rows_), 0.0);
+    node_kcl_.assign(static_cast<size_t>(kcl_rows_), 0.0);
+  }
 }
 
 std::string MnaSystem::UnknownName(int u) const {
@@ -216,7 +220,8 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
     for (int r = 0; r < kcl_rows_; ++r) {
       values_[static_cast<size_t>(diagonal_slot_[static_cast<size_t>(r)])] += aids.gmin;
       ctx.AddCurrent(r, aids.gmin * x[static_cast<size_t>(r)]);
-      node_kcl_[static_cast<size_t>(r)] += aids.gmin * x[static_cast<size_t>(r)];
+      if (!node_kcl_.empty())
+        node_kcl_[static_cast<size_t>(r)] += aids.gmin * x[static_cast<size_t>(r)];
       if (ctx.want_potential) {
         ctx.AddPotential(0.5 * aids.gmin * x[static_cast<size_t>(r)] * x[static_cast<size_t>(r)]);
       }
