@@ -43,8 +43,12 @@ ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o, std::sp
   return worst;
 }
 
-ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
-  ToleranceCheck worst;
+namespace {
+
+// Calls fn(index, |residual|, bound) for every row of the residual test and for every
+// island root's own KCL.
+template <typename Fn>
+void ForEachResidualTest(const MnaSystem& mna, const SolverOptions& o, Fn&& fn) {
   const auto f = mna.residual();
   const auto flow = mna.flow();
   for (int r = 0; r < mna.size(); ++r) {
@@ -52,15 +56,32 @@ ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
     const double bound =
         (r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : o.abs_voltage_tol) +
         mna.RoundOffAllowance(r);
-    Consider(&worst, r, std::fabs(f[i]), bound);
+    fn(r, std::fabs(f[i]), bound);
   }
   // An island root's own KCL (its row holds the island's sum): the sum less the members'
   // rows, against the island's largest current and the rows' summed allowances.
   mna.ForEachRootBalance([&](int root, double residual, double largest, double allowance) {
-    Consider(&worst, root, std::fabs(residual),
-             o.abs_current_tol + o.rel_tol * largest + allowance);
+    fn(root, std::fabs(residual), o.abs_current_tol + o.rel_tol * largest + allowance);
+  });
+}
+
+}  // namespace
+
+ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
+  ToleranceCheck worst;
+  ForEachResidualTest(mna, o, [&](int index, double value, double bound) {
+    Consider(&worst, index, value, bound);
   });
   return worst;
+}
+
+double ResidualMerit(const MnaSystem& mna, const SolverOptions& o) {
+  double merit = 0.0;
+  ForEachResidualTest(mna, o, [&](int, double value, double bound) {
+    const double ratio = value / bound;
+    merit += ratio * ratio;
+  });
+  return merit;
 }
 
 NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size)

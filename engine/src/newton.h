@@ -58,6 +58,10 @@ ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
 // KCL rows: |F_r| <= abs_current_tol + rel_tol*flow_r; branch rows: |F_r| <= abs_voltage_tol;
 // both plus the round-off allowance of row r.
 ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options);
+// The sum over the tests of CheckResidual of (|F_r| / bound_r)^2: a smooth measure of
+// how far the residual is from passing. A Newton direction d = -J^-1 F lowers any fixed
+// weighted sum of squares of F at the rate 2 * that sum.
+double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 
 // "NAME (last change D)" for every unknown whose last update `dx` at `x` broke the update
 // tolerance of CheckUpdate: what a failed run reports as still moving.

@@ -376,14 +376,16 @@ bool PotentialSolver::Feasible() const {
 }
 
 // x = base + t*dv for the node voltages and base + dk for the source currents (the
-// multipliers of the constraints take the full Newton estimate), then one assembly pass
+// multipliers of the constraints take the full Newton estimate unless t = 0), then one
+// assembly pass
 // that gives the Jacobian, the residual and the potential.
 PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, double t,
                                                  std::span<double> x) {
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   bool inside = true;
   for (size_t i = 0; i < x.size(); ++i) {
-    x[i] = base[i] + (i < kcl ? t : 1.0) * step_[i];
+    // (t = 0 is no step: the multipliers stay too)
+    x[i] = base[i] + (i < kcl || t == 0.0 ? t : 1.0) * step_[i];
     if (i < kcl && !(std::fabs(x[i]) <= voltage_bound_)) inside = false;
   }
   AssemblyAids aids;
@@ -400,6 +402,7 @@ PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, d
     trial.slope = Slope(x);
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
     trial.residual_ratio = residual.index < 0 ? 0.0 : residual.value / residual.bound;
+    trial.residual_merit = ResidualMerit(*mna_, options_);
   }
   trial.finite = trial.finite && std::isfinite(trial.slope);
   return trial;
@@ -584,17 +587,20 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       }
       ok = accepted.finite;
     } else {
-      ok = LineSearch(slope0, slope_roundoff, before, before_magnitude,
+      const double merit0 = ResidualMerit(*mna_, options_);
+      ok = LineSearch(slope0, slope_roundoff, before, before_magnitude, merit0,
                       std::max(kExponentCap, base_exponent), x, &t, &trials, &accepted);
       if (!ok) {
         int more = 0;
-        ok = LineSearch(slope0, slope_roundoff, before, before_magnitude,
+        ok = LineSearch(slope0, slope_roundoff, before, before_magnitude, merit0,
                         std::numeric_limits<double>::infinity(), x, &t, &more, &accepted);
         trials += more;
       }
     }
     if (!ok && !floor_) {
-      // No step along the exact Newton direction: once more with the modified Hessian.
+      // No step along the exact Newton direction: once more from the same point with the
+      // modified Hessian (x holds the last trial, so the point is restored first).
+      std::copy(base_.begin(), base_.end(), x.begin());
       SetFloor(true, x);
       continue;
     }
@@ -616,7 +622,8 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     // convergence tests stay those of the exact model. A full step switches it off again,
     // so the last steps are exact Newton steps.
     SetFloor(t < kShortStep, x);
-    for (size_t i = 0; i < kcl; ++i) step_[i] *= t;  // the update actually taken
+    // The update actually taken (the multipliers move whole unless no step was taken).
+    for (size_t i = 0; i < step_.size(); ++i) step_[i] *= i < kcl || t == 0.0 ? t : 1.0;
     potential = accepted.potential;
     potential_magnitude = accepted.potential_magnitude;
     base_exponent = accepted.max_exponent;
@@ -665,13 +672,24 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
 // nearly equal potentials. If the budget of trials runs out, the longest step known to
 // satisfy sufficient decrease is taken.
 bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double before,
-                                 double before_magnitude, double exponent_cap, std::span<double> x,
-                                 double* t_out, int* trials_out, Trial* accepted) {
+                                 double before_magnitude, double merit0, double exponent_cap,
+                                 std::span<double> x, double* t_out, int* trials_out,
+                                 Trial* accepted) {
+  const auto roundoff = [&](const Trial& tr) {
+    return MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
+  };
   const auto decreases = [&](const Trial& tr, double t) {
-    const double roundoff =
-        MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
-    return (tr.potential - before) + roundoff <= kArmijoFraction * t * slope0 ||
+    return (tr.potential - before) + roundoff(tr) <= kArmijoFraction * t * slope0 ||
            tr.slope + slope_roundoff <= kArmijoFraction * slope0;
+  };
+  // Where the change of the potential is below its own round-off, the potential cannot
+  // rank the trial points (a sum of terms up to kW does not see the last nanoamperes of
+  // a node). There the residual's weighted sum of squares, which the Newton direction
+  // lowers at the rate 2 * merit0, decides with Armijo's condition; a step accepted so
+  // does not raise the potential beyond its round-off.
+  const auto resolves_residual = [&](const Trial& tr, double t) {
+    return t <= 1.0 && std::fabs(tr.potential - before) <= roundoff(tr) &&
+           tr.residual_merit <= (1.0 - 2.0 * kArmijoFraction * t) * merit0;
   };
   double lo = 0.0;  // longest step known to satisfy sufficient decrease
   double hi = std::numeric_limits<double>::infinity();  // shortest step known to fail it
@@ -684,6 +702,12 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   while (trials < kMaxLineSearchTrials) {
     Trial trial = Evaluate(base_, t, x);
     ++trials;
+    if (trial.finite && trial.max_exponent <= exponent_cap && resolves_residual(trial, t)) {
+      *accepted = trial;
+      *t_out = t;
+      *trials_out = trials;
+      return true;
+    }
     if (trial.finite && trial.max_exponent <= exponent_cap && decreases(trial, t)) {
       if (trial.slope >= kCurvatureFraction * slope0) {  // flattened (or past the minimum)
         *accepted = trial;

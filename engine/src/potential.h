@@ -100,10 +100,11 @@ class PotentialSolver {
     // Worst |F_r| / (its tolerance) at this point: the merit for steps whose change of
     // the potential is below the potential's round-off.
     double residual_ratio = 0.0;
+    double residual_merit = 0.0;  // ResidualMerit at this point
   };
   Trial Evaluate(std::span<const double> base, double t, std::span<double> x);
   bool LineSearch(double slope0, double slope_roundoff, double before, double before_magnitude,
-                  double exponent_cap, std::span<double> x, double* t, int* trials,
+                  double merit0, double exponent_cap, std::span<double> x, double* t, int* trials,
                   Trial* accepted);
   double Slope(std::span<const double> x) const;
   double SlopeRoundOff() const;
