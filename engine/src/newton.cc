@@ -192,12 +192,31 @@ std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
 // chased, not a move toward the solution (a node held by a conductance of 1e-11 S with
 // a residual of 4e-17 A of pure rounding steps 4 uV, forever). noise_ = J^-1 a, with
 // the factorisation of the step just taken. False if the solve fails.
+namespace {
+
+// v = |J^-1 v| in node voltages, with the factors `klu` holds.
+bool AbsoluteResponse(const MnaSystem& mna, KluSolver& klu, std::span<double> v) {
+  if (klu.Solve(v) != LinearStatus::kOk) return false;
+  for (double& n : v) n = std::fabs(n);
+  mna.ToNodeSpace(v);
+  return true;
+}
+
+}  // namespace
+
 bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise) {
   for (int r = 0; r < mna.size(); ++r) noise[static_cast<size_t>(r)] = mna.RoundOffAllowance(r);
-  if (klu.Solve(noise) != LinearStatus::kOk) return false;
-  for (double& n : noise) n = std::fabs(n);
-  mna.ToNodeSpace(noise);
-  return true;
+  return AbsoluteResponse(mna, klu, noise);
+}
+
+bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& o, KluSolver& klu,
+                     std::span<double> spread) {
+  const auto flow = mna.flow();
+  for (int r = 0; r < mna.size(); ++r) {
+    const auto i = static_cast<size_t>(r);
+    spread[i] = r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : 0.0;
+  }
+  return AbsoluteResponse(mna, klu, spread);
 }
 
 bool NewtonSolver::NoiseFloor() { return RoundingNoise(*mna_, *klu_, noise_); }

@@ -51,6 +51,10 @@ std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
 // `klu` holds: how far the residual's rounding alone moves a step. False if the solve
 // fails.
 bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise);
+// |J^-1 t| in node voltages, t_r = abs_current_tol + rel_tol*flow_r on every KCL row: how
+// far currents of the size of the residual's tolerance move a node (bias.cc, LooseNodes).
+bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& options, KluSolver& klu,
+                     std::span<double> spread);
 
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,
                            std::span<const double> dx, std::span<const double> x,

@@ -418,13 +418,25 @@ PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, d
 bool PotentialSolver::FeasibilityStep(std::span<double> x, NewtonOutcome* outcome) {
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   const auto f = mna_->residual();
-  for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = i < kcl ? 0.0 : -f[i];
-  AssemblyAids stiff;
-  stiff.stiff_junction = stiff_;
-  const AssemblyOutcome assembled = mna_->Assemble(x, stiff);
-  ++evaluations_;
-  LinearStatus status = assembled.finite ? klu_->Refactor(mna_->values()) : LinearStatus::kFatal;
-  if (status == LinearStatus::kOk) status = klu_->Solve(dx_);
+  std::copy(f.begin(), f.end(), step_.begin());  // the assemblies below overwrite f
+  // A stiffness far above every resistor can round the resistors away where junctions
+  // join two nodes that only high resistances hold (a 1e9 S junction beside 1e-8 S): the
+  // factorisation is then singular, and the step is tried with softer junctions. Any
+  // positive stiffness gives a step onto the constraints; the stiffer, the closer it
+  // keeps the junctions' voltages.
+  AssemblyOutcome assembled;
+  LinearStatus status = LinearStatus::kSingular;
+  for (double g = stiff_; status == LinearStatus::kSingular && g >= stiff_ * kSoftestFeasibility;
+       g *= 1e-3) {
+    for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = i < kcl ? 0.0 : -step_[i];
+    AssemblyAids stiff;
+    stiff.stiff_junction = g;
+    stiff.gmin = g * kFeasibilityShunt;
+    assembled = mna_->Assemble(x, stiff);
+    ++evaluations_;
+    status = assembled.finite ? klu_->Factor(mna_->values()) : LinearStatus::kFatal;
+    if (status == LinearStatus::kOk) status = klu_->Solve(dx_);
+  }
   if (status == LinearStatus::kOk) {
     MapStep();
     return true;
@@ -439,28 +451,33 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
   // move by decades per step, so pivots chosen at another point can leave the direction
   // inaccurate beyond what the line search can resolve (KLU's pivot-growth test does not
   // catch all of it). The networks are small; a full factorisation costs little more.
-  LinearStatus status = klu_->Factor(mna_->values());
   {
     const auto f = mna_->residual();
     for (size_t i = 0; i < dx_.size(); ++i) step_[i] = -f[i];  // -g, kept for the retries
   }
-  if (status == LinearStatus::kOk) {
-    std::copy(step_.begin(), step_.end(), dx_.begin());
-    status = klu_->Solve(dx_);
+  LinearStatus status = LinearStatus::kSingular;
+  if (shift_ == 0.0) {
+    status = klu_->Factor(mna_->values());
+    if (status == LinearStatus::kOk) {
+      std::copy(step_.begin(), step_.end(), dx_.begin());
+      status = klu_->Solve(dx_);
+    }
   }
   // A Hessian that is singular in floating point (junction conductances that underflow,
-  // e.g. a node held only by reverse-biased junctions) is modified by adding mu to its
-  // diagonal: (H + mu I) d = -g is still a descent direction, and the line search and
-  // the convergence tests stay those of the exact potential (Newton's method with
-  // Hessian modification, Nocedal and Wright ch. 3.4, recalled from memory). mu grows
-  // from 1e-12 S by 1e3 per try.
+  // e.g. a node held only by reverse-biased junctions), or one whose direction gave no
+  // usable step (shift_ > 0, see Run), is modified by adding mu to its diagonal:
+  // (H + mu I) d = -g is still a descent direction, turning towards steepest descent as
+  // mu grows, and the line search and the convergence tests stay those of the exact
+  // potential (Newton's method with Hessian modification, Nocedal and Wright ch. 3.4,
+  // recalled from memory). mu grows by 1e3 per try while the matrix stays singular.
   if (status == LinearStatus::kSingular && x_ != nullptr) {
-    for (double mu = 1e-12; mu <= 1e-3 && status == LinearStatus::kSingular; mu *= 1e3) {
+    for (double mu = std::max(shift_, kFirstShift);
+         mu <= kLastShift && status == LinearStatus::kSingular; mu *= 1e3) {
       AssemblyAids modified;
       modified.gmin = mu;
       if (!mna_->Assemble(*x_, modified).finite) break;
       ++evaluations_;
-      status = klu_->Refactor(mna_->values());
+      status = klu_->Factor(mna_->values());
       if (status != LinearStatus::kOk) continue;
       std::copy(step_.begin(), step_.end(), dx_.begin());
       status = klu_->Solve(dx_);
@@ -484,6 +501,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
   NewtonOutcome outcome;
   evaluations_ = 0;
   floor_ = false;
+  shift_ = 0.0;
   x_ = &x;  // for SolveStep's Hessian modification; only used during this call
   mna_->BeginRun(x);
   AssemblyAids aids;
@@ -597,10 +615,15 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
         trials += more;
       }
     }
-    if (!ok && !floor_) {
-      // No step along the exact Newton direction: once more from the same point with the
-      // modified Hessian (x holds the last trial, so the point is restored first).
+    if (!ok && (!floor_ || shift_ < kLastShift)) {
+      // No step along this direction: once more from the same point with the Hessian
+      // modified, first by the junction floor, then by a growing diagonal shift (x holds
+      // the last trial, so the point is restored first).
       std::copy(base_.begin(), base_.end(), x.begin());
+      if (floor_) {
+        shift_ = shift_ == 0.0 ? kFirstShift : shift_ * kShiftGrowth;
+        floor_ = false;  // SetFloor assembles the point again
+      }
       SetFloor(true, x);
       continue;
     }
@@ -621,6 +644,13 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     // and Wright ch. 3.4, recalled from memory); the potential, the line search and the
     // convergence tests stay those of the exact model. A full step switches it off again,
     // so the last steps are exact Newton steps.
+    if (t == 0.0 && !residual.passed()) {
+      // The direction gave no step although KCL does not hold: the next one is turned
+      // towards steepest descent.
+      shift_ = shift_ == 0.0 ? kFirstShift : std::min(shift_ * kShiftGrowth, kLastShift);
+    } else if (t > 0.0) {
+      shift_ = shift_ / kShiftGrowth < kFirstShift ? 0.0 : shift_ / kShiftGrowth;
+    }
     SetFloor(t < kShortStep, x);
     // The update actually taken (the multipliers move whole unless no step was taken).
     for (size_t i = 0; i < step_.size(); ++i) step_[i] *= i < kcl || t == 0.0 ? t : 1.0;
@@ -631,6 +661,15 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     // As in the classic loop (NewtonSolver::NoiseFloor): where the residual passed, the
     // part of the step that the residual's round-off alone causes is not a move.
     if (!update.passed() && residual.passed() && feasible && NoiseFloor()) {
+      update = CheckUpdate(*mna_, options_, step_, x, noise_);
+    }
+    // And a step that currents of the size of the residual's tolerance could cause
+    // (|J^-1 t|) moves only loose nodes, which KCL at the tolerance does not fix: the run
+    // ends where the residual passes, and the loose-node pass after it (bias.cc,
+    // ResolveFaintNodes) settles or names them. Without this, Newton creeps along the
+    // flat valley of a chain of saturated reverse junctions for thousands of steps.
+    if (!update.passed() && residual.passed() && feasible &&
+        ToleranceSpread(*mna_, options_, *klu_, noise_)) {
       update = CheckUpdate(*mna_, options_, step_, x, noise_);
     }
     if (!std::isfinite(update.value)) {

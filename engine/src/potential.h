@@ -39,6 +39,14 @@ std::optional<std::string> FindUnboundedCut(const Circuit& circuit);
 // The junction conductance of the step onto the sources' constraints: kStiffFactor times
 // the largest resistor (or series resistance) conductance of the circuit, 1 S if none.
 inline constexpr double kStiffFactor = 1e6;
+// Every node of that step has a shunt of this fraction of the stiffness to gnd: a group
+// of nodes joined by stiff junctions and held otherwise only by resistors that round away
+// beside them (1e9 S beside 1e-8 S) would leave the matrix singular; with the shunt it
+// stays where it is (near 0 V from a cold start) unless a stiff junction ties it to a
+// source. Where the matrix is still singular, the stiffness is lowered by 1e3 per try
+// down to kSoftestFeasibility of it.
+inline constexpr double kFeasibilityShunt = 1e-10;
+inline constexpr double kSoftestFeasibility = 1e-12;
 double StiffJunctionConductance(const Circuit& circuit);
 
 // Line-search constants. Armijo's sufficient-decrease fraction: L. Armijo, "Minimization
@@ -64,6 +72,11 @@ inline constexpr double kExponentCap = 70.0;
 // A step shorter than this fraction of the Newton step switches the Hessian modification
 // on for the next direction (PotentialSolver::Run).
 inline constexpr double kShortStep = 1e-3;
+// The diagonal shift of the Hessian (PotentialSolver::SolveStep): its first value, its
+// growth per direction that gave no step, and its largest value.
+inline constexpr double kFirstShift = 1e-12;  // S
+inline constexpr double kShiftGrowth = 1e3;
+inline constexpr double kLastShift = 1e6;  // S
 // Halvings of a step along a direction whose slope is below its round-off.
 inline constexpr int kMaxStationaryHalvings = 8;
 
@@ -128,6 +141,7 @@ class PotentialSolver {
   double stiff_ = 1.0;
   double voltage_bound_ = HUGE_VAL;  // V
   bool floor_ = false;               // the Hessian modification of short steps (see Run)
+  double shift_ = 0.0;               // S, the diagonal shift of the Hessian (see SolveStep)
   std::span<double>* x_ = nullptr;   // the current point, during Run
 };
 
