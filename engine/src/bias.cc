@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -166,6 +167,10 @@ struct BiasSolver::Impl {
   SolverOptions options;
   MnaSystem mna;
   KluSolver klu;
+  // LooseNodes' own factors of the exact Jacobian, made on first need: fresh pivots in
+  // `klu` would make every later refactor of the run depend on where that check fell
+  // (a sweep's output would then depend on how its points are shared among threads).
+  std::optional<KluSolver> probe;
   NewtonSolver newton;
   internal::PotentialSolver potential;
   // Per circuit values (set at Create and UpdateValues): why the network is not
@@ -177,7 +182,10 @@ struct BiasSolver::Impl {
   std::vector<double> converged;  // unknowns of the last converged solve
   std::vector<double> node_residual, node_allowance, node_flow;  // Verify's per-node KCL
   std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
-  double junction_span = 0.0;                                    // V, JunctionSpan(circuit)
+  // Whether klu holds the exact Jacobian's factors from the run that converged (the
+  // solver's exact_factors()), which LooseNodes may then use as they are.
+  bool factors_exact = false;
+  double junction_span = 0.0;  // V, JunctionSpan(circuit)
   bool trace_on = false;
   std::vector<NewtonStepRecord> trace;
 
@@ -271,35 +279,38 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
   std::vector<int> loose;
   *scale = 1.0;
   mna.AssembleExact(x);
-  const auto flow = mna.flow();
-  // Cheap screens first: a node whose own conductance fixes it is fixed, and a group of
-  // nodes held as a whole by nothing leaves a tiny pivot in the last factors; when either
-  // screen fails, every node goes through the solve.
-  // A group held as a whole by nothing shows as a tiny pivot of the last factors.
-  bool any = rounding || klu.rcond() < internal::StepRefiner::kCheckBelowRcond;
-  for (int r = 0; r < mna.kcl_rows() && !any; ++r) {
-    const auto i = static_cast<size_t>(r);
-    const double sensitivity = mna.Diagonal(r) * (o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]));
-    any = !mna.IsSourceRow(r) && !(sensitivity >= o.abs_current_tol + o.rel_tol * flow[i]);
+  spread.resize(x.size());
+  const auto solve_spread = [&](KluSolver& factors) {
+    return rounding ? internal::RoundingNoise(mna, factors, spread)
+                    : internal::ToleranceSpread(mna, o, factors, spread);
+  };
+  // The factors of the exact Jacobian at (or one converged step from) x, when the solver
+  // that ran left them, give |J^-1 t| for one solve; a step's factors of a shunted or
+  // floored matrix would hide exactly the nodes sought here, so those are replaced by
+  // fresh factors. A group of nodes held as a whole only weakly (two nodes joined by 10
+  // kOhm and to the rest by 100 MOhm) shows only in this solve, not in any single row.
+  if (factors_exact && solve_spread(klu)) {
+    // A node the last factors call loose is confirmed with fresh factors at x itself.
+    bool any = false;
+    for (int u = 0; u < mna.kcl_rows() && !any; ++u) {
+      const auto i = static_cast<size_t>(u);
+      any = !(spread[i] <= o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]));
+    }
+    if (!any) return loose;
   }
-  if (!any) return loose;
-  spread.assign(x.size(), 0.0);
-  for (int r = 0; r < mna.kcl_rows(); ++r) {
-    spread[static_cast<size_t>(r)] =
-        rounding ? mna.RoundOffAllowance(r)
-                 : o.abs_current_tol + o.rel_tol * flow[static_cast<size_t>(r)];
+  if (!probe) {
+    probe.emplace();
+    if (probe->Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
+      probe.reset();
+    }
   }
-  // Fresh factors of the exact Jacobian at x: the last step's may be of a shunted or
-  // floored matrix, which would hide exactly the nodes sought here.
-  if (klu.Factor(mna.values()) != LinearStatus::kOk || klu.Solve(spread) != LinearStatus::kOk) {
+  if (!probe || probe->Factor(mna.values()) != LinearStatus::kOk || !solve_spread(*probe)) {
     for (int r = 0; r < mna.kcl_rows(); ++r) {
       if (!mna.IsSourceRow(r)) loose.push_back(r);  // singular: nothing is known to be fixed
     }
     *scale = 0.0;
     return loose;
   }
-  for (double& v : spread) v = std::fabs(v);
-  mna.ToNodeSpace(spread);
   for (int u = 0; u < mna.kcl_rows(); ++u) {
     const auto i = static_cast<size_t>(u);
     const double tolerance = o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]);
@@ -325,6 +336,7 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   newton.set_options(tight);
   const NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
   newton.set_options(options);
+  factors_exact = newton.exact_factors();
   std::vector<int> still = loose;
   bool kept = false;
   if (out.exit == NewtonExit::kConverged) {
@@ -544,6 +556,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
         s.unsettled = m.potential.Unsettled(m.x);
         return s;
       }
+      m.factors_exact = m.potential.exact_factors();
       m.Conclude(&s, solution);
       return s;
     }
@@ -572,6 +585,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
     s.unsettled = m.newton.Unsettled(m.x);
     return s;
   }
+  m.factors_exact = m.newton.exact_factors();
   m.Conclude(&s, solution);
   return s;
 }

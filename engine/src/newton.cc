@@ -98,6 +98,7 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                                 std::vector<NewtonStepRecord>* trace) {
   aids.limit_junctions = options_.junction_limiting;
+  plain_run_ = aids.gmin == 0.0 && aids.source_scale == 1.0;
   NewtonOutcome outcome;
   mna_->BeginRun(x);
   std::fill(dx_.begin(), dx_.end(), 0.0);
@@ -237,6 +238,7 @@ bool NewtonSolver::Clamp(std::span<double> x) const {
 // Solves J dx = -F with the values and residual of the last assembly.
 bool NewtonSolver::SolveStep(std::span<double> dx, NewtonOutcome* outcome) {
   LinearStatus status = klu_->Refactor(mna_->values());
+  exact_factors_ = plain_run_ && status == LinearStatus::kOk;
   if (status == LinearStatus::kOk) {
     const auto f = mna_->residual();
     for (size_t i = 0; i < dx.size(); ++i) dx[i] = -f[i];
@@ -310,17 +312,30 @@ void NewtonSolver::RefineStep(std::span<double> dx) {
 // One more Newton step after convergence: a converged Newton iteration is quadratic, so
 // this brings the answer to round-off level. Kept only if the residual stays within its
 // tolerance; otherwise the converged point stands.
+bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
+                   std::span<const double> x) {
+  SolverOptions fine = options;
+  fine.abs_voltage_tol *= kPolishFactor;
+  fine.abs_current_tol *= kPolishFactor;
+  fine.rel_tol *= kPolishFactor;
+  return CheckUpdate(mna, fine, dx, x).passed();
+}
+
 void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
-  std::copy(x.begin(), x.end(), saved_x_.begin());
-  NewtonOutcome ignored;
-  if (!SolveStep(dx_, &ignored)) return;
-  for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
   AssemblyAids exact = aids;
   exact.limit_junctions = false;
-  const AssemblyOutcome assembled = mna_->Assemble(x, exact);
-  const ToleranceCheck after = CheckResidual(*mna_, options_);
-  if (assembled.finite && after.passed()) return;
-  std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
+  for (int k = 0; k < kPolishSteps; ++k) {
+    std::copy(x.begin(), x.end(), saved_x_.begin());
+    NewtonOutcome ignored;
+    if (!SolveStep(dx_, &ignored)) return;
+    for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+    const AssemblyOutcome assembled = mna_->Assemble(x, exact);
+    if (!assembled.finite || !CheckResidual(*mna_, options_).passed()) {
+      std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
+      return;
+    }
+    if (PolishSettled(*mna_, options_, dx_, x)) return;
+  }
 }
 
 std::vector<std::string> UnsettledUnknowns(const MnaSystem& mna, const SolverOptions& options,

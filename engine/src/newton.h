@@ -67,6 +67,16 @@ ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options)
 // weighted sum of squares of F at the rate 2 * that sum.
 double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 
+// Polishing after convergence: further full Newton steps, each kept only if the residual
+// still passes after it, until a step is below kPolishFactor times the update tolerance
+// (the error left is then about the square of that, far below 1e-9 relative) or
+// kPolishSteps were taken. Quadratic convergence makes the first step enough on most
+// networks; the others reach the same point to round-off whichever path they came by.
+inline constexpr int kPolishSteps = 4;
+inline constexpr double kPolishFactor = 1e-3;
+bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
+                   std::span<const double> x);
+
 // "NAME (last change D)" for every unknown whose last update `dx` at `x` broke the update
 // tolerance of CheckUpdate: what a failed run reports as still moving.
 std::vector<std::string> UnsettledUnknowns(const MnaSystem& mna, const SolverOptions& options,
@@ -86,6 +96,9 @@ class NewtonSolver {
   std::vector<std::string> Unsettled(std::span<const double> x) const;
 
   void set_options(const SolverOptions& options) { options_ = options; }
+  // Whether the factors the KLU solver holds are those of the exact model's Jacobian
+  // (no gmin, full sources, no regularising shunt) at the last point that was factored.
+  bool exact_factors() const { return exact_factors_; }
   // Node voltages are clamped to [-bound, bound] after each step (a safeguard against
   // steps that a nearly singular Jacobian blows up; the bound contains every solution).
   void set_voltage_bound(double bound) { voltage_bound_ = bound; }
@@ -108,6 +121,8 @@ class NewtonSolver {
   StepRefiner refiner_;
   double voltage_bound_ = HUGE_VAL;  // V
   std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
+  bool plain_run_ = false;           // the current Run has no aid (gmin, source scale)
+  bool exact_factors_ = false;       // see exact_factors()
 };
 
 }  // namespace knee::internal

@@ -426,6 +426,7 @@ bool PotentialSolver::FeasibilityStep(std::span<double> x, NewtonOutcome* outcom
   // keeps the junctions' voltages.
   AssemblyOutcome assembled;
   LinearStatus status = LinearStatus::kSingular;
+  exact_factors_ = false;
   for (double g = stiff_; status == LinearStatus::kSingular && g >= stiff_ * kSoftestFeasibility;
        g *= 1e-3) {
     for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = i < kcl ? 0.0 : -step_[i];
@@ -456,8 +457,10 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
     for (size_t i = 0; i < dx_.size(); ++i) step_[i] = -f[i];  // -g, kept for the retries
   }
   LinearStatus status = LinearStatus::kSingular;
+  exact_factors_ = false;
   if (shift_ == 0.0) {
     status = klu_->Factor(mna_->values());
+    exact_factors_ = !floor_ && status == LinearStatus::kOk;
     if (status == LinearStatus::kOk) {
       std::copy(step_.begin(), step_.end(), dx_.begin());
       status = klu_->Solve(dx_);
@@ -807,16 +810,22 @@ void PotentialSolver::SetFloor(bool on, std::span<const double> x) {
   ++evaluations_;
 }
 
-// One more full Newton step after convergence (quadratic convergence makes it reach
-// round-off level); kept only if the residual stays within its bound.
+// Full Newton steps after convergence (exact Hessian, no shift), as NewtonSolver::Polish.
 void PotentialSolver::Polish(std::span<double> x) {
-  std::copy(x.begin(), x.end(), base_.begin());
-  NewtonOutcome ignored;
-  if (!SolveStep(&ignored)) return;
-  for (size_t i = 0; i < x.size(); ++i) x[i] += step_[i];
-  const AssemblyOutcome assembled = mna_->Assemble(x, AssemblyAids{});
-  if (assembled.finite && CheckResidual(*mna_, options_).passed()) return;
-  std::copy(base_.begin(), base_.end(), x.begin());
+  shift_ = 0.0;
+  SetFloor(false, x);
+  for (int k = 0; k < kPolishSteps; ++k) {
+    std::copy(x.begin(), x.end(), base_.begin());
+    NewtonOutcome ignored;
+    if (!SolveStep(&ignored)) return;
+    for (size_t i = 0; i < x.size(); ++i) x[i] += step_[i];
+    const AssemblyOutcome assembled = mna_->Assemble(x, AssemblyAids{});
+    if (!assembled.finite || !CheckResidual(*mna_, options_).passed()) {
+      std::copy(base_.begin(), base_.end(), x.begin());
+      return;
+    }
+    if (PolishSettled(*mna_, options_, step_, x)) return;
+  }
 }
 
 std::vector<std::string> PotentialSolver::Unsettled(std::span<const double> x) const {

@@ -95,6 +95,9 @@ class PotentialSolver {
   int evaluations() const { return evaluations_; }
 
   void set_options(const SolverOptions& options) { options_ = options; }
+  // Whether the factors the KLU solver holds are those of the exact Hessian (no floor,
+  // no shift) at the last point that was factored (as NewtonSolver::exact_factors).
+  bool exact_factors() const { return exact_factors_; }
   // Conductance (S) that junctions take in the step onto the sources' constraints: far
   // above every resistor's, so that the sources' voltages land on resistors, not on
   // junctions (see FeasibilityStep).
@@ -142,6 +145,7 @@ class PotentialSolver {
   double voltage_bound_ = HUGE_VAL;  // V
   bool floor_ = false;               // the Hessian modification of short steps (see Run)
   double shift_ = 0.0;               // S, the diagonal shift of the Hessian (see SolveStep)
+  bool exact_factors_ = false;       // see exact_factors()
   std::span<double>* x_ = nullptr;   // the current point, during Run
 };
 
