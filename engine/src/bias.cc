@@ -33,6 +33,7 @@ constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin 
 // The smallest current tolerance ResolveFaintNodes uses (A).
 constexpr double kFaintCurrentFloor = 1e-40;
 constexpr int kFaintNewtonSteps = 1000;  // at least, for ResolveFaintNodes' run
+constexpr int kFaintRounds = 3;          // ResolveFaintNodes' runs at most
 // The node-voltage clamp (SetVoltageBound): margin times the bound, plus a floor (V).
 constexpr double kVoltageBoundMargin = 10.0;
 constexpr double kVoltageBoundFloor = 1e4;
@@ -324,35 +325,53 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
 
 void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   double scale = 1.0;
-  const std::vector<int> loose = LooseNodes(options, /*rounding=*/false, &scale);
+  std::vector<int> loose = LooseNodes(options, /*rounding=*/false, &scale);
   if (loose.empty()) return;
   SolverOptions tight = options;
-  tight.abs_current_tol = std::max(0.1 * scale * options.abs_current_tol, kFaintCurrentFloor);
   // Leakage-balanced nodes move at most about n*Vt per step (Newton on a balance of two
   // exponential tails), so this run gets more steps than a rung of the ladder.
   tight.max_newton_steps = std::max(options.max_newton_steps, kFaintNewtonSteps);
-  s->faint_tolerance = tight.abs_current_tol;
   saved = x;
-  newton.set_options(tight);
-  const NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
-  newton.set_options(options);
-  factors_exact = newton.exact_factors();
-  std::vector<int> still = loose;
   bool kept = false;
-  if (out.exit == NewtonExit::kConverged) {
-    // Kept only if it is a solution at least as good, by the same test as the first.
-    SolveSummary check;
-    Verify(&check);
-    kept = check.status == SolveStatus::kConverged;
+  // The scale is first-order: on an exponential it can fall short, and a loose node
+  // whose every current is below the scaled tolerance would still be exempt from the
+  // update test as faint. So the tolerance also goes below a tenth of the loose nodes'
+  // own largest currents, and the test is repeated after each run (kFaintRounds).
+  for (int round = 0; round < kFaintRounds && !loose.empty(); ++round) {
+    const auto flow = mna.flow();  // at x: LooseNodes assembled it
+    double weakest = HUGE_VAL;
+    for (int u : loose) {
+      const double f = flow[static_cast<size_t>(u)];
+      if (f > 0.0) weakest = std::min(weakest, f);
+    }
+    tight.abs_current_tol =
+        std::max(std::min(0.1 * scale * tight.abs_current_tol, 0.1 * weakest), kFaintCurrentFloor);
+    newton.set_options(tight);
+    const NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
+    newton.set_options(options);
+    factors_exact = newton.exact_factors();
+    kept = false;
+    if (out.exit == NewtonExit::kConverged) {
+      // Kept only if it is a solution at least as good, by the same test as the first.
+      SolveSummary check;
+      Verify(&check);
+      kept = check.status == SolveStatus::kConverged;
+    }
+    if (!kept) {
+      x = saved;  // the last point that passed
+      break;
+    }
+    saved = x;
+    loose = LooseNodes(tight, /*rounding=*/false, &scale);
   }
+  s->faint_tolerance = tight.abs_current_tol;
+  std::vector<int> still = loose;
   if (kept) {
-    // Settled by that run, except where the rounding of the residual alone moves a node
-    // by more than the voltage tolerance (|J^-1 a|, a the round-off allowance): there the
-    // equations do not fix the voltage in double precision.
+    // Settled, except where the rounding of the residual alone moves a node by more than
+    // the voltage tolerance (|J^-1 a|, a the round-off allowance): there the equations do
+    // not fix the voltage in double precision.
     double ignored = 1.0;
     still = LooseNodes(tight, /*rounding=*/true, &ignored);
-  } else {
-    x = saved;
   }
   for (int u : still) s->faint_nodes.push_back(mna.UnknownName(u));
 }

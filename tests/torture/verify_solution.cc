@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <Eigen/Dense>
 #include <cmath>
 #include <limits>
 #include <vector>
@@ -152,6 +153,58 @@ Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTol
     }
   }
   return v;
+}
+
+std::vector<double> RoundOffResolution(const Circuit& c, const Solution& s) {
+  const size_t nodes = c.nodes.size();
+  // Unknowns: node voltages 1..nodes-1, then one current per voltage source.
+  std::vector<int> branch(c.elements.size(), -1);
+  int size = static_cast<int>(nodes) - 1;
+  for (size_t k = 0; k < c.elements.size(); ++k) {
+    if (c.elements[k].kind == ElementKind::kVoltageSource) branch[k] = size++;
+  }
+  Eigen::MatrixXd jacobian = Eigen::MatrixXd::Zero(size, size);
+  Eigen::VectorXd rounding = Eigen::VectorXd::Zero(size);
+  const auto row = [](int node) { return node - 1; };  // gnd: -1
+  for (size_t k = 0; k < c.elements.size(); ++k) {
+    const Element& e = c.elements[k];
+    const int a = row(e.node_a);
+    const int b = row(e.node_b);
+    const double va = s.node_voltage[static_cast<size_t>(e.node_a)];
+    const double vb = s.node_voltage[static_cast<size_t>(e.node_b)];
+    const double i = s.element_current[k];
+    if (e.kind == ElementKind::kVoltageSource) {
+      const int j = branch[k];
+      for (auto [n, sign] : {std::pair{a, 1.0}, std::pair{b, -1.0}}) {
+        if (n < 0) continue;
+        jacobian(n, j) += sign;
+        jacobian(j, n) += sign;
+        rounding(n) += 16 * kEps * std::fabs(i);
+      }
+      rounding(j) += 16 * kEps * (std::fabs(va) + std::fabs(vb) + std::fabs(e.value));
+      continue;
+    }
+    const double g = SmallSignalConductance(c, e, s.junction_voltage[k]);
+    const double terms = std::fabs(i) + g * (std::fabs(va) + std::fabs(vb));
+    for (auto [n, sign] : {std::pair{a, 1.0}, std::pair{b, -1.0}}) {
+      if (n < 0) continue;
+      rounding(n) += 16 * kEps * terms;
+      if (a >= 0) jacobian(n, a) += sign * g;
+      if (b >= 0) jacobian(n, b) -= sign * g;
+    }
+  }
+  std::vector<double> resolution(nodes, 0.0);
+  // Conductances of 1e-25 S beside 1e3 S are real here: no rank threshold, and a node
+  // whose row of the inverse is not finite is not fixed at all.
+  Eigen::FullPivLU<Eigen::MatrixXd> lu(size, size);
+  lu.setThreshold(std::numeric_limits<double>::min());
+  lu.compute(jacobian);
+  const Eigen::VectorXd bound = lu.inverse().cwiseAbs() * rounding;
+  for (size_t n = 1; n < nodes; ++n) {
+    const double r = bound(static_cast<Eigen::Index>(n) - 1);
+    resolution[n] = std::isfinite(r) ? r : HUGE_VAL;
+  }
+  return resolution;
 }
 
 }  // namespace knee::torture

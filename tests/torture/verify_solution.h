@@ -5,6 +5,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 #include "knee/circuit.h"
 #include "knee/solver.h"
@@ -25,6 +26,14 @@ struct Verification {
 
 Verification VerifySolution(const Circuit& circuit, const Solution& solution,
                             const VerifyTolerances& tol = {});
+
+// How precisely the network's equations fix each node voltage in double precision: the
+// first-order bound |J^-1| a (componentwise, J the dense modified-nodal Jacobian at the
+// solution from the contract's laws, a the rounding of every equation: 16 eps times the
+// sum of its terms, as in VerifySolution). Two solvers can only be expected to agree at a
+// node to within this (plus their own tolerances). Index: circuit node (gnd: 0). Computed
+// with Eigen's dense LU, independently of the engine; for the small torture networks.
+std::vector<double> RoundOffResolution(const Circuit& circuit, const Solution& solution);
 
 // The contract's diode current at junction voltage vj (no overflow aid: exact law).
 double ContractDiodeCurrent(const DiodeModel& model, double area, double temp_celsius, double vj);
