@@ -312,6 +312,16 @@ void NewtonSolver::RefineStep(std::span<double> dx) {
 // One more Newton step after convergence: a converged Newton iteration is quadratic, so
 // this brings the answer to round-off level. Kept only if the residual stays within its
 // tolerance; otherwise the converged point stands.
+bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_inside,
+                std::span<const double> dx, std::span<const double> x, double* merit) {
+  if (!finite_inside || !CheckResidual(mna, options).passed()) return false;
+  const double after = ResidualMerit(mna, options);
+  // A step within the update tolerance is kept even when the merit jitters at round-off.
+  if (!(after <= *merit) && !CheckUpdate(mna, options, dx, x).passed()) return false;
+  *merit = after;
+  return true;
+}
+
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
                    std::span<const double> x) {
   SolverOptions fine = options;
@@ -324,13 +334,15 @@ bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span
 void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
   AssemblyAids exact = aids;
   exact.limit_junctions = false;
+  double merit = ResidualMerit(*mna_, options_);
   for (int k = 0; k < kPolishSteps; ++k) {
     std::copy(x.begin(), x.end(), saved_x_.begin());
     NewtonOutcome ignored;
     if (!SolveStep(dx_, &ignored)) return;
     for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+    const bool inside = !Clamp(x);
     const AssemblyOutcome assembled = mna_->Assemble(x, exact);
-    if (!assembled.finite || !CheckResidual(*mna_, options_).passed()) {
+    if (!PolishKept(*mna_, options_, inside && assembled.finite, dx_, x, &merit)) {
       std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
       return;
     }

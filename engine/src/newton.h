@@ -68,14 +68,20 @@ ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& options)
 double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 
 // Polishing after convergence: further full Newton steps, each kept only if the residual
-// still passes after it, until a step is below kPolishFactor times the update tolerance
-// (the error left is then about the square of that, far below 1e-9 relative) or
+// still passes after it (PolishKept), until a step is below kPolishFactor times the update
+// tolerance (the error left is then about the square of that, far below 1e-9 relative) or
 // kPolishSteps were taken. Quadratic convergence makes the first step enough on most
 // networks; the others reach the same point to round-off whichever path they came by.
 inline constexpr int kPolishSteps = 4;
-inline constexpr double kPolishFactor = 1e-3;
+inline constexpr double kPolishFactor = 1e-6;
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
                    std::span<const double> x);
+// Whether a polishing step is kept, from the assembly after it: a finite point inside the
+// voltage bound whose residual passes and whose ResidualMerit is no larger than *merit
+// (updated), unless the step `dx` to x is within the update tolerance. Far out (1e125 V)
+// the residual's round-off allowance lets any residual pass; such a step is neither.
+bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_inside,
+                std::span<const double> dx, std::span<const double> x, double* merit);
 
 // "NAME (last change D)" for every unknown whose last update `dx` at `x` broke the update
 // tolerance of CheckUpdate: what a failed run reports as still moving.

@@ -814,13 +814,19 @@ void PotentialSolver::SetFloor(bool on, std::span<const double> x) {
 void PotentialSolver::Polish(std::span<double> x) {
   shift_ = 0.0;
   SetFloor(false, x);
+  double merit = ResidualMerit(*mna_, options_);
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   for (int k = 0; k < kPolishSteps; ++k) {
     std::copy(x.begin(), x.end(), base_.begin());
     NewtonOutcome ignored;
     if (!SolveStep(&ignored)) return;
-    for (size_t i = 0; i < x.size(); ++i) x[i] += step_[i];
+    bool inside = true;
+    for (size_t i = 0; i < x.size(); ++i) {
+      x[i] += step_[i];
+      if (i < kcl && !(std::fabs(x[i]) <= voltage_bound_)) inside = false;
+    }
     const AssemblyOutcome assembled = mna_->Assemble(x, AssemblyAids{});
-    if (!assembled.finite || !CheckResidual(*mna_, options_).passed()) {
+    if (!PolishKept(*mna_, options_, inside && assembled.finite, step_, x, &merit)) {
       std::copy(base_.begin(), base_.end(), x.begin());
       return;
     }
