@@ -594,10 +594,12 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       // few halvings that does; none: the point stays (a zero step), and the convergence
       // tests decide.
       const double before_ratio = residual.index < 0 ? 0.0 : residual.value / residual.bound;
+      const double merit0 = ResidualMerit(*mna_, options_);
       for (trials = 1; trials <= kMaxStationaryHalvings; ++trials, t *= 0.5) {
         accepted = Evaluate(base_, t, x);
         if (accepted.finite && (accepted.potential - before <= roundoff(accepted) ||
-                                accepted.residual_ratio < before_ratio)) {
+                                accepted.residual_ratio < before_ratio ||
+                                accepted.residual_merit < merit0)) {
           break;
         }
       }
