@@ -597,9 +597,9 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       const double merit0 = ResidualMerit(*mna_, options_);
       for (trials = 1; trials <= kMaxStationaryHalvings; ++trials, t *= 0.5) {
         accepted = Evaluate(base_, t, x);
-        if (accepted.finite && (accepted.potential - before <= roundoff(accepted) ||
-                                accepted.residual_ratio < before_ratio ||
-                                accepted.residual_merit < merit0)) {
+        if (accepted.finite &&
+            (accepted.potential - before <= roundoff(accepted) ||
+             accepted.residual_ratio < before_ratio || accepted.residual_merit < merit0)) {
           break;
         }
       }
