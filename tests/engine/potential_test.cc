@@ -155,11 +155,26 @@ SolveSummary SolveWith(const Circuit& c, SolverMethod method, Solution* s, bool 
 }
 
 // Hard circuits: a 1 kV string of forty diodes, tiny saturation currents (1e-30 A),
-// near-zero series resistance (1 nOhm) with a zener clamp. (A 5 kV source feeding a stack
-// of reverse-biased breakdown diodes is not solved by the potential method yet:
-// docs/solver.md, "Known gaps".)
+// near-zero series resistance (1 nOhm) with a zener clamp, and 5 kV through 10 kOhm into
+// a stack of ten reverse-biased 100 V breakdown diodes.
 std::vector<Circuit> HardCircuits() {
   std::vector<Circuit> circuits;
+  {
+    CircuitBuilder b;
+    DiodeModel m;
+    m.sat_current = 1e-14;
+    m.breakdown_v = 100.0;
+    m.breakdown_i = 1e-3;
+    const int part = b.Part("Z", m);
+    b.V("V1", "top", "gnd", 5000.0);
+    b.R("R1", "top", "n0", 10e3);
+    for (int k = 0; k < 10; ++k) {
+      // Each diode's cathode faces the source: all ten in reverse, in breakdown.
+      b.D("D" + std::to_string(k), k == 9 ? std::string("gnd") : "n" + std::to_string(k + 1),
+          "n" + std::to_string(k), part);
+    }
+    circuits.push_back(b.circuit());
+  }
   {
     CircuitBuilder b;
     DiodeModel m;
