@@ -34,6 +34,7 @@ constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin 
 constexpr double kFaintCurrentFloor = 1e-40;
 constexpr int kFaintNewtonSteps = 1000;  // at least, for ResolveFaintNodes' run
 constexpr int kFaintRounds = 3;          // ResolveFaintNodes' runs at most
+constexpr double kLooseMargin = 10.0;    // LooseNodes: spread / voltage tolerance
 // The node-voltage clamp (SetVoltageBound): margin times the bound, plus a floor (V).
 constexpr double kVoltageBoundMargin = 10.0;
 constexpr double kVoltageBoundFloor = 1e4;
@@ -270,7 +271,7 @@ struct BiasSolver::Impl {
 // as a whole only by saturated reverse junctions, whose currents no longer depend on
 // where the group sits). Which voltage a solver ends at there depends on its path. The
 // test: the voltage change that currents of the size of the tolerance cause,
-// |J^-1 t| with t_r = abs_current_tol + rel_tol*flow_r, exceeds the voltage tolerance.
+// |J^-1 t| with t_r = abs_current_tol (ToleranceSpread), exceeds the voltage tolerance.
 // A loose point is taken one Newton run further with the current tolerance scaled down
 // until it would fix those nodes (down to kFaintCurrentFloor), from the point itself;
 // the nodes still loose afterwards (all of them, if that run fails or does not verify)
@@ -279,6 +280,10 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
                                               double* scale) {
   std::vector<int> loose;
   *scale = 1.0;
+  // Loose by the tolerance only beyond kLooseMargin times the voltage tolerance: a node a
+  // picoampere moves by a few microvolts (a bridge floating on 1 MOhm references) is
+  // settled by the polishing steps, not worth a run of its own at every sweep point.
+  const double margin = rounding ? 1.0 : kLooseMargin;
   mna.AssembleExact(x);
   spread.resize(x.size());
   const auto solve_spread = [&](KluSolver& factors) {
@@ -295,7 +300,7 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
     bool any = false;
     for (int u = 0; u < mna.kcl_rows() && !any; ++u) {
       const auto i = static_cast<size_t>(u);
-      any = !(spread[i] <= o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]));
+      any = !(spread[i] <= margin * (o.abs_voltage_tol + o.rel_tol * std::fabs(x[i])));
     }
     if (!any) return loose;
   }
@@ -315,7 +320,7 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
   for (int u = 0; u < mna.kcl_rows(); ++u) {
     const auto i = static_cast<size_t>(u);
     const double tolerance = o.abs_voltage_tol + o.rel_tol * std::fabs(x[i]);
-    if (!(spread[i] <= tolerance)) {
+    if (!(spread[i] <= margin * tolerance)) {
       loose.push_back(u);
       *scale = std::min(*scale, tolerance / spread[i]);
     }

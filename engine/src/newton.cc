@@ -212,10 +212,8 @@ bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise
 
 bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& o, KluSolver& klu,
                      std::span<double> spread) {
-  const auto flow = mna.flow();
   for (int r = 0; r < mna.size(); ++r) {
-    const auto i = static_cast<size_t>(r);
-    spread[i] = r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : 0.0;
+    spread[static_cast<size_t>(r)] = r < mna.kcl_rows() ? o.abs_current_tol : 0.0;
   }
   return AbsoluteResponse(mna, klu, spread);
 }

@@ -51,8 +51,12 @@ std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
 // `klu` holds: how far the residual's rounding alone moves a step. False if the solve
 // fails.
 bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise);
-// |J^-1 t| in node voltages, t_r = abs_current_tol + rel_tol*flow_r on every KCL row: how
-// far currents of the size of the residual's tolerance move a node (bias.cc, LooseNodes).
+// |J^-1 t| in node voltages, t_r = abs_current_tol on every KCL row: how far currents of
+// the size of the residual's absolute tolerance move a node (bias.cc, LooseNodes). The
+// relative part rel_tol*flow_r is left out: mapped through J^-1 it adds up the tolerances
+// of every amp-level row onto a common mode held by megohms (a bridge floating on 1 MOhm
+// references moved "0.75 V"), although those rows' errors are a balance of large
+// currents, not an uncertainty of 0.4 uA each.
 bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& options, KluSolver& klu,
                      std::span<double> spread);
 
