@@ -23,7 +23,7 @@ enum class SolverMethod {
   // Newton directions of the MNA system with a line search on the network's co-content
   // (a convex function; Millar 1951), without limiting, gmin or source stepping.
   // Monotone networks only. In theory it converges on every monotone network that has a
-  // solution; in floating point it still fails on part of the torture suite
+  // solution; in floating point it still fails on a few torture networks in 10,000
   // (docs/solver.md), so it is not the default yet.
   kPotential,
   // Plain Newton with junction limiting, then the aid ladder (gmin, source stepping).
