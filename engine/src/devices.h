@@ -27,8 +27,9 @@ struct Incidence {
 
 // Island coordinates. A group of nodes joined to each other by resistors and voltage
 // sources but not to gnd (a bridge's dc side, a mesh held only by junctions) is an
-// island; its lowest node is its root. For every other member u the solver's unknown is
-// the offset z_u = x_u - x_root, and the root's row is the sum of the island's KCL rows.
+// island; its heaviest node (FindIslands, mna.cc) is its root. For every other member u
+// the solver's unknown is the offset z_u = x_u - x_root, and the root's row is the sum of
+// the island's KCL rows.
 // A resistor inside an island then adds nothing to the root's row or column: its terms
 // cancel exactly, by construction, instead of leaving 1/R + g - 1/R to rounding, which
 // loses the junction conductances g that alone hold the island (a pA/V junction against

@@ -20,7 +20,7 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
 }
 
 // IslandMap of the circuit: components of the graph of resistors and voltage sources
-// that do not contain gnd, rooted at their lowest node.
+// that do not contain gnd, each rooted at its heaviest node (below).
 IslandMap FindIslands(const Circuit& c) {
   std::vector<int> parent(c.nodes.size());
   for (size_t n = 0; n < parent.size(); ++n) parent[n] = static_cast<int>(n);
@@ -38,11 +38,49 @@ IslandMap FindIslands(const Circuit& c) {
     // The lower node stays the representative: gnd (0) wins, else the island's lowest.
     if (a != b) parent[static_cast<size_t>(std::max(a, b))] = std::min(a, b);
   }
+  // The root's own KCL is known only to its members' round-off (its row holds the
+  // island's sum), so the root is the member whose KCL carries the largest terms, as far
+  // as the elements tell before solving: the most elements that can carry any current
+  // (voltage sources, diodes without series resistance), then the largest sum of the
+  // other elements' largest conductances (1/R, 1/rs), then the lowest node. A nA node
+  // beside a kA one as root had its own KCL at 1e-9 A (torture seed 4725).
+  std::vector<double> unbounded(c.nodes.size(), 0.0), conductance(c.nodes.size(), 0.0);
+  for (const Element& e : c.elements) {
+    double g = 0.0;
+    bool any_current = false;
+    if (e.kind == ElementKind::kResistor) {
+      g = e.value > 0.0 ? 1.0 / e.value : 0.0;
+    } else if (e.kind == ElementKind::kVoltageSource) {
+      any_current = true;
+    } else if (e.kind == ElementKind::kDiode && e.part >= 0 &&
+               e.part < static_cast<int>(c.parts.size())) {
+      const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+      any_current = !(rs > 0.0);
+      g = any_current ? 0.0 : 1.0 / rs;
+    }
+    for (int n : {e.node_a, e.node_b}) {
+      unbounded[static_cast<size_t>(n)] += any_current ? 1.0 : 0.0;
+      if (std::isfinite(g)) conductance[static_cast<size_t>(n)] += g;
+    }
+  }
+  std::vector<int> best(c.nodes.size(), -1);  // per representative: the chosen root
+  const auto heavier = [&](size_t a, size_t b) {
+    if (unbounded[a] != unbounded[b]) return unbounded[a] > unbounded[b];
+    return conductance[a] > conductance[b];
+  };
+  for (size_t n = 1; n < c.nodes.size(); ++n) {
+    const auto rep = static_cast<size_t>(find(static_cast<int>(n)));
+    if (rep == static_cast<size_t>(kGroundNode)) continue;
+    if (best[rep] < 0 || heavier(n, static_cast<size_t>(best[rep])))
+      best[rep] = static_cast<int>(n);
+  }
   std::vector<int> root_of(c.nodes.empty() ? 0 : c.nodes.size() - 1, -1);
   int members = 0;
   for (size_t n = 1; n < c.nodes.size(); ++n) {
-    const int root = find(static_cast<int>(n));
-    if (root == kGroundNode || root == static_cast<int>(n)) continue;
+    const int rep = find(static_cast<int>(n));
+    if (rep == kGroundNode) continue;
+    const int root = best[static_cast<size_t>(rep)];
+    if (root == static_cast<int>(n)) continue;
     root_of[n - 1] = UnknownOfNode(root);
     ++members;
   }
