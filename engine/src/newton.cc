@@ -149,6 +149,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
             "worst residual at '{}' = {:.3g} <= {:.3g}",
             step - 1, mna_->UnknownName(here.index), here.value, here.bound,
             mna_->UnknownName(residual.index), residual.value, residual.bound);
+        Polish(aids, x);
         return outcome;
       }
     }
@@ -326,7 +327,7 @@ bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span
   fine.abs_voltage_tol *= kPolishFactor;
   fine.abs_current_tol *= kPolishFactor;
   fine.rel_tol *= kPolishFactor;
-  return CheckUpdate(mna, fine, dx, x).passed();
+  return CheckUpdate(mna, fine, dx, x, {}, /*exempt_loose=*/false).passed();
 }
 
 void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
