@@ -68,86 +68,150 @@ namespace {
 
 double At(std::span<const double> x, int u) { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
 
-// A conductance g between unknowns p and q: g w w^T over the incidence w of (p, q),
-// four entries in nodal coordinates, up to sixteen across an island's root.
-class ConductanceSlots {
+// A conductance g between node unknowns a and b (-1 for gnd): g w w^T over the incidence
+// w of (a, b). In plain nodal coordinates w is {a: +1, b: -1}, and its four entries are
+// kept here; across an island's root w has up to four entries and sixteen, kept in a
+// block of their own. Most circuits have no islands, and in a million-device circuit
+// room for sixteen entries in every device was 200 MB.
+class Conductance {
  public:
-  void Declare(EntryCollector& c, int p, int q) {
-    w_ = c.islands().Between(p, q);
-    for (int i = 0; i < w_.count; ++i) {
-      for (int j = 0; j < w_.count; ++j) {
-        slots_[static_cast<size_t>(i * 4 + j)] =
-            c.Add(w_.index[static_cast<size_t>(i)], w_.index[static_cast<size_t>(j)]);
+  Conductance(int a, int b) : a_(a), b_(b) {}
+  // Between the node unknowns of a two-terminal element.
+  static Conductance Of(const Circuit& c, int element) {
+    const Element& e = c.elements[static_cast<size_t>(element)];
+    return Conductance(UnknownOfNode(e.node_a), UnknownOfNode(e.node_b));
+  }
+  int a() const { return a_; }
+  int b() const { return b_; }
+
+  void Declare(EntryCollector& c) {
+    const Incidence w = c.islands().Between(a_, b_);
+    if (IsPlain(w)) {
+      island_.reset();
+      slots_ = {c.Add(a_, a_), c.Add(a_, b_), c.Add(b_, a_), c.Add(b_, b_)};
+      return;
+    }
+    island_ = std::make_unique<IslandEntries>();
+    island_->w = w;
+    for (int i = 0; i < w.count; ++i) {
+      for (int j = 0; j < w.count; ++j) {
+        island_->slots[static_cast<size_t>(i * 4 + j)] =
+            c.Add(w.index[static_cast<size_t>(i)], w.index[static_cast<size_t>(j)]);
       }
     }
   }
   void Bind(std::span<const int> slot_of) {
-    for (int& s : slots_) s = s < 0 ? -1 : slot_of[static_cast<size_t>(s)];
+    for (int& s : island_ ? std::span<int>(island_->slots) : std::span<int>(slots_)) {
+      s = s < 0 ? -1 : slot_of[static_cast<size_t>(s)];
+    }
   }
   void Stamp(StampContext& ctx, double g) const {
-    for (int i = 0; i < w_.count; ++i) {
-      for (int j = 0; j < w_.count; ++j) {
-        ctx.AddValue(slots_[static_cast<size_t>(i * 4 + j)],
-                     g * w_.coef[static_cast<size_t>(i)] * w_.coef[static_cast<size_t>(j)]);
+    if (island_) {
+      const Incidence& w = island_->w;
+      for (int i = 0; i < w.count; ++i) {
+        for (int j = 0; j < w.count; ++j) {
+          ctx.AddValue(island_->slots[static_cast<size_t>(i * 4 + j)],
+                       g * w.coef[static_cast<size_t>(i)] * w.coef[static_cast<size_t>(j)]);
+        }
       }
+      return;
+    }
+    ctx.AddValue(slots_[0], g);
+    ctx.AddValue(slots_[1], -g);
+    ctx.AddValue(slots_[2], -g);
+    ctx.AddValue(slots_[3], g);
+  }
+  // Current i from a to b; its rounding scale `terms` enters every row it touches.
+  void AddBranch(StampContext& ctx, double i, double terms) const {
+    if (island_) {
+      ctx.AddBranch(island_->w, i, terms, a_, b_);
+    } else {
+      ctx.AddPlainBranch(i, terms, a_, b_);
     }
   }
   // out += g w (w . v).
   void MultiplyAdd(double g, std::span<const double> v, std::span<double> out) const {
+    if (island_) {
+      const Incidence& w = island_->w;
+      double s = 0.0;
+      for (int k = 0; k < w.count; ++k) {
+        s += w.coef[static_cast<size_t>(k)] *
+             v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
+      }
+      for (int k = 0; k < w.count; ++k) {
+        out[static_cast<size_t>(w.index[static_cast<size_t>(k)])] +=
+            g * w.coef[static_cast<size_t>(k)] * s;
+      }
+      return;
+    }
+    // The island branch's arithmetic with w = {a: +1, b: -1}: the same bits.
     double s = 0.0;
-    for (int k = 0; k < w_.count; ++k) {
-      s += w_.coef[static_cast<size_t>(k)] *
-           v[static_cast<size_t>(w_.index[static_cast<size_t>(k)])];
-    }
-    for (int k = 0; k < w_.count; ++k) {
-      out[static_cast<size_t>(w_.index[static_cast<size_t>(k)])] +=
-          g * w_.coef[static_cast<size_t>(k)] * s;
-    }
+    if (a_ >= 0) s += v[static_cast<size_t>(a_)];
+    if (b_ >= 0) s += -v[static_cast<size_t>(b_)];
+    if (a_ >= 0) out[static_cast<size_t>(a_)] += g * s;
+    if (b_ >= 0) out[static_cast<size_t>(b_)] += -g * s;
   }
-  const Incidence& incidence() const { return w_; }
 
  private:
-  Incidence w_;
-  std::array<int, 16> slots_{-1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1};
+  struct IslandEntries {
+    Incidence w;
+    std::array<int, 16> slots{-1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1};
+  };
+  // w is {a: +1, b: -1} less gnd, the form the four inline entries stand for.
+  bool IsPlain(const Incidence& w) const {
+    Incidence plain;
+    for (const auto& [u, c] : {std::pair{a_, 1.0}, std::pair{b_, -1.0}}) {
+      if (u < 0) continue;
+      plain.index[static_cast<size_t>(plain.count)] = u;
+      plain.coef[static_cast<size_t>(plain.count)] = c;
+      ++plain.count;
+    }
+    if (a_ == b_ || w.count != plain.count) return false;
+    for (size_t k = 0; k < static_cast<size_t>(w.count); ++k) {
+      if (w.index[k] != plain.index[k] || w.coef[k] != plain.coef[k]) return false;
+    }
+    return true;
+  }
+
+  int a_ = -1, b_ = -1;
+  // (a, a), (a, b), (b, a), (b, b); -1 where a or b is gnd.
+  std::array<int, 4> slots_{-1, -1, -1, -1};
+  std::unique_ptr<IslandEntries> island_;
 };
 
 class Resistor final : public Device {
  public:
-  Resistor(const Circuit& c, int element) : Device(element) {
-    const Element& e = c.elements[static_cast<size_t>(element)];
-    a_ = UnknownOfNode(e.node_a);
-    b_ = UnknownOfNode(e.node_b);
+  Resistor(const Circuit& c, int element) : Device(element), pair_(Conductance::Of(c, element)) {
     UpdateValues(c, {});
   }
-  void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
-  void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
+  void DeclareEntries(EntryCollector& c) override { pair_.Declare(c); }
+  void BindSlots(std::span<const int> slot_of) override { pair_.Bind(slot_of); }
   void UpdateValues(const Circuit& c, std::span<const char>) override {
     g_ = 1.0 / c.elements[static_cast<size_t>(element())].value;
   }
   bool Stamp(StampContext& ctx) override {
-    const double i = g_ * (ctx.X(a_) - ctx.X(b_));
+    const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
+    const double i = g_ * (va - vb);
     if (!std::isfinite(i)) return false;
-    slots_.Stamp(ctx, g_);
-    ctx.AddBranch(slots_.incidence(), i, g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))), a_,
-                  b_);
+    pair_.Stamp(ctx, g_);
+    pair_.AddBranch(ctx, i, g_ * (std::fabs(va) + std::fabs(vb)));
     // Co-content of a linear resistor: G v^2 / 2.
-    if (ctx.want_potential) ctx.AddPotential(0.5 * i * (ctx.X(a_) - ctx.X(b_)));
+    if (ctx.want_potential) ctx.AddPotential(0.5 * i * (va - vb));
     return true;
   }
   DeviceReport Measure(std::span<const double> x) const override {
     DeviceReport r;
-    r.voltage = At(x, a_) - At(x, b_);
+    r.voltage = At(x, pair_.a()) - At(x, pair_.b());
     r.current = g_ * r.voltage;
     return r;
   }
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
-    slots_.MultiplyAdd(g_, v, out);
+    pair_.MultiplyAdd(g_, v, out);
   }
 
  private:
-  int a_ = -1, b_ = -1;
   double g_ = 0;
-  ConductanceSlots slots_;
+  Conductance pair_;
 };
 
 // v(p) - v(n) = V; the branch current k flows from p through the source to n.
@@ -259,15 +323,13 @@ class CurrentSource final : public Device {
 // it. The two-terminal form keeps every node's equation in its own current scale.
 class Diode final : public Device {
  public:
-  Diode(const Circuit& c, int element) : Device(element) {
+  Diode(const Circuit& c, int element) : Device(element), pair_(Conductance::Of(c, element)) {
     const Element& e = c.elements[static_cast<size_t>(element)];
-    a_ = UnknownOfNode(e.node_a);
-    b_ = UnknownOfNode(e.node_b);
     KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
     UpdateValues(c, {});
   }
-  void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
-  void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
+  void DeclareEntries(EntryCollector& c) override { pair_.Declare(c); }
+  void BindSlots(std::span<const int> slot_of) override { pair_.Bind(slot_of); }
   void UpdateValues(const Circuit& c, std::span<const char> part_changed) override {
     const Element& e = c.elements[static_cast<size_t>(element())];
     const DiodeModel& model = c.parts[static_cast<size_t>(e.part)].model;
@@ -287,11 +349,12 @@ class Diode final : public Device {
     resolution_scale_ = d_.has_breakdown ? std::min(d_.n_vt, d_.nbr_vt) : d_.n_vt;
   }
   void BeginRun(std::span<const double> x) override {
-    last_vj_ = JunctionVoltageAt(d_, At(x, a_) - At(x, b_), 0.0);
+    last_vj_ = JunctionVoltageAt(d_, At(x, pair_.a()) - At(x, pair_.b()), 0.0);
     limited_ = false;
   }
   bool Stamp(StampContext& ctx) override {
-    const double v = ctx.X(a_) - ctx.X(b_);
+    const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
+    const double v = va - vb;
     JunctionPoint p;
     const double vj = JunctionVoltageAt(d_, v, last_vj_, &p);
     // vj comes from a difference of two node voltages. Where their rounding reaches a
@@ -299,8 +362,7 @@ class Diode final : public Device {
     // no longer determine the diode's current at all, whatever the KCL residual says:
     // such a point is never accepted as a solution (newton.cc, bias.cc Verify).
     if (ctx.unresolved_element < 0 &&
-        kJunctionRounding * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) >
-            1e-3 * resolution_scale_) {
+        kJunctionRounding * (std::fabs(va) + std::fabs(vb)) > 1e-3 * resolution_scale_) {
       ctx.unresolved_element = element();
     }
     double at = vj;
@@ -321,15 +383,13 @@ class Diode final : public Device {
       ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d_.vbr) / d_.nbr_vt);
     }
     stamped_g_ = TwoTerminal(g);
-    slots_.Stamp(ctx, stamped_g_);
+    pair_.Stamp(ctx, stamped_g_);
     // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|); the law's own
     // terms round at their sizes: the forward term at most |I| + Is, the breakdown term
     // ibr*e^y = g_breakdown * nbr*Vt <= g * nbr*Vt (not ibr itself: far from breakdown
     // that term is 1e-300 A, and ibr would swamp the leakage that holds a faint node).
     const double breakdown_scale = d_.has_breakdown ? p.conductance * d_.nbr_vt : 0.0;
-    ctx.AddBranch(slots_.incidence(), i,
-                  g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + breakdown_scale,
-                  a_, b_);
+    pair_.AddBranch(ctx, i, g_exact * (std::fabs(va) + std::fabs(vb)) + d_.is + breakdown_scale);
     // Co-content of junction and series resistance at v: with v = vj + rs*I(vj),
     // the integral of I dv is the junction's integral of I dvj plus rs*I^2/2.
     if (ctx.want_potential) {
@@ -339,7 +399,7 @@ class Diode final : public Device {
   }
   DeviceReport Measure(std::span<const double> x) const override {
     DeviceReport r;
-    r.voltage = At(x, a_) - At(x, b_);
+    r.voltage = At(x, pair_.a()) - At(x, pair_.b());
     r.junction_voltage = JunctionVoltageAt(d_, r.voltage, last_vj_);
     const JunctionPoint p = EvaluateJunction(d_, r.junction_voltage);
     r.current = p.current;
@@ -347,7 +407,7 @@ class Diode final : public Device {
     return r;
   }
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
-    slots_.MultiplyAdd(stamped_g_, v, out);
+    pair_.MultiplyAdd(stamped_g_, v, out);
   }
   bool limited() const override { return limited_; }
 
@@ -355,7 +415,6 @@ class Diode final : public Device {
   // Conductance of the junction (g) in series with rs.
   double TwoTerminal(double g) const { return d_.rs > 0.0 ? g / (1.0 + d_.rs * g) : g; }
 
-  int a_ = -1, b_ = -1;
   double resolution_scale_ = 0.0;  // V: the smaller thermal scale of the junction law
   DiodeConstants d_;
   JunctionLimits limits_;
@@ -364,7 +423,7 @@ class Diode final : public Device {
   double last_vj_ = 0;
   double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
   bool limited_ = false;
-  ConductanceSlots slots_;
+  Conductance pair_;
 };
 
 // Above the critical voltage the exponential's slope grows so fast that the linearised

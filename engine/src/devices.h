@@ -134,18 +134,30 @@ struct StampContext {
   // node_magnitude keep each node's own KCL sum, largest current and terms, which an
   // island root's row (the island's sum) does not show.
   void AddBranch(const Incidence& w, double i, double terms, int a, int b) {
+    AddOwnSums(i, terms, a, b);
+    for (int k = 0; k < w.count; ++k) {
+      AddCurrent(w.index[static_cast<size_t>(k)], w.coef[static_cast<size_t>(k)] * i);
+      AddMagnitude(w.index[static_cast<size_t>(k)], terms);
+    }
+  }
+  // AddBranch for the incidence {a: +1, b: -1} of plain nodal coordinates (a != b; gnd,
+  // -1, is skipped by AddCurrent and AddMagnitude): the same sums in the same order.
+  void AddPlainBranch(double i, double terms, int a, int b) {
+    AddOwnSums(i, terms, a, b);
+    AddCurrent(a, i);
+    AddMagnitude(a, terms);
+    AddCurrent(b, -1.0 * i);
+    AddMagnitude(b, terms);
+  }
+  void AddOwnSums(double i, double terms, int a, int b) {
+    if (node_kcl.empty()) return;  // no islands: nobody reads them
     const double magnitude_i = i < 0.0 ? -i : i;
     for (int n : {a, b}) {
-      if (node_kcl.empty()) break;  // no islands: nobody reads them
       if (n < 0) continue;
       const auto k = static_cast<size_t>(n);
       node_kcl[k] += n == a ? i : -i;
       node_flow[k] = std::max(node_flow[k], magnitude_i);
       node_magnitude[k] += magnitude_i + terms;
-    }
-    for (int k = 0; k < w.count; ++k) {
-      AddCurrent(w.index[static_cast<size_t>(k)], w.coef[static_cast<size_t>(k)] * i);
-      AddMagnitude(w.index[static_cast<size_t>(k)], terms);
     }
   }
   // Adds m to the round-off scale of row `row`.
