@@ -461,16 +461,15 @@ void BiasSolver::Impl::Fill(Solution* solution) const {
   solution->element_current.assign(elements, 0.0);
   solution->junction_voltage.assign(elements, nan);
   solution->small_signal_res.assign(elements, nan);
-  for (const auto& device : mna.devices()) {
-    const auto e = static_cast<size_t>(device->element());
-    const internal::DeviceReport r = device->Measure(x);
+  mna.devices().Measure(x, [&](int element, const internal::DeviceReport& r) {
+    const auto e = static_cast<size_t>(element);
     solution->element_voltage[e] = r.voltage;
     solution->element_current[e] = r.current;
     if (circuit.elements[e].kind == ElementKind::kDiode) {
       solution->junction_voltage[e] = r.junction_voltage;
       solution->small_signal_res[e] = r.small_signal_res;
     }
-  }
+  });
 }
 
 Result<std::unique_ptr<BiasSolver>> BiasSolver::Create(const Circuit& circuit,

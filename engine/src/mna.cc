@@ -88,7 +88,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
 
   // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
   EntryCollector collector(&islands_);
-  for (Device* device : devices_.all()) device->DeclareEntries(collector);
+  devices_.DeclareEntries(collector);
   std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
   for (int r = 0; r < kcl_rows_; ++r) diagonal_ticket[static_cast<size_t>(r)] = collector.Add(r, r);
   // An island member's shunt to gnd couples its row and column to the root's.
@@ -132,7 +132,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
     col_ptr_[static_cast<size_t>(col) + 1] = static_cast<int>(row_index_.size());
   }
   row_index_.shrink_to_fit();
-  for (Device* device : devices_.all()) device->BindSlots(slot_of);
+  devices_.BindSlots(slot_of);
   diagonal_slot_.reserve(diagonal_ticket.size());
   for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
   for (size_t k = 0; k < member_shunts_.size(); ++k) {
@@ -287,9 +287,7 @@ AssemblyOutcome MnaSystem::AssembleExact(std::span<const double> x) {
   return Assemble(x, AssemblyAids{});
 }
 
-void MnaSystem::BeginRun(std::span<const double> x) {
-  for (Device* device : devices_.all()) device->BeginRun(x);
-}
+void MnaSystem::BeginRun(std::span<const double> x) { devices_.BeginRun(x); }
 
 bool MnaSystem::StructureMatches(const Circuit& c) const {
   if (c.nodes.size() != node_count_ || c.elements.size() != shape_.size() ||
@@ -309,7 +307,7 @@ void MnaSystem::UpdateValues(const Circuit& c) {
     part_changed_[p] = SameModel(c.parts[p].model, part_models_[p]) ? 0 : 1;
     if (part_changed_[p] != 0) part_models_[p] = c.parts[p].model;
   }
-  for (Device* device : devices_.all()) device->UpdateValues(c, part_changed_);
+  devices_.UpdateValues(c, part_changed_);
   exact_valid_ = false;
 }
 

@@ -116,7 +116,7 @@ class MnaSystem {
   bool StructureMatches(const Circuit& circuit) const;
   void UpdateValues(const Circuit& circuit);
 
-  const std::vector<Device*>& devices() const { return devices_.all(); }
+  const DeviceStore& devices() const { return devices_; }
   const std::string& ElementName(int e) const {
     return circuit_->elements[static_cast<size_t>(e)].name;
   }
