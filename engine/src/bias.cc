@@ -60,9 +60,6 @@ Diagnostic MessageOnly(std::string message) {
   return d;
 }
 
-// The solver's own copy of a circuit: everything but the elements' source locations
-// (messages name elements; none points into the file), which for a file name longer
-// than a short string is one allocation per element.
 // Everything of an element but its name and source location.
 void CopyElementNumbers(const Element& from, Element* to) {
   to->kind = from.kind;
@@ -74,15 +71,16 @@ void CopyElementNumbers(const Element& from, Element* to) {
   to->temp = from.temp;
 }
 
-Circuit SolverCopy(const Circuit& c) {
+// The numbers of a circuit, which a sweep point's circuit is compared with: its node
+// count, parts and elements without names or source locations (the solver reads names
+// from the caller's circuit).
+Circuit NumbersOf(const Circuit& c) {
   Circuit copy;
-  copy.title = c.title;
   copy.temp = c.temp;
-  copy.nodes = c.nodes;
+  copy.nodes.resize(c.nodes.size());
   copy.parts = c.parts;
   copy.elements.resize(c.elements.size());
   for (size_t e = 0; e < c.elements.size(); ++e) {
-    copy.elements[e].name = c.elements[e].name;
     CopyElementNumbers(c.elements[e], &copy.elements[e]);
   }
   return copy;
@@ -98,14 +96,13 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
          p.max_power == q.max_power;
 }
 
-// to = from, but when both have the same nodes, parts and elements (a sweep point) only
-// the numbers are copied: names and source locations stay as they are, so no string is
-// copied per point. Returns true when at most the values of voltage sources changed,
-// each to a finite number (what a sweep of a supply does at every point).
+// to = NumbersOf(from), copying only the numbers when both have as many nodes, parts and
+// elements (a sweep point). Returns true when at most the values of voltage sources
+// changed, each to a finite number (what a sweep of a supply does at every point).
 bool AssignValues(const Circuit& from, Circuit* to) {
   if (from.nodes.size() != to->nodes.size() || from.parts.size() != to->parts.size() ||
       from.elements.size() != to->elements.size()) {
-    *to = SolverCopy(from);
+    *to = NumbersOf(from);
     return false;
   }
   bool sources_only = from.temp == to->temp;
@@ -162,7 +159,13 @@ double JunctionSpan(const Circuit& c) {
 }  // namespace
 
 struct BiasSolver::Impl {
-  Circuit circuit;
+  // The caller's circuit of Create() or of the last UpdateValues(); no copy is kept (a
+  // million-element circuit would be held twice).
+  const Circuit* circuit;
+  // The numbers of that circuit (NumbersOf), kept from the first UpdateValues() on: a
+  // sweep point's circuit is compared with them to skip the classification when only
+  // sources changed. A single bias point never needs them.
+  std::optional<Circuit> last_numbers;
   SolverOptions options;
   MnaSystem mna;
   KluSolver klu;
@@ -182,9 +185,9 @@ struct BiasSolver::Impl {
   std::vector<NewtonStepRecord> trace;
 
   Impl(const Circuit& c, const SolverOptions& o)
-      : circuit(SolverCopy(c)),
+      : circuit(&c),
         options(o),
-        mna(circuit),
+        mna(c),
         newton(&mna, &klu, o, mna.size()),
         potential(&mna, &klu, o, mna.size()) {
     Resize();
@@ -192,10 +195,10 @@ struct BiasSolver::Impl {
   }
 
   void Classify() {
-    non_monotone = internal::NonMonotoneReason(circuit);
+    non_monotone = internal::NonMonotoneReason(*circuit);
     unbounded.reset();
-    if (!non_monotone) unbounded = internal::FindUnboundedCut(circuit);
-    junction_span = JunctionSpan(circuit);
+    if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
+    junction_span = JunctionSpan(*circuit);
   }
 
   // A bound on |node voltage| for the classic loop's clamp (newton.h): the sources'
@@ -203,12 +206,12 @@ struct BiasSolver::Impl {
   // part only with the parts and temperatures.
   void SetVoltageBound() {
     double volts = 0.0, amps = 0.0, ohms = 0.0;
-    for (const Element& e : circuit.elements) {
+    for (const Element& e : circuit->elements) {
       if (e.kind == ElementKind::kVoltageSource) volts += std::fabs(e.value);
       if (e.kind == ElementKind::kCurrentSource) amps += std::fabs(e.value);
       if (e.kind == ElementKind::kResistor) ohms += std::fabs(e.value);
       if (e.kind == ElementKind::kDiode) {
-        ohms += circuit.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+        ohms += circuit->parts[static_cast<size_t>(e.part)].model.series_res / e.area;
       }
     }
     const double bound =
@@ -452,8 +455,8 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
 }
 
 void BiasSolver::Impl::Fill(Solution* solution) const {
-  const size_t nodes = circuit.nodes.size();
-  const size_t elements = circuit.elements.size();
+  const size_t nodes = circuit->nodes.size();
+  const size_t elements = circuit->elements.size();
   const double nan = std::numeric_limits<double>::quiet_NaN();
   solution->node_voltage.assign(nodes, 0.0);
   for (size_t n = 1; n < nodes; ++n) solution->node_voltage[n] = x[n - 1];
@@ -465,7 +468,7 @@ void BiasSolver::Impl::Fill(Solution* solution) const {
     const auto e = static_cast<size_t>(element);
     solution->element_voltage[e] = r.voltage;
     solution->element_current[e] = r.current;
-    if (circuit.elements[e].kind == ElementKind::kDiode) {
+    if (circuit->elements[e].kind == ElementKind::kDiode) {
       solution->junction_voltage[e] = r.junction_voltage;
       solution->small_signal_res[e] = r.small_signal_res;
     }
@@ -487,7 +490,14 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
   // Neither classification depends on the value of a voltage source, except through its
   // finiteness: a sweep of a supply skips both (a max-flow over the network per point).
-  const bool sources_only = AssignValues(circuit, &m.circuit);
+  // The first update has nothing to compare with and classifies again.
+  bool sources_only = false;
+  if (m.last_numbers) {
+    sources_only = AssignValues(circuit, &*m.last_numbers);
+  } else {
+    m.last_numbers = NumbersOf(circuit);
+  }
+  m.circuit = &circuit;
   if (!sources_only || m.non_monotone) m.Classify();
   if (m.mna.StructureMatches(circuit)) {
     m.mna.UpdateValues(circuit);
@@ -495,7 +505,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   }
   // The structure changed: the unknowns and the pattern are rebuilt (and warm starts of
   // the old size are ignored).
-  m.mna = MnaSystem(m.circuit);
+  m.mna = MnaSystem(circuit);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.potential = internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.Resize();
@@ -533,7 +543,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
       return s;
     }
     reset();
-    m.potential.set_stiff_conductance(internal::StiffJunctionConductance(m.circuit));
+    m.potential.set_stiff_conductance(internal::StiffJunctionConductance(*m.circuit));
     const NewtonOutcome run = m.potential.Run(m.x, m.trace_on ? &m.trace : nullptr);
     s.newton_steps += run.steps;
     if (run.exit == NewtonExit::kConverged || method == SolverMethod::kPotential) {

@@ -303,6 +303,7 @@ bool MnaSystem::StructureMatches(const Circuit& c) const {
 
 void MnaSystem::UpdateValues(const Circuit& c) {
   KNEE_CHECK(StructureMatches(c) && c.parts.size() == part_models_.size());
+  circuit_ = &c;
   for (size_t p = 0; p < c.parts.size(); ++p) {
     part_changed_[p] = SameModel(c.parts[p].model, part_models_[p]) ? 0 : 1;
     if (part_changed_[p] != 0) part_models_[p] = c.parts[p].model;

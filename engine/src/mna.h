@@ -114,6 +114,7 @@ class MnaSystem {
 
   // True when `circuit` has the same unknowns and pattern as the one built from.
   bool StructureMatches(const Circuit& circuit) const;
+  // Names are read from `circuit` from now on: it must outlive the system too.
   void UpdateValues(const Circuit& circuit);
 
   const DeviceStore& devices() const { return devices_; }
