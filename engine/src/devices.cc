@@ -84,6 +84,10 @@ class Conductance {
     const Element& e = c.elements[static_cast<size_t>(element)];
     return Conductance(UnknownOfNode(e.node_a), UnknownOfNode(e.node_b));
   }
+  // Whether a and b are the unknowns of e's nodes.
+  bool Joins(const Element& e) const {
+    return a_ == UnknownOfNode(e.node_a) && b_ == UnknownOfNode(e.node_b);
+  }
   int a() const { return a_; }
   int b() const { return b_; }
 
@@ -218,6 +222,7 @@ class Resistor final : public Device {
     if (ctx.want_potential) ctx.AddPotential(0.5 * i * (va - vb));
     return true;
   }
+  bool Joins(const Element& e) const { return pair_.Joins(e); }
   DeviceReport Measure(std::span<const double> x) const {
     DeviceReport r;
     r.voltage = At(x, pair_.a()) - At(x, pair_.b());
@@ -270,6 +275,9 @@ class VoltageSource final : public Device {
         k_, std::fabs(ctx.X(p_)) + std::fabs(ctx.X(n_)) + std::fabs(ctx.source_scale * v_));
     return true;
   }
+  bool Joins(const Element& e) const {
+    return p_ == UnknownOfNode(e.node_a) && n_ == UnknownOfNode(e.node_b);
+  }
   DeviceReport Measure(std::span<const double> x) const {
     DeviceReport r;
     r.voltage = At(x, p_) - At(x, n_);
@@ -314,6 +322,9 @@ class CurrentSource final : public Device {
     // it draws out of a and delivers into b, i.e. its KCL contribution.
     if (ctx.want_potential) ctx.AddPotential(i * (ctx.X(a_) - ctx.X(b_)));
     return true;
+  }
+  bool Joins(const Element& e) const {
+    return a_ == UnknownOfNode(e.node_a) && b_ == UnknownOfNode(e.node_b);
   }
   DeviceReport Measure(std::span<const double> x) const {
     DeviceReport r;
@@ -411,6 +422,7 @@ class Diode final : public Device {
       : Device(element), pair_(Conductance::Of(c, element)), basis_(basis) {}
   int basis() const { return basis_; }
   void set_basis(int basis) { basis_ = basis; }
+  bool Joins(const Element& e) const { return pair_.Joins(e); }
   void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
   void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
   void BeginRun(std::span<const double> x, const DiodeBasis& basis) {
@@ -564,9 +576,6 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
   return proposed;
 }
 
-// Kind tags of DeviceStore's order (the array a device is in).
-enum : std::uint8_t { kResistorTag, kVoltageSourceTag, kCurrentSourceTag, kDiodeTag };
-
 struct DeviceStore::Arrays {
   std::vector<Resistor> resistors;
   std::vector<VoltageSource> vsources;
@@ -575,24 +584,24 @@ struct DeviceStore::Arrays {
   DiodeBases diode_bases;
   // The kind of every device, in element order; each array holds its kind's devices in
   // that order, so a walk keeps one position per array.
-  std::vector<std::uint8_t> order;
+  std::vector<ElementKind> order;
 
   // fn(device) for every device of `a` (an Arrays, const or not) in element order.
   template <typename Self, typename Fn>
   static void ForEach(Self& a, Fn&& fn) {
     size_t r = 0, v = 0, i = 0, d = 0;
-    for (const std::uint8_t tag : a.order) {
-      switch (tag) {
-        case kResistorTag:
+    for (const ElementKind kind : a.order) {
+      switch (kind) {
+        case ElementKind::kResistor:
           fn(a.resistors[r++]);
           break;
-        case kVoltageSourceTag:
+        case ElementKind::kVoltageSource:
           fn(a.vsources[v++]);
           break;
-        case kCurrentSourceTag:
+        case ElementKind::kCurrentSource:
           fn(a.isources[i++]);
           break;
-        default:
+        case ElementKind::kDiode:
           fn(a.diodes[d++]);
           break;
       }
@@ -620,21 +629,21 @@ void DeviceStore::Reserve(const std::array<size_t, 4>& counts) {
 
 void DeviceStore::AddResistor(const Circuit& circuit, int element) {
   arrays_->resistors.emplace_back(circuit, element);
-  arrays_->order.push_back(kResistorTag);
+  arrays_->order.push_back(ElementKind::kResistor);
 }
 void DeviceStore::AddVoltageSource(const Circuit& circuit, int element, int branch) {
   arrays_->vsources.emplace_back(circuit, element, branch);
-  arrays_->order.push_back(kVoltageSourceTag);
+  arrays_->order.push_back(ElementKind::kVoltageSource);
 }
 void DeviceStore::AddCurrentSource(const Circuit& circuit, int element) {
   arrays_->isources.emplace_back(circuit, element);
-  arrays_->order.push_back(kCurrentSourceTag);
+  arrays_->order.push_back(ElementKind::kCurrentSource);
 }
 void DeviceStore::AddDiode(const Circuit& circuit, int element) {
   const int basis =
       arrays_->diode_bases.Find(circuit, circuit.elements[static_cast<size_t>(element)]);
   arrays_->diodes.emplace_back(circuit, element, basis);
-  arrays_->order.push_back(kDiodeTag);
+  arrays_->order.push_back(ElementKind::kDiode);
 }
 
 void DeviceStore::DeclareEntries(EntryCollector& collector) {
@@ -701,6 +710,19 @@ void DeviceStore::Measure(std::span<const double> x,
       fn(device.element(), device.Measure(x));
     }
   });
+}
+
+bool DeviceStore::Matches(const Circuit& circuit) const {
+  const Arrays& a = *arrays_;
+  if (a.order.size() != circuit.elements.size()) return false;
+  bool same = true;
+  size_t k = 0;
+  Arrays::ForEach(a, [&](const auto& device) {
+    const Element& e = circuit.elements[k];
+    same = same && e.kind == a.order[k] && device.Joins(e);
+    ++k;
+  });
+  return same;
 }
 
 std::vector<int> DeviceStore::LimitedElements() const {

@@ -216,6 +216,8 @@ class DeviceStore {
   // fn(element, its report at x) for every device, in element order.
   void Measure(std::span<const double> x,
                const std::function<void(int, const DeviceReport&)>& fn) const;
+  // Whether `circuit` has these devices' kinds and nodes, element by element.
+  bool Matches(const Circuit& circuit) const;
   // The elements whose last Stamp limited their evaluation point, in element order.
   std::vector<int> LimitedElements() const;
 

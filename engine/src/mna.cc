@@ -4,7 +4,6 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
-#include <tuple>
 
 #include "check.h"
 
@@ -46,6 +45,8 @@ IslandMap FindIslands(const Circuit& c) {
     root_of[n - 1] = UnknownOfNode(root);
     ++members;
   }
+  // Without islands the map holds nothing (root_of is -1 for every node anyway).
+  if (members == 0) return IslandMap();
   IslandMap map(std::move(root_of));
   map.set_members(members);
   return map;
@@ -56,8 +57,6 @@ IslandMap FindIslands(const Circuit& c) {
 MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) {
   node_count_ = c.nodes.size();
   int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
-  shape_.reserve(c.elements.size());
-  for (const Element& e : c.elements) shape_.emplace_back(e.kind, e.node_a, e.node_b);
   kcl_rows_ = next;
   part_models_.reserve(c.parts.size());
   for (const Part& part : c.parts) part_models_.push_back(part.model);
@@ -290,15 +289,9 @@ AssemblyOutcome MnaSystem::AssembleExact(std::span<const double> x) {
 void MnaSystem::BeginRun(std::span<const double> x) { devices_.BeginRun(x); }
 
 bool MnaSystem::StructureMatches(const Circuit& c) const {
-  if (c.nodes.size() != node_count_ || c.elements.size() != shape_.size() ||
-      c.parts.size() != part_models_.size()) {
-    return false;
-  }
-  for (size_t e = 0; e < c.elements.size(); ++e) {
-    const Element& el = c.elements[e];
-    if (std::make_tuple(el.kind, el.node_a, el.node_b) != shape_[e]) return false;
-  }
-  return true;
+  // The devices hold each element's kind and nodes (no copy of them here).
+  return c.nodes.size() == node_count_ && c.parts.size() == part_models_.size() &&
+         devices_.Matches(c);
 }
 
 void MnaSystem::UpdateValues(const Circuit& c) {

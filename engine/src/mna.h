@@ -9,7 +9,6 @@
 #include <memory>
 #include <span>
 #include <string>
-#include <tuple>
 #include <vector>
 
 #include "devices.h"
@@ -126,7 +125,6 @@ class MnaSystem {
   const Circuit* circuit_ = nullptr;
   size_t node_count_ = 0;
   int size_ = 0;
-  std::vector<std::tuple<ElementKind, int, int>> shape_;  // per element, for StructureMatches
   int kcl_rows_ = 0;
   std::vector<int> element_of_extra_;    // element of each unknown after the circuit nodes
   std::vector<DiodeModel> part_models_;  // the models of the last build or update
