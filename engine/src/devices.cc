@@ -71,6 +71,11 @@ namespace {
 
 double At(std::span<const double> x, int u) { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
 
+// The value slot of an entry's ticket (-1, an entry at gnd, stays -1).
+int SlotOf(int ticket, std::span<const int> slot_of) {
+  return ticket < 0 ? -1 : slot_of[static_cast<size_t>(ticket)];
+}
+
 // A conductance g between node unknowns a and b (-1 for gnd): g w w^T over the incidence
 // w of (a, b). In plain nodal coordinates w is {a: +1, b: -1}, and its four entries are
 // kept here; across an island's root w has up to four entries and sixteen, kept in a
@@ -109,7 +114,7 @@ class Conductance {
   }
   void Bind(std::span<const int> slot_of) {
     for (int& s : island_ ? std::span<int>(island_->slots) : std::span<int>(slots_)) {
-      s = s < 0 ? -1 : slot_of[static_cast<size_t>(s)];
+      s = SlotOf(s, slot_of);
     }
   }
   void Stamp(StampContext& ctx, double g) const {
@@ -193,11 +198,6 @@ class Device {
   explicit Device(int element) : element_(element) {}
   int element() const { return element_; }
 
- protected:
-  static int Bind(int ticket, std::span<const int> slot_of) {
-    return ticket < 0 ? -1 : slot_of[static_cast<size_t>(ticket)];
-  }
-
  private:
   int element_;
 };
@@ -258,8 +258,8 @@ class VoltageSource final : public Device {
     }
   }
   void BindSlots(std::span<const int> slot_of) {
-    for (int& s : column_slots_) s = Bind(s, slot_of);
-    for (int& s : row_slots_) s = Bind(s, slot_of);
+    for (int& s : column_slots_) s = SlotOf(s, slot_of);
+    for (int& s : row_slots_) s = SlotOf(s, slot_of);
   }
   void UpdateValues(const Circuit& c) { v_ = c.elements[static_cast<size_t>(element())].value; }
   bool Stamp(StampContext& ctx) {

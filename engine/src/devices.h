@@ -150,6 +150,7 @@ struct StampContext {
     AddCurrent(b, -1.0 * i);
     AddMagnitude(b, terms);
   }
+  // The node_ sums of AddBranch (kept only in circuits with islands).
   void AddOwnSums(double i, double terms, int a, int b) {
     if (node_kcl.empty()) return;  // no islands: nobody reads them
     const double magnitude_i = i < 0.0 ? -i : i;
