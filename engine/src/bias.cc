@@ -178,7 +178,7 @@ struct BiasSolver::Impl {
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
-  std::vector<double> node_residual, node_allowance, node_flow;  // Verify's per-node KCL
+  std::vector<double> node_residual, node_allowance, node_flow;  // Verify's, with islands
   std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
   double junction_span = 0.0;                                    // V, JunctionSpan(circuit)
   bool trace_on = false;
@@ -414,11 +414,20 @@ double MaxAbs(std::span<const double> v) {
 void BiasSolver::Impl::Verify(SolveSummary* s) {
   const internal::AssemblyOutcome exact = mna.AssembleExact(x);
   const auto rows = static_cast<size_t>(mna.kcl_rows());
-  node_residual.resize(rows);
-  node_allowance.resize(rows);
-  node_flow.resize(rows);
-  mna.NodeResidual(node_residual, node_allowance, node_flow);
-  const std::vector<double>& f = node_residual;
+  // Without islands every node's own sums are its row's (NodeResidual would copy them:
+  // three arrays of a million nodes at the end of the solve).
+  const bool own = mna.has_islands();
+  if (own) {
+    node_residual.resize(rows);
+    node_allowance.resize(rows);
+    node_flow.resize(rows);
+    mna.NodeResidual(node_residual, node_allowance, node_flow);
+  }
+  const std::span<const double> f = own ? node_residual : mna.residual().first(rows);
+  const std::span<const double> flow = own ? node_flow : mna.flow().first(rows);
+  const auto allowance = [&](int r) {
+    return own ? node_allowance[static_cast<size_t>(r)] : mna.RoundOffAllowance(r);
+  };
   int worst = -1;
   int failed = -1;
   double failed_bound = 0.0;
@@ -426,8 +435,7 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
     const auto i = static_cast<size_t>(r);
     const double residual = std::fabs(f[i]);
     if (worst < 0 || !(residual <= std::fabs(f[static_cast<size_t>(worst)]))) worst = r;
-    const double bound =
-        options.verify_current_tol + options.rel_tol * node_flow[i] + node_allowance[i];
+    const double bound = options.verify_current_tol + options.rel_tol * flow[i] + allowance(r);
     if (failed < 0 && !(residual <= bound)) {
       failed = r;
       failed_bound = bound;

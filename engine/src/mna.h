@@ -79,6 +79,9 @@ class MnaSystem {
   // J d = -F gives d in them; this maps it to node voltages in place.
   void ToNodeSpace(std::span<double> d) const { islands_.ToNodeSpace(d); }
   const IslandMap& islands() const { return islands_; }
+  // Whether some island root's row holds its island's sum (else every KCL row is its
+  // node's own KCL).
+  bool has_islands() const { return !roots_.empty(); }
   // Every node's own KCL residual of the last assembly (the rows of island roots hold
   // their island's sum), its round-off allowance and a bound of its largest current;
   // KCL rows only.
