@@ -63,9 +63,6 @@ Diagnostic MessageOnly(std::string message) {
   return d;
 }
 
-// The solver's own copy of a circuit: everything but the elements' source locations
-// (messages name elements; none points into the file), which for a file name longer
-// than a short string is one allocation per element.
 // Everything of an element but its name and source location.
 void CopyElementNumbers(const Element& from, Element* to) {
   to->kind = from.kind;
@@ -77,15 +74,16 @@ void CopyElementNumbers(const Element& from, Element* to) {
   to->temp = from.temp;
 }
 
-Circuit SolverCopy(const Circuit& c) {
+// The numbers of a circuit, which a sweep point's circuit is compared with: its node
+// count, parts and elements without names or source locations (the solver reads names
+// from the caller's circuit).
+Circuit NumbersOf(const Circuit& c) {
   Circuit copy;
-  copy.title = c.title;
   copy.temp = c.temp;
-  copy.nodes = c.nodes;
+  copy.nodes.resize(c.nodes.size());
   copy.parts = c.parts;
   copy.elements.resize(c.elements.size());
   for (size_t e = 0; e < c.elements.size(); ++e) {
-    copy.elements[e].name = c.elements[e].name;
     CopyElementNumbers(c.elements[e], &copy.elements[e]);
   }
   return copy;
@@ -101,14 +99,13 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
          p.max_power == q.max_power;
 }
 
-// to = from, but when both have the same nodes, parts and elements (a sweep point) only
-// the numbers are copied: names and source locations stay as they are, so no string is
-// copied per point. Returns true when at most the values of voltage sources changed,
-// each to a finite number (what a sweep of a supply does at every point).
+// to = NumbersOf(from), copying only the numbers when both have as many nodes, parts and
+// elements (a sweep point). Returns true when at most the values of voltage sources
+// changed, each to a finite number (what a sweep of a supply does at every point).
 bool AssignValues(const Circuit& from, Circuit* to) {
   if (from.nodes.size() != to->nodes.size() || from.parts.size() != to->parts.size() ||
       from.elements.size() != to->elements.size()) {
-    *to = SolverCopy(from);
+    *to = NumbersOf(from);
     return false;
   }
   bool sources_only = from.temp == to->temp;
@@ -165,7 +162,13 @@ double JunctionSpan(const Circuit& c) {
 }  // namespace
 
 struct BiasSolver::Impl {
-  Circuit circuit;
+  // The caller's circuit of Create() or of the last UpdateValues(); no copy is kept (a
+  // million-element circuit would be held twice).
+  const Circuit* circuit;
+  // The numbers of that circuit (NumbersOf), kept from the first UpdateValues() on: a
+  // sweep point's circuit is compared with them to skip the classification when only
+  // sources changed. A single bias point never needs them.
+  std::optional<Circuit> last_numbers;
   SolverOptions options;
   MnaSystem mna;
   KluSolver klu;
@@ -182,7 +185,7 @@ struct BiasSolver::Impl {
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
-  std::vector<double> node_residual, node_allowance, node_flow;  // Verify's per-node KCL
+  std::vector<double> node_residual, node_allowance, node_flow;  // Verify's, with islands
   std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
   // Whether klu holds the exact Jacobian's factors from the run that converged (the
   // solver's exact_factors()), which LooseNodes may then use as they are.
@@ -192,9 +195,9 @@ struct BiasSolver::Impl {
   std::vector<NewtonStepRecord> trace;
 
   Impl(const Circuit& c, const SolverOptions& o)
-      : circuit(SolverCopy(c)),
+      : circuit(&c),
         options(o),
-        mna(circuit),
+        mna(c),
         newton(&mna, &klu, o, mna.size()),
         potential(&mna, &klu, o, mna.size()) {
     Resize();
@@ -202,10 +205,10 @@ struct BiasSolver::Impl {
   }
 
   void Classify() {
-    non_monotone = internal::NonMonotoneReason(circuit);
+    non_monotone = internal::NonMonotoneReason(*circuit);
     unbounded.reset();
-    if (!non_monotone) unbounded = internal::FindUnboundedCut(circuit);
-    junction_span = JunctionSpan(circuit);
+    if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
+    junction_span = JunctionSpan(*circuit);
   }
 
   // A bound on |node voltage| for the classic loop's clamp (newton.h): the sources'
@@ -213,12 +216,12 @@ struct BiasSolver::Impl {
   // part only with the parts and temperatures.
   void SetVoltageBound() {
     double volts = 0.0, amps = 0.0, ohms = 0.0;
-    for (const Element& e : circuit.elements) {
+    for (const Element& e : circuit->elements) {
       if (e.kind == ElementKind::kVoltageSource) volts += std::fabs(e.value);
       if (e.kind == ElementKind::kCurrentSource) amps += std::fabs(e.value);
       if (e.kind == ElementKind::kResistor) ohms += std::fabs(e.value);
       if (e.kind == ElementKind::kDiode) {
-        ohms += circuit.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+        ohms += circuit->parts[static_cast<size_t>(e.part)].model.series_res / e.area;
       }
     }
     const double bound =
@@ -447,11 +450,20 @@ double MaxAbs(std::span<const double> v) {
 void BiasSolver::Impl::Verify(SolveSummary* s) {
   const internal::AssemblyOutcome exact = mna.AssembleExact(x);
   const auto rows = static_cast<size_t>(mna.kcl_rows());
-  node_residual.resize(rows);
-  node_allowance.resize(rows);
-  node_flow.resize(rows);
-  mna.NodeResidual(node_residual, node_allowance, node_flow);
-  const std::vector<double>& f = node_residual;
+  // Without islands every node's own sums are its row's (NodeResidual would copy them:
+  // three arrays of a million nodes at the end of the solve).
+  const bool own = mna.has_islands();
+  if (own) {
+    node_residual.resize(rows);
+    node_allowance.resize(rows);
+    node_flow.resize(rows);
+    mna.NodeResidual(node_residual, node_allowance, node_flow);
+  }
+  const std::span<const double> f = own ? node_residual : mna.residual().first(rows);
+  const std::span<const double> flow = own ? node_flow : mna.flow().first(rows);
+  const auto allowance = [&](int r) {
+    return own ? node_allowance[static_cast<size_t>(r)] : mna.RoundOffAllowance(r);
+  };
   int worst = -1;
   int failed = -1;
   double failed_bound = 0.0;
@@ -459,8 +471,7 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
     const auto i = static_cast<size_t>(r);
     const double residual = std::fabs(f[i]);
     if (worst < 0 || !(residual <= std::fabs(f[static_cast<size_t>(worst)]))) worst = r;
-    const double bound =
-        options.verify_current_tol + options.rel_tol * node_flow[i] + node_allowance[i];
+    const double bound = options.verify_current_tol + options.rel_tol * flow[i] + allowance(r);
     if (failed < 0 && !(residual <= bound)) {
       failed = r;
       failed_bound = bound;
@@ -488,8 +499,8 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
 }
 
 void BiasSolver::Impl::Fill(Solution* solution) const {
-  const size_t nodes = circuit.nodes.size();
-  const size_t elements = circuit.elements.size();
+  const size_t nodes = circuit->nodes.size();
+  const size_t elements = circuit->elements.size();
   const double nan = std::numeric_limits<double>::quiet_NaN();
   solution->node_voltage.assign(nodes, 0.0);
   for (size_t n = 1; n < nodes; ++n) solution->node_voltage[n] = x[n - 1];
@@ -497,16 +508,15 @@ void BiasSolver::Impl::Fill(Solution* solution) const {
   solution->element_current.assign(elements, 0.0);
   solution->junction_voltage.assign(elements, nan);
   solution->small_signal_res.assign(elements, nan);
-  for (const auto& device : mna.devices()) {
-    const auto e = static_cast<size_t>(device->element());
-    const internal::DeviceReport r = device->Measure(x);
+  mna.devices().Measure(x, [&](int element, const internal::DeviceReport& r) {
+    const auto e = static_cast<size_t>(element);
     solution->element_voltage[e] = r.voltage;
     solution->element_current[e] = r.current;
-    if (circuit.elements[e].kind == ElementKind::kDiode) {
+    if (circuit->elements[e].kind == ElementKind::kDiode) {
       solution->junction_voltage[e] = r.junction_voltage;
       solution->small_signal_res[e] = r.small_signal_res;
     }
-  }
+  });
 }
 
 Result<std::unique_ptr<BiasSolver>> BiasSolver::Create(const Circuit& circuit,
@@ -524,7 +534,14 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
   // Neither classification depends on the value of a voltage source, except through its
   // finiteness: a sweep of a supply skips both (a max-flow over the network per point).
-  const bool sources_only = AssignValues(circuit, &m.circuit);
+  // The first update has nothing to compare with and classifies again.
+  bool sources_only = false;
+  if (m.last_numbers) {
+    sources_only = AssignValues(circuit, &*m.last_numbers);
+  } else {
+    m.last_numbers = NumbersOf(circuit);
+  }
+  m.circuit = &circuit;
   if (!sources_only || m.non_monotone) m.Classify();
   if (m.mna.StructureMatches(circuit)) {
     m.mna.UpdateValues(circuit);
@@ -532,7 +549,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   }
   // The structure changed: the unknowns and the pattern are rebuilt (and warm starts of
   // the old size are ignored).
-  m.mna = MnaSystem(m.circuit);
+  m.mna = MnaSystem(circuit);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.potential = internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.Resize();
@@ -570,7 +587,7 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
       return s;
     }
     reset();
-    m.potential.set_stiff_conductance(internal::StiffJunctionConductance(m.circuit));
+    m.potential.set_stiff_conductance(internal::StiffJunctionConductance(*m.circuit));
     const NewtonOutcome run = m.potential.Run(m.x, m.trace_on ? &m.trace : nullptr);
     s.newton_steps += run.steps;
     if (run.exit == NewtonExit::kConverged || method == SolverMethod::kPotential) {

@@ -2,8 +2,11 @@
 #include "devices.h"
 
 #include <array>
+#include <bit>
 #include <cmath>
 #include <cstdint>
+#include <type_traits>
+#include <unordered_map>
 #include <utility>
 
 #include "check.h"
@@ -68,86 +71,171 @@ namespace {
 
 double At(std::span<const double> x, int u) { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
 
-// A conductance g between unknowns p and q: g w w^T over the incidence w of (p, q),
-// four entries in nodal coordinates, up to sixteen across an island's root.
-class ConductanceSlots {
+// The value slot of an entry's ticket (-1, an entry at gnd, stays -1).
+int SlotOf(int ticket, std::span<const int> slot_of) {
+  return ticket < 0 ? -1 : slot_of[static_cast<size_t>(ticket)];
+}
+
+// A conductance g between node unknowns a and b (-1 for gnd): g w w^T over the incidence
+// w of (a, b). In plain nodal coordinates w is {a: +1, b: -1}, and its four entries are
+// kept here; across an island's root w has up to four entries and sixteen, kept in a
+// block of their own. Most circuits have no islands, and in a million-device circuit
+// room for sixteen entries in every device was 200 MB.
+class Conductance {
  public:
-  void Declare(EntryCollector& c, int p, int q) {
-    w_ = c.islands().Between(p, q);
-    for (int i = 0; i < w_.count; ++i) {
-      for (int j = 0; j < w_.count; ++j) {
-        slots_[static_cast<size_t>(i * 4 + j)] =
-            c.Add(w_.index[static_cast<size_t>(i)], w_.index[static_cast<size_t>(j)]);
+  Conductance(int a, int b) : a_(a), b_(b) {}
+  // Between the node unknowns of a two-terminal element.
+  static Conductance Of(const Circuit& c, int element) {
+    const Element& e = c.elements[static_cast<size_t>(element)];
+    return Conductance(UnknownOfNode(e.node_a), UnknownOfNode(e.node_b));
+  }
+  // Whether a and b are the unknowns of e's nodes.
+  bool Joins(const Element& e) const {
+    return a_ == UnknownOfNode(e.node_a) && b_ == UnknownOfNode(e.node_b);
+  }
+  int a() const { return a_; }
+  int b() const { return b_; }
+
+  void Declare(EntryCollector& c) {
+    const Incidence w = c.islands().Between(a_, b_);
+    if (IsPlain(w)) {
+      island_.reset();
+      slots_ = {c.Add(a_, a_), c.Add(a_, b_), c.Add(b_, a_), c.Add(b_, b_)};
+      return;
+    }
+    island_ = std::make_unique<IslandEntries>();
+    island_->w = w;
+    for (int i = 0; i < w.count; ++i) {
+      for (int j = 0; j < w.count; ++j) {
+        island_->slots[static_cast<size_t>(i * 4 + j)] =
+            c.Add(w.index[static_cast<size_t>(i)], w.index[static_cast<size_t>(j)]);
       }
     }
   }
   void Bind(std::span<const int> slot_of) {
-    for (int& s : slots_) s = s < 0 ? -1 : slot_of[static_cast<size_t>(s)];
+    for (int& s : island_ ? std::span<int>(island_->slots) : std::span<int>(slots_)) {
+      s = SlotOf(s, slot_of);
+    }
   }
   void Stamp(StampContext& ctx, double g) const {
-    for (int i = 0; i < w_.count; ++i) {
-      for (int j = 0; j < w_.count; ++j) {
-        ctx.AddValue(slots_[static_cast<size_t>(i * 4 + j)],
-                     g * w_.coef[static_cast<size_t>(i)] * w_.coef[static_cast<size_t>(j)]);
+    if (island_) {
+      const Incidence& w = island_->w;
+      for (int i = 0; i < w.count; ++i) {
+        for (int j = 0; j < w.count; ++j) {
+          ctx.AddValue(island_->slots[static_cast<size_t>(i * 4 + j)],
+                       g * w.coef[static_cast<size_t>(i)] * w.coef[static_cast<size_t>(j)]);
+        }
       }
+      return;
+    }
+    ctx.AddValue(slots_[0], g);
+    ctx.AddValue(slots_[1], -g);
+    ctx.AddValue(slots_[2], -g);
+    ctx.AddValue(slots_[3], g);
+  }
+  // Current i from a to b; its rounding scale `terms` enters every row it touches.
+  void AddBranch(StampContext& ctx, double i, double terms) const {
+    if (island_) {
+      ctx.AddBranch(island_->w, i, terms, a_, b_);
+    } else {
+      ctx.AddPlainBranch(i, terms, a_, b_);
     }
   }
   // out += g w (w . v).
   void MultiplyAdd(double g, std::span<const double> v, std::span<double> out) const {
+    if (island_) {
+      const Incidence& w = island_->w;
+      double s = 0.0;
+      for (int k = 0; k < w.count; ++k) {
+        s += w.coef[static_cast<size_t>(k)] *
+             v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
+      }
+      for (int k = 0; k < w.count; ++k) {
+        out[static_cast<size_t>(w.index[static_cast<size_t>(k)])] +=
+            g * w.coef[static_cast<size_t>(k)] * s;
+      }
+      return;
+    }
+    // The island branch's arithmetic with w = {a: +1, b: -1}: the same bits.
     double s = 0.0;
-    for (int k = 0; k < w_.count; ++k) {
-      s += w_.coef[static_cast<size_t>(k)] *
-           v[static_cast<size_t>(w_.index[static_cast<size_t>(k)])];
-    }
-    for (int k = 0; k < w_.count; ++k) {
-      out[static_cast<size_t>(w_.index[static_cast<size_t>(k)])] +=
-          g * w_.coef[static_cast<size_t>(k)] * s;
-    }
+    if (a_ >= 0) s += v[static_cast<size_t>(a_)];
+    if (b_ >= 0) s += -v[static_cast<size_t>(b_)];
+    if (a_ >= 0) out[static_cast<size_t>(a_)] += g * s;
+    if (b_ >= 0) out[static_cast<size_t>(b_)] += -g * s;
   }
-  const Incidence& incidence() const { return w_; }
 
  private:
-  Incidence w_;
-  std::array<int, 16> slots_{-1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1};
+  struct IslandEntries {
+    Incidence w;
+    std::array<int, 16> slots{-1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1};
+  };
+  // w is {a: +1, b: -1} less gnd, the form the four inline entries stand for.
+  bool IsPlain(const Incidence& w) const {
+    Incidence plain;
+    for (const auto& [u, c] : {std::pair{a_, 1.0}, std::pair{b_, -1.0}}) {
+      if (u < 0) continue;
+      plain.index[static_cast<size_t>(plain.count)] = u;
+      plain.coef[static_cast<size_t>(plain.count)] = c;
+      ++plain.count;
+    }
+    if (a_ == b_ || w.count != plain.count) return false;
+    for (size_t k = 0; k < static_cast<size_t>(w.count); ++k) {
+      if (w.index[k] != plain.index[k] || w.coef[k] != plain.coef[k]) return false;
+    }
+    return true;
+  }
+
+  int a_ = -1, b_ = -1;
+  // (a, a), (a, b), (b, a), (b, b); -1 where a or b is gnd.
+  std::array<int, 4> slots_{-1, -1, -1, -1};
+  std::unique_ptr<IslandEntries> island_;
+};
+
+// What every device keeps: the element it stands for. Devices are plain objects in
+// DeviceStore's arrays, called by kind (no vtable pointer in each of a million devices).
+class Device {
+ public:
+  explicit Device(int element) : element_(element) {}
+  int element() const { return element_; }
+
+ private:
+  int element_;
 };
 
 class Resistor final : public Device {
  public:
-  Resistor(const Circuit& c, int element) : Device(element) {
-    const Element& e = c.elements[static_cast<size_t>(element)];
-    a_ = UnknownOfNode(e.node_a);
-    b_ = UnknownOfNode(e.node_b);
-    UpdateValues(c, {});
+  Resistor(const Circuit& c, int element) : Device(element), pair_(Conductance::Of(c, element)) {
+    UpdateValues(c);
   }
-  void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
-  void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
-  void UpdateValues(const Circuit& c, std::span<const char>) override {
+  void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
+  void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
+  void UpdateValues(const Circuit& c) {
     g_ = 1.0 / c.elements[static_cast<size_t>(element())].value;
   }
-  bool Stamp(StampContext& ctx) override {
-    const double i = g_ * (ctx.X(a_) - ctx.X(b_));
+  bool Stamp(StampContext& ctx) {
+    const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
+    const double i = g_ * (va - vb);
     if (!std::isfinite(i)) return false;
-    slots_.Stamp(ctx, g_);
-    ctx.AddBranch(slots_.incidence(), i, g_ * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))), a_,
-                  b_);
+    pair_.Stamp(ctx, g_);
+    pair_.AddBranch(ctx, i, g_ * (std::fabs(va) + std::fabs(vb)));
     // Co-content of a linear resistor: G v^2 / 2.
-    if (ctx.want_potential) ctx.AddPotential(0.5 * i * (ctx.X(a_) - ctx.X(b_)));
+    if (ctx.want_potential) ctx.AddPotential(0.5 * i * (va - vb));
     return true;
   }
-  DeviceReport Measure(std::span<const double> x) const override {
+  bool Joins(const Element& e) const { return pair_.Joins(e); }
+  DeviceReport Measure(std::span<const double> x) const {
     DeviceReport r;
-    r.voltage = At(x, a_) - At(x, b_);
+    r.voltage = At(x, pair_.a()) - At(x, pair_.b());
     r.current = g_ * r.voltage;
     return r;
   }
-  void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
-    slots_.MultiplyAdd(g_, v, out);
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
+    pair_.MultiplyAdd(g_, v, out);
   }
 
  private:
-  int a_ = -1, b_ = -1;
   double g_ = 0;
-  ConductanceSlots slots_;
+  Conductance pair_;
 };
 
 // v(p) - v(n) = V; the branch current k flows from p through the source to n.
@@ -157,11 +245,11 @@ class VoltageSource final : public Device {
     const Element& e = c.elements[static_cast<size_t>(element)];
     p_ = UnknownOfNode(e.node_a);
     n_ = UnknownOfNode(e.node_b);
-    UpdateValues(c, {});
+    UpdateValues(c);
   }
   // Column k holds the incidence of (p, n) (the branch current's KCL terms), row k its
   // transpose (v(p) - v(n) in the solver's coordinates).
-  void DeclareEntries(EntryCollector& c) override {
+  void DeclareEntries(EntryCollector& c) {
     w_ = c.islands().Between(p_, n_);
     for (int t = 0; t < w_.count; ++t) {
       const int u = w_.index[static_cast<size_t>(t)];
@@ -169,14 +257,12 @@ class VoltageSource final : public Device {
       row_slots_[static_cast<size_t>(t)] = c.Add(k_, u);
     }
   }
-  void BindSlots(std::span<const int> slot_of) override {
-    for (int& s : column_slots_) s = Bind(s, slot_of);
-    for (int& s : row_slots_) s = Bind(s, slot_of);
+  void BindSlots(std::span<const int> slot_of) {
+    for (int& s : column_slots_) s = SlotOf(s, slot_of);
+    for (int& s : row_slots_) s = SlotOf(s, slot_of);
   }
-  void UpdateValues(const Circuit& c, std::span<const char>) override {
-    v_ = c.elements[static_cast<size_t>(element())].value;
-  }
-  bool Stamp(StampContext& ctx) override {
+  void UpdateValues(const Circuit& c) { v_ = c.elements[static_cast<size_t>(element())].value; }
+  bool Stamp(StampContext& ctx) {
     const double i = ctx.X(k_);
     if (!std::isfinite(i)) return false;
     for (int t = 0; t < w_.count; ++t) {
@@ -189,13 +275,16 @@ class VoltageSource final : public Device {
         k_, std::fabs(ctx.X(p_)) + std::fabs(ctx.X(n_)) + std::fabs(ctx.source_scale * v_));
     return true;
   }
-  DeviceReport Measure(std::span<const double> x) const override {
+  bool Joins(const Element& e) const {
+    return p_ == UnknownOfNode(e.node_a) && n_ == UnknownOfNode(e.node_b);
+  }
+  DeviceReport Measure(std::span<const double> x) const {
     DeviceReport r;
     r.voltage = At(x, p_) - At(x, n_);
     r.current = At(x, k_);
     return r;
   }
-  void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
     const double i = At(v, k_);
     double across = 0.0;
     for (int t = 0; t < w_.count; ++t) {
@@ -221,14 +310,12 @@ class CurrentSource final : public Device {
     const Element& e = c.elements[static_cast<size_t>(element)];
     a_ = UnknownOfNode(e.node_a);
     b_ = UnknownOfNode(e.node_b);
-    UpdateValues(c, {});
+    UpdateValues(c);
   }
-  void DeclareEntries(EntryCollector& c) override { w_ = c.islands().Between(a_, b_); }
-  void BindSlots(std::span<const int>) override {}
-  void UpdateValues(const Circuit& c, std::span<const char>) override {
-    i_ = c.elements[static_cast<size_t>(element())].value;
-  }
-  bool Stamp(StampContext& ctx) override {
+  void DeclareEntries(EntryCollector& c) { w_ = c.islands().Between(a_, b_); }
+  void BindSlots(std::span<const int>) {}
+  void UpdateValues(const Circuit& c) { i_ = c.elements[static_cast<size_t>(element())].value; }
+  bool Stamp(StampContext& ctx) {
     const double i = ctx.source_scale * i_;
     ctx.AddBranch(w_, i, 0.0, a_, b_);
     // A current source's term of the potential is linear: its gradient is the current
@@ -236,18 +323,90 @@ class CurrentSource final : public Device {
     if (ctx.want_potential) ctx.AddPotential(i * (ctx.X(a_) - ctx.X(b_)));
     return true;
   }
-  DeviceReport Measure(std::span<const double> x) const override {
+  bool Joins(const Element& e) const {
+    return a_ == UnknownOfNode(e.node_a) && b_ == UnknownOfNode(e.node_b);
+  }
+  DeviceReport Measure(std::span<const double> x) const {
     DeviceReport r;
     r.voltage = At(x, a_) - At(x, b_);
     r.current = i_;
     return r;
   }
-  void MultiplyAdd(std::span<const double>, std::span<double>) const override {}
+  void MultiplyAdd(std::span<const double>, std::span<double>) const {}
 
  private:
   int a_ = -1, b_ = -1;
   double i_ = 0;
   Incidence w_;
+};
+
+// The constants of a diode's junction law at its area and temperature, and what derives
+// from them alone. Diodes of the same part, area and temperature share one (a million
+// diodes of one part share a single basis instead of 100 bytes each).
+struct DiodeBasis {
+  DiodeConstants d;
+  JunctionLimits limits;
+  double resolution_scale = 0.0;  // V: the smaller thermal scale of the junction law
+  // The inputs it was computed from (with the part's model).
+  int part = -1;
+  double area = 0.0;
+  double temp = 0.0;  // degC
+
+  // Conductance of the junction (g) in series with rs.
+  double TwoTerminal(double g) const { return d.rs > 0.0 ? g / (1.0 + d.rs * g) : g; }
+};
+
+// The distinct diode bases of a circuit, found by (part, area, temperature).
+class DiodeBases {
+ public:
+  const DiodeBasis& operator[](int k) const { return bases_[static_cast<size_t>(k)]; }
+  // Whether basis k still holds for element e (same part, area and temperature, and
+  // the part's model unchanged).
+  bool Holds(int k, const Circuit& c, const Element& e, std::span<const char> part_changed) const {
+    const DiodeBasis& b = (*this)[k];
+    return b.part == e.part && part_changed[static_cast<size_t>(e.part)] == 0 && b.area == e.area &&
+           b.temp == c.DeviceTemp(e);
+  }
+  // The index of element e's basis, computed on first use.
+  int Find(const Circuit& c, const Element& e) {
+    KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
+    const double temp = c.DeviceTemp(e);
+    const Key key{e.part, std::bit_cast<std::uint64_t>(e.area), std::bit_cast<std::uint64_t>(temp)};
+    const auto [it, added] = index_.try_emplace(key, static_cast<int>(bases_.size()));
+    if (added) bases_.push_back(Compute(c.parts[static_cast<size_t>(e.part)].model, e, temp));
+    return it->second;
+  }
+  void Clear() {
+    bases_.clear();
+    index_.clear();
+  }
+
+ private:
+  struct Key {
+    int part;
+    std::uint64_t area;  // the doubles' bits: equal bits give equal constants
+    std::uint64_t temp;
+    bool operator==(const Key&) const = default;
+  };
+  struct KeyHash {
+    size_t operator()(const Key& k) const {
+      return std::hash<std::uint64_t>()(k.area ^ (k.temp * 0x9e3779b97f4a7c15ULL) ^
+                                        static_cast<std::uint64_t>(k.part));
+    }
+  };
+  static DiodeBasis Compute(const DiodeModel& model, const Element& e, double temp) {
+    DiodeBasis b;
+    b.d = ComputeDiodeConstants(model, e.area, temp);
+    b.limits = ComputeJunctionLimits(b.d);
+    b.resolution_scale = b.d.has_breakdown ? std::min(b.d.n_vt, b.d.nbr_vt) : b.d.n_vt;
+    b.part = e.part;
+    b.area = e.area;
+    b.temp = temp;
+    return b;
+  }
+
+  std::vector<DiodeBasis> bases_;
+  std::unordered_map<Key, int, KeyHash> index_;
 };
 
 // Anode a, cathode b. The series resistance is part of the device: the junction voltage
@@ -259,112 +418,83 @@ class CurrentSource final : public Device {
 // it. The two-terminal form keeps every node's equation in its own current scale.
 class Diode final : public Device {
  public:
-  Diode(const Circuit& c, int element) : Device(element) {
-    const Element& e = c.elements[static_cast<size_t>(element)];
-    a_ = UnknownOfNode(e.node_a);
-    b_ = UnknownOfNode(e.node_b);
-    KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
-    UpdateValues(c, {});
-  }
-  void DeclareEntries(EntryCollector& c) override { slots_.Declare(c, a_, b_); }
-  void BindSlots(std::span<const int> slot_of) override { slots_.Bind(slot_of); }
-  void UpdateValues(const Circuit& c, std::span<const char> part_changed) override {
-    const Element& e = c.elements[static_cast<size_t>(element())];
-    const DiodeModel& model = c.parts[static_cast<size_t>(e.part)].model;
-    // A sweep point usually changes a source, not this diode: the temperature laws (a
-    // log and an exp per diode) are recomputed only when their inputs changed. The
-    // part's model is compared once per part by the caller, not kept per diode.
-    const double temp = c.DeviceTemp(e);
-    if (have_inputs_ && part_changed[static_cast<size_t>(e.part)] == 0 && e.area == area_ &&
-        temp == temp_) {
-      return;
-    }
-    area_ = e.area;
-    temp_ = temp;
-    have_inputs_ = true;
-    d_ = ComputeDiodeConstants(model, e.area, temp);
-    limits_ = ComputeJunctionLimits(d_);
-    resolution_scale_ = d_.has_breakdown ? std::min(d_.n_vt, d_.nbr_vt) : d_.n_vt;
-  }
-  void BeginRun(std::span<const double> x) override {
-    last_vj_ = JunctionVoltageAt(d_, At(x, a_) - At(x, b_), 0.0);
+  Diode(const Circuit& c, int element, int basis)
+      : Device(element), pair_(Conductance::Of(c, element)), basis_(basis) {}
+  int basis() const { return basis_; }
+  void set_basis(int basis) { basis_ = basis; }
+  bool Joins(const Element& e) const { return pair_.Joins(e); }
+  void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
+  void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
+  void BeginRun(std::span<const double> x, const DiodeBasis& basis) {
+    last_vj_ = JunctionVoltageAt(basis.d, At(x, pair_.a()) - At(x, pair_.b()), 0.0);
     limited_ = false;
   }
-  bool Stamp(StampContext& ctx) override {
-    const double v = ctx.X(a_) - ctx.X(b_);
+  bool Stamp(StampContext& ctx, const DiodeBasis& basis) {
+    const DiodeConstants& d = basis.d;
+    const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
+    const double v = va - vb;
     JunctionPoint p;
-    const double vj = JunctionVoltageAt(d_, v, last_vj_, &p);
+    const double vj = JunctionVoltageAt(d, v, last_vj_, &p);
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
     // such a point is never accepted as a solution (newton.cc, bias.cc Verify).
     if (ctx.unresolved_element < 0 &&
-        kJunctionRounding * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) >
-            1e-3 * resolution_scale_) {
+        kJunctionRounding * (std::fabs(va) + std::fabs(vb)) > 1e-3 * basis.resolution_scale) {
       ctx.unresolved_element = element();
     }
     double at = vj;
-    if (ctx.limit_junctions) at = LimitJunctionStep(d_, limits_, last_vj_, vj);
+    if (ctx.limit_junctions) at = LimitJunctionStep(d, basis.limits, last_vj_, vj);
     limited_ = at != vj;
     ctx.limited = ctx.limited || limited_;
     last_vj_ = at;
     // Linearisation at the (possibly limited) junction point `at`, whose terminal voltage
     // is at + rs*I(at), evaluated at v: the exact current when no limiting happened.
-    if (limited_) p = EvaluateJunction(d_, at);
+    if (limited_) p = EvaluateJunction(d, at);
     double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
-    if (ctx.junction_floor) g = std::max(g, d_.is / d_.n_vt);
-    const double g_exact = TwoTerminal(p.conductance);
-    const double i = limited_ ? p.current + g_exact * (v - (at + d_.rs * p.current)) : p.current;
+    if (ctx.junction_floor) g = std::max(g, d.is / d.n_vt);
+    const double g_exact = basis.TwoTerminal(p.conductance);
+    const double i = limited_ ? p.current + g_exact * (v - (at + d.rs * p.current)) : p.current;
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
-    ctx.max_exponent = std::max(ctx.max_exponent, vj / d_.n_vt);
-    if (d_.has_breakdown) {
-      ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d_.vbr) / d_.nbr_vt);
+    ctx.max_exponent = std::max(ctx.max_exponent, vj / d.n_vt);
+    if (d.has_breakdown) {
+      ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d.vbr) / d.nbr_vt);
     }
-    stamped_g_ = TwoTerminal(g);
-    slots_.Stamp(ctx, stamped_g_);
+    stamped_g_ = basis.TwoTerminal(g);
+    pair_.Stamp(ctx, stamped_g_);
     // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|); the law's own
     // terms round at their sizes: the forward term at most |I| + Is, the breakdown term
     // ibr*e^y = g_breakdown * nbr*Vt <= g * nbr*Vt (not ibr itself: far from breakdown
     // that term is 1e-300 A, and ibr would swamp the leakage that holds a faint node).
-    const double breakdown_scale = d_.has_breakdown ? p.conductance * d_.nbr_vt : 0.0;
-    ctx.AddBranch(slots_.incidence(), i,
-                  g_exact * (std::fabs(ctx.X(a_)) + std::fabs(ctx.X(b_))) + d_.is + breakdown_scale,
-                  a_, b_);
+    const double breakdown_scale = d.has_breakdown ? p.conductance * d.nbr_vt : 0.0;
+    pair_.AddBranch(ctx, i, g_exact * (std::fabs(va) + std::fabs(vb)) + d.is + breakdown_scale);
     // Co-content of junction and series resistance at v: with v = vj + rs*I(vj),
     // the integral of I dv is the junction's integral of I dvj plus rs*I^2/2.
     if (ctx.want_potential) {
-      ctx.AddPotential(JunctionCoContent(d_, vj) + 0.5 * d_.rs * p.current * p.current);
+      ctx.AddPotential(JunctionCoContent(d, vj) + 0.5 * d.rs * p.current * p.current);
     }
     return true;
   }
-  DeviceReport Measure(std::span<const double> x) const override {
+  DeviceReport Measure(std::span<const double> x, const DiodeBasis& basis) const {
     DeviceReport r;
-    r.voltage = At(x, a_) - At(x, b_);
-    r.junction_voltage = JunctionVoltageAt(d_, r.voltage, last_vj_);
-    const JunctionPoint p = EvaluateJunction(d_, r.junction_voltage);
+    r.voltage = At(x, pair_.a()) - At(x, pair_.b());
+    r.junction_voltage = JunctionVoltageAt(basis.d, r.voltage, last_vj_);
+    const JunctionPoint p = EvaluateJunction(basis.d, r.junction_voltage);
     r.current = p.current;
-    r.small_signal_res = 1.0 / p.conductance + d_.rs;
+    r.small_signal_res = 1.0 / p.conductance + basis.d.rs;
     return r;
   }
-  void MultiplyAdd(std::span<const double> v, std::span<double> out) const override {
-    slots_.MultiplyAdd(stamped_g_, v, out);
+  void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
+    pair_.MultiplyAdd(stamped_g_, v, out);
   }
-  bool limited() const override { return limited_; }
+  bool limited() const { return limited_; }
 
  private:
-  // Conductance of the junction (g) in series with rs.
-  double TwoTerminal(double g) const { return d_.rs > 0.0 ? g / (1.0 + d_.rs * g) : g; }
-
-  int a_ = -1, b_ = -1;
-  double resolution_scale_ = 0.0;  // V: the smaller thermal scale of the junction law
-  DiodeConstants d_;
-  JunctionLimits limits_;
-  double area_ = 0, temp_ = 0;  // inputs d_ was computed from (with the part's model)
-  bool have_inputs_ = false;
+  Conductance pair_;
+  int basis_;  // index into DiodeBases
+  bool limited_ = false;
   double last_vj_ = 0;
   double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
-  bool limited_ = false;
-  ConductanceSlots slots_;
 };
 
 // Above the critical voltage the exponential's slope grows so fast that the linearised
@@ -446,16 +576,42 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
   return proposed;
 }
 
-// Kind tags of DeviceStore's order (the index of the array a device is in).
-enum : std::uint8_t { kResistorTag, kVoltageSourceTag, kCurrentSourceTag, kDiodeTag };
-
 struct DeviceStore::Arrays {
   std::vector<Resistor> resistors;
   std::vector<VoltageSource> vsources;
   std::vector<CurrentSource> isources;
   std::vector<Diode> diodes;
-  std::vector<std::pair<std::uint8_t, int>> order;  // (tag, index in its array) per device
+  DiodeBases diode_bases;
+  // The kind of every device, in element order; each array holds its kind's devices in
+  // that order, so a walk keeps one position per array.
+  std::vector<ElementKind> order;
+
+  // fn(device) for every device of `a` (an Arrays, const or not) in element order.
+  template <typename Self, typename Fn>
+  static void ForEach(Self& a, Fn&& fn) {
+    size_t r = 0, v = 0, i = 0, d = 0;
+    for (const ElementKind kind : a.order) {
+      switch (kind) {
+        case ElementKind::kResistor:
+          fn(a.resistors[r++]);
+          break;
+        case ElementKind::kVoltageSource:
+          fn(a.vsources[v++]);
+          break;
+        case ElementKind::kCurrentSource:
+          fn(a.isources[i++]);
+          break;
+        case ElementKind::kDiode:
+          fn(a.diodes[d++]);
+          break;
+      }
+    }
+  }
 };
+
+// A diode's calls take its basis; the other devices' do not.
+template <typename T>
+constexpr bool kIsDiode = std::is_same_v<std::remove_cvref_t<T>, Diode>;
 
 DeviceStore::DeviceStore() : arrays_(std::make_unique<Arrays>()) {}
 DeviceStore::~DeviceStore() = default;
@@ -469,71 +625,71 @@ void DeviceStore::Reserve(const std::array<size_t, 4>& counts) {
   a.isources.reserve(counts[static_cast<size_t>(ElementKind::kCurrentSource)]);
   a.diodes.reserve(counts[static_cast<size_t>(ElementKind::kDiode)]);
   a.order.reserve(counts[0] + counts[1] + counts[2] + counts[3]);
-  all_.reserve(counts[0] + counts[1] + counts[2] + counts[3]);
 }
-
-// A device is added to its array and to the order. The pointers of all() are taken
-// after each addition; an array that had to grow beyond its reservation moves its
-// devices, so the pointers are then renewed.
-namespace {
-template <typename T>
-void Append(std::vector<T>& array, T device, std::uint8_t tag,
-            std::vector<std::pair<std::uint8_t, int>>& order, std::vector<Device*>& all) {
-  const T* before = array.data();
-  array.push_back(std::move(device));
-  order.emplace_back(tag, static_cast<int>(array.size()) - 1);
-  all.push_back(&array.back());
-  if (array.data() != before) {
-    size_t k = 0;
-    for (size_t i = 0; i < order.size(); ++i) {
-      if (order[i].first == tag) all[i] = &array[k++];
-    }
-  }
-}
-}  // namespace
 
 void DeviceStore::AddResistor(const Circuit& circuit, int element) {
-  Append(arrays_->resistors, Resistor(circuit, element), kResistorTag, arrays_->order, all_);
+  arrays_->resistors.emplace_back(circuit, element);
+  arrays_->order.push_back(ElementKind::kResistor);
 }
 void DeviceStore::AddVoltageSource(const Circuit& circuit, int element, int branch) {
-  Append(arrays_->vsources, VoltageSource(circuit, element, branch), kVoltageSourceTag,
-         arrays_->order, all_);
+  arrays_->vsources.emplace_back(circuit, element, branch);
+  arrays_->order.push_back(ElementKind::kVoltageSource);
 }
 void DeviceStore::AddCurrentSource(const Circuit& circuit, int element) {
-  Append(arrays_->isources, CurrentSource(circuit, element), kCurrentSourceTag, arrays_->order,
-         all_);
+  arrays_->isources.emplace_back(circuit, element);
+  arrays_->order.push_back(ElementKind::kCurrentSource);
 }
 void DeviceStore::AddDiode(const Circuit& circuit, int element) {
-  Append(arrays_->diodes, Diode(circuit, element), kDiodeTag, arrays_->order, all_);
+  const int basis =
+      arrays_->diode_bases.Find(circuit, circuit.elements[static_cast<size_t>(element)]);
+  arrays_->diodes.emplace_back(circuit, element, basis);
+  arrays_->order.push_back(ElementKind::kDiode);
+}
+
+void DeviceStore::DeclareEntries(EntryCollector& collector) {
+  Arrays::ForEach(*arrays_, [&](auto& device) { device.DeclareEntries(collector); });
+}
+
+void DeviceStore::BindSlots(std::span<const int> slot_of) {
+  Arrays::ForEach(*arrays_, [&](auto& device) { device.BindSlots(slot_of); });
+}
+
+void DeviceStore::UpdateValues(const Circuit& circuit, std::span<const char> part_changed) {
+  Arrays& a = *arrays_;
+  for (Resistor& r : a.resistors) r.UpdateValues(circuit);
+  for (VoltageSource& v : a.vsources) v.UpdateValues(circuit);
+  for (CurrentSource& i : a.isources) i.UpdateValues(circuit);
+  // A sweep point usually changes a source, not a diode: the temperature laws (a log
+  // and an exp per basis) are recomputed only when some diode's inputs changed, and
+  // then the bases are found afresh (a basis that no diode uses any more is dropped).
+  const auto holds = [&](const Diode& d) {
+    return a.diode_bases.Holds(d.basis(), circuit,
+                               circuit.elements[static_cast<size_t>(d.element())], part_changed);
+  };
+  if (std::all_of(a.diodes.begin(), a.diodes.end(), holds)) return;
+  a.diode_bases.Clear();
+  for (Diode& d : a.diodes) {
+    d.set_basis(a.diode_bases.Find(circuit, circuit.elements[static_cast<size_t>(d.element())]));
+  }
+}
+
+void DeviceStore::BeginRun(std::span<const double> x) {
+  Arrays& a = *arrays_;
+  for (Diode& d : a.diodes) d.BeginRun(x, a.diode_bases[d.basis()]);
 }
 
 int DeviceStore::Stamp(StampContext& ctx) {
   Arrays& a = *arrays_;
   int bad = -1;
-  for (const auto& [tag, i] : a.order) {
-    const auto k = static_cast<size_t>(i);
+  Arrays::ForEach(a, [&](auto& device) {
     bool ok = true;
-    int element = -1;
-    switch (tag) {
-      case kResistorTag:
-        ok = a.resistors[k].Stamp(ctx);
-        element = a.resistors[k].element();
-        break;
-      case kVoltageSourceTag:
-        ok = a.vsources[k].Stamp(ctx);
-        element = a.vsources[k].element();
-        break;
-      case kCurrentSourceTag:
-        ok = a.isources[k].Stamp(ctx);
-        element = a.isources[k].element();
-        break;
-      default:
-        ok = a.diodes[k].Stamp(ctx);
-        element = a.diodes[k].element();
-        break;
+    if constexpr (kIsDiode<decltype(device)>) {
+      ok = device.Stamp(ctx, a.diode_bases[device.basis()]);
+    } else {
+      ok = device.Stamp(ctx);
     }
-    if (!ok && bad < 0) bad = element;
-  }
+    if (!ok && bad < 0) bad = device.element();
+  });
   return bad;
 }
 
@@ -544,17 +700,37 @@ void DeviceStore::MultiplyAdd(std::span<const double> v, std::span<double> out) 
   for (const Diode& d : a.diodes) d.MultiplyAdd(v, out);
 }
 
-std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element) {
-  return std::make_unique<Resistor>(circuit, element);
+void DeviceStore::Measure(std::span<const double> x,
+                          const std::function<void(int, const DeviceReport&)>& fn) const {
+  const Arrays& a = *arrays_;
+  Arrays::ForEach(a, [&](const auto& device) {
+    if constexpr (kIsDiode<decltype(device)>) {
+      fn(device.element(), device.Measure(x, a.diode_bases[device.basis()]));
+    } else {
+      fn(device.element(), device.Measure(x));
+    }
+  });
 }
-std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, int branch) {
-  return std::make_unique<VoltageSource>(circuit, element, branch);
+
+bool DeviceStore::Matches(const Circuit& circuit) const {
+  const Arrays& a = *arrays_;
+  if (a.order.size() != circuit.elements.size()) return false;
+  bool same = true;
+  size_t k = 0;
+  Arrays::ForEach(a, [&](const auto& device) {
+    const Element& e = circuit.elements[k];
+    same = same && e.kind == a.order[k] && device.Joins(e);
+    ++k;
+  });
+  return same;
 }
-std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element) {
-  return std::make_unique<CurrentSource>(circuit, element);
-}
-std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element) {
-  return std::make_unique<Diode>(circuit, element);
+
+std::vector<int> DeviceStore::LimitedElements() const {
+  std::vector<int> elements;
+  for (const Diode& d : arrays_->diodes) {
+    if (d.limited()) elements.push_back(d.element());
+  }
+  return elements;
 }
 
 }  // namespace knee::internal

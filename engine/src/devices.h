@@ -6,6 +6,7 @@
 
 #include <algorithm>
 #include <array>
+#include <functional>
 #include <memory>
 #include <span>
 #include <utility>
@@ -135,18 +136,31 @@ struct StampContext {
   // node_magnitude keep each node's own KCL sum, largest current and terms, which an
   // island root's row (the island's sum) does not show.
   void AddBranch(const Incidence& w, double i, double terms, int a, int b) {
+    AddOwnSums(i, terms, a, b);
+    for (int k = 0; k < w.count; ++k) {
+      AddCurrent(w.index[static_cast<size_t>(k)], w.coef[static_cast<size_t>(k)] * i);
+      AddMagnitude(w.index[static_cast<size_t>(k)], terms);
+    }
+  }
+  // AddBranch for the incidence {a: +1, b: -1} of plain nodal coordinates (a != b; gnd,
+  // -1, is skipped by AddCurrent and AddMagnitude): the same sums in the same order.
+  void AddPlainBranch(double i, double terms, int a, int b) {
+    AddOwnSums(i, terms, a, b);
+    AddCurrent(a, i);
+    AddMagnitude(a, terms);
+    AddCurrent(b, -1.0 * i);
+    AddMagnitude(b, terms);
+  }
+  // The node_ sums of AddBranch (kept only in circuits with islands).
+  void AddOwnSums(double i, double terms, int a, int b) {
+    if (node_kcl.empty()) return;  // no islands: nobody reads them
     const double magnitude_i = i < 0.0 ? -i : i;
     for (int n : {a, b}) {
-      if (node_kcl.empty()) break;  // no islands: nobody reads them
       if (n < 0) continue;
       const auto k = static_cast<size_t>(n);
       node_kcl[k] += n == a ? i : -i;
       node_flow[k] = std::max(node_flow[k], magnitude_i);
       node_magnitude[k] += magnitude_i + terms;
-    }
-    for (int k = 0; k < w.count; ++k) {
-      AddCurrent(w.index[static_cast<size_t>(k)], w.coef[static_cast<size_t>(k)] * i);
-      AddMagnitude(w.index[static_cast<size_t>(k)], terms);
     }
   }
   // Adds m to the round-off scale of row `row`.
@@ -163,51 +177,12 @@ struct DeviceReport {
   double small_signal_res = 0;  // diodes only
 };
 
-class Device {
- public:
-  explicit Device(int element) : element_(element) {}
-  virtual ~Device() = default;
-  int element() const { return element_; }
-
-  // Setup: declare entries; then receive slot_of[ticket] for every ticket handed out.
-  virtual void DeclareEntries(EntryCollector& collector) = 0;
-  virtual void BindSlots(std::span<const int> slot_of) = 0;
-  // New values (same topology). part_changed[p] != 0 when part p's model differs from
-  // the one of the last call (devices whose inputs did not change may skip work).
-  virtual void UpdateValues(const Circuit& circuit, std::span<const char> part_changed) = 0;
-  // Start of a Newton run from x: nonlinear devices forget their previous evaluation point.
-  virtual void BeginRun(std::span<const double> /*x*/) {}
-  // Adds this device's contribution at ctx.x; false on a non-finite value.
-  virtual bool Stamp(StampContext& ctx) = 0;
-  virtual DeviceReport Measure(std::span<const double> x) const = 0;
-  // out += J_d v: this device's part of the Jacobian of the last Stamp times v, computed
-  // from its own conductances (no sums of other devices' entries: see
-  // MnaSystem::MultiplyJacobian).
-  virtual void MultiplyAdd(std::span<const double> v, std::span<double> out) const = 0;
-  // Whether the last Stamp limited this device's evaluation point.
-  virtual bool limited() const { return false; }
-
- protected:
-  static int Bind(int ticket, std::span<const int> slot_of) {
-    return ticket < 0 ? -1 : slot_of[static_cast<size_t>(ticket)];
-  }
-
- private:
-  int element_;
-};
-
 // Unknown index of circuit node `node` (gnd -> -1).
 inline int UnknownOfNode(int node) { return node - 1; }
 
-std::unique_ptr<Device> MakeResistor(const Circuit& circuit, int element);
-// `branch` is the unknown index of the source current.
-std::unique_ptr<Device> MakeVoltageSource(const Circuit& circuit, int element, int branch);
-std::unique_ptr<Device> MakeCurrentSource(const Circuit& circuit, int element);
-std::unique_ptr<Device> MakeDiode(const Circuit& circuit, int element);
-
 // Every device of a circuit, kept by kind in flat arrays (one allocation per kind rather
-// than one per device) and stamped in element order by direct, non-virtual calls. The
-// Newton loop's assembly pass is a walk over these arrays.
+// than one per device, no pointer or virtual call per device) and walked in element
+// order. The Newton loop's assembly pass is a walk over these arrays.
 class DeviceStore {
  public:
   DeviceStore();
@@ -217,22 +192,40 @@ class DeviceStore {
 
   // counts[k]: how many elements of ElementKind k will be added (reserves the arrays).
   void Reserve(const std::array<size_t, 4>& counts);
+  // Devices are added in element order.
   void AddResistor(const Circuit& circuit, int element);
+  // `branch` is the unknown index of the source current.
   void AddVoltageSource(const Circuit& circuit, int element, int branch);
   void AddCurrentSource(const Circuit& circuit, int element);
   void AddDiode(const Circuit& circuit, int element);
-  // Every device in the order added; valid once all devices are added.
-  const std::vector<Device*>& all() const { return all_; }
+
+  // Setup: every device declares its entries; then each receives slot_of[ticket] for
+  // every ticket it was handed.
+  void DeclareEntries(EntryCollector& collector);
+  void BindSlots(std::span<const int> slot_of);
+  // New values (same topology). part_changed[p] != 0 when part p's model differs from
+  // the one of the last call (devices whose inputs did not change skip work).
+  void UpdateValues(const Circuit& circuit, std::span<const char> part_changed);
+  // Start of a Newton run from x: the diodes forget their previous evaluation points.
+  void BeginRun(std::span<const double> x);
   // Stamps every device; returns the element of the first one with a non-finite value,
   // or -1.
   int Stamp(StampContext& ctx);
-  // out += J v over every device (out is not cleared).
+  // out += J v over every device (out is not cleared): each device's part of the
+  // Jacobian of the last Stamp times v, from its own conductances (no sums of other
+  // devices' entries: see MnaSystem::MultiplyJacobian).
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const;
+  // fn(element, its report at x) for every device, in element order.
+  void Measure(std::span<const double> x,
+               const std::function<void(int, const DeviceReport&)>& fn) const;
+  // Whether `circuit` has these devices' kinds and nodes, element by element.
+  bool Matches(const Circuit& circuit) const;
+  // The elements whose last Stamp limited their evaluation point, in element order.
+  std::vector<int> LimitedElements() const;
 
  private:
   struct Arrays;
   std::unique_ptr<Arrays> arrays_;
-  std::vector<Device*> all_;
 };
 
 // The junction-voltage limit for one Newton step: returns the voltage at which to

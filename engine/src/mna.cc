@@ -4,7 +4,6 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
-#include <tuple>
 
 #include "check.h"
 
@@ -84,6 +83,8 @@ IslandMap FindIslands(const Circuit& c) {
     root_of[n - 1] = UnknownOfNode(root);
     ++members;
   }
+  // Without islands the map holds nothing (root_of is -1 for every node anyway).
+  if (members == 0) return IslandMap();
   IslandMap map(std::move(root_of));
   map.set_members(members);
   return map;
@@ -94,8 +95,6 @@ IslandMap FindIslands(const Circuit& c) {
 MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) {
   node_count_ = c.nodes.size();
   int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
-  shape_.reserve(c.elements.size());
-  for (const Element& e : c.elements) shape_.emplace_back(e.kind, e.node_a, e.node_b);
   kcl_rows_ = next;
   part_models_.reserve(c.parts.size());
   for (const Part& part : c.parts) part_models_.push_back(part.model);
@@ -126,7 +125,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
 
   // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
   EntryCollector collector(&islands_);
-  for (Device* device : devices_.all()) device->DeclareEntries(collector);
+  devices_.DeclareEntries(collector);
   std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
   for (int r = 0; r < kcl_rows_; ++r) diagonal_ticket[static_cast<size_t>(r)] = collector.Add(r, r);
   // An island member's shunt to gnd couples its row and column to the root's.
@@ -170,7 +169,7 @@ MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) 
     col_ptr_[static_cast<size_t>(col) + 1] = static_cast<int>(row_index_.size());
   }
   row_index_.shrink_to_fit();
-  for (Device* device : devices_.all()) device->BindSlots(slot_of);
+  devices_.BindSlots(slot_of);
   diagonal_slot_.reserve(diagonal_ticket.size());
   for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
   for (size_t k = 0; k < member_shunts_.size(); ++k) {
@@ -325,29 +324,22 @@ AssemblyOutcome MnaSystem::AssembleExact(std::span<const double> x) {
   return Assemble(x, AssemblyAids{});
 }
 
-void MnaSystem::BeginRun(std::span<const double> x) {
-  for (Device* device : devices_.all()) device->BeginRun(x);
-}
+void MnaSystem::BeginRun(std::span<const double> x) { devices_.BeginRun(x); }
 
 bool MnaSystem::StructureMatches(const Circuit& c) const {
-  if (c.nodes.size() != node_count_ || c.elements.size() != shape_.size() ||
-      c.parts.size() != part_models_.size()) {
-    return false;
-  }
-  for (size_t e = 0; e < c.elements.size(); ++e) {
-    const Element& el = c.elements[e];
-    if (std::make_tuple(el.kind, el.node_a, el.node_b) != shape_[e]) return false;
-  }
-  return true;
+  // The devices hold each element's kind and nodes (no copy of them here).
+  return c.nodes.size() == node_count_ && c.parts.size() == part_models_.size() &&
+         devices_.Matches(c);
 }
 
 void MnaSystem::UpdateValues(const Circuit& c) {
   KNEE_CHECK(StructureMatches(c) && c.parts.size() == part_models_.size());
+  circuit_ = &c;
   for (size_t p = 0; p < c.parts.size(); ++p) {
     part_changed_[p] = SameModel(c.parts[p].model, part_models_[p]) ? 0 : 1;
     if (part_changed_[p] != 0) part_models_[p] = c.parts[p].model;
   }
-  for (Device* device : devices_.all()) device->UpdateValues(c, part_changed_);
+  devices_.UpdateValues(c, part_changed_);
   exact_valid_ = false;
 }
 

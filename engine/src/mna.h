@@ -9,7 +9,6 @@
 #include <memory>
 #include <span>
 #include <string>
-#include <tuple>
 #include <vector>
 
 #include "devices.h"
@@ -80,6 +79,9 @@ class MnaSystem {
   // J d = -F gives d in them; this maps it to node voltages in place.
   void ToNodeSpace(std::span<double> d) const { islands_.ToNodeSpace(d); }
   const IslandMap& islands() const { return islands_; }
+  // Whether some island root's row holds its island's sum (else every KCL row is its
+  // node's own KCL).
+  bool has_islands() const { return !roots_.empty(); }
   // Every node's own KCL residual of the last assembly (the rows of island roots hold
   // their island's sum), its round-off allowance and a bound of its largest current;
   // KCL rows only.
@@ -114,9 +116,10 @@ class MnaSystem {
 
   // True when `circuit` has the same unknowns and pattern as the one built from.
   bool StructureMatches(const Circuit& circuit) const;
+  // Names are read from `circuit` from now on: it must outlive the system too.
   void UpdateValues(const Circuit& circuit);
 
-  const std::vector<Device*>& devices() const { return devices_.all(); }
+  const DeviceStore& devices() const { return devices_; }
   const std::string& ElementName(int e) const {
     return circuit_->elements[static_cast<size_t>(e)].name;
   }
@@ -125,7 +128,6 @@ class MnaSystem {
   const Circuit* circuit_ = nullptr;
   size_t node_count_ = 0;
   int size_ = 0;
-  std::vector<std::tuple<ElementKind, int, int>> shape_;  // per element, for StructureMatches
   int kcl_rows_ = 0;
   std::vector<int> element_of_extra_;    // element of each unknown after the circuit nodes
   std::vector<DiodeModel> part_models_;  // the models of the last build or update

@@ -365,11 +365,8 @@ std::vector<std::string> UnsettledUnknowns(const MnaSystem& mna, const SolverOpt
 
 std::vector<std::string> NewtonSolver::Unsettled(std::span<const double> x) const {
   std::vector<std::string> names = UnsettledUnknowns(*mna_, options_, dx_, x);
-  for (const auto& device : mna_->devices()) {
-    if (device->limited()) {
-      names.push_back(
-          fmt::format("{} (junction step limited)", mna_->ElementName(device->element())));
-    }
+  for (int e : mna_->devices().LimitedElements()) {
+    names.push_back(fmt::format("{} (junction step limited)", mna_->ElementName(e)));
   }
   return names;
 }

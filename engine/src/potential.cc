@@ -333,14 +333,18 @@ double StiffJunctionConductance(const Circuit& c) {
 
 PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
                                  int size)
-    : mna_(mna),
-      klu_(klu),
-      options_(options),
-      dx_(static_cast<size_t>(size), 0.0),
-      step_(static_cast<size_t>(size), 0.0),
-      base_(static_cast<size_t>(size), 0.0),
-      noise_(static_cast<size_t>(size), 0.0),
-      branch_dv_(static_cast<size_t>(size - mna->kcl_rows()), 0.0) {}
+    : mna_(mna), klu_(klu), options_(options), size_(static_cast<size_t>(size)) {}
+
+// The working vectors are sized on the first Run, not at construction: a classic solve
+// (the default) never runs this solver, and a million unknowns make them 32 MB.
+void PotentialSolver::SizeVectors() {
+  if (dx_.size() == size_) return;
+  dx_.assign(size_, 0.0);
+  step_.assign(size_, 0.0);
+  base_.assign(size_, 0.0);
+  noise_.assign(size_, 0.0);
+  branch_dv_.assign(size_ - static_cast<size_t>(mna_->kcl_rows()), 0.0);
+}
 
 // d/dt of the potential at x along the node-voltage part dv of dx_: the gradient of the
 // potential is the devices' KCL residual without the voltage sources' currents k, so
@@ -501,6 +505,7 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
 }
 
 NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRecord>* trace) {
+  SizeVectors();
   NewtonOutcome outcome;
   evaluations_ = 0;
   floor_ = false;

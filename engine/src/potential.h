@@ -88,7 +88,8 @@ class PotentialSolver {
   // step to *trace when trace is not null. The exits are those of NewtonExit.
   NewtonOutcome Run(std::span<double> x, std::vector<NewtonStepRecord>* trace);
 
-  // After a failed run: unknowns whose last update exceeded its tolerance.
+  // After a failed run: unknowns whose last update exceeded its tolerance (only after
+  // a Run).
   std::vector<std::string> Unsettled(std::span<const double> x) const;
 
   // Line-search evaluations (assembly passes) of the last Run.
@@ -131,10 +132,12 @@ class PotentialSolver {
   void Polish(std::span<double> x);
   bool NoiseFloor();
   void MapStep();
+  void SizeVectors();
 
   MnaSystem* mna_;
   KluSolver* klu_;
   SolverOptions options_;
+  size_t size_;               // unknowns
   std::vector<double> dx_;    // Newton direction in the MNA's island coordinates
   std::vector<double> step_;  // the same as node voltages (and then the step taken)
   std::vector<double> base_;

@@ -132,7 +132,10 @@ struct NewtonStepRecord {
 class BiasSolver {
  public:
   // Fixes the unknowns, the sparsity pattern and every device's value slots, and lets
-  // KLU analyse the pattern. The circuit must have passed CheckTopology().
+  // KLU analyse the pattern. The circuit must have passed CheckTopology(). The solver
+  // keeps no copy of it: it reads names and values from `circuit` until the next
+  // UpdateValues(), so the circuit must outlive that use (and change only through
+  // UpdateValues()).
   static Result<std::unique_ptr<BiasSolver>> Create(const Circuit& circuit,
                                                     const SolverOptions& options);
   ~BiasSolver();
@@ -140,6 +143,8 @@ class BiasSolver {
   BiasSolver& operator=(const BiasSolver&) = delete;
 
   // New element values, part parameters or temperatures; same topology as at Create().
+  // From now on the solver reads `circuit` (as for Create()): it may be the same object,
+  // changed in place, or another one.
   void UpdateValues(const Circuit& circuit);
 
   // Solves from `start` (an unknown vector from unknowns(), e.g. a neighbouring sweep
