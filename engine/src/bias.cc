@@ -293,27 +293,25 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
     return rounding ? internal::RoundingNoise(mna, factors, spread)
                     : internal::ToleranceSpread(mna, o, factors, spread);
   };
-  // The factors of the exact Jacobian at (or one converged step from) x, when the solver
-  // that ran left them, give |J^-1 t| for one solve; a step's factors of a shunted or
-  // floored matrix would hide exactly the nodes sought here, so those are replaced by
-  // fresh factors. A group of nodes held as a whole only weakly (two nodes joined by 10
-  // kOhm and to the rest by 100 MOhm) shows only in this solve, not in any single row.
-  if (factors_exact && solve_spread(klu)) {
-    // A node the last factors call loose is confirmed with fresh factors at x itself.
-    bool any = false;
-    for (int u = 0; u < mna.kcl_rows() && !any; ++u) {
-      const auto i = static_cast<size_t>(u);
-      any = !(spread[i] <= margin * (o.abs_voltage_tol + o.rel_tol * std::fabs(x[i])));
+  // The factors of the exact Jacobian one converged step from x, when the solver that
+  // ran left them (its exact_factors()), give |J^-1 t| for one solve. A step's factors of
+  // a shunted or floored matrix would hide exactly the nodes sought here; those are
+  // replaced by fresh factors in a second KLU object made on first need, not in the
+  // run's own: fresh pivots there would make every later refactor, and so a sweep's last
+  // digits, depend on where the check fell. A group of nodes held as a whole only weakly
+  // (two nodes joined by 10 kOhm and to the rest by 100 MOhm) shows only in this solve,
+  // not in any single row.
+  bool solved = factors_exact && solve_spread(klu);
+  if (!solved) {
+    if (!probe) {
+      probe.emplace();
+      if (probe->Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
+        probe.reset();
+      }
     }
-    if (!any) return loose;
+    solved = probe && probe->Factor(mna.values()) == LinearStatus::kOk && solve_spread(*probe);
   }
-  if (!probe) {
-    probe.emplace();
-    if (probe->Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
-      probe.reset();
-    }
-  }
-  if (!probe || probe->Factor(mna.values()) != LinearStatus::kOk || !solve_spread(*probe)) {
+  if (!solved) {
     for (int r = 0; r < mna.kcl_rows(); ++r) {
       if (!mna.IsSourceRow(r)) loose.push_back(r);  // singular: nothing is known to be fixed
     }
