@@ -24,39 +24,56 @@ void Fail(Verification* v, std::string problem) {
 
 }  // namespace
 
-// netlist-format.md, "Diode parameters": I = area*Is(T)*(exp(Vj/(n Vt)) - 1)
-//   - area*Ibr*exp(-(Vj + Vbr(T))/(nbr Vt)),
+namespace {
+
+// The contract's temperature laws (netlist-format.md, "Diode parameters"):
 // Is(T) = Is(T0) (T/T0)^(sat_temp_exp/n) exp((Eg/(n Vt0)) (1 - T0/T)),
 // Vbr(T) = breakdown_v (1 + breakdown_tc (T - T0)).
-double ContractDiodeCurrent(const DiodeModel& m, double area, double temp_celsius, double vj) {
+struct ContractLaw {
+  double is = 0, n_vt = 0, ibr = 0, nbr_vt = 0, vbr = 0;
+  bool breakdown = false;
+};
+
+ContractLaw LawAt(const DiodeModel& m, double area, double temp_celsius) {
   const double t = temp_celsius + 273.15;
   const double t0 = m.ref_temp + 273.15;
   const double n = m.ideality;
-  const double is = m.sat_current * std::pow(t / t0, m.sat_temp_exp / n) *
-                    std::exp(m.bandgap / (n * Vt(m.ref_temp)) * (1.0 - t0 / t));
-  const double vt = Vt(temp_celsius);
-  double current = area * is * std::expm1(vj / (n * vt));
+  ContractLaw law;
+  law.is = area * m.sat_current * std::pow(t / t0, m.sat_temp_exp / n) *
+           std::exp(m.bandgap / (n * Vt(m.ref_temp)) * (1.0 - t0 / t));
+  law.n_vt = n * Vt(temp_celsius);
   if (m.breakdown_v) {
-    const double vbr = *m.breakdown_v * (1.0 + m.breakdown_tc * (temp_celsius - m.ref_temp));
-    current -= area * m.breakdown_i * std::exp(-(vj + vbr) / (m.breakdown_ideality * vt));
+    law.breakdown = true;
+    law.vbr = *m.breakdown_v * (1.0 + m.breakdown_tc * (temp_celsius - m.ref_temp));
+    law.ibr = area * m.breakdown_i;
+    law.nbr_vt = m.breakdown_ideality * Vt(temp_celsius);
   }
+  return law;
+}
+
+}  // namespace
+
+// netlist-format.md, "Diode parameters": I = area*Is(T)*(exp(Vj/(n Vt)) - 1)
+//   - area*Ibr*exp(-(Vj + Vbr(T))/(nbr Vt)).
+double ContractDiodeCurrent(const DiodeModel& m, double area, double temp_celsius, double vj) {
+  const ContractLaw law = LawAt(m, area, temp_celsius);
+  double current = law.is * std::expm1(vj / law.n_vt);
+  if (law.breakdown) current -= law.ibr * std::exp(-(vj + law.vbr) / law.nbr_vt);
   return current;
 }
 
 // dI/dV of an element from the contract's equations: 1/R for a resistor; for a diode
-// the junction's slope g (derivative of the law above at vj) in series with rs:
-// 1/(rs + 1/g). Sources: 0 (their currents are not functions of their own voltage).
+// the junction's slope g (the derivative of the law above at vj, written out) in series
+// with rs: 1/(rs + 1/g). Sources: 0 (their currents are not functions of their own
+// voltage). (A central difference of the law rounds to 0 for a saturated junction whose
+// slope is 1e-27 S beside a current of 1e-16 A.)
 double SmallSignalConductance(const Circuit& c, const Element& e, double vj) {
   if (e.kind == ElementKind::kResistor) return 1.0 / std::fabs(e.value);
   if (e.kind != ElementKind::kDiode || !std::isfinite(vj)) return 0.0;
   const DiodeModel& m = c.parts[static_cast<size_t>(e.part)].model;
-  const double temp = c.DeviceTemp(e);
-  // Central difference of the law, relative step: the granularity bound needs the
-  // slope's size, not its last digits.
-  const double h = 1e-6 * std::max(std::fabs(vj), 1e-3);
-  const double g = std::fabs(ContractDiodeCurrent(m, e.area, temp, vj + h) -
-                             ContractDiodeCurrent(m, e.area, temp, vj - h)) /
-                   (2 * h);
+  const ContractLaw law = LawAt(m, e.area, c.DeviceTemp(e));
+  double g = law.is / law.n_vt * std::exp(vj / law.n_vt);
+  if (law.breakdown) g += law.ibr / law.nbr_vt * std::exp(-(vj + law.vbr) / law.nbr_vt);
   const double rs = m.series_res / e.area;
   if (!std::isfinite(g)) return rs > 0.0 ? 1.0 / rs : 0.0;
   return g / (1.0 + rs * g);
