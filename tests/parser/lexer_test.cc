@@ -4,7 +4,6 @@
 
 #include <gtest/gtest.h>
 
-#include <chrono>
 #include <random>
 
 #include "parser_test_util.h"
@@ -171,9 +170,10 @@ TEST(LexerTest, ContinuationAtEndOfFile) {
   EXPECT_EQ(d.circuit.elements[0].value, 1.0);
 }
 
-// A million elements parse and elaborate in a few seconds: the scanner, the parser
-// and the name tables are linear in the size of the file.
-TEST(LexerTest, MillionElementsInLinearTime) {
+// A million elements parse and elaborate, every one of them and every node kept. (How
+// fast, and that the time grows linearly with the file, is measured in bench/: the
+// 1e6 ladder and the scaling exponent of bench/run. Tests assert no times.)
+TEST(LexerTest, MillionElements) {
   std::string text = "vsource V n0 -> gnd 1\n";
   const int count = 1000000;
   text.reserve(static_cast<std::size_t>(count) * 32);
@@ -181,17 +181,14 @@ TEST(LexerTest, MillionElementsInLinearTime) {
     text += "resistor R" + std::to_string(i) + " n" + std::to_string(i) + " -> n" +
             std::to_string(i + 1) + " 1k\n";
   }
-  const auto start = std::chrono::steady_clock::now();
   Result<Netlist> r = ParseNetlist(text, "big.knee");
   ASSERT_TRUE(r.ok());
   Result<Circuit> c = ElaborateCircuit(*r, {});
   ASSERT_TRUE(c.ok());
-  const double seconds =
-      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   EXPECT_EQ(c->elements.size(), static_cast<std::size_t>(count) + 1);
   EXPECT_EQ(c->nodes.size(), static_cast<std::size_t>(count) + 2);
-  EXPECT_LT(seconds, 30.0) << "took " << seconds << " s";
-  std::cout << "1,000,001 elements parsed and elaborated in " << seconds << " s\n";
+  EXPECT_EQ(c->elements.back().name, "R999999");
+  EXPECT_EQ(c->nodes.back(), "n1000000");
 }
 
 }  // namespace
