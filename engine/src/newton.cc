@@ -93,6 +93,7 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& 
       noise_(static_cast<size_t>(size), 0.0),
       minus_f_(static_cast<size_t>(size), 0.0),
       row_tolerance_(static_cast<size_t>(size), 0.0),
+      faint_(static_cast<size_t>(size), 0),
       regularized_(mna->values().size(), 0.0) {}
 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
@@ -334,16 +335,41 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
   AssemblyAids exact = aids;
   exact.limit_junctions = false;
   double merit = ResidualMerit(*mna_, options_);
+  bool masked = false;
   for (int k = 0; k < kPolishSteps; ++k) {
     std::copy(x.begin(), x.end(), saved_x_.begin());
     NewtonOutcome ignored;
     if (!SolveStep(dx_, &ignored)) return;
+    // Faint nodes (every current below abs_current_tol) at x, for the retry below.
+    const auto flow = mna_->flow();
+    bool any_faint = false;
+    for (int u = 0; u < mna_->kcl_rows(); ++u) {
+      const bool faint = flow[static_cast<size_t>(u)] < options_.abs_current_tol;
+      faint_[static_cast<size_t>(u)] = faint ? 1 : 0;
+      any_faint = any_faint || faint;
+    }
     for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
-    const bool inside = !Clamp(x);
-    const AssemblyOutcome assembled = mna_->Assemble(x, exact);
+    bool inside = !Clamp(x);
+    AssemblyOutcome assembled = mna_->Assemble(x, exact);
     if (!PolishKept(*mna_, options_, inside && assembled.finite, dx_, x, &merit)) {
       std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
-      return;
+      // A step rejected because it throws faint nodes about (a group held by saturated
+      // junctions beside a loose one) is tried once more without their part: the other
+      // nodes still get their polish (torture seed 4912: a node at 53 V held by
+      // 380 kOhm kept 5e-13 A of residual). Only kept if it passes the same test, and
+      // only in a run without aids: a rung of the ladder is a waypoint, not an answer.
+      if (masked || !any_faint || !plain_run_) return;
+      masked = true;
+      for (int u = 0; u < mna_->kcl_rows(); ++u) {
+        if (faint_[static_cast<size_t>(u)]) dx_[static_cast<size_t>(u)] = 0.0;
+      }
+      for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
+      inside = !Clamp(x);
+      assembled = mna_->Assemble(x, exact);
+      if (!PolishKept(*mna_, options_, inside && assembled.finite, dx_, x, &merit)) {
+        std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
+        return;
+      }
     }
     if (PolishSettled(*mna_, options_, dx_, x)) return;
   }

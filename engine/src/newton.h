@@ -128,6 +128,7 @@ class NewtonSolver {
   std::vector<double> saved_x_;
   std::vector<double> noise_;                    // J^-1 times the residual's round-off allowance
   std::vector<double> minus_f_, row_tolerance_;  // RefineStep's right side and row weights
+  std::vector<char> faint_;                      // Polish: faint nodes at the polished point
   StepRefiner refiner_;
   double voltage_bound_ = HUGE_VAL;  // V
   std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
