@@ -129,7 +129,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
           "'{}' = {:.3g} <= {:.3g}",
           step - 1, mna_->UnknownName(update.index), update.value, update.bound,
           mna_->UnknownName(residual.index), residual.value, residual.bound);
-      Polish(aids, x);
+      Polish(aids, x, update.index < 0 ? 0.0 : update.value / update.bound);
       return outcome;
     }
     if (!SolveStep(dx_, &outcome)) {
@@ -150,7 +150,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
             "worst residual at '{}' = {:.3g} <= {:.3g}",
             step - 1, mna_->UnknownName(here.index), here.value, here.bound,
             mna_->UnknownName(residual.index), residual.value, residual.bound);
-        Polish(aids, x);
+        Polish(aids, x, here.index < 0 ? 0.0 : here.value / here.bound);
         return outcome;
       }
     }
@@ -323,15 +323,15 @@ bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_
 }
 
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x) {
-  SolverOptions fine = options;
-  fine.abs_voltage_tol *= kPolishFactor;
-  fine.abs_current_tol *= kPolishFactor;
-  fine.rel_tol *= kPolishFactor;
-  return CheckUpdate(mna, fine, dx, x, {}, /*exempt_loose=*/false).passed();
+                   std::span<const double> x, double* previous) {
+  const ToleranceCheck worst = CheckUpdate(mna, options, dx, x, {}, /*exempt_loose=*/false);
+  const double ratio = worst.index < 0 ? 0.0 : worst.value / worst.bound;
+  const bool settled = ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * *previous);
+  *previous = ratio;
+  return settled;
 }
 
-void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
+void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double last_ratio) {
   AssemblyAids exact = aids;
   exact.limit_junctions = false;
   double merit = ResidualMerit(*mna_, options_);
@@ -371,7 +371,7 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x) {
         return;
       }
     }
-    if (PolishSettled(*mna_, options_, dx_, x)) return;
+    if (PolishSettled(*mna_, options_, dx_, x, &last_ratio)) return;
   }
 }
 

@@ -73,13 +73,19 @@ double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 
 // Polishing after convergence: further full Newton steps, each kept only if the residual
 // still passes after it (PolishKept), until a step is below kPolishFactor times the update
-// tolerance (the error left is then about the square of that, far below 1e-9 relative) or
-// kPolishSteps were taken. Quadratic convergence makes the first step enough on most
-// networks; the others reach the same point to round-off whichever path they came by.
+// tolerance, or below kPolishFast times it while converging at least 10x per step (the
+// next step, the error left, is then below 1e-4 of the tolerance: 1e-10 relative), or
+// kPolishSteps were taken. Quadratic convergence makes one step enough on most networks
+// (a sweep point: the second step that 1e-6 alone asked for cost a quarter of the bridge
+// sweep's time); where convergence is linear (faint nodes, flat valleys) the steps go on
+// to 1e-6, so that the methods reach the same point to round-off.
 inline constexpr int kPolishSteps = 4;
 inline constexpr double kPolishFactor = 1e-6;
+inline constexpr double kPolishFast = 1e-3;
+// Whether polishing may stop after the step dx to x. *previous: the worst |dx|/tolerance
+// of the step before (the last Newton update for the first polishing step); updated.
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x);
+                   std::span<const double> x, double* previous);
 // Whether a polishing step is kept, from the assembly after it: a finite point inside the
 // voltage bound whose residual passes and whose ResidualMerit is no larger than *merit
 // (updated), unless the step `dx` to x is within the update tolerance. Far out (1e125 V)
@@ -116,7 +122,8 @@ class NewtonSolver {
  private:
   bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
   LinearStatus SolveRegularized(std::span<double> dx);
-  void Polish(const AssemblyAids& aids, std::span<double> x);
+  // last_ratio: the worst |dx|/tolerance of the last Newton update (PolishSettled).
+  void Polish(const AssemblyAids& aids, std::span<double> x, double last_ratio);
   bool NoiseFloor();
   void RefineStep(std::span<double> dx);
   bool Clamp(std::span<double> x) const;

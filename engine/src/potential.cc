@@ -541,7 +541,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
           "{:.3g} <= {:.3g}, worst residual at '{}' = {:.3g} <= {:.3g}",
           step - 1, evaluations_, mna_->UnknownName(update.index), update.value, update.bound,
           mna_->UnknownName(residual.index), residual.value, residual.bound);
-      Polish(x);
+      Polish(x, update.index < 0 ? 0.0 : update.value / update.bound);
       return outcome;
     }
     const double max_residual = MaxAbs(mna_->residual(), kcl);
@@ -818,7 +818,7 @@ void PotentialSolver::SetFloor(bool on, std::span<const double> x) {
 }
 
 // Full Newton steps after convergence (exact Hessian, no shift), as NewtonSolver::Polish.
-void PotentialSolver::Polish(std::span<double> x) {
+void PotentialSolver::Polish(std::span<double> x, double last_ratio) {
   shift_ = 0.0;
   SetFloor(false, x);
   double merit = ResidualMerit(*mna_, options_);
@@ -837,7 +837,7 @@ void PotentialSolver::Polish(std::span<double> x) {
       std::copy(base_.begin(), base_.end(), x.begin());
       return;
     }
-    if (PolishSettled(*mna_, options_, step_, x)) return;
+    if (PolishSettled(*mna_, options_, step_, x, &last_ratio)) return;
   }
 }
 

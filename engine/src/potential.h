@@ -129,7 +129,7 @@ class PotentialSolver {
   void SetFloor(bool on, std::span<const double> x);
   bool SolveStep(NewtonOutcome* outcome);
   bool FeasibilityStep(std::span<double> x, NewtonOutcome* outcome);
-  void Polish(std::span<double> x);
+  void Polish(std::span<double> x, double last_ratio);
   bool NoiseFloor();
   void MapStep();
   void SizeVectors();
