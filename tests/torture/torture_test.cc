@@ -188,9 +188,11 @@ void ExpectBothConvergeAndAgree(uint64_t seed) {
 // step onto the constraints (865, 3445), multipliers thrown to 1e59 A by a zero step
 // (594), no ranking of trial points below the potential's round-off (311), a flat valley
 // of saturated reverse junctions (9819), a stationary point with the shift at its cap
-// (8736, 38127), a start 1e39 W up the potential (3343).
+// (8736, 38127), a start 1e39 W up the potential (3343), and an exact direction that
+// overflowed on pivots of 1e-300 S every other step (18568, 18621, 38627).
 TEST(PotentialMethod, SolvesItsFormerFailures) {
-  for (const uint64_t seed : {865u, 3445u, 594u, 311u, 9819u, 8736u, 38127u, 3343u}) {
+  for (const uint64_t seed :
+       {865u, 3445u, 594u, 311u, 9819u, 8736u, 38127u, 3343u, 18568u, 18621u, 38627u}) {
     ExpectBothConvergeAndAgree(seed);
   }
 }
