@@ -123,14 +123,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
     if (step > 1 && update.passed() && !last_clamped && !assembled.limited && residual.passed() &&
         assembled.unresolved_element < 0) {
-      outcome.exit = NewtonExit::kConverged;
-      outcome.detail = fmt::format(
-          "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g}, worst residual at "
-          "'{}' = {:.3g} <= {:.3g}",
-          step - 1, mna_->UnknownName(update.index), update.value, update.bound,
-          mna_->UnknownName(residual.index), residual.value, residual.bound);
-      Polish(aids, x, update.index < 0 ? 0.0 : update.value / update.bound);
-      return outcome;
+      return Converged(step - 1, update, residual, /*step_taken=*/true, aids, x);
     }
     if (!SolveStep(dx_, &outcome)) {
       outcome.detail = fmt::format("step {}: {}", step, outcome.detail);
@@ -144,14 +137,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
       ToleranceCheck here = CheckUpdate(*mna_, options_, dx_, x);
       if (!here.passed() && NoiseFloor()) here = CheckUpdate(*mna_, options_, dx_, x, noise_);
       if (here.passed()) {
-        outcome.exit = NewtonExit::kConverged;
-        outcome.detail = fmt::format(
-            "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g} (step not taken), "
-            "worst residual at '{}' = {:.3g} <= {:.3g}",
-            step - 1, mna_->UnknownName(here.index), here.value, here.bound,
-            mna_->UnknownName(residual.index), residual.value, residual.bound);
-        Polish(aids, x, here.index < 0 ? 0.0 : here.value / here.bound);
-        return outcome;
+        return Converged(step - 1, here, residual, /*step_taken=*/false, aids, x);
       }
     }
     for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
@@ -233,6 +219,22 @@ bool NewtonSolver::Clamp(std::span<double> x) const {
     }
   }
   return clamped;
+}
+
+NewtonOutcome NewtonSolver::Converged(int steps, const ToleranceCheck& update,
+                                      const ToleranceCheck& residual, bool step_taken,
+                                      const AssemblyAids& aids, std::span<double> x) {
+  NewtonOutcome outcome;
+  outcome.exit = NewtonExit::kConverged;
+  outcome.steps = steps + 1;
+  outcome.detail = fmt::format(
+      "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g}{}, worst residual at "
+      "'{}' = {:.3g} <= {:.3g}",
+      steps, mna_->UnknownName(update.index), update.value, update.bound,
+      step_taken ? "" : " (step not taken)", mna_->UnknownName(residual.index), residual.value,
+      residual.bound);
+  Polish(aids, x, update.ratio());
+  return outcome;
 }
 
 // Solves J dx = -F with the values and residual of the last assembly.
@@ -325,7 +327,7 @@ bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
                    std::span<const double> x, double* previous) {
   const ToleranceCheck worst = CheckUpdate(mna, options, dx, x, {}, /*exempt_loose=*/false);
-  const double ratio = worst.index < 0 ? 0.0 : worst.value / worst.bound;
+  const double ratio = worst.ratio();
   const bool settled = ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * *previous);
   *previous = ratio;
   return settled;

@@ -35,6 +35,8 @@ struct ToleranceCheck {
   double value = 0.0;  // |dx| or |F| there
   double bound = 0.0;  // its tolerance
   bool passed() const { return index < 0 || value <= bound; }
+  // |value| / bound, 0 when nothing was tested.
+  double ratio() const { return index < 0 ? 0.0 : value / bound; }
 };
 
 // |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns), plus
@@ -121,6 +123,10 @@ class NewtonSolver {
 
  private:
   bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
+  // The converged exit after `steps` steps: the detail text with both tests' worst
+  // entries, then the polishing steps.
+  NewtonOutcome Converged(int steps, const ToleranceCheck& update, const ToleranceCheck& residual,
+                          bool step_taken, const AssemblyAids& aids, std::span<double> x);
   LinearStatus SolveRegularized(std::span<double> dx);
   // last_ratio: the worst |dx|/tolerance of the last Newton update (PolishSettled).
   void Polish(const AssemblyAids& aids, std::span<double> x, double last_ratio);

@@ -409,7 +409,7 @@ PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, d
   if (trial.finite) {
     trial.slope = Slope(x);
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
-    trial.residual_ratio = residual.index < 0 ? 0.0 : residual.value / residual.bound;
+    trial.residual_ratio = residual.ratio();
     trial.residual_merit = ResidualMerit(*mna_, options_);
   }
   trial.finite = trial.finite && std::isfinite(trial.slope);
@@ -550,7 +550,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
           "{:.3g} <= {:.3g}, worst residual at '{}' = {:.3g} <= {:.3g}",
           step - 1, evaluations_, mna_->UnknownName(update.index), update.value, update.bound,
           mna_->UnknownName(residual.index), residual.value, residual.bound);
-      Polish(x, update.index < 0 ? 0.0 : update.value / update.bound);
+      Polish(x, update.ratio());
       return outcome;
     }
     const double max_residual = MaxAbs(mna_->residual(), kcl);
@@ -607,7 +607,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       // to kW, cannot resolve the last nanoamperes of a node), else the longest of a
       // few halvings that does; none: the point stays (a zero step), and the convergence
       // tests decide.
-      const double before_ratio = residual.index < 0 ? 0.0 : residual.value / residual.bound;
+      const double before_ratio = residual.ratio();
       const double merit0 = ResidualMerit(*mna_, options_);
       for (trials = 1; trials <= kMaxStationaryHalvings; ++trials, t *= 0.5) {
         accepted = Evaluate(base_, t, x);
