@@ -9,12 +9,14 @@
 
 #include "circuit_builder.h"
 #include "knee/solver.h"
+#include "solve_with.h"
 #include "test_util.h"
 
 namespace knee {
 namespace {
 
 using testing::CircuitBuilder;
+using testing::SolveWith;
 
 // CODATA 2018 exact values (SI 2019), written out independently of the engine.
 constexpr double kK = 1.380649e-23;
@@ -27,12 +29,6 @@ constexpr double kQ = 1.602176634e-19;
 double TwoJunctionCurrent(double v, double r, double is, double n_vt) {
   const double m = 2.0 * n_vt;
   return m / r * boost::math::lambert_w0(is * r / m * std::exp((v + is * r) / m)) - is;
-}
-
-SolverOptions With(SolverMethod method) {
-  SolverOptions o;
-  o.method = method;
-  return o;
 }
 
 class FaintNodes : public ::testing::TestWithParam<SolverMethod> {};
@@ -50,10 +46,8 @@ TEST_P(FaintNodes, IslandBetweenTwoFaintJunctionsSitsAtHalfTheSupply) {
   b.R("Rlink", "p", "m", 1e-3);
   b.D("D2", "m", "gnd", part);
   const Circuit& c = b.circuit();
-  auto solver = BiasSolver::Create(c, With(GetParam()));
-  ASSERT_TRUE(solver.ok());
   Solution s;
-  const SolveSummary summary = (*solver)->Solve(&s);
+  const SolveSummary summary = SolveWith(c, GetParam(), &s);
   ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
   EXPECT_CLOSE(s.node_voltage[static_cast<size_t>(c.FindNode("p"))], 0.05, 1e-9, 0.0);
   EXPECT_CLOSE(s.node_voltage[static_cast<size_t>(c.FindNode("m"))], 0.05, 1e-9, 0.0);
@@ -81,10 +75,8 @@ TEST_P(FaintNodes, MatchedReverseStringSharesTheVoltageEqually) {
   b.D("D3", "c", "b", part);
   b.D("D4", "gnd", "c", part);
   const Circuit& c = b.circuit();
-  auto solver = BiasSolver::Create(c, With(GetParam()));
-  ASSERT_TRUE(solver.ok());
   Solution s;
-  const SolveSummary summary = (*solver)->Solve(&s);
+  const SolveSummary summary = SolveWith(c, GetParam(), &s);
   ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
   EXPECT_CLOSE(s.node_voltage[static_cast<size_t>(c.FindNode("a"))], 15.0, 1e-9, 0.0);
   EXPECT_CLOSE(s.node_voltage[static_cast<size_t>(c.FindNode("b"))], 10.0, 1e-9, 0.0);

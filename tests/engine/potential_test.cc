@@ -14,12 +14,14 @@
 #include "knee/diode_law.h"
 #include "knee/solver.h"
 #include "mna.h"
+#include "solve_with.h"
 #include "test_util.h"
 
 namespace knee {
 namespace {
 
 using testing::CircuitBuilder;
+using testing::SolveWith;
 
 DiodeConstants Zener() {
   DiodeModel m;
@@ -139,19 +141,6 @@ TEST(CoContent, NetworkGradientIsTheKclResidual) {
     const double pd = mna.Assemble(down, aids).potential;
     EXPECT_CLOSE((pu - pd) / (2 * h), f[u], 1e-5, 1e-9) << mna.UnknownName(static_cast<int>(u));
   }
-}
-
-SolveSummary SolveWith(const Circuit& c, SolverMethod method, Solution* s, bool trace = false,
-                       std::vector<NewtonStepRecord>* records = nullptr) {
-  SolverOptions o;
-  o.method = method;
-  auto solver = BiasSolver::Create(c, o);
-  EXPECT_TRUE(solver.ok());
-  if (!solver.ok()) return {};
-  (*solver)->set_trace(trace);
-  SolveSummary summary = (*solver)->Solve(s);
-  if (records != nullptr) *records = (*solver)->trace();
-  return summary;
 }
 
 // Hard circuits: a 1 kV string of forty diodes, tiny saturation currents (1e-30 A),
