@@ -34,7 +34,9 @@ constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin 
 constexpr double kFaintCurrentFloor = 1e-40;
 constexpr int kFaintNewtonSteps = 1000;  // at least, for ResolveFaintNodes' run
 constexpr int kFaintRounds = 3;          // ResolveFaintNodes' runs at most
-constexpr double kLooseMargin = 10.0;    // LooseNodes: spread / voltage tolerance
+// RerootIslands: a member whose largest current exceeds its root's by this factor.
+constexpr double kRerootFactor = 1e3;
+constexpr double kLooseMargin = 10.0;  // LooseNodes: spread / voltage tolerance
 // The node-voltage clamp (SetVoltageBound): margin times the bound, plus a floor (V).
 constexpr double kVoltageBoundMargin = 10.0;
 constexpr double kVoltageBoundFloor = 1e4;
@@ -190,6 +192,7 @@ struct BiasSolver::Impl {
   // Whether klu holds the exact Jacobian's factors from the run that converged (the
   // solver's exact_factors()), which LooseNodes may then use as they are.
   bool factors_exact = false;
+  bool rerooted = false;       // mna's islands are rooted by a solution (RerootIslands)
   double junction_span = 0.0;  // V, JunctionSpan(circuit)
   bool trace_on = false;
   std::vector<NewtonStepRecord> trace;
@@ -256,12 +259,26 @@ struct BiasSolver::Impl {
   void Verify(SolveSummary* s);
   // A converged run: verified on the exact model, filled in, kept for warm starts.
   void Conclude(SolveSummary* s, Solution* solution) {
+    RerootIslands(s);
     ResolveFaintNodes(s);
     Verify(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
   }
   void Fill(Solution* solution) const;
+  // The MNA system (and everything that holds its pattern) built anew: with each island
+  // rooted at the member of largest weight (RerootIslands), or as Create() built it.
+  void Rebuild(std::span<const double> node_weight) {
+    mna = MnaSystem(*circuit, node_weight);
+    newton = NewtonSolver(&mna, &klu, options, mna.size());
+    potential = internal::PotentialSolver(&mna, &klu, options, mna.size());
+    probe.reset();
+    factors_exact = false;
+    const auto problem = Analyze();
+    KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
+    SetVoltageBound();
+  }
+  void RerootIslands(SolveSummary* s);
   void ResolveFaintNodes(SolveSummary* s);
   // The nodes that currents of the size of the tolerance (rounding = false) or of the
   // residual's round-off allowance (rounding = true) move by more than the voltage
@@ -329,6 +346,37 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
   return loose;
 }
 
+// An island root's own KCL is known only to the round-off of its island's sum (its row),
+// so a root whose currents at the solution are far below a member's has its own balance
+// lost in that member's rounding: a node held by 7e-13 A through 73 MOhm, rooted by its
+// junctions' series resistance beside a member carrying 11.5 A (torture seed 14210),
+// kept 2e-15 A of residual, 2e-8 V. Such islands are rooted again at their member of
+// largest current and the point taken one Newton run further. Solve() restores the
+// roots of Create(), so that no result depends on the points solved before it.
+void BiasSolver::Impl::RerootIslands(SolveSummary* s) {
+  if (!mna.has_islands()) return;
+  mna.AssembleExact(x);
+  const auto rows = static_cast<size_t>(mna.kcl_rows());
+  node_residual.resize(rows);
+  node_allowance.resize(rows);
+  node_flow.resize(rows);
+  mna.NodeResidual(node_residual, node_allowance, node_flow);
+  bool lopsided = false;
+  for (int u = 0; u < mna.kcl_rows() && !lopsided; ++u) {
+    const int root = mna.islands().root_of(u);
+    lopsided = root >= 0 && node_flow[static_cast<size_t>(u)] >
+                                kRerootFactor * node_flow[static_cast<size_t>(root)];
+  }
+  if (!lopsided) return;
+  const std::vector<double> weight = node_flow;
+  Rebuild(weight);
+  rerooted = true;
+  saved = x;
+  const NewtonOutcome out = Run(AssemblyAids{}, "newton (island roots)", s);
+  factors_exact = out.exit == NewtonExit::kConverged && newton.exact_factors();
+  if (out.exit != NewtonExit::kConverged) x = saved;
+}
+
 void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   double scale = 1.0;
   std::vector<int> loose = LooseNodes(options, /*rounding=*/false, &scale);
@@ -339,6 +387,10 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   tight.max_newton_steps = std::max(options.max_newton_steps, kFaintNewtonSteps);
   saved = x;
   bool kept = false;
+  // Where plain Newton does not settle a monotone network's loose nodes (a string of
+  // junctions it left volts from their balance, torture seed 5185), the potential
+  // method from the same point gets the usual step limit.
+  const bool monotone = !non_monotone && !unbounded;
   // The scale is first-order: on an exponential it can fall short, and a loose node
   // whose every current is below the scaled tolerance would still be exempt from the
   // update test as faint. So the tolerance also goes below a tenth of the loose nodes'
@@ -353,9 +405,20 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
     tight.abs_current_tol =
         std::max(std::min(0.1 * scale * tight.abs_current_tol, 0.1 * weakest), kFaintCurrentFloor);
     newton.set_options(tight);
-    const NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
+    NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
     newton.set_options(options);
     factors_exact = newton.exact_factors();
+    if (out.exit != NewtonExit::kConverged && monotone) {
+      x = saved;
+      SolverOptions fallback = tight;
+      fallback.max_newton_steps = options.max_newton_steps;
+      potential.set_options(fallback);
+      potential.set_stiff_conductance(internal::StiffJunctionConductance(*circuit));
+      out = potential.Run(x, trace_on ? &trace : nullptr);
+      s->newton_steps += out.steps;
+      potential.set_options(options);
+      factors_exact = potential.exact_factors();
+    }
     kept = false;
     if (out.exit == NewtonExit::kConverged) {
       // Kept only if it is a solution at least as good, by the same test as the first.
@@ -558,6 +621,10 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
 SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start, bool allow_aids) {
   Impl& m = *impl_;
   m.trace.clear();
+  if (m.rerooted) {
+    m.Rebuild({});
+    m.rerooted = false;
+  }
   m.SetVoltageBound();
   SolveSummary s;
   const bool warm = start.size() == m.x.size();

@@ -20,7 +20,7 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
 
 // IslandMap of the circuit: components of the graph of resistors and voltage sources
 // that do not contain gnd, each rooted at its heaviest node (below).
-IslandMap FindIslands(const Circuit& c) {
+IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
   std::vector<int> parent(c.nodes.size());
   for (size_t n = 0; n < parent.size(); ++n) parent[n] = static_cast<int>(n);
   const auto find = [&](int n) {
@@ -63,7 +63,12 @@ IslandMap FindIslands(const Circuit& c) {
     }
   }
   std::vector<int> best(c.nodes.size(), -1);  // per representative: the chosen root
+  // Given a solution's currents (node_weight, per node unknown), its largest wins.
   const auto heavier = [&](size_t a, size_t b) {
+    if (!node_weight.empty()) {
+      const double wa = node_weight[a - 1], wb = node_weight[b - 1];
+      if (wa != wb) return wa > wb;
+    }
     if (unbounded[a] != unbounded[b]) return unbounded[a] > unbounded[b];
     return conductance[a] > conductance[b];
   };
@@ -92,7 +97,8 @@ IslandMap FindIslands(const Circuit& c) {
 
 }  // namespace
 
-MnaSystem::MnaSystem(const Circuit& c) : circuit_(&c), islands_(FindIslands(c)) {
+MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
+    : circuit_(&c), islands_(FindIslands(c, node_weight)) {
   node_count_ = c.nodes.size();
   int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
   kcl_rows_ = next;

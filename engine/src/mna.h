@@ -41,7 +41,10 @@ class MnaSystem {
   // `circuit` must outlive the system: names of unknowns and elements are read from it
   // when a message needs them (a million-node circuit would otherwise keep a second copy
   // of every name here).
-  explicit MnaSystem(const Circuit& circuit);
+  // node_weight (empty, or one value per node unknown): each island's root is then the
+  // member with the largest weight (the largest current at a solution), not the one the
+  // elements suggest before solving.
+  explicit MnaSystem(const Circuit& circuit, std::span<const double> node_weight = {});
   MnaSystem(MnaSystem&&) = default;
   MnaSystem& operator=(MnaSystem&&) = default;
 

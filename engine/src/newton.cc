@@ -324,13 +324,46 @@ bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_
   return true;
 }
 
+bool MarkFaintNodes(const MnaSystem& mna, const SolverOptions& options, std::span<char> faint) {
+  const auto flow = mna.flow();
+  bool any = false;
+  for (int u = 0; u < mna.kcl_rows(); ++u) {
+    const bool below = flow[static_cast<size_t>(u)] < options.abs_current_tol;
+    faint[static_cast<size_t>(u)] = below ? 1 : 0;
+    any = any || below;
+  }
+  return any;
+}
+
+void DropFaintPart(std::span<const char> faint, std::span<double> dx) {
+  for (size_t u = 0; u < faint.size() && u < dx.size(); ++u) {
+    if (faint[u]) dx[u] = 0.0;
+  }
+}
+
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x, double* previous) {
+                   std::span<const double> x, double* previous, KluSolver& klu,
+                   std::span<double> noise) {
   const ToleranceCheck worst = CheckUpdate(mna, options, dx, x, {}, /*exempt_loose=*/false);
   const double ratio = worst.ratio();
-  const bool settled = ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * *previous);
+  const double before = *previous;
   *previous = ratio;
-  return settled;
+  if (!(ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * before))) return false;
+  // Each unknown to kPolishRelative of itself: the change the next step would make, at
+  // most the last step times the rate the steps shrink at, below that or below the
+  // rounding of the equations (a node at 1e-11 V beside 500 V sources).
+  const double rate = std::min(1.0, before > 0.0 ? ratio / before : 1.0);
+  const auto unsettled = [&](size_t i, double floor) {
+    return !(rate * std::fabs(dx[i]) <= kPolishRelative * std::fabs(x[i]) + floor);
+  };
+  bool any = false;
+  for (size_t i = 0; i < dx.size() && !any; ++i) any = unsettled(i, 0.0);
+  if (!any) return true;
+  if (!RoundingNoise(mna, klu, noise)) return true;  // the tolerance test above stands
+  for (size_t i = 0; i < dx.size(); ++i) {
+    if (unsettled(i, kNoiseFactor * noise[i])) return false;
+  }
+  return true;
 }
 
 void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double last_ratio) {
@@ -342,14 +375,7 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double 
     std::copy(x.begin(), x.end(), saved_x_.begin());
     NewtonOutcome ignored;
     if (!SolveStep(dx_, &ignored)) return;
-    // Faint nodes (every current below abs_current_tol) at x, for the retry below.
-    const auto flow = mna_->flow();
-    bool any_faint = false;
-    for (int u = 0; u < mna_->kcl_rows(); ++u) {
-      const bool faint = flow[static_cast<size_t>(u)] < options_.abs_current_tol;
-      faint_[static_cast<size_t>(u)] = faint ? 1 : 0;
-      any_faint = any_faint || faint;
-    }
+    const bool any_faint = MarkFaintNodes(*mna_, options_, faint_);  // at x, for the retry
     for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
     bool inside = !Clamp(x);
     AssemblyOutcome assembled = mna_->Assemble(x, exact);
@@ -362,9 +388,7 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double 
       // only in a run without aids: a rung of the ladder is a waypoint, not an answer.
       if (masked || !any_faint || !plain_run_) return;
       masked = true;
-      for (int u = 0; u < mna_->kcl_rows(); ++u) {
-        if (faint_[static_cast<size_t>(u)]) dx_[static_cast<size_t>(u)] = 0.0;
-      }
+      DropFaintPart(faint_, dx_);
       for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
       inside = !Clamp(x);
       assembled = mna_->Assemble(x, exact);
@@ -373,7 +397,7 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double 
         return;
       }
     }
-    if (PolishSettled(*mna_, options_, dx_, x, &last_ratio)) return;
+    if (PolishSettled(*mna_, options_, dx_, x, &last_ratio, *klu_, noise_)) return;
   }
 }
 

@@ -84,10 +84,21 @@ double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 inline constexpr int kPolishSteps = 4;
 inline constexpr double kPolishFactor = 1e-6;
 inline constexpr double kPolishFast = 1e-3;
+inline constexpr double kPolishRelative = 1e-11;
 // Whether polishing may stop after the step dx to x. *previous: the worst |dx|/tolerance
 // of the step before (the last Newton update for the first polishing step); updated.
+// Settled also needs every unknown's next change (the last step times the rate the steps
+// shrink at) below kPolishRelative of itself or below its rounding noise (RoundingNoise,
+// solved with `klu`'s factors into `noise`).
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x, double* previous);
+                   std::span<const double> x, double* previous, KluSolver& klu,
+                   std::span<double> noise);
+// faint[u] = 1 for every KCL row u whose currents in the last assembly are all below
+// abs_current_tol (a faint node), else 0; whether there is any.
+bool MarkFaintNodes(const MnaSystem& mna, const SolverOptions& options, std::span<char> faint);
+// dx[u] = 0 wherever faint[u]: a polishing step without its faint nodes' part, retried
+// when the whole step is rejected because it throws them about.
+void DropFaintPart(std::span<const char> faint, std::span<double> dx);
 // Whether a polishing step is kept, from the assembly after it: a finite point inside the
 // voltage bound whose residual passes and whose ResidualMerit is no larger than *merit
 // (updated), unless the step `dx` to x is within the update tolerance. Far out (1e125 V)

@@ -142,6 +142,7 @@ class PotentialSolver {
   std::vector<double> step_;  // the same as node voltages (and then the step taken)
   std::vector<double> base_;
   std::vector<double> noise_;      // J^-1 times the residual's round-off allowance
+  std::vector<char> faint_;        // Polish: faint nodes at the polished point
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
   int evaluations_ = 0;
   double stiff_ = 1.0;
