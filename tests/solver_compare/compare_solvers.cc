@@ -179,6 +179,7 @@ int main(int argc, char** argv) {
   long long disagree_resolved = 0;
   long long disagree_resolved_fixed = 0;
   std::vector<long long> resolved_seeds;
+  std::vector<long long> resolved_loose_seeds;
   double worst_resolved = 0;  // |difference| / (1e-9 |v| + resolutions)
   long long worst_resolved_seed = 0;
   double worst_scaled = 0;
@@ -246,7 +247,12 @@ int main(int argc, char** argv) {
         worst_resolved_seed = static_cast<long long>(seed);
       }
     }
-    if (beyond) ++disagree_resolved;
+    if (beyond) {
+      ++disagree_resolved;
+      if (!beyond_fixed && resolved_loose_seeds.size() < 20) {
+        resolved_loose_seeds.push_back(static_cast<long long>(seed));
+      }
+    }
     if (beyond_fixed) {
       ++disagree_resolved_fixed;
       if (resolved_seeds.size() < 10) resolved_seeds.push_back(static_cast<long long>(seed));
@@ -298,10 +304,13 @@ int main(int argc, char** argv) {
              fmt::format("{}", fmt::join(firm_scaled_seeds, " ")));
   fmt::print(
       "beyond {:g} relative plus each node's double-precision resolution (|J^-1| times the "
-      "equations' rounding, RoundOffResolution, of both solutions): differ on {} networks; at "
+      "equations' rounding, RoundOffResolution, of both solutions): differ on {} networks{}{}; at "
       "nodes that neither solver names loose: on {}{}{}; worst ratio {:.3g} (seed {})\n",
-      kAgreement, disagree_resolved, disagree_resolved_fixed,
-      resolved_seeds.empty() ? "" : "; seeds ", fmt::format("{}", fmt::join(resolved_seeds, " ")),
-      worst_resolved, worst_resolved_seed);
+      kAgreement, disagree_resolved,
+      resolved_loose_seeds.empty() ? "" : " (only at loose nodes: seeds ",
+      fmt::format("{}{}", fmt::join(resolved_loose_seeds, " "),
+                  resolved_loose_seeds.empty() ? "" : ")"),
+      disagree_resolved_fixed, resolved_seeds.empty() ? "" : "; seeds ",
+      fmt::format("{}", fmt::join(resolved_seeds, " ")), worst_resolved, worst_resolved_seed);
   return potential.failed == 0 && potential.unverified == 0 && disagree_resolved_fixed == 0 ? 0 : 1;
 }

@@ -202,9 +202,17 @@ TEST(PotentialMethod, SolvesItsFormerFailures) {
 // 1e-18 A junctions left unbalanced by the loose-node run (7828), an island root carrying
 // nA beside a 300 kA member (4725), a node held by 380 kOhm beside a faint group whose
 // polishing step was rejected (4912), and the classic answer that the independent check
-// rejected at an island root (35695).
+// rejected at an island root (35695). Third session of 2026-12-02: a node at 1e-11 V
+// that polishing to the voltage tolerance left 6e-8 of itself off (9045), a string of
+// junctions the classic loose-node run could not settle (5185), a 73 MOhm node whose
+// island was rooted beside a member carrying 11.5 A (14210, and 13233, 19508, 24538,
+// 31073 alike), and a potential-method polishing step rejected for a loose string's part
+// (17571).
 TEST(PotentialMethod, AgreesWithTheClassicLadderWhereThenTheyDiffered) {
-  for (const uint64_t seed : {758u, 7828u, 4725u, 4912u, 35695u}) ExpectBothConvergeAndAgree(seed);
+  for (const uint64_t seed : {758u, 7828u, 4725u, 4912u, 35695u, 9045u, 5185u, 14210u, 13233u,
+                              19508u, 24538u, 31073u, 17571u}) {
+    ExpectBothConvergeAndAgree(seed);
+  }
 }
 
 class TortureSlice : public ::testing::TestWithParam<int> {};
