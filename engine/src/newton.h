@@ -82,9 +82,17 @@ double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 // sweep's time); where convergence is linear (faint nodes, flat valleys) the steps go on
 // to 1e-6, so that the methods reach the same point to round-off.
 inline constexpr int kPolishSteps = 4;
+// Polishing goes on past kPolishSteps while the last step still broke the update
+// tolerance (ratio > 1: a run that ended on its residual with a node still creeping,
+// seed 27140: 0.04 V a step), up to kPolishStepsCreeping.
+inline constexpr int kPolishStepsCreeping = 50;
+inline bool PolishGoesOn(int k, double last_ratio) {
+  return k < kPolishSteps || (last_ratio > 1.0 && k < kPolishStepsCreeping);
+}
 inline constexpr double kPolishFactor = 1e-6;
 inline constexpr double kPolishFast = 1e-3;
 inline constexpr double kPolishRelative = 1e-11;
+inline constexpr double kPolishStalled = 0.25;  // step ratio: steps no longer shrink
 // Whether polishing may stop after the step dx to x. *previous: the worst |dx|/tolerance
 // of the step before (the last Newton update for the first polishing step); updated.
 // Settled also needs every unknown's next change (the last step times the rate the steps

@@ -844,7 +844,7 @@ void PotentialSolver::Polish(std::span<double> x, double last_ratio) {
     return PolishKept(*mna_, options_, inside && assembled.finite, step_, x, &merit);
   };
   bool masked = false;
-  for (int k = 0; k < kPolishSteps; ++k) {
+  for (int k = 0; PolishGoesOn(k, last_ratio); ++k) {
     std::copy(x.begin(), x.end(), base_.begin());
     NewtonOutcome ignored;
     if (!SolveStep(&ignored)) return;
