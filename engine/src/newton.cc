@@ -351,7 +351,8 @@ bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span
   if (!(ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * before))) {
     // Steps below kPolishFast of the tolerance that no longer shrink are round-off
     // (seed 27140: 2e-12 V at one node, step after step): more of them change nothing.
-    return ratio <= kPolishFast && ratio >= kPolishStalled * before;
+    // A step larger than the one before is no stall (seed 10099: 4e-11 then 4e-5).
+    return ratio <= kPolishFast && ratio >= kPolishStalled * before && ratio <= before;
   }
   // Each unknown to kPolishRelative of itself: the change the next step would make, at
   // most the last step times the rate the steps shrink at, below that or below the

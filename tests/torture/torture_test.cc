@@ -207,10 +207,11 @@ TEST(PotentialMethod, SolvesItsFormerFailures) {
 // junctions the classic loose-node run could not settle (5185), a 73 MOhm node whose
 // island was rooted beside a member carrying 11.5 A (14210, and 13233, 19508, 24538,
 // 31073 alike), and a potential-method polishing step rejected for a loose string's part
-// (17571).
+// (17571), a node the classic ladder's gmin exit left creeping 0.04 V a step (27140), and
+// a polishing step that grew 1e6-fold taken for a stall (10099).
 TEST(PotentialMethod, AgreesWithTheClassicLadderWhereThenTheyDiffered) {
   for (const uint64_t seed : {758u, 7828u, 4725u, 4912u, 35695u, 9045u, 5185u, 14210u, 13233u,
-                              19508u, 24538u, 31073u, 17571u}) {
+                              19508u, 24538u, 31073u, 17571u, 27140u, 10099u}) {
     ExpectBothConvergeAndAgree(seed);
   }
 }
