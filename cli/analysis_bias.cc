@@ -96,7 +96,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   account.max_newton_steps = summary.newton_steps;
   account.aids = summary.aids;
   account.method = SolverMethodName(summary.method, options.solver.junction_limiting);
-  account.unique = summary.unique;
+  account.unique = summary.unique && summary.status == SolveStatus::kConverged;
   account.max_kcl_residual = summary.max_kcl_residual;
   account.worst_node = summary.worst_node;
   account.faint_nodes = summary.faint_nodes;

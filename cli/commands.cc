@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <nlohmann/json.hpp>
 #include <string>
+#include <string_view>
 
 #include "analyses.h"
 #include "eng_format.h"
@@ -89,8 +90,13 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
   if (!options.quiet) {
     for (const AnalysisResult& r : results) {
       for (const PointFailure& f : r.report.failures) {
+        // The reason may itself begin with the status ("no solution: no DC solution: ...").
+        constexpr std::string_view kStatus = "no solution: ";
+        const std::string_view why = std::string_view(f.why).starts_with(kStatus)
+                                         ? std::string_view(f.why).substr(kStatus.size())
+                                         : std::string_view(f.why);
         fmt::print(stderr, "knee: no solution{}: {}\n", f.where.empty() ? "" : " at " + f.where,
-                   f.why);
+                   why);
       }
       for (const ExpectationCheck& e : r.report.expectations) {
         if (e.met) continue;

@@ -65,9 +65,10 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
       {"classic", knee::SolverMethod::kClassic}};
   solver
       ->add_option("--method", o->solver.method,
-                   "Bias solver: potential (line search on the network's potential; monotone "
-                   "networks), classic (default: junction limiting and the aid ladder), or auto "
-                   "(potential first when the network is monotone, classic if it fails)")
+                   "Bias solver: auto (default: the potential method when the network is "
+                   "monotone, the classic ladder otherwise or if it fails), potential (line "
+                   "search on the network's potential; monotone networks only) or classic "
+                   "(junction limiting and the aid ladder)")
       ->transform(CLI::CheckedTransformer(methods))
       ->type_name("auto|potential|classic");
 }

@@ -57,8 +57,12 @@ std::string Account(const Report& report) {
         "{} points, {} Newton steps ({:.2f} per point, at most {})", a.points, a.newton_steps,
         static_cast<double>(a.newton_steps) / static_cast<double>(a.points), a.max_newton_steps);
   }
-  std::string residual = fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
-  if (!a.worst_node.empty()) residual += " at " + a.worst_node;
+  // Every point failed: there is no solution whose residual could be reported.
+  const bool none_solved = !report.rows.empty() && report.failures.size() >= report.rows.size();
+  std::string residual = none_solved
+                             ? std::string("no solution to check")
+                             : fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
+  if (!none_solved && !a.worst_node.empty()) residual += " at " + a.worst_node;
   const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
   std::string out =
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);

@@ -305,10 +305,12 @@ std::optional<std::string> FindUnboundedCut(const Circuit& c) {
     const std::string nodes = NodeList(c, groups, in_set);
     std::string message = fmt::format(
         "no DC solution: current source{} {} {} a net {:.4g} A {} node{} {}",
-        sources.size() == 1 ? "" : "s", NameList(sources), raise ? "push" : "pull", pushed,
+        sources.size() == 1 ? "" : "s", NameList(sources),
+        sources.size() == 1 ? (raise ? "pushes" : "pulls") : (raise ? "push" : "pull"), pushed,
         raise ? "into" : "out of", nodes.find(',') == std::string::npos ? "" : "s", nodes);
     if (blocking.empty()) {
-      message += ", which have no other path";
+      message += nodes.find(',') == std::string::npos ? ", which has no other path"
+                                                      : ", which have no other path";
     } else {
       message += fmt::format(
           ", but the only other way {} is through diode{} {} without breakdown, in reverse, "

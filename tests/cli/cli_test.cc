@@ -76,6 +76,33 @@ TEST(Cli, SolverNameSaysWhetherJunctionLimitingRan) {
   EXPECT_EQ(json::parse(off.out)["solver"]["method"], "Newton-Raphson without junction limiting");
 }
 
+// A current source into a node whose only other way is a reverse diode without breakdown
+// has no DC solution (the diode carries at most its saturation current): by default knee
+// says so and why, before any Newton step, with exit status 1, whichever method is asked.
+TEST(Cli, NoSolutionIsFoundAndExplained) {
+  const char* pushed = R"(title "pushed"
+part Pd diode sat_current=1e-14
+isource Ipush gnd -> k 1m
+diode Dblock gnd -> k Pd
+)";
+  for (const char* method : {"", " --method classic", " --method potential"}) {
+    KneeRun run = RunKnee(std::string("bias -") + method, pushed);
+    EXPECT_EQ(run.status, 1) << method << "\n" << run.err;
+    EXPECT_NE(run.err.find("knee: no solution: no DC solution: current source 'Ipush' pushes a "
+                           "net 0.001 A into node 'k'"),
+              std::string::npos)
+        << method << "\n"
+        << run.err;
+    EXPECT_NE(run.err.find("'Dblock'"), std::string::npos) << run.err;
+    EXPECT_NE(run.out.find("0 Newton steps"), std::string::npos) << run.out;
+    EXPECT_NE(run.out.find("no solution to check"), std::string::npos) << run.out;
+    EXPECT_EQ(run.out.find("unique"), std::string::npos) << run.out;
+  }
+  KneeRun json_run = RunKnee("bias - --format json", pushed);
+  EXPECT_EQ(json_run.status, 1);
+  EXPECT_FALSE(json::parse(json_run.out)["solver"]["unique"].get<bool>());
+}
+
 TEST(Cli, BiasJsonAgreesWithLambertW) {
   KneeRun run = RunKnee("bias - --format json --show D1.i,k.v", kSingleDiode);
   ASSERT_EQ(run.status, 0) << run.err;

@@ -84,12 +84,27 @@ TEST(Newton, SingularJacobianIsReportedNotHidden) {
   const NewtonOutcome out = newton.Run({}, "newton", x, nullptr);
   EXPECT_EQ(out.exit, NewtonExit::kSingular);
   EXPECT_NE(out.detail.find("singular"), std::string::npos) << out.detail;
-  // Through the BiasSolver: gmin makes the aided system regular, but the final plain run
-  // on the exact model is singular again, and that is what is reported.
+  // Through the BiasSolver, by default: the current source into the floating pair has no
+  // way out, which the network's topology tells before any step, with the reason.
   auto solver = BiasSolver::Create(b.circuit(), {});
   ASSERT_TRUE(solver.ok());
   Solution s;
-  EXPECT_EQ((*solver)->Solve(&s).status, SolveStatus::kSingularMatrix);
+  const SolveSummary found = (*solver)->Solve(&s);
+  EXPECT_EQ(found.status, SolveStatus::kNoSolution);
+  EXPECT_EQ(found.newton_steps, 0);
+  EXPECT_NE(found.detail.find("'I1'"), std::string::npos) << found.detail;
+  EXPECT_NE(found.detail.find("nodes 'x', 'y', which have no other path"), std::string::npos)
+      << found.detail;
+  EXPECT_FALSE(found.unique);
+  // With the ladder and the topology check out of the way (a negative resistor makes the
+  // network non-monotone): gmin makes the aided system regular, but the final plain run
+  // on the exact model is singular again, and that is what is reported.
+  b.R("Rneg", "a", "gnd", -1e6);
+  SolverOptions classic;
+  classic.method = SolverMethod::kClassic;
+  auto ladder = BiasSolver::Create(b.circuit(), classic);
+  ASSERT_TRUE(ladder.ok());
+  EXPECT_EQ((*ladder)->Solve(&s).status, SolveStatus::kSingularMatrix);
 }
 
 // KLU on a 3x3 system with a known solution (checked by substitution).

@@ -302,8 +302,7 @@ TEST(PotentialMethod, UnboundedOnlyBeyondTheReverseLimit) {
 // Method selection and validation.
 TEST(PotentialMethod, OptionsAndSelection) {
   SolverOptions o;
-  EXPECT_EQ(o.method,
-            SolverMethod::kClassic);  // the default until the potential method meets its goal
+  EXPECT_EQ(o.method, SolverMethod::kAuto);  // the potential method where it applies
   o.method = static_cast<SolverMethod>(7);
   const auto problem = Validate(o);
   ASSERT_TRUE(problem);
