@@ -348,6 +348,7 @@ void PotentialSolver::SizeVectors() {
   dx_.assign(size_, 0.0);
   step_.assign(size_, 0.0);
   base_.assign(size_, 0.0);
+  last_step_.assign(size_, 0.0);
   noise_.assign(size_, 0.0);
   faint_.assign(size_, 0);
   branch_dv_.assign(size_ - static_cast<size_t>(mna_->kcl_rows()), 0.0);
@@ -542,7 +543,9 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   ToleranceCheck update;
   update.index = 0;
-  update.value = 1.0;  // no update yet: not settled
+  update.value = 1.0;     // no update yet: not settled
+  bool creeping = false;  // the last full step repeated the one before (kCreepRepeat)
+  std::fill(last_step_.begin(), last_step_.end(), 0.0);
   for (int step = 1; step <= options_.max_newton_steps; ++step) {
     outcome.steps = step;
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
@@ -628,12 +631,14 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       ok = accepted.finite;
     } else {
       const double merit0 = ResidualMerit(*mna_, options_);
+      const double curvature = creeping ? kCreepCurvature : kCurvatureFraction;
       ok = LineSearch(slope0, slope_roundoff, before, before_magnitude, merit0,
-                      std::max(kExponentCap, base_exponent), x, &t, &trials, &accepted);
+                      std::max(kExponentCap, base_exponent), curvature, x, &t, &trials, &accepted);
       if (!ok) {
         int more = 0;
-        ok = LineSearch(slope0, slope_roundoff, before, before_magnitude, merit0,
-                        std::numeric_limits<double>::infinity(), x, &t, &more, &accepted);
+        ok =
+            LineSearch(slope0, slope_roundoff, before, before_magnitude, merit0,
+                       std::numeric_limits<double>::infinity(), curvature, x, &t, &more, &accepted);
         trials += more;
       }
     }
@@ -674,6 +679,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       shift_ = shift_ / kShiftGrowth < kFirstShift ? 0.0 : shift_ / kShiftGrowth;
     }
     SetFloor(t < kShortStep, x);
+    creeping = t == 1.0 && feasible && Repeats();
     // The update actually taken (the multipliers move whole unless no step was taken).
     for (size_t i = 0; i < step_.size(); ++i) step_[i] *= i < kcl || t == 0.0 ? t : 1.0;
     potential = accepted.potential;
@@ -732,10 +738,21 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
 // phi'(t) <= c1*phi'(0) proves phi(t) <= phi(0) + c1*t*phi'(0) without subtracting two
 // nearly equal potentials. If the budget of trials runs out, the longest step known to
 // satisfy sufficient decrease is taken.
+bool PotentialSolver::Repeats() {
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+  const double largest = MaxAbs(step_, kcl);
+  bool same = largest > 0.0;
+  for (size_t i = 0; i < kcl; ++i) {
+    same = same && std::fabs(step_[i] - last_step_[i]) <= kCreepRepeat * largest;
+    last_step_[i] = step_[i];
+  }
+  return same;
+}
+
 bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double before,
                                  double before_magnitude, double merit0, double exponent_cap,
-                                 std::span<double> x, double* t_out, int* trials_out,
-                                 Trial* accepted) {
+                                 double curvature, std::span<double> x, double* t_out,
+                                 int* trials_out, Trial* accepted) {
   const auto roundoff = [&](const Trial& tr) {
     return MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
   };
@@ -770,7 +787,7 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
       return true;
     }
     if (trial.finite && trial.max_exponent <= exponent_cap && decreases(trial, t)) {
-      if (trial.slope >= kCurvatureFraction * slope0) {  // flattened (or past the minimum)
+      if (trial.slope >= curvature * slope0) {  // flattened (or past the minimum)
         *accepted = trial;
         *t_out = t;
         *trials_out = trials;
@@ -787,8 +804,8 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
       // Only failures so far: shorten, by quadratic interpolation of phi(0), phi'(0) and
       // phi(t) where that is finite, within [0.1 t, 0.5 t] (Nocedal and Wright, ch. 3).
       const double change = trial.potential - before;
-      const double curvature = 2.0 * (change - slope0 * t);
-      const double guess = trial.finite && curvature > 0.0 ? -slope0 * t * t / curvature : 0.1 * t;
+      const double bend = 2.0 * (change - slope0 * t);
+      const double guess = trial.finite && bend > 0.0 ? -slope0 * t * t / bend : 0.1 * t;
       t = std::clamp(guess, 0.1 * t, 0.5 * t);
     } else {
       t = hi > 4.0 * lo ? std::sqrt(lo * hi) : 0.5 * (lo + hi);
