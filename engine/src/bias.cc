@@ -284,6 +284,7 @@ struct BiasSolver::Impl {
   // residual's round-off allowance (rounding = true) move by more than the voltage
   // tolerance; *scale is the factor on the current tolerance that would fix them.
   std::vector<int> LooseNodes(const SolverOptions& o, bool rounding, double* scale);
+  std::vector<int> UntiedNodes(const SolverOptions& o, bool rounding);
 };
 
 // A loose node: KCL at the current tolerance does not fix its voltage to the voltage
@@ -329,10 +330,12 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
     solved = probe && probe->Factor(mna.values()) == LinearStatus::kOk && solve_spread(*probe);
   }
   if (!solved) {
+    *scale = 0.0;
+    loose = UntiedNodes(o, rounding);
+    if (!loose.empty()) return loose;
     for (int r = 0; r < mna.kcl_rows(); ++r) {
       if (!mna.IsSourceRow(r)) loose.push_back(r);  // singular: nothing is known to be fixed
     }
-    *scale = 0.0;
     return loose;
   }
   for (int u = 0; u < mna.kcl_rows(); ++u) {
@@ -375,6 +378,75 @@ void BiasSolver::Impl::RerootIslands(SolveSummary* s) {
   const NewtonOutcome out = Run(AssemblyAids{}, "newton (island roots)", s);
   factors_exact = out.exit == NewtonExit::kConverged && newton.exact_factors();
   if (out.exit != NewtonExit::kConverged) x = saved;
+}
+
+// A Jacobian singular at x has a junction conductance that underflowed to 0 (a node
+// between matched saturated junctions: exp(-4000) is 0). Which voltages that leaves
+// undetermined is read from the network's graph rather than from a shifted solve (a
+// shift holds the null space by itself; see docs/solver.md, "Known gaps"): an element
+// ties its two nodes when its conductance g at x moves either node by less than its
+// voltage tolerance under the current uncertainty of the test (the current tolerance, or
+// the rounding of the node's largest current with `rounding`): g * tol_v >= that
+// current. Voltage sources always tie. The loose nodes are those no chain of ties joins
+// to gnd; none found (a singularity of another cause) leaves the caller naming all.
+std::vector<int> BiasSolver::Impl::UntiedNodes(const SolverOptions& o, bool rounding) {
+  const size_t nodes = circuit->nodes.size();
+  std::vector<double> largest(nodes, 0.0);  // largest element current at each node
+  const auto each_element = [&](const auto& fn) {
+    mna.devices().Measure(x, [&](int element, const internal::DeviceReport& r) {
+      fn(circuit->elements[static_cast<size_t>(element)], r);
+    });
+  };
+  each_element([&](const Element& e, const internal::DeviceReport& r) {
+    for (int n : {e.node_a, e.node_b}) {
+      largest[static_cast<size_t>(n)] =
+          std::max(largest[static_cast<size_t>(n)], std::fabs(r.current));
+    }
+  });
+  std::vector<int> parent(nodes);
+  for (size_t n = 0; n < nodes; ++n) parent[n] = static_cast<int>(n);
+  const auto find = [&](int n) {
+    while (parent[static_cast<size_t>(n)] != n)
+      n = parent[static_cast<size_t>(n)] =
+          parent[static_cast<size_t>(parent[static_cast<size_t>(n)])];
+    return n;
+  };
+  const auto uncertainty = [&](int n) {
+    const double i = largest[static_cast<size_t>(n)];
+    return rounding ? MnaSystem::kRoundOffFactor * i : o.abs_current_tol + o.rel_tol * i;
+  };
+  const auto tolerance = [&](int n) {
+    return n == kGroundNode
+               ? HUGE_VAL
+               : o.abs_voltage_tol +
+                     o.rel_tol * std::fabs(x[static_cast<size_t>(internal::UnknownOfNode(n))]);
+  };
+  each_element([&](const Element& e, const internal::DeviceReport& r) {
+    double g = 0.0;
+    switch (e.kind) {
+      case ElementKind::kResistor:
+        g = 1.0 / std::fabs(e.value);
+        break;
+      case ElementKind::kVoltageSource:
+        g = HUGE_VAL;
+        break;
+      case ElementKind::kCurrentSource:
+        return;
+      case ElementKind::kDiode:
+        g = 1.0 / r.small_signal_res;
+        break;
+    }
+    const bool ties = g * std::min(tolerance(e.node_a), tolerance(e.node_b)) >=
+                      std::max(uncertainty(e.node_a), uncertainty(e.node_b));
+    if (ties) parent[static_cast<size_t>(find(e.node_a))] = find(e.node_b);
+  });
+  std::vector<int> loose;
+  const int grounded = find(kGroundNode);
+  for (size_t n = 1; n < nodes; ++n) {
+    if (find(static_cast<int>(n)) != grounded)
+      loose.push_back(internal::UnknownOfNode(static_cast<int>(n)));
+  }
+  return loose;
 }
 
 void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {

@@ -329,5 +329,36 @@ TEST(PotentialMethod, OptionsAndSelection) {
   EXPECT_FALSE(classic.unique);
 }
 
+// A node between two matched junctions reverse biased by 4 kV in all: each junction's
+// current is -Is in double precision whatever the split (exp(-4000/(n Vt)) is below the
+// smallest double, 4.9e-324: IEEE 754-2008 binary64), so its voltage is undetermined
+// and the Jacobian singular there. Only that node is named; the nodes that resistors
+// and a forward junction hold are not (before, a singular Jacobian named every node).
+TEST(LooseNodes, SingularJacobianNamesOnlyTheUntiedNode) {
+  CircuitBuilder b;
+  DiodeModel model;
+  model.sat_current = 1e-12;
+  model.ideality = 1.0;
+  const int part = b.Part("P", model);
+  b.V("V1", "hv", "gnd", 4000.0);
+  b.R("R1", "hv", "top", 0.01);
+  b.D("Dup", "mid", "top", part);    // reverse
+  b.D("Ddown", "gnd", "mid", part);  // reverse
+  b.V("V2", "s", "gnd", 5.0);
+  b.R("R2", "s", "a", 1e3);
+  b.D("Dfwd", "a", "gnd", part);
+  for (const SolverMethod method : {SolverMethod::kClassic, SolverMethod::kPotential}) {
+    Solution s;
+    const SolveSummary summary = SolveWith(b.circuit(), method, &s);
+    ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
+    ASSERT_EQ(summary.faint_nodes.size(), 1u) << ToString(method);
+    EXPECT_EQ(summary.faint_nodes[0], "mid");
+    // Each junction carries -Is (the contract's law, reverse saturation); KCL at "mid"
+    // holds whatever its voltage.
+    EXPECT_CLOSE(s.element_current[2], -1e-12, 1e-9, 0.0);
+    EXPECT_CLOSE(s.element_current[3], -1e-12, 1e-9, 0.0);
+  }
+}
+
 }  // namespace
 }  // namespace knee
