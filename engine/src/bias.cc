@@ -462,6 +462,12 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   // junctions balances the last e^-14 of their currents, 1e-6 of them, which rel_tol's
   // 1e-6 of its largest current does not resolve (torture seed 37532: 5.8 mV of 108 V).
   tight.rel_tol = std::min(options.rel_tol, kFaintRelTol);
+  // Which nodes are loose is still judged against the solve's own voltage tolerance.
+  const auto judged = [&] {
+    SolverOptions o = tight;
+    o.rel_tol = options.rel_tol;
+    return o;
+  };
   saved = x;
   bool kept = false;
   // Where plain Newton does not settle a monotone network's loose nodes (a string of
@@ -508,7 +514,7 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
       break;
     }
     saved = x;
-    loose = LooseNodes(tight, /*rounding=*/false, &scale);
+    loose = LooseNodes(judged(), /*rounding=*/false, &scale);
   }
   s->faint_tolerance = tight.abs_current_tol;
   std::vector<int> still = loose;
@@ -517,7 +523,7 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
     // the voltage tolerance (|J^-1 a|, a the round-off allowance): there the equations do
     // not fix the voltage in double precision.
     double ignored = 1.0;
-    still = LooseNodes(tight, /*rounding=*/true, &ignored);
+    still = LooseNodes(judged(), /*rounding=*/true, &ignored);
   }
   for (int u : still) s->faint_nodes.push_back(mna.UnknownName(u));
 }
