@@ -391,13 +391,22 @@ bool PotentialSolver::Feasible() const {
 // multipliers of the constraints take the full Newton estimate unless t = 0), then one
 // assembly pass
 // that gives the Jacobian, the residual and the potential.
+// The multipliers (the voltage sources' currents) move whole with any real step: they
+// do not enter the potential, and the Newton direction gives them for the whole step.
+// Not with a step shorter than kShortStep: that direction came from a nearly singular
+// Hessian, and its multiplier part with it (torture seed 45349: 3e74 A taken whole with
+// t = 1e-207 left every later trial at that residual, 200 steps with no move); t = 0 is
+// no step at all.
+namespace {
+double MultiplierFraction(double t) { return t >= kShortStep ? 1.0 : t; }
+}  // namespace
+
 PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, double t,
                                                  std::span<double> x) {
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   bool inside = true;
   for (size_t i = 0; i < x.size(); ++i) {
-    // (t = 0 is no step: the multipliers stay too)
-    x[i] = base[i] + (i < kcl || t == 0.0 ? t : 1.0) * step_[i];
+    x[i] = base[i] + (i < kcl ? t : MultiplierFraction(t)) * step_[i];
     if (i < kcl && !(std::fabs(x[i]) <= voltage_bound_)) inside = false;
   }
   AssemblyAids aids;
@@ -671,17 +680,17 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     // and Wright ch. 3.4, recalled from memory); the potential, the line search and the
     // convergence tests stay those of the exact model. A full step switches it off again,
     // so the last steps are exact Newton steps.
-    if (t == 0.0 && !residual.passed()) {
-      // The direction gave no step although KCL does not hold: the next one is turned
-      // towards steepest descent.
+    if (t < kTinyStep && !residual.passed() && (t == 0.0 || floor_)) {
+      // The direction gave no step (or a vanishing one, even with the junction floor)
+      // although KCL does not hold: the next one is turned towards steepest descent.
       shift_ = shift_ == 0.0 ? kFirstShift : std::min(shift_ * kShiftGrowth, kLastShift);
     } else if (t > 0.0) {
       shift_ = shift_ / kShiftGrowth < kFirstShift ? 0.0 : shift_ / kShiftGrowth;
     }
     SetFloor(t < kShortStep, x);
     creeping = t == 1.0 && feasible && Repeats();
-    // The update actually taken (the multipliers move whole unless no step was taken).
-    for (size_t i = 0; i < step_.size(); ++i) step_[i] *= i < kcl || t == 0.0 ? t : 1.0;
+    // The update actually taken (the multipliers as in Evaluate).
+    for (size_t i = 0; i < step_.size(); ++i) step_[i] *= i < kcl ? t : MultiplierFraction(t);
     potential = accepted.potential;
     potential_magnitude = accepted.potential_magnitude;
     base_exponent = accepted.max_exponent;

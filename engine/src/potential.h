@@ -79,6 +79,9 @@ inline constexpr double kExponentCap = 70.0;
 // A step shorter than this fraction of the Newton step switches the Hessian modification
 // on for the next direction (PotentialSolver::Run).
 inline constexpr double kShortStep = 1e-3;
+// A step shorter than this, taken with the junction floor already on, also grows the
+// diagonal shift (torture seed 58780: t = 1e-13 step after step, 200 steps at the start).
+inline constexpr double kTinyStep = 1e-8;
 // The diagonal shift of the Hessian (PotentialSolver::SolveStep): its first value, its
 // growth per direction that gave no step, and its largest value.
 inline constexpr double kFirstShift = 1e-12;  // S
