@@ -22,6 +22,14 @@ class CircuitBuilder {
     circuit_.parts.push_back({name, model, {}});
     return static_cast<int>(circuit_.parts.size()) - 1;
   }
+  // A part with only a saturation current and an ideality (no series resistance, no
+  // breakdown).
+  int Part(const std::string& name, double sat_current, double ideality) {
+    DiodeModel model;
+    model.sat_current = sat_current;
+    model.ideality = ideality;
+    return Part(name, model);
+  }
   int Add(ElementKind kind, const std::string& name, const std::string& a, const std::string& b,
           double value, int part = -1, double area = 1.0) {
     Element e;

@@ -179,10 +179,7 @@ std::vector<Circuit> HardCircuits() {
   }
   {
     CircuitBuilder b;
-    DiodeModel m;
-    m.sat_current = 1e-30;
-    m.ideality = 1.0;
-    const int part = b.Part("T", m);
+    const int part = b.Part("T", 1e-30, 1.0);
     b.V("V1", "a", "gnd", 50.0);
     b.R("R1", "a", "b", 100.0);
     b.D("D1", "b", "c", part);
@@ -336,10 +333,7 @@ TEST(PotentialMethod, OptionsAndSelection) {
 // and a forward junction hold are not (before, a singular Jacobian named every node).
 TEST(LooseNodes, SingularJacobianNamesOnlyTheUntiedNode) {
   CircuitBuilder b;
-  DiodeModel model;
-  model.sat_current = 1e-12;
-  model.ideality = 1.0;
-  const int part = b.Part("P", model);
+  const int part = b.Part("P", 1e-12, 1.0);
   b.V("V1", "hv", "gnd", 4000.0);
   b.R("R1", "hv", "top", 0.01);
   b.D("Dup", "mid", "top", part);    // reverse
