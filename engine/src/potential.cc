@@ -387,20 +387,19 @@ bool PotentialSolver::Feasible() const {
   return true;
 }
 
-// x = base + t*dv for the node voltages and base + dk for the source currents (the
-// multipliers of the constraints take the full Newton estimate unless t = 0), then one
-// assembly pass
-// that gives the Jacobian, the residual and the potential.
-// The multipliers (the voltage sources' currents) move whole with any real step: they
-// do not enter the potential, and the Newton direction gives them for the whole step.
-// Not with a step shorter than kShortStep: that direction came from a nearly singular
-// Hessian, and its multiplier part with it (torture seed 45349: 3e74 A taken whole with
-// t = 1e-207 left every later trial at that residual, 200 steps with no move); t = 0 is
-// no step at all.
 namespace {
+// The share of the Newton direction's multiplier part (the voltage sources' currents)
+// that a step of length t takes: all of it for any real step, since the multipliers do
+// not enter the potential and the direction gives them for the whole step; t itself
+// below kShortStep, where the direction came from a nearly singular Hessian and its
+// multiplier part with it (torture seed 45349: 3e74 A taken whole with t = 1e-207 left
+// every later trial at that residual, 200 steps with no move); none for t = 0.
 double MultiplierFraction(double t) { return t >= kShortStep ? 1.0 : t; }
 }  // namespace
 
+// x = base + t*dv for the node voltages and base + MultiplierFraction(t)*dk for the
+// source currents, then one assembly pass that gives the Jacobian, the residual and the
+// potential.
 PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, double t,
                                                  std::span<double> x) {
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
@@ -734,6 +733,17 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
   return outcome;
 }
 
+bool PotentialSolver::Repeats() {
+  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
+  const double largest = MaxAbs(step_, kcl);
+  bool same = largest > 0.0;
+  for (size_t i = 0; i < kcl; ++i) {
+    same = same && std::fabs(step_[i] - last_step_[i]) <= kCreepRepeat * largest;
+    last_step_[i] = step_[i];
+  }
+  return same;
+}
+
 // A line search for the weak Wolfe conditions (Nocedal and Wright, ch. 3: Armijo's
 // sufficient decrease, Armijo 1966, and the curvature condition phi'(t) >= c2 phi'(0);
 // the bracketing and zoom phases of their Algorithms 3.5 and 3.6, recalled from memory,
@@ -747,17 +757,6 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
 // phi'(t) <= c1*phi'(0) proves phi(t) <= phi(0) + c1*t*phi'(0) without subtracting two
 // nearly equal potentials. If the budget of trials runs out, the longest step known to
 // satisfy sufficient decrease is taken.
-bool PotentialSolver::Repeats() {
-  const auto kcl = static_cast<size_t>(mna_->kcl_rows());
-  const double largest = MaxAbs(step_, kcl);
-  bool same = largest > 0.0;
-  for (size_t i = 0; i < kcl; ++i) {
-    same = same && std::fabs(step_[i] - last_step_[i]) <= kCreepRepeat * largest;
-    last_step_[i] = step_[i];
-  }
-  return same;
-}
-
 bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double before,
                                  double before_magnitude, double merit0, double exponent_cap,
                                  double curvature, std::span<double> x, double* t_out,
