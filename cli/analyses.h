@@ -45,4 +45,8 @@ const char* SolverMethodName(const SolverOptions& options);
 // The classic solver's name says whether junction limiting was on (--no-limiting).
 const char* SolverMethodName(SolverMethod method, bool junction_limiting = true);
 
+// The solver's account of one bias-point solve: the one place that turns a SolveSummary
+// into the report footer, so that every command that solves one point says the same.
+SolverAccount BiasPointAccount(const SolveSummary& summary, const SolverOptions& options);
+
 }  // namespace knee::cli

@@ -57,6 +57,21 @@ const char* SolverMethodName(SolverMethod method, bool junction_limiting) {
   return "Newton-Raphson";
 }
 
+SolverAccount BiasPointAccount(const SolveSummary& summary, const SolverOptions& options) {
+  SolverAccount account;
+  account.points = 1;
+  account.newton_steps = summary.newton_steps;
+  account.max_newton_steps = summary.newton_steps;
+  account.aids = summary.aids;
+  account.method = SolverMethodName(summary.method, options.junction_limiting);
+  account.unique = summary.unique && summary.status == SolveStatus::kConverged;
+  account.max_kcl_residual = summary.max_kcl_residual;
+  account.worst_node = summary.worst_node;
+  account.faint_nodes = summary.faint_nodes;
+  account.current_tol = options.abs_current_tol;
+  return account;
+}
+
 Report StartReport(const LoadedDesign& loaded, const char* analysis) {
   Report report;
   report.title = loaded.design->circuit.title;
@@ -77,7 +92,6 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   const std::vector<StressCheck> checks = CollectStressChecks(circuit, derate);
   StressRecorder stress(checks, 1);
   AddStressColumns(checks, circuit, &report);
-  report.account.method = SolverMethodName(options.solver);
 
   Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options.solver);
   if (!solver) {
@@ -90,17 +104,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   SolveSummary summary = (*solver)->Solve(&solution);
   if (options.trace) PrintTrace(**solver);
 
-  SolverAccount& account = report.account;
-  account.points = 1;
-  account.newton_steps = summary.newton_steps;
-  account.max_newton_steps = summary.newton_steps;
-  account.aids = summary.aids;
-  account.method = SolverMethodName(summary.method, options.solver.junction_limiting);
-  account.unique = summary.unique && summary.status == SolveStatus::kConverged;
-  account.max_kcl_residual = summary.max_kcl_residual;
-  account.worst_node = summary.worst_node;
-  account.faint_nodes = summary.faint_nodes;
-  account.current_tol = options.solver.abs_current_tol;
+  report.account = BiasPointAccount(summary, options.solver);
 
   std::vector<double> row(report.columns.size(), kNaN);
   if (summary.status == SolveStatus::kConverged) {

@@ -130,15 +130,7 @@ int RunHand(const std::string& file, AnalysisOptions options) {
   report.title = circuit.title;
   report.file = loaded->file;
   report.temp = circuit.temp;
-  report.account.method = SolverMethodName(options.solver);
-  report.account.points = 1;
-  report.account.newton_steps = summary.newton_steps;
-  report.account.max_newton_steps = summary.newton_steps;
-  report.account.aids = summary.aids;
-  report.account.max_kcl_residual = summary.max_kcl_residual;
-  report.account.worst_node = summary.worst_node;
-  report.account.faint_nodes = summary.faint_nodes;
-  report.account.current_tol = options.solver.abs_current_tol;
+  report.account = BiasPointAccount(summary, options.solver);
   if (!exact_ok) {
     report.exact_failure = fmt::format("{}: {}", ToString(summary.status), summary.detail);
     outcome.point_failed = true;

@@ -172,5 +172,19 @@ TEST(Hand, FitAtGivesTangentModel) {
             0.01 * std::fabs(Cell(j, "drop", "pin.v") - exact));
 }
 
+// One account for every command: `knee hand` and `knee bias` on the same file say the same
+// about the solver (method, uniqueness, steps, residual).
+TEST(Hand, SolverAccountMatchesBias) {
+  for (const char* file : {"diode-or.knee", "input-clamp.knee", "bridge-rectifier.knee"}) {
+    KneeRun hand = RunKnee("hand " + Netlist(file) + " --format json");
+    KneeRun bias = RunKnee("bias " + Netlist(file) + " --format json");
+    ASSERT_EQ(hand.status, 0) << hand.err;
+    ASSERT_EQ(bias.status, 0) << bias.err;
+    const nlohmann::json h = nlohmann::json::parse(hand.out)["solver"];
+    const nlohmann::json b = nlohmann::json::parse(bias.out)["solver"];
+    EXPECT_EQ(h, b) << file << "\nhand: " << h.dump() << "\nbias: " << b.dump();
+  }
+}
+
 }  // namespace
 }  // namespace knee::testing
