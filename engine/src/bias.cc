@@ -145,8 +145,9 @@ AssemblyAids WithSourceScale(double scale) {
 
 // The most voltage the junctions can hold, summed: each junction's law spans at most
 // kJunctionExponents thermal scales on either side (beyond it the exponential is 0 or
-// above 1e300 A), plus the breakdown voltage. With the sources' volts and the current
-// sources' amps times every resistance, it bounds |node voltage| in a network of
+// above 1e300 A), or from zero bias up to where its term leaves the doubles when that is
+// further (ln(area*Is(T)) of -3000 at 4 K), plus the breakdown voltage. With the sources' volts and
+// the current sources' amps times every resistance, it bounds |node voltage| in a network of
 // increasing laws (a node above that bound would have every current flowing out of it),
 // in the manner of the maximum principle for resistor networks (common practice, no
 // source); the clamp uses it with a wide margin.
@@ -156,7 +157,7 @@ double JunctionSpan(const Circuit& c) {
     if (e.kind != ElementKind::kDiode) continue;
     const DiodeConstants d =
         ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
-    span += kJunctionExponents * d.n_vt;
+    span += std::max(kJunctionExponents, kLogDoubleMax - d.log_is) * d.n_vt;
     if (d.has_breakdown) span += std::fabs(d.vbr) + kJunctionExponents * d.nbr_vt;
   }
   return std::isfinite(span) ? span : 0.0;
