@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "check.h"
+#include "forced_junctions.h"
 #include "klu_solver.h"
 #include "knee/solver.h"
 #include "linear_refine.h"
@@ -186,6 +187,9 @@ struct BiasSolver::Impl {
   // monotone, and why a monotone one has no solution, when so.
   std::optional<std::string> non_monotone;
   std::optional<std::string> unbounded;
+  // Junctions that voltage sources alone hold (their current is checked at every Solve,
+  // against the sources' values then).
+  std::vector<internal::ForcedJunction> forced;
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
@@ -213,6 +217,7 @@ struct BiasSolver::Impl {
     non_monotone = internal::NonMonotoneReason(*circuit);
     unbounded.reset();
     if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
+    forced = internal::FindForcedJunctions(*circuit);
     junction_span = JunctionSpan(*circuit);
   }
 
@@ -736,6 +741,16 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
     s.unique = false;
     s.status = SolveStatus::kNoSolution;
     s.detail = *m.unbounded;
+    return s;
+  }
+  // A junction across sources with no resistance carries whatever the law gives at the
+  // sources' voltage: beyond any diode (or the doubles) it is said so before any step,
+  // instead of a number no circuit produces (3.3e70 A for 1e-14 A across 5 V).
+  if (auto problem = internal::ForcedJunctionProblem(*m.circuit, m.forced)) {
+    s.method = method == SolverMethod::kClassic ? SolverMethod::kClassic : SolverMethod::kPotential;
+    s.unique = false;
+    s.status = SolveStatus::kOutOfRange;
+    s.detail = std::move(*problem);
     return s;
   }
   // From a warm start (a neighbouring sweep point's solution) Newton is already in its

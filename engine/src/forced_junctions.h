@@ -1,0 +1,39 @@
+// Junctions that the voltage sources alone hold: a diode without series resistance whose
+// two nodes are joined by a chain of voltage sources. Its junction voltage is the sum of
+// those sources, whatever the rest of the network does, and nothing in the circuit
+// limits its current but the law itself. See docs/solver.md, "Junctions across sources".
+#pragma once
+
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "knee/circuit.h"
+
+namespace knee::internal {
+
+// A current a forced junction may carry before the circuit counts as beyond the model:
+// 1 MA, ten times the surge rating of the largest press-pack rectifiers (recalled from
+// memory; common practice, no source). Its voltage is then fixed past the law's range of
+// meaning (a 1e-14 A junction across 5 V would carry 3.3e70 A).
+inline constexpr double kMaxForcedCurrent = 1e6;  // A
+
+struct ForcedJunction {
+  int diode = -1;  // element index
+  // The voltage sources of the chain from anode to cathode, each with the sign of its
+  // value in the junction voltage: vj = sum of sign * value.
+  std::vector<std::pair<int, double>> sources;
+};
+
+// Every forced junction of the circuit (a structural property: it holds for any source
+// values, so a sweep of a supply finds them once).
+std::vector<ForcedJunction> FindForcedJunctions(const Circuit& circuit);
+
+// The first forced junction whose current at the circuit's source values exceeds
+// kMaxForcedCurrent, or does not fit a double, said as what the circuit does:
+// "D1 is across V1 with no resistance: its current would be 3.3e70 A; ...".
+std::optional<std::string> ForcedJunctionProblem(const Circuit& circuit,
+                                                 const std::vector<ForcedJunction>& forced);
+
+}  // namespace knee::internal
