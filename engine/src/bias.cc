@@ -190,6 +190,8 @@ struct BiasSolver::Impl {
   // Junctions that voltage sources alone hold (their current is checked at every Solve,
   // against the sources' values then).
   std::vector<internal::ForcedJunction> forced;
+  // A part whose saturation current at its temperature is beyond any diode's.
+  std::optional<std::string> absurd_saturation;
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
@@ -218,6 +220,7 @@ struct BiasSolver::Impl {
     unbounded.reset();
     if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
     forced = internal::FindForcedJunctions(*circuit);
+    absurd_saturation = internal::OutOfRangeSaturation(*circuit);
     junction_span = JunctionSpan(*circuit);
   }
 
@@ -746,7 +749,9 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
   // A junction across sources with no resistance carries whatever the law gives at the
   // sources' voltage: beyond any diode (or the doubles) it is said so before any step,
   // instead of a number no circuit produces (3.3e70 A for 1e-14 A across 5 V).
-  if (auto problem = internal::ForcedJunctionProblem(*m.circuit, m.forced)) {
+  std::optional<std::string> problem = m.absurd_saturation;
+  if (!problem) problem = internal::ForcedJunctionProblem(*m.circuit, m.forced);
+  if (problem) {
     s.method = method == SolverMethod::kClassic ? SolverMethod::kClassic : SolverMethod::kPotential;
     s.unique = false;
     s.status = SolveStatus::kOutOfRange;

@@ -26,6 +26,13 @@ struct ForcedJunction {
   std::vector<std::pair<int, double>> sources;
 };
 
+// The first diode whose saturation current at its temperature, area*Is(T), exceeds
+// kMaxForcedCurrent: its reverse leakage alone is more than any diode carries (a 2.3e-11 A
+// part with a 2.98 eV bandgap and n = 0.87 reaches 3e18 A at 290 C by the temperature
+// law), and conductances of 1e19 S leave the network's equations unresolvable in double
+// precision. Said as what the part does, or nothing.
+std::optional<std::string> OutOfRangeSaturation(const Circuit& circuit);
+
 // Every forced junction of the circuit (a structural property: it holds for any source
 // values, so a sweep of a supply finds them once).
 std::vector<ForcedJunction> FindForcedJunctions(const Circuit& circuit);
