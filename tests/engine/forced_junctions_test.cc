@@ -135,5 +135,36 @@ TEST(ForcedJunction, SilentBelowTheLimitOrWithResistance) {
   }
 }
 
+// A part whose saturation current at its temperature is beyond any diode's: out of range,
+// with the part's numbers; the same part at 25 degC is an ordinary (if leaky) junction.
+TEST(OutOfRangeSaturation, FiresAtFourHundredDegreesAndNotAtRoomTemperature) {
+  DiodeModel m;
+  m.sat_current = 1e-6;
+  m.ideality = 0.5;
+  m.bandgap = 0.66;
+  m.sat_temp_exp = 3.0;
+  m.ref_temp = 25.0;
+  for (const double temp : {400.0, 25.0}) {
+    CircuitBuilder b(temp);
+    const int part = b.Part("Leaky", m);
+    b.V("V1", "s", "gnd", 1.0);
+    b.R("R1", "s", "a", 1e3);
+    b.D("D1", "a", "gnd", part);
+    Solution s;
+    const SolveSummary summary = SolveWith(b.circuit(), SolverMethod::kAuto, &s);
+    if (temp == 400.0) {
+      EXPECT_EQ(summary.status, SolveStatus::kOutOfRange);
+      // The contract's temperature law (4), written out with mpmath in 50 digits:
+      // 1e-6 A * (673.15/298.15)^6 * exp(0.66 / (0.5 * Vt(298.15 K)) * (1 - 298.15/673.15))
+      // = 3.56e8 A.
+      EXPECT_NE(summary.detail.find("diode D1 (part Leaky) has a saturation current of 3.6e8 A"),
+                std::string::npos)
+          << summary.detail;
+    } else {
+      EXPECT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
+    }
+  }
+}
+
 }  // namespace
 }  // namespace knee
