@@ -54,10 +54,10 @@ def vt(temp_c):
     return K * (mpf(temp_c) + ZERO_C) / Q
 
 
-def sat_current(is0, n, eg, xti, t0_c, temp_c):
+def sat_current(is0, n, eg, temp_exp, t0_c, temp_c):
     t = mpf(temp_c) + ZERO_C
     t0 = mpf(t0_c) + ZERO_C
-    return mpf(is0) * (t / t0) ** (mpf(xti) / n) * exp(mpf(eg) / (n * vt(t0_c)) * (1 - t0 / t))
+    return mpf(is0) * (t / t0) ** (mpf(temp_exp) / n) * exp(mpf(eg) / (n * vt(t0_c)) * (1 - t0 / t))
 
 
 def bisect(f, lo, hi):
@@ -96,7 +96,7 @@ def temp_sensor(knee, source_dir):
     # netlists/temp-sensor.knee: Ibias 100 uA into the anode; Dsense (3 fA, n = 1.02,
     # Rs = 2 Ohm, 1.11 eV, sat_temp_exp 3; ref_temp not given: the format's 25 C) and
     # Rleak 10 MOhm from the anode to gnd.
-    is0, n, rs, eg, xti, t0 = mpf("3e-15"), mpf("1.02"), mpf(2), mpf("1.11"), 3, 25
+    is0, n, rs, eg, temp_exp, t0 = mpf("3e-15"), mpf("1.02"), mpf(2), mpf("1.11"), 3, 25
     code, result, err = knee_json(knee, ["sweep", f"{source_dir}/netlists/temp-sensor.knee",
                                          "temp=-269..150:1"])
     if code != 0:
@@ -107,7 +107,7 @@ def temp_sensor(knee, source_dir):
         failures.append(f"temp-sensor sweep: {len(rows)} rows, expected 420")
     for row in rows:
         t = row["temp"]
-        ist = sat_current(is0, n, eg, xti, t0, t)
+        ist = sat_current(is0, n, eg, temp_exp, t0, t)
         nvt = n * vt(t)
 
         def kcl(vj):
