@@ -192,6 +192,10 @@ struct BiasSolver::Impl {
   std::vector<internal::ForcedJunction> forced;
   // A part whose saturation current at its temperature is beyond any diode's.
   std::optional<std::string> absurd_saturation;
+  // Resistance-free junctions on loops of sources and such junctions (their solved
+  // currents are checked in Conclude).
+  std::vector<internal::LoopJunction> loop_junctions;
+  std::vector<double> loop_current;
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
@@ -221,6 +225,7 @@ struct BiasSolver::Impl {
     if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
     forced = internal::FindForcedJunctions(*circuit);
     absurd_saturation = internal::OutOfRangeSaturation(*circuit);
+    loop_junctions = internal::LoopJunctions(*circuit);
     junction_span = JunctionSpan(*circuit);
   }
 
@@ -272,10 +277,25 @@ struct BiasSolver::Impl {
     RerootIslands(s);
     ResolveFaintNodes(s);
     Verify(s);
+    CheckLoopJunctions(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
   }
   void Fill(Solution* solution) const;
+  // A verified answer in which a junction that only sources and junctions limit carries
+  // more than any diode could is out of range (forced_junctions.h).
+  void CheckLoopJunctions(SolveSummary* s) {
+    if (loop_junctions.empty() || s->status != SolveStatus::kConverged) return;
+    loop_current.assign(circuit->elements.size(), 0.0);
+    mna.devices().Measure(x, [&](int element, const internal::DeviceReport& r) {
+      loop_current[static_cast<size_t>(element)] = r.current;
+    });
+    if (auto problem = internal::LoopJunctionProblem(*circuit, loop_junctions, loop_current)) {
+      s->status = SolveStatus::kOutOfRange;
+      s->unique = false;
+      s->detail = std::move(*problem);
+    }
+  }
   // The MNA system (and everything that holds its pattern) built anew: with each island
   // rooted at the member of largest weight (RerootIslands), or as Create() built it.
   void Rebuild(std::span<const double> node_weight) {

@@ -3,9 +3,11 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <numeric>
 #include <queue>
+#include <utility>
 
 #include "knee/diode_law.h"
 
@@ -140,6 +142,122 @@ std::optional<std::string> ForcedJunctionProblem(const Circuit& c,
         e.name, names, f.sources.size() == 1 ? "" : " in series",
         CurrentFromLog(log_current, std::isfinite(current) ? current < 0.0 : breakdown), vj,
         kMaxForcedCurrent / 1e6);
+  }
+  return std::nullopt;
+}
+
+namespace {
+
+bool ResistanceFree(const Circuit& c, const Element& e) {
+  if (e.kind == ElementKind::kVoltageSource) return true;
+  if (e.kind != ElementKind::kDiode) return false;
+  if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) return false;
+  return !(c.parts[static_cast<size_t>(e.part)].model.series_res / e.area > 0.0);
+}
+
+}  // namespace
+
+std::vector<LoopJunction> LoopJunctions(const Circuit& c) {
+  const size_t nodes = c.nodes.size();
+  std::vector<std::vector<std::pair<int, int>>> edges(nodes);  // (element, other node)
+  bool any_diode = false;
+  for (int k = 0; k < static_cast<int>(c.elements.size()); ++k) {
+    const Element& e = c.elements[static_cast<size_t>(k)];
+    if (!ResistanceFree(c, e) || e.node_a == e.node_b) continue;
+    any_diode = any_diode || e.kind == ElementKind::kDiode;
+    edges[static_cast<size_t>(e.node_a)].emplace_back(k, e.node_b);
+    edges[static_cast<size_t>(e.node_b)].emplace_back(k, e.node_a);
+  }
+  std::vector<LoopJunction> loops;
+  if (!any_diode) return loops;
+  // Blocks (biconnected components) by an iterative depth-first search with a stack of
+  // edges: two edges lie on a common simple cycle exactly when they share a block. When
+  // the search returns from w to u with low[w] >= order[u], the edges above (u, w) on
+  // the stack are one block. Parallel edges are told apart by their element.
+  std::vector<int> order(nodes, -1), low(nodes, 0);
+  std::vector<int> edge_stack;
+  struct Frame {
+    int node, via;  // via: the element that reached node (-1 at a root)
+    size_t next;    // next edge of node to look at
+  };
+  std::vector<Frame> stack;
+  int counter = 0;
+  const auto close_block = [&](int last) {
+    std::vector<int> block;
+    while (!edge_stack.empty()) {
+      const int k = edge_stack.back();
+      edge_stack.pop_back();
+      block.push_back(k);
+      if (k == last) break;
+    }
+    if (block.size() < 2) return;  // a bridge: on no cycle
+    const bool has_source = std::any_of(block.begin(), block.end(), [&](int k) {
+      return c.elements[static_cast<size_t>(k)].kind == ElementKind::kVoltageSource;
+    });
+    if (!has_source) return;  // junctions alone drive nothing
+    for (int k : block) {
+      if (c.elements[static_cast<size_t>(k)].kind != ElementKind::kDiode) continue;
+      LoopJunction l;
+      l.diode = k;
+      for (int j : block) {
+        if (j != k) l.others.push_back(j);
+      }
+      std::sort(l.others.begin(), l.others.end());
+      loops.push_back(std::move(l));
+    }
+  };
+  for (size_t root = 0; root < nodes; ++root) {
+    if (order[root] >= 0 || edges[root].empty()) continue;
+    stack.push_back({static_cast<int>(root), -1, 0});
+    order[root] = low[root] = counter++;
+    while (!stack.empty()) {
+      Frame& f = stack.back();
+      const auto u = static_cast<size_t>(f.node);
+      if (f.next < edges[u].size()) {
+        const auto [k, w] = edges[u][f.next++];
+        if (k == f.via) continue;
+        const auto wi = static_cast<size_t>(w);
+        if (order[wi] < 0) {
+          edge_stack.push_back(k);
+          order[wi] = low[wi] = counter++;
+          stack.push_back({w, k, 0});
+        } else if (order[wi] < order[u]) {
+          edge_stack.push_back(k);  // a back edge, once (from its lower end)
+          low[u] = std::min(low[u], order[wi]);
+        }
+        continue;
+      }
+      const Frame done = f;
+      stack.pop_back();
+      if (!stack.empty()) {
+        const auto parent = static_cast<size_t>(stack.back().node);
+        const auto d = static_cast<size_t>(done.node);
+        low[parent] = std::min(low[parent], low[d]);
+        if (low[d] >= order[parent]) close_block(done.via);
+      }
+    }
+  }
+  std::sort(loops.begin(), loops.end(),
+            [](const LoopJunction& p, const LoopJunction& q) { return p.diode < q.diode; });
+  return loops;
+}
+
+std::optional<std::string> LoopJunctionProblem(const Circuit& c,
+                                               const std::vector<LoopJunction>& loops,
+                                               const std::vector<double>& current_of) {
+  for (const LoopJunction& l : loops) {
+    const double current = current_of[static_cast<size_t>(l.diode)];
+    if (std::fabs(current) <= kMaxForcedCurrent) continue;
+    std::string names;
+    for (size_t i = 0; i < l.others.size(); ++i) {
+      if (i > 0) names += i + 1 == l.others.size() ? " and " : ", ";
+      names += c.elements[static_cast<size_t>(l.others[i])].name;
+    }
+    return fmt::format(
+        "{} is in a loop with {} and no resistance: its current is {}, more than the {:g} MA "
+        "any diode could carry; give the parts a series_res or put a resistor in the loop",
+        c.elements[static_cast<size_t>(l.diode)].name, names,
+        CurrentFromLog(std::log(std::fabs(current)), current < 0.0), kMaxForcedCurrent / 1e6);
   }
   return std::nullopt;
 }

@@ -43,4 +43,27 @@ std::vector<ForcedJunction> FindForcedJunctions(const Circuit& circuit);
 std::optional<std::string> ForcedJunctionProblem(const Circuit& circuit,
                                                  const std::vector<ForcedJunction>& forced);
 
+// A diode without series resistance on a loop of voltage sources and such diodes that
+// passes a source: only junctions limit that loop's current (two in series across 5 V
+// carry 1.8e28 A by the law). A bank of junctions in parallel, fed through a resistor, is
+// on no such loop.
+struct LoopJunction {
+  int diode = -1;           // element index
+  std::vector<int> others;  // the other elements of its block, in element order
+};
+
+// Every such diode, from the blocks (biconnected components) of the graph of voltage
+// sources and resistance-free diodes: two edges share a simple cycle exactly when they
+// share a block (J. Hopcroft and R. Tarjan, "Efficient algorithms for graph
+// manipulation", Communications of the ACM 16(6), 1973, recalled from memory). A
+// structural property: a sweep of a supply finds them once.
+std::vector<LoopJunction> LoopJunctions(const Circuit& circuit);
+
+// The first of `loops` whose solved current (current_of[element]) exceeds
+// kMaxForcedCurrent, said with its block's other elements:
+// "D1 is in a loop with V1 and D2 and no resistance: its current is 1.8e28 A; ...".
+std::optional<std::string> LoopJunctionProblem(const Circuit& circuit,
+                                               const std::vector<LoopJunction>& loops,
+                                               const std::vector<double>& current_of);
+
 }  // namespace knee::internal

@@ -1,6 +1,8 @@
 // Junctions that voltage sources alone hold (engine/src/forced_junctions.cc): beyond
 // 1 MA, or beyond the doubles, the solve says so (status out of range) instead of
 // printing a number; below it the law's value is the answer. Both ways are tested.
+#include "forced_junctions.h"
+
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -164,6 +166,47 @@ TEST(OutOfRangeSaturation, FiresAtFourHundredDegreesAndNotAtRoomTemperature) {
       EXPECT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
     }
   }
+}
+
+// Two junctions in series across a source: each holds half of it, and only the junctions
+// limit the loop's current. Across 5 V: 1e-14 A * e^(2.5 V / 25.69 mV) = 1.8e28 A by the
+// law (mpmath), out of range; across 1.2 V: 139 uA, solved. A bridge fed by an ideal
+// source has such loops (the source and two of its diodes) and solves as ever.
+TEST(LoopJunction, SeriesJunctionsAcrossASourceBothWays) {
+  for (const double volts : {5.0, 1.2}) {
+    CircuitBuilder b;
+    const int part = b.Part("P", 1e-14, 1.0);
+    b.V("V1", "a", "gnd", volts);
+    b.D("D1", "a", "m", part);
+    b.D("D2", "m", "gnd", part);
+    for (SolverMethod m : kMethods) {
+      Solution s;
+      const SolveSummary summary = SolveWith(b.circuit(), m, &s);
+      if (volts == 5.0) {
+        EXPECT_EQ(summary.status, SolveStatus::kOutOfRange) << summary.detail;
+        EXPECT_NE(summary.detail.find("D1 is in a loop with V1 and D2 and no resistance: its "
+                                      "current is 1.8e28 A"),
+                  std::string::npos)
+            << summary.detail;
+      } else {
+        ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
+        EXPECT_CLOSE(s.element_current[1], LawAt25(0.6), 1e-9, 0.0);
+      }
+    }
+  }
+  CircuitBuilder b;
+  const int part = b.Part("P", 1e-14, 1.0);
+  b.V("V1", "a", "b", 10.0);
+  b.D("D1", "a", "p", part);
+  b.D("D2", "b", "p", part);
+  b.D("D3", "m", "a", part);
+  b.D("D4", "m", "b", part);
+  b.R("Rload", "p", "m", 1e3);
+  b.R("Rref", "m", "gnd", 1e6);
+  EXPECT_EQ(internal::LoopJunctions(b.circuit()).size(), 4u);  // V1 with D1, D2 and D3, D4
+  Solution s;
+  const SolveSummary summary = SolveWith(b.circuit(), SolverMethod::kAuto, &s);
+  ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
 }
 
 }  // namespace
