@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "check.h"
+#include "forced_junctions.h"
 #include "klu_solver.h"
 #include "knee/solver.h"
 #include "linear_refine.h"
@@ -145,8 +146,9 @@ AssemblyAids WithSourceScale(double scale) {
 
 // The most voltage the junctions can hold, summed: each junction's law spans at most
 // kJunctionExponents thermal scales on either side (beyond it the exponential is 0 or
-// above 1e300 A), plus the breakdown voltage. With the sources' volts and the current
-// sources' amps times every resistance, it bounds |node voltage| in a network of
+// above 1e300 A), or from zero bias up to where its term leaves the doubles when that is
+// further (ln(area*Is(T)) of -3000 at 4 K), plus the breakdown voltage. With the sources' volts and
+// the current sources' amps times every resistance, it bounds |node voltage| in a network of
 // increasing laws (a node above that bound would have every current flowing out of it),
 // in the manner of the maximum principle for resistor networks (common practice, no
 // source); the clamp uses it with a wide margin.
@@ -156,7 +158,7 @@ double JunctionSpan(const Circuit& c) {
     if (e.kind != ElementKind::kDiode) continue;
     const DiodeConstants d =
         ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
-    span += kJunctionExponents * d.n_vt;
+    span += std::max(kJunctionExponents, kLogDoubleMax - d.log_is) * d.n_vt;
     if (d.has_breakdown) span += std::fabs(d.vbr) + kJunctionExponents * d.nbr_vt;
   }
   return std::isfinite(span) ? span : 0.0;
@@ -185,6 +187,15 @@ struct BiasSolver::Impl {
   // monotone, and why a monotone one has no solution, when so.
   std::optional<std::string> non_monotone;
   std::optional<std::string> unbounded;
+  // Junctions that voltage sources alone hold (their current is checked at every Solve,
+  // against the sources' values then).
+  std::vector<internal::ForcedJunction> forced;
+  // A part whose saturation current at its temperature is beyond any diode's.
+  std::optional<std::string> absurd_saturation;
+  // Resistance-free junctions on loops of sources and such junctions (their solved
+  // currents are checked in Conclude).
+  std::vector<internal::LoopJunction> loop_junctions;
+  std::vector<double> loop_current;
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails
   std::vector<double> converged;  // unknowns of the last converged solve
@@ -212,6 +223,9 @@ struct BiasSolver::Impl {
     non_monotone = internal::NonMonotoneReason(*circuit);
     unbounded.reset();
     if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
+    forced = internal::FindForcedJunctions(*circuit);
+    absurd_saturation = internal::OutOfRangeSaturation(*circuit);
+    loop_junctions = internal::LoopJunctions(*circuit);
     junction_span = JunctionSpan(*circuit);
   }
 
@@ -263,10 +277,25 @@ struct BiasSolver::Impl {
     RerootIslands(s);
     ResolveFaintNodes(s);
     Verify(s);
+    CheckLoopJunctions(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
   }
   void Fill(Solution* solution) const;
+  // A verified answer in which a junction that only sources and junctions limit carries
+  // more than any diode could is out of range (forced_junctions.h).
+  void CheckLoopJunctions(SolveSummary* s) {
+    if (loop_junctions.empty() || s->status != SolveStatus::kConverged) return;
+    loop_current.assign(circuit->elements.size(), 0.0);
+    mna.devices().Measure(x, [&](int element, const internal::DeviceReport& r) {
+      loop_current[static_cast<size_t>(element)] = r.current;
+    });
+    if (auto problem = internal::LoopJunctionProblem(*circuit, loop_junctions, loop_current)) {
+      s->status = SolveStatus::kOutOfRange;
+      s->unique = false;
+      s->detail = std::move(*problem);
+    }
+  }
   // The MNA system (and everything that holds its pattern) built anew: with each island
   // rooted at the member of largest weight (RerootIslands), or as Create() built it.
   void Rebuild(std::span<const double> node_weight) {
@@ -735,6 +764,18 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
     s.unique = false;
     s.status = SolveStatus::kNoSolution;
     s.detail = *m.unbounded;
+    return s;
+  }
+  // A junction across sources with no resistance carries whatever the law gives at the
+  // sources' voltage: beyond any diode (or the doubles) it is said so before any step,
+  // instead of a number no circuit produces (3.3e70 A for 1e-14 A across 5 V).
+  std::optional<std::string> problem = m.absurd_saturation;
+  if (!problem) problem = internal::ForcedJunctionProblem(*m.circuit, m.forced);
+  if (problem) {
+    s.method = method == SolverMethod::kClassic ? SolverMethod::kClassic : SolverMethod::kPotential;
+    s.unique = false;
+    s.status = SolveStatus::kOutOfRange;
+    s.detail = std::move(*problem);
     return s;
   }
   // From a warm start (a neighbouring sweep point's solution) Newton is already in its

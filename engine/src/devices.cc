@@ -5,6 +5,7 @@
 #include <bit>
 #include <cmath>
 #include <cstdint>
+#include <limits>
 #include <type_traits>
 #include <unordered_map>
 #include <utility>
@@ -456,9 +457,9 @@ class Diode final : public Device {
     const double g_exact = basis.TwoTerminal(p.conductance);
     const double i = limited_ ? p.current + g_exact * (v - (at + d.rs * p.current)) : p.current;
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
-    ctx.max_exponent = std::max(ctx.max_exponent, vj / d.n_vt);
+    ctx.max_log_current = std::max(ctx.max_log_current, d.log_is + vj / d.n_vt);
     if (d.has_breakdown) {
-      ctx.max_exponent = std::max(ctx.max_exponent, -(vj + d.vbr) / d.nbr_vt);
+      ctx.max_log_current = std::max(ctx.max_log_current, d.log_ibr - (vj + d.vbr) / d.nbr_vt);
     }
     stamped_g_ = basis.TwoTerminal(g);
     pair_.Stamp(ctx, stamped_g_);
@@ -499,22 +500,21 @@ class Diode final : public Device {
 
 // Above the critical voltage the exponential's slope grows so fast that the linearised
 // step overshoots; there a step is shortened to the voltage at which the exponential law
-// carries the current the linearisation predicted (a logarithmic step).
-double CriticalVoltage(double i_scale, double n_vt) {
-  return n_vt * std::log(n_vt / (std::sqrt(2.0) * i_scale));
+// carries the current the linearisation predicted (a logarithmic step). The voltage is
+// n*Vt*ln(n*Vt/(sqrt(2)*scale)), from the scale's logarithm where the scale itself is
+// below the normal doubles (a cold junction).
+double CriticalVoltage(double i_scale, double log_scale, double n_vt) {
+  if (i_scale >= std::numeric_limits<double>::min()) {
+    return n_vt * std::log(n_vt / (std::sqrt(2.0) * i_scale));
+  }
+  return n_vt * (std::log(n_vt / std::sqrt(2.0)) - log_scale);
 }
 
 double LogStep(double base, double proposed, double n_vt) {
   return base + n_vt * std::log1p((proposed - base) / n_vt);
 }
 
-// The inverse of SafeExp for y > 0.
-double SafeLog(double y) {
-  const double top = std::exp(kExpLimit);
-  return y <= top ? std::log(y) : kExpLimit + (y / top - 1.0);
-}
-
-// A falling step of an exponential branch i_scale*(SafeExp(w/n_vt) - 1) from `previous`
+// A falling step of an exponential branch i_scale*(exp(w/n_vt) - 1) from `previous`
 // to `proposed`: Newton's line for the branch predicts the current i_pred there. From
 // far up the exponential, Newton moves by only about n_vt per step toward a much
 // smaller current (the tangent reaches zero current one n_vt below the point), so a
@@ -522,22 +522,39 @@ double SafeLog(double y) {
 // at which the law itself carries i_pred is where the step is headed: it is taken
 // instead (at or below `proposed`, since the tangent of a convex law lies below it).
 // Returns `proposed` when the prediction is at or beyond the branch's reverse limit.
-double FallingStep(double previous, double proposed, double i_scale, double n_vt) {
+// The branch's exponential term is exp(log_scale + w/n_vt) where the scale is below the
+// normal doubles or e^(w/n_vt) beyond them, as in EvaluateJunction.
+double FallingStep(double previous, double proposed, double i_scale, double log_scale,
+                   double n_vt) {
   const double x = previous / n_vt;
-  const double now = i_scale * (SafeExp(x) - 1.0);
-  const double predicted = now + i_scale / n_vt * SafeExpSlope(x) * (proposed - previous);
-  if (!(predicted < kFallingFraction * now)) return proposed;  // Newton's step is fine
-  const double ratio = 1.0 + predicted / i_scale;
-  if (!(ratio > kFallingFloor)) return proposed;
-  return std::min(proposed, n_vt * SafeLog(ratio));
+  const bool plain = i_scale >= std::numeric_limits<double>::min() && x <= kLogDoubleMax;
+  if (plain) {
+    const double e = std::exp(x);
+    const double now = i_scale * (e - 1.0);
+    const double predicted = now + i_scale / n_vt * e * (proposed - previous);
+    if (!(predicted < kFallingFraction * now)) return proposed;  // Newton's step is fine
+    const double ratio = 1.0 + predicted / i_scale;
+    if (!(ratio > kFallingFloor)) return proposed;
+    return std::min(proposed, n_vt * std::log(ratio));
+  }
+  const double term = std::exp(log_scale + x);
+  const double now = term - i_scale;
+  const double predicted = now + term / n_vt * (proposed - previous);
+  if (!(predicted < kFallingFraction * now)) return proposed;
+  // ratio = 1 + predicted/i_scale, in logarithms: ln(predicted + i_scale) - log_scale.
+  const double carried = predicted + i_scale;
+  if (!(carried > 0.0)) return proposed;
+  const double log_ratio = std::log(carried) - log_scale;
+  if (!(log_ratio > std::log(kFallingFloor))) return proposed;
+  return std::min(proposed, n_vt * log_ratio);
 }
 
 }  // namespace
 
 JunctionLimits ComputeJunctionLimits(const DiodeConstants& d) {
   JunctionLimits limits;
-  limits.v_crit = CriticalVoltage(d.is, d.n_vt);
-  if (d.has_breakdown) limits.u_crit = CriticalVoltage(d.ibr, d.nbr_vt);
+  limits.v_crit = CriticalVoltage(d.is, d.log_is, d.n_vt);
+  if (d.has_breakdown) limits.u_crit = CriticalVoltage(d.ibr, d.log_ibr, d.nbr_vt);
   return limits;
 }
 
@@ -558,7 +575,7 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
   // zero bias the law is nearly linear and Newton's step is right (and a step of 1e-17 V
   // must not count as limited, or a converged point never converges).
   if (previous > d.n_vt && proposed < previous - 0.5 * d.n_vt) {
-    proposed = FallingStep(previous, proposed, d.is, d.n_vt);
+    proposed = FallingStep(previous, proposed, d.is, d.log_is, d.n_vt);
   }
   if (d.has_breakdown) {
     // Breakdown side, mirrored: u = -(vj + vbr) plays the role of the forward voltage.
@@ -570,7 +587,7 @@ double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, 
       if (u_prop > base) return -LogStep(base, u_prop, d.nbr_vt) - d.vbr;
     }
     if (u_prev > d.nbr_vt && u_prop < u_prev - 0.5 * d.nbr_vt) {
-      return -FallingStep(u_prev, u_prop, d.ibr, d.nbr_vt) - d.vbr;
+      return -FallingStep(u_prev, u_prop, d.ibr, d.log_ibr, d.nbr_vt) - d.vbr;
     }
   }
   return proposed;

@@ -1,5 +1,6 @@
 // The diode law of the netlist contract: junction (Shockley) term, breakdown term,
 // temperature laws. The equations and their sources are in docs/model.md.
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
@@ -7,23 +8,31 @@
 
 namespace knee {
 
-double SafeExp(double x) {
-  if (x <= kExpLimit) return std::exp(x);
-  return std::exp(kExpLimit) * (1.0 + (x - kExpLimit));
-}
+namespace {
 
-double SafeExpSlope(double x) { return std::exp(x <= kExpLimit ? x : kExpLimit); }
-
-double SatCurrentAt(const DiodeModel& model, double temp_celsius) {
+// ln(Is(T)/Is(T0)) of the contract's temperature law:
+// Is(T) = Is(T0) * (T/T0)^(sat_temp_exp/n) * exp((Eg/(n*Vt0)) * (1 - T0/T)).
+double LogSatRatio(const DiodeModel& model, double temp_celsius) {
   const double t = ToKelvin(temp_celsius);
   const double t0 = ToKelvin(model.ref_temp);
   const double n = model.ideality;
   const double vt0 = ThermalVoltage(t0);
-  // Is(T) = Is(T0) * (T/T0)^(sat_temp_exp/n) * exp((Eg/(n*Vt0)) * (1 - T0/T)),
-  // evaluated as one exponential so that neither factor overflows on its own.
-  const double log_ratio =
-      (model.sat_temp_exp / n) * std::log(t / t0) + (model.bandgap / (n * vt0)) * (1.0 - t0 / t);
-  return model.sat_current * std::exp(log_ratio);
+  return (model.sat_temp_exp / n) * std::log(t / t0) + (model.bandgap / (n * vt0)) * (1.0 - t0 / t);
+}
+
+// A scale (area*Is(T), area*Ibr) that is a normal double: the law is then scale*(e^x - 1)
+// to an ulp wherever the exponential itself is a double.
+bool NormalScale(double s) { return s >= std::numeric_limits<double>::min() && std::isfinite(s); }
+
+}  // namespace
+
+double SatCurrentAt(const DiodeModel& model, double temp_celsius) {
+  // One exponential of the summed logarithms, so that neither factor overflows alone.
+  return model.sat_current * std::exp(LogSatRatio(model, temp_celsius));
+}
+
+double LogSatCurrentAt(const DiodeModel& model, double temp_celsius) {
+  return std::log(model.sat_current) + LogSatRatio(model, temp_celsius);
 }
 
 double BreakdownVoltageAt(const DiodeModel& model, double temp_celsius) {
@@ -35,11 +44,16 @@ DiodeConstants ComputeDiodeConstants(const DiodeModel& model, double area, doubl
   const double vt = ThermalVoltage(ToKelvin(temp_celsius));
   DiodeConstants d;
   d.is = area * SatCurrentAt(model, temp_celsius);
+  // Where area*Is(T) is a normal double its own logarithm is the most consistent value;
+  // below (a cold junction, a wide-bandgap part) the closed form.
+  d.log_is =
+      NormalScale(d.is) ? std::log(d.is) : std::log(area) + LogSatCurrentAt(model, temp_celsius);
   d.n_vt = model.ideality * vt;
   d.rs = model.series_res / area;
   d.has_breakdown = model.breakdown_v.has_value();
   if (d.has_breakdown) {
     d.ibr = area * model.breakdown_i;
+    d.log_ibr = std::log(area) + std::log(model.breakdown_i);
     d.nbr_vt = model.breakdown_ideality * vt;
     d.vbr = BreakdownVoltageAt(model, temp_celsius);
   }
@@ -57,38 +71,55 @@ constexpr double kExpm1Saturation = -40.0;
 // Enough for bisection to narrow any bracket of doubles to adjacent numbers.
 constexpr int kJunctionSolveIterations = 200;
 
+// exp(x): 0 below the subnormals, +inf above the largest double.
 double ExpOrZero(double x) { return x < kExpUnderflow ? 0.0 : std::exp(x); }
 
 }  // namespace
 
 JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
-  // The values of is*(SafeExp(x) - 1) (expm1 near zero bias, which keeps the small-signal
-  // region accurate: I ~ Is*x), is/nVt*SafeExpSlope(x) and the breakdown terms
-  // ibr*SafeExp(y), ibr/nbrVt*SafeExpSlope(y), to an ulp, with one exponential per term.
+  // Forward term is*(e^x - 1), x = vj/(n*Vt), and its slope is/(n*Vt)*e^x, to an ulp
+  // with one exponential: expm1 near zero bias (the small-signal region, I ~ Is*x),
+  // e^x - 1 where e^x < 0.37 (no cancellation). Where is is below the normal doubles or
+  // e^x beyond them, the term is exp(ln is + x) (the rounding of that sum costs
+  // |ln is + x| ulps, 3e-13 relative at 4 K) and the -is is below its rounding.
   JunctionPoint p;
   const double x = vj / d.n_vt;
-  if (x > -1.0 && x <= kExpLimit) {
-    // One transcendental: e^x = expm1(x) + 1 is exact to an ulp here (expm1 > -0.64).
-    const double m = std::expm1(x);
-    p.current = d.is * m;
-    p.conductance = d.is / d.n_vt * (m + 1.0);
-  } else if (x <= kExpLimit) {
-    // e^x < 0.37: e^x - 1 has no cancellation, so expm1 is not needed either.
-    const double e = ExpOrZero(x);
-    p.current = d.is * (x < kExpm1Saturation ? -1.0 : e - 1.0);
-    p.conductance = d.is / d.n_vt * e;
+  if (NormalScale(d.is) && x <= kLogDoubleMax) {
+    if (x > -1.0) {
+      // e^x = expm1(x) + 1 is exact to an ulp here (expm1 > -0.64).
+      const double m = std::expm1(x);
+      p.current = d.is * m;
+      p.conductance = d.is / d.n_vt * (m + 1.0);
+    } else {
+      const double e = ExpOrZero(x);
+      p.current = d.is * (x < kExpm1Saturation ? -1.0 : e - 1.0);
+      p.conductance = d.is / d.n_vt * e;
+    }
   } else {
-    const double e = std::exp(kExpLimit);
-    p.current = d.is * (e * (1.0 + (x - kExpLimit)) - 1.0);
-    p.conductance = d.is / d.n_vt * e;
+    const double e = ExpOrZero(d.log_is + x);  // +inf beyond the largest double
+    p.current = e - d.is;
+    p.conductance = e / d.n_vt;
   }
   if (d.has_breakdown) {
+    // Breakdown term ibr*e^y, y = -(vj + vbr)/(nbr*Vt), the same way.
     const double y = -(vj + d.vbr) / d.nbr_vt;
-    const double e = ExpOrZero(y <= kExpLimit ? y : kExpLimit);
-    p.current -= d.ibr * (y <= kExpLimit ? e : e * (1.0 + (y - kExpLimit)));
-    p.conductance += d.ibr / d.nbr_vt * e;
+    if (NormalScale(d.ibr) && y <= kLogDoubleMax) {
+      const double e = ExpOrZero(y);
+      p.current -= d.ibr * e;
+      p.conductance += d.ibr / d.nbr_vt * e;
+    } else {
+      const double term = ExpOrZero(d.log_ibr + y);
+      p.current -= term;
+      p.conductance += term / d.nbr_vt;
+    }
   }
   return p;
+}
+
+double LogJunctionCurrent(const DiodeConstants& d, double vj) {
+  double log_term = d.log_is + std::max(vj / d.n_vt, 0.0);
+  if (d.has_breakdown) log_term = std::max(log_term, d.log_ibr - (vj + d.vbr) / d.nbr_vt);
+  return log_term;
 }
 
 // The junction voltage of a diode with series resistance at terminal voltage v: the
@@ -96,8 +127,10 @@ JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
 // p the point p - h(p) lies on the other side of the root: a bracket from one
 // evaluation. Around a guess of v's size (a warm start: the last junction voltage) that
 // evaluation is the first Newton point too; around a far-off guess p - h(p) would cancel
-// to nothing (guess -1e138, v = 1 nV), so the bracket is then built at v. Newton's
-// method inside the bracket, bisection where Newton would leave it.
+// to nothing (guess -1e138, v = 1 nV), so the bracket is then built at v. Where the law
+// overflows at a point (h = +-inf: v of kilovolts) the root lies on one side of it, and
+// the next point is the voltage at which the dominant term alone carries |v|/rs. Newton's
+// method inside the bracket, bisection where Newton would leave it or creeps.
 double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, JunctionPoint* at) {
   JunctionPoint point;
   const auto h = [&](double vj, double* slope) {
@@ -109,6 +142,12 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
     if (at != nullptr) *at = EvaluateJunction(d, v);
     return v;
   }
+  // The voltage at which the forward (f > 0) or breakdown (f < 0) term carries |v|/rs.
+  const auto carried = [&](double f) {
+    const double log_i = std::log(std::fabs(v) / d.rs);
+    if (f > 0.0) return d.n_vt * (log_i - d.log_is);
+    return d.has_breakdown ? -d.vbr - d.nbr_vt * (log_i - d.log_ibr) : v;
+  };
   double slope = 1.0;
   const bool near = std::isfinite(guess) && std::fabs(guess) <= 2.0 * std::fabs(v) + 1.0;
   double x = near ? guess : v;
@@ -117,26 +156,60 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
     x = v;
     f = h(x, &slope);
   }
-  if (f == 0.0 || !std::isfinite(f)) {
+  if (f == 0.0 || std::isnan(f)) {
     if (at != nullptr) *at = point;
     return x;
   }
-  double lo = f > 0.0 ? x - f : x;
-  double hi = f > 0.0 ? x : x - f;
+  // The root lies on the far side of p - h(p) from p; where h(p) is infinite, only on
+  // one side of p, until a finite point gives the other end.
+  double lo = -HUGE_VAL, hi = HUGE_VAL;
+  if (std::isfinite(f)) {
+    lo = f > 0.0 ? x - f : x;
+    hi = f > 0.0 ? x : x - f;
+  }
+  const auto inside = [&](double p) { return p > lo && p < hi; };
+  const auto middle = [&] {
+    if (std::isfinite(lo) && std::isfinite(hi)) return 0.5 * (lo + hi);
+    return std::isfinite(hi) ? hi - (1.0 + std::fabs(hi)) : lo + (1.0 + std::fabs(lo));
+  };
   const double resolution = 4.0 * std::numeric_limits<double>::epsilon();
+  // From far up the exponential Newton's step is about n*Vt whatever the distance to the
+  // root; a Newton step longer than half the one before is not converging fast, and the
+  // bracket is bisected instead (as in the safeguarded Newton method "rtsafe" of Press et
+  // al., Numerical Recipes, ch. 9.4, recalled from memory).
+  double last_change = HUGE_VAL;
   for (int k = 0; k < kJunctionSolveIterations && f != 0.0; ++k) {
-    (f > 0.0 ? hi : lo) = x;
-    const double newton = f / slope;
-    // x is the root as far as doubles go when both the Newton step is below x's rounding
-    // and v = vj + rs*I already holds to v's rounding (`point` is then x's already).
-    const double scale = resolution * (std::fabs(x) + std::fabs(v));
-    if (std::fabs(newton) <= scale && std::fabs(f) <= scale) break;
-    double next = x - newton;
-    if (!(next >= lo && next <= hi)) next = 0.5 * (lo + hi);
+    if (f > 0.0) {
+      hi = std::min(hi, x);
+      if (std::isfinite(f) && !std::isfinite(lo)) lo = x - f;
+    } else {
+      lo = std::max(lo, x);
+      if (std::isfinite(f) && !std::isfinite(hi)) hi = x - f;
+    }
+    double next = 0.0;
+    if (std::isfinite(f) && std::isfinite(slope)) {
+      const double newton = f / slope;
+      // x is the root as far as doubles go when both the Newton step is below x's
+      // rounding and v = vj + rs*I already holds to v's rounding (`point` is x's).
+      const double scale = resolution * (std::fabs(x) + std::fabs(v));
+      if (std::fabs(newton) <= scale && std::fabs(f) <= scale) break;
+      next = x - newton;
+      if (std::fabs(newton) > 0.5 * last_change) {
+        next = inside(carried(f)) ? carried(f) : middle();
+      }
+    } else {
+      next = carried(f);
+    }
+    if (!(next >= lo && next <= hi)) next = middle();
     const double change = std::fabs(next - x);
+    last_change = change;
     x = next;
     f = h(x, &slope);
-    if (!std::isfinite(f) || change <= resolution * (std::fabs(x) + std::fabs(v))) break;
+    if (std::isnan(f)) break;
+    if (std::isfinite(f) && std::isfinite(slope) &&
+        change <= resolution * (std::fabs(x) + std::fabs(v))) {
+      break;
+    }
   }
   if (at != nullptr) *at = point;
   return x;

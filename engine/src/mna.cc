@@ -274,7 +274,7 @@ AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAid
   out.unresolved_element = ctx.unresolved_element;
   out.potential = ctx.potential;
   out.potential_magnitude = ctx.potential_magnitude;
-  out.max_exponent = ctx.max_exponent;
+  out.max_log_current = ctx.max_log_current;
   if (out.finite) {
     for (double r : residual_) {
       if (!std::isfinite(r)) out.finite = false;

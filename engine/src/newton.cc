@@ -9,6 +9,9 @@
 namespace knee::internal {
 namespace {
 
+// Halvings of a step that left the doubles (NewtonSolver::Run): 2^-60 of any step.
+constexpr int kOverflowHalvings = 60;
+
 void Consider(ToleranceCheck* worst, int index, double value, double bound) {
   // Compare value/bound ratios without dividing (bounds are > 0).
   if (worst->index < 0 || value * worst->bound > worst->value * bound) {
@@ -109,7 +112,19 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   bool last_clamped = false;
   for (int step = 1; step <= options_.max_newton_steps; ++step) {
     outcome.steps = step;
-    const AssemblyOutcome assembled = mna_->Assemble(x, aids);
+    AssemblyOutcome assembled = mna_->Assemble(x, aids);
+    // The law is exact up to the largest double, so a step can land where a junction's
+    // current is not a double (a forced current into a junction at 0 V asks for 2.6e9 V
+    // when junction limiting is off). Such a step is halved back toward its start: a
+    // damping of Newton's step, not a change of the law, and not a settled step.
+    for (int halving = 0; !assembled.finite && step > 1 && halving < kOverflowHalvings; ++halving) {
+      for (size_t i = 0; i < x.size(); ++i) {
+        dx_[i] *= 0.5;
+        x[i] -= dx_[i];
+      }
+      assembled = mna_->Assemble(x, aids);
+      last_clamped = true;
+    }
     if (!assembled.finite) {
       outcome.exit = NewtonExit::kNonFinite;
       outcome.detail =

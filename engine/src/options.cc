@@ -59,6 +59,8 @@ const char* ToString(SolveStatus status) {
       return "verification failed";
     case SolveStatus::kNoSolution:
       return "no solution";
+    case SolveStatus::kOutOfRange:
+      return "out of range";
   }
   return "unknown";
 }

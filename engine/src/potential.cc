@@ -208,7 +208,9 @@ std::optional<std::string> NonMonotoneReason(const Circuit& c) {
         }
         const DiodeConstants d = ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model,
                                                        e.area, c.DeviceTemp(e));
-        const bool forward_ok = Finite(d.is) && d.is > 0.0 && Finite(d.n_vt) && d.n_vt > 0.0;
+        // area*Is(T) may be below the smallest double (a cold junction): its logarithm
+        // decides, since the law is evaluated from it.
+        const bool forward_ok = Finite(d.is) && Finite(d.log_is) && Finite(d.n_vt) && d.n_vt > 0.0;
         const bool series_ok = Finite(d.rs) && d.rs >= 0.0;
         const bool breakdown_ok =
             !d.has_breakdown ||
@@ -417,7 +419,7 @@ PotentialSolver::Trial PotentialSolver::Evaluate(std::span<const double> base, d
   trial.finite = inside && out.finite && std::isfinite(out.potential);
   trial.potential = out.potential;
   trial.potential_magnitude = out.potential_magnitude;
-  trial.max_exponent = out.max_exponent;
+  trial.max_log_current = out.max_log_current;
   if (trial.finite) {
     trial.slope = Slope(x);
     const ToleranceCheck residual = CheckResidual(*mna_, options_);
@@ -547,7 +549,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
   }
   double potential = start.potential;
   double potential_magnitude = start.potential_magnitude;
-  double base_exponent = start.max_exponent;  // largest junction exponent at x
+  double base_log_current = start.max_log_current;  // largest junction term at x, ln A
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
   ToleranceCheck update;
   update.index = 0;
@@ -641,7 +643,8 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
       const double merit0 = ResidualMerit(*mna_, options_);
       const double curvature = creeping ? kCreepCurvature : kCurvatureFraction;
       ok = LineSearch(slope0, slope_roundoff, before, before_magnitude, merit0,
-                      std::max(kExponentCap, base_exponent), curvature, x, &t, &trials, &accepted);
+                      std::max(kLogCurrentCap, base_log_current), curvature, x, &t, &trials,
+                      &accepted);
       if (!ok) {
         int more = 0;
         ok =
@@ -692,7 +695,7 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     for (size_t i = 0; i < step_.size(); ++i) step_[i] *= i < kcl ? t : MultiplierFraction(t);
     potential = accepted.potential;
     potential_magnitude = accepted.potential_magnitude;
-    base_exponent = accepted.max_exponent;
+    base_log_current = accepted.max_log_current;
     update = CheckUpdate(*mna_, options_, step_, x);
     // As in the classic loop (NewtonSolver::NoiseFloor): where the residual passed, the
     // part of the step that the residual's round-off alone causes is not a move.
@@ -758,7 +761,7 @@ bool PotentialSolver::Repeats() {
 // nearly equal potentials. If the budget of trials runs out, the longest step known to
 // satisfy sufficient decrease is taken.
 bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double before,
-                                 double before_magnitude, double merit0, double exponent_cap,
+                                 double before_magnitude, double merit0, double log_current_cap,
                                  double curvature, std::span<double> x, double* t_out,
                                  int* trials_out, Trial* accepted) {
   const auto roundoff = [&](const Trial& tr) {
@@ -788,13 +791,13 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   while (trials < kMaxLineSearchTrials) {
     Trial trial = Evaluate(base_, t, x);
     ++trials;
-    if (trial.finite && trial.max_exponent <= exponent_cap && resolves_residual(trial, t)) {
+    if (trial.finite && trial.max_log_current <= log_current_cap && resolves_residual(trial, t)) {
       *accepted = trial;
       *t_out = t;
       *trials_out = trials;
       return true;
     }
-    if (trial.finite && trial.max_exponent <= exponent_cap && decreases(trial, t)) {
+    if (trial.finite && trial.max_log_current <= log_current_cap && decreases(trial, t)) {
       if (trial.slope >= curvature * slope0) {  // flattened (or past the minimum)
         *accepted = trial;
         *t_out = t;

@@ -68,14 +68,14 @@ inline constexpr double kCreepRepeat = 0.05;
 inline constexpr double kCreepCurvature = 1e-3;
 inline constexpr int kMaxLineSearchTrials = 80;      // potential evaluations per line search
 inline constexpr double kMaxStepLength = 1048576.0;  // 2^20 Newton steps along one direction
-// Trial points of the line search keep every junction-law exponent at or below
-// max(kExponentCap, the largest exponent at the start of the step), so no iterate enters
-// the overflow-safe exponential's continuation above kExpLimit, where conductances near
-// 1e30 S leave neither the Newton direction nor the potential resolvable. e^70 * Is is
-// far above any current a knee network can carry (at least 2.5e10 A for Is = 1e-20 A),
-// so the cap is inactive at the solution; should the line search find no step under it,
-// it searches once more without it.
-inline constexpr double kExponentCap = 70.0;
+// Trial points of the line search keep every junction law's exponential term at or
+// below max(e^kLogCurrentCap A, its largest value at the start of the step): far out on
+// the exponential, conductances of 1e30 S and more leave neither the Newton direction
+// nor the potential resolvable, and further out still the law leaves the doubles. e^40 A
+// (2.4e17 A) is far above any current a diode carries, so the cap is inactive at a
+// solution; should the line search find no step under it, it searches once more
+// without it (a trial point whose law overflows is still refused: it is not finite).
+inline constexpr double kLogCurrentCap = 40.0;
 // A step shorter than this fraction of the Newton step switches the Hessian modification
 // on for the next direction (PotentialSolver::Run).
 inline constexpr double kShortStep = 1e-3;
@@ -122,8 +122,8 @@ class PotentialSolver {
     bool finite = false;
     double potential = 0.0;
     double potential_magnitude = 0.0;
-    double slope = 0.0;         // d/dt of the potential along dx_ at this point
-    double max_exponent = 0.0;  // largest junction-law exponent at this point
+    double slope = 0.0;            // d/dt of the potential along dx_ at this point
+    double max_log_current = 0.0;  // ln A, the largest junction-law term at this point
     // Worst |F_r| / (its tolerance) at this point: the merit for steps whose change of
     // the potential is below the potential's round-off.
     double residual_ratio = 0.0;
@@ -131,7 +131,7 @@ class PotentialSolver {
   };
   Trial Evaluate(std::span<const double> base, double t, std::span<double> x);
   bool LineSearch(double slope0, double slope_roundoff, double before, double before_magnitude,
-                  double merit0, double exponent_cap, double curvature, std::span<double> x,
+                  double merit0, double log_current_cap, double curvature, std::span<double> x,
                   double* t, int* trials, Trial* accepted);
   // Whether the step just taken (step_, full length) repeats last_step_; keeps it.
   bool Repeats();

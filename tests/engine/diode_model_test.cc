@@ -59,15 +59,62 @@ TEST(DiodeLaw, BreakdownVoltageTemperatureLaw) {
   EXPECT_CLOSE(BreakdownVoltageAt(m, 120.0), 3.6 * (1.0 - 4e-4 * 100.0), 1e-15, 0.0);
 }
 
-// SafeExp is exp up to kExpLimit and continues linearly, continuous in value and slope.
-TEST(DiodeLaw, SafeExpIsContinuousInValueAndSlope) {
-  const double below = kExpLimit * (1 - 1e-15);
-  EXPECT_CLOSE(SafeExp(kExpLimit), std::exp(kExpLimit), 1e-15, 0.0);
-  EXPECT_CLOSE(SafeExp(kExpLimit + 1e-9), std::exp(kExpLimit) * (1 + 1e-9), 1e-13, 0.0);
-  EXPECT_CLOSE(SafeExp(below), SafeExp(kExpLimit), 1e-12, 0.0);
-  EXPECT_CLOSE(SafeExpSlope(below), SafeExpSlope(kExpLimit + 1e-9), 1e-12, 0.0);
-  EXPECT_TRUE(std::isfinite(SafeExp(1e6)));
-  EXPECT_CLOSE(SafeExp(1e3), std::exp(kExpLimit) * (1 + 1e3 - kExpLimit), 1e-15, 0.0);
+// Far beyond any old cap the law is still the law: at an exponent of 300 the current
+// is is*(e^300 - 1) (e^300 = 1.94e130), and the conductance is/(n*Vt)*e^300; beyond the
+// largest double the current is +inf, not a stand-in value.
+TEST(DiodeLaw, JunctionIsExactUpToTheLargestDouble) {
+  DiodeModel m;
+  m.sat_current = 1e-14;
+  m.ideality = 1.0;
+  const DiodeConstants d = ComputeDiodeConstants(m, 1.0, 25.0);
+  const JunctionPoint p = EvaluateJunction(d, 300.0 * d.n_vt);
+  EXPECT_CLOSE(p.current, d.is * std::exp(300.0), 1e-13, 0.0);
+  EXPECT_CLOSE(p.conductance, d.is / d.n_vt * std::exp(300.0), 1e-13, 0.0);
+  // ln(is) = -32.2: the term leaves the doubles at an exponent of 709.78 + 32.2.
+  EXPECT_TRUE(std::isfinite(EvaluateJunction(d, 735.0 * d.n_vt).current));
+  EXPECT_CLOSE(EvaluateJunction(d, 735.0 * d.n_vt).current, std::exp(d.log_is + 735.0), 1e-12, 0.0);
+  EXPECT_EQ(EvaluateJunction(d, 745.0 * d.n_vt).current, HUGE_VAL);
+  EXPECT_CLOSE(LogJunctionCurrent(d, 745.0 * d.n_vt), d.log_is + 745.0, 1e-15, 0.0);
+}
+
+// At 4.15 K (-269 C) area*Is(T) is about e^-3100, far below the smallest double (the
+// contract's law (4) with Eg = 1.11 eV): the law is carried by its logarithm, and a
+// forward junction carries ordinary currents.
+TEST(DiodeLaw, ColdJunctionKeepsTheLawInLogarithms) {
+  DiodeModel m;
+  m.sat_current = 1e-14;
+  m.ideality = 1.0;
+  m.bandgap = 1.11;
+  m.sat_temp_exp = 3.0;
+  m.ref_temp = 25.0;
+  const double t = -269.0;
+  const DiodeConstants d = ComputeDiodeConstants(m, 1.0, t);
+  EXPECT_EQ(d.is, 0.0);
+  const double tk = t + 273.15, t0 = 298.15;
+  const double vt0 = ThermalVoltage(t0);
+  const double log_is = std::log(1e-14) + 3.0 * std::log(tk / t0) + 1.11 / vt0 * (1 - t0 / tk);
+  EXPECT_CLOSE(d.log_is, log_is, 1e-14, 0.0);
+  EXPECT_CLOSE(LogSatCurrentAt(m, t), log_is, 1e-14, 0.0);
+  // 1 mA: vj = n*Vt*(ln(1e-3) - ln is), and the law gives 1 mA back.
+  const double vj = d.n_vt * (std::log(1e-3) - d.log_is);
+  EXPECT_CLOSE(EvaluateJunction(d, vj).current, 1e-3, 1e-12, 0.0);
+  EXPECT_CLOSE(EvaluateJunction(d, vj).conductance, 1e-3 / d.n_vt, 1e-12, 0.0);
+  EXPECT_GT(vj, 1.0);
+  EXPECT_LT(vj, 1.2);
+  // Series resistance: the junction voltage at a terminal voltage far above the knee.
+  // v = vj + rs*I holds to the law's own rounding there: I carries |ln I|*eps of its
+  // exponent (3100 ulps), about 3.4e-13 of rs*I.
+  DiodeConstants r = d;
+  r.rs = 10.0;
+  JunctionPoint at;
+  const double v = 5.0;
+  const double vjr = JunctionVoltageAt(r, v, 0.0, &at);
+  EXPECT_CLOSE(vjr + r.rs * at.current, v, 1e-11, 0.0);
+  EXPECT_GT(at.current, 0.38);
+  // And a start where the law overflows (v = 1 kV: e^(2.8e6) at the terminal voltage).
+  const double vjk = JunctionVoltageAt(r, 1000.0, 1000.0, &at);
+  EXPECT_CLOSE(vjk + r.rs * at.current, 1000.0, 1e-11, 0.0);
+  EXPECT_TRUE(std::isfinite(at.current));
 }
 
 DiodeConstants Zener() {
@@ -100,8 +147,9 @@ TEST(DiodeLaw, JunctionDerivativeMatchesFiniteDifferences) {
   ExpectDerivativeMatches(d, 0.8, "forward");
   ExpectDerivativeMatches(d, -d.vbr, "breakdown");
   ExpectDerivativeMatches(d, -d.vbr - 0.2, "deep breakdown");
-  ExpectDerivativeMatches(d, (kExpLimit + 15) * d.n_vt, "above kExpLimit, forward");
-  ExpectDerivativeMatches(d, -d.vbr - (kExpLimit + 15) * d.nbr_vt, "above kExpLimit, breakdown");
+  ExpectDerivativeMatches(d, 95 * d.n_vt, "far forward");
+  ExpectDerivativeMatches(d, -d.vbr - 95 * d.nbr_vt, "far breakdown");
+  ExpectDerivativeMatches(d, 600 * d.n_vt, "forward, beyond exp's own range of the term");
 }
 
 // The junction current itself: Shockley's law (Shockley 1949) plus the contract's

@@ -141,7 +141,8 @@ INSTANTIATE_TEST_SUITE_P(Diodes, LambertTest,
 
 // The diode device solves its own series resistance (JunctionVoltageAt): at terminal
 // voltage V the junction's current must be the Lambert W current with R = series_res
-// alone, from any starting guess (far below, far above, at the answer, not finite).
+// alone, from any starting guess (far below, far above, at the answer, not finite, where
+// the law's conductance overflows).
 TEST(JunctionVoltageAt, CurrentMatchesLambertWFromAnyGuess) {
   DiodeModel model;
   model.sat_current = 2e-13;
@@ -154,7 +155,9 @@ TEST(JunctionVoltageAt, CurrentMatchesLambertWFromAnyGuess) {
                                model.ref_temp, temp);
   for (double v : {-400.0, -5.0, -0.01, 0.0, 1e-9, 0.3, 0.6, 0.9, 2.0, 30.0, 4000.0}) {
     const double exact = ExactCurrent(v, model.series_res, is, n_vt);
-    for (double guess : {0.0, -1e4, 1e4, v, std::nan(""), 1e138, -1e138, 1e300, -1e300}) {
+    // 31.85 V: the current there is a double (e^708 A) but its conductance is not.
+    for (double guess :
+         {0.0, -1e4, 1e4, v, std::nan(""), 1e138, -1e138, 1e300, -1e300, 31.85, -31.85}) {
       const double vj = JunctionVoltageAt(d, v, guess);
       const double current = EvaluateJunction(d, vj).current;
       // Relative 1e-10 (the round-off of v = vj + rs*I amplified by the junction's

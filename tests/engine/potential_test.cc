@@ -103,12 +103,25 @@ TEST(CoContent, ConvexWithConductanceAsSecondDerivative) {
   }
 }
 
-// SafeExpIntegral continues exp(x) past kExpLimit with matching value and slope.
-TEST(CoContent, SafeExpIntegralIsTheAntiderivative) {
-  for (double x : {-10.0, 0.0, 79.0, kExpLimit, 81.0, 200.0}) {
-    const double h = 1e-5;
-    const double numeric = (SafeExpIntegral(x + h) - SafeExpIntegral(x - h)) / (2 * h);
-    EXPECT_CLOSE(numeric, SafeExp(x), 1e-7, 0.0) << x;
+// The co-content stays the law's integral far up the exponential and for a cold
+// junction whose saturation current is below the smallest double: its central
+// difference is the current.
+TEST(CoContent, DerivativeIsTheExactLawEverywhere) {
+  DiodeModel m;
+  m.sat_current = 1e-14;
+  m.ideality = 1.0;
+  m.bandgap = 1.11;
+  m.sat_temp_exp = 3.0;
+  for (double temp : {25.0, -269.0}) {
+    const DiodeConstants d = ComputeDiodeConstants(m, 1.0, temp);
+    for (double x : {50.0, 90.0, 300.0, 3000.0}) {
+      const double v = d.n_vt * (x - (d.log_is + 32.0));
+      const double h = 1e-6 * d.n_vt;
+      const double numeric = (JunctionCoContent(d, v + h) - JunctionCoContent(d, v - h)) / (2 * h);
+      const double current = EvaluateJunction(d, v).current;
+      if (!std::isfinite(current)) continue;
+      EXPECT_CLOSE(numeric, current, 1e-6, 0.0) << temp << " " << x;
+    }
   }
 }
 

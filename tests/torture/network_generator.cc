@@ -69,6 +69,11 @@ class Builder {
       p.model.breakdown_i = LogUniform(1e-6, 1e-2);
       p.model.breakdown_ideality = Uniform(1.0, 3.0);
     }
+    if (o_.max_bandgap > 0.0) {
+      p.model.bandgap = Uniform(o_.min_bandgap, o_.max_bandgap);
+      p.model.sat_temp_exp = 3.0;
+      p.model.ref_temp = 25.0;
+    }
     c_.parts.push_back(std::move(p));
     return static_cast<int>(c_.parts.size()) - 1;
   }
@@ -213,6 +218,54 @@ class Builder {
 
 }  // namespace
 
+GeneratorOptions ColdFamily() {
+  GeneratorOptions o;
+  o.min_temp = -269.0;
+  o.max_temp = -100.0;
+  o.min_bandgap = 0.66;
+  o.max_bandgap = 1.42;
+  return o;
+}
+
+GeneratorOptions WideBandgapFamily() {
+  GeneratorOptions o;
+  o.min_temp = -60.0;
+  o.max_temp = 400.0;
+  o.min_sat_current = 1e-45;
+  o.max_sat_current = 1e-30;
+  o.min_ideality = 1.0;
+  o.max_ideality = 2.5;
+  o.min_bandgap = 2.3;
+  o.max_bandgap = 3.4;
+  return o;
+}
+
+GeneratorOptions ExtremeFamily() {
+  GeneratorOptions o;
+  o.min_temp = -269.0;
+  o.max_temp = 400.0;
+  o.min_sat_current = 1e-45;
+  o.max_sat_current = 1e-6;
+  o.min_bandgap = 0.66;
+  o.max_bandgap = 3.4;
+  return o;
+}
+
+bool FamilyNamed(const std::string& name, GeneratorOptions* options) {
+  if (name == "default") {
+    *options = GeneratorOptions{};
+  } else if (name == "cold") {
+    *options = ColdFamily();
+  } else if (name == "wide-bandgap") {
+    *options = WideBandgapFamily();
+  } else if (name == "extreme") {
+    *options = ExtremeFamily();
+  } else {
+    return false;
+  }
+  return true;
+}
+
 Circuit GenerateNetwork(uint64_t seed, const GeneratorOptions& options) {
   return Builder(seed, options).Build();
 }
@@ -227,6 +280,9 @@ std::string ToNetlist(const Circuit& c) {
       text += fmt::format(" breakdown_v={:.17g} breakdown_i={:.17g} breakdown_ideality={:.17g}",
                           *m.breakdown_v, m.breakdown_i, m.breakdown_ideality);
     }
+    // The temperature law's constants, so that the text does not depend on the defaults.
+    text += fmt::format(" bandgap={:.17g} sat_temp_exp={:.17g} ref_temp={:.17g}", m.bandgap,
+                        m.sat_temp_exp, m.ref_temp);
     text += "\n";
   }
   for (const Element& e : c.elements) {

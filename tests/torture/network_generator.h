@@ -33,7 +33,26 @@ struct GeneratorOptions {
   double max_breakdown_v = 1e3;  // V
   double min_temp = -40.0;       // degC, circuit temperature
   double max_temp = 125.0;
+  // eV; when max_bandgap > 0 every part draws its bandgap uniformly from this range and
+  // sets sat_temp_exp = 3 and ref_temp = 25 degC itself (the default family leaves the
+  // part's defaults, and draws no extra numbers, so its seeds keep their circuits).
+  double min_bandgap = 0.0;
+  double max_bandgap = 0.0;
 };
+
+// Families beyond the default one, for the exact law at its extremes (docs/solver.md,
+// "The law at its extremes"):
+// cold: -269..-100 degC, the default saturation currents, bandgaps 0.66..1.42 eV
+//   (germanium to gallium arsenide, recalled from memory): area*Is(T) far below the
+//   smallest double;
+// wide-bandgap: -60..400 degC, saturation currents 1e-45..1e-30 A, idealities 1..2.5,
+//   bandgaps 2.3..3.4 eV (gallium phosphide to gallium nitride, recalled from memory);
+// extreme: -269..400 degC, 1e-45..1e-6 A, bandgaps 0.66..3.4 eV, the default idealities.
+GeneratorOptions ColdFamily();
+GeneratorOptions WideBandgapFamily();
+GeneratorOptions ExtremeFamily();
+// The family of that name ("default", "cold", "wide-bandgap", "extreme"), or false.
+bool FamilyNamed(const std::string& name, GeneratorOptions* options);
 
 // A random network for `seed`. Node and element names are unique and parser-legal.
 Circuit GenerateNetwork(uint64_t seed, const GeneratorOptions& options = {});

@@ -1,9 +1,12 @@
 // The full convergence torture run: solves `count` generated networks (seeds first ..
 // first+count-1), verifies each solution independently, and prints the failures, the
 // failure count and the distribution of Newton steps.
-//   run_torture [count] [first_seed] [--jobs N] [--verbose]
-//   run_torture --netlist SEED     prints that network as .knee text
-// Exit status 0 when every network converged and verified, 1 otherwise, 2 on bad usage.
+//   run_torture [count] [first_seed] [--jobs N] [--verbose] [--family NAME]
+//   run_torture [--family NAME] --netlist SEED     prints that network as .knee text
+// NAME: default, cold, wide-bandgap, extreme (network_generator.h). Exit status 0 when
+// every network converged and verified, 1 otherwise, 2 on bad usage. The summary counts
+// apart the wrong numbers (a converged answer the independent check rejects: knee would
+// print it with exit 0) and the networks without an answer (knee's exit 1, with a reason).
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -35,6 +38,7 @@ int main(int argc, char** argv) {
   long long first = 1;
   long long jobs = std::max(1u, std::thread::hardware_concurrency());
   bool verbose = false;
+  knee::torture::GeneratorOptions family;
   std::vector<std::string> positional;
   for (int a = 1; a < argc; ++a) {
     const std::string arg = argv[a];
@@ -43,11 +47,16 @@ int main(int argc, char** argv) {
         fmt::print(stderr, "run_torture: --jobs wants a positive whole number\n");
         return 2;
       }
+    } else if (arg == "--family" && a + 1 < argc) {
+      if (!knee::torture::FamilyNamed(argv[++a], &family)) {
+        fmt::print(stderr, "run_torture: --family is default, cold, wide-bandgap or extreme\n");
+        return 2;
+      }
     } else if (arg == "--netlist" && a + 1 < argc) {
       long long seed = 0;
       if (!ParseCount(argv[++a], &seed)) return 2;
       fmt::print("{}", knee::torture::ToNetlist(
-                           knee::torture::GenerateNetwork(static_cast<uint64_t>(seed))));
+                           knee::torture::GenerateNetwork(static_cast<uint64_t>(seed), family)));
       return 0;
     } else if (arg == "--verbose") {
       verbose = true;
@@ -69,13 +78,15 @@ int main(int argc, char** argv) {
     workers.emplace_back([&] {
       for (long long k = next++; k < count; k = next++) {
         results[static_cast<size_t>(k)] =
-            knee::torture::RunCase(static_cast<uint64_t>(first + k), {});
+            knee::torture::RunCase(static_cast<uint64_t>(first + k), family);
       }
     });
   }
   for (std::thread& t : workers) t.join();
 
   long long failed = 0;
+  long long wrong = 0;
+  std::map<std::string, long long> unanswered;  // by status
   std::vector<int> steps;
   std::map<std::string, long long> aids;
   long long elements = 0;
@@ -85,6 +96,11 @@ int main(int argc, char** argv) {
     elements += r.elements;
     if (!r.ok) {
       ++failed;
+      if (r.converged) {
+        ++wrong;
+      } else {
+        unanswered[r.status.empty() ? "setup" : r.status]++;
+      }
       fmt::print("FAIL seed {}: {}\n", r.seed, r.problem);
       continue;
     }
@@ -98,6 +114,10 @@ int main(int argc, char** argv) {
   fmt::print("torture: {} networks (seeds {}..{}), {} elements in all\n", count, first,
              first + count - 1, elements);
   fmt::print("torture: {} failed, {} converged and verified\n", failed, steps.size());
+  fmt::print("torture: wrong numbers (converged, rejected by the independent check): {}\n", wrong);
+  for (const auto& [status, n] : unanswered) {
+    fmt::print("torture: no answer ({}): {}\n", status, n);
+  }
   if (!steps.empty()) {
     auto pct = [&](double p) {
       return steps[std::min(steps.size() - 1,

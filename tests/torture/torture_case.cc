@@ -27,6 +27,8 @@ CaseResult RunCase(uint64_t seed, const GeneratorOptions& options,
   r.newton_steps = summary.newton_steps;
   r.faint_nodes = static_cast<int>(summary.faint_nodes.size());
   r.aids = fmt::format("{}", fmt::join(summary.aids, ","));
+  r.status = ToString(summary.status);
+  r.converged = summary.status == SolveStatus::kConverged;
   if (summary.status != SolveStatus::kConverged) {
     r.problem = fmt::format("{} after {} steps: {}", ToString(summary.status), summary.newton_steps,
                             summary.detail);

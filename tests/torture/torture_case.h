@@ -11,8 +11,10 @@ namespace knee::torture {
 
 struct CaseResult {
   uint64_t seed = 0;
-  bool ok = false;      // converged, and the solution passed VerifySolution
-  std::string problem;  // why not
+  bool ok = false;         // converged, and the solution passed VerifySolution
+  bool converged = false;  // the solver reported a usable answer (knee would exit 0)
+  std::string status;      // the solver's status (ToString)
+  std::string problem;     // why not
   int newton_steps = 0;
   std::string aids;  // comma separated, "" for none
   double max_kcl_residual = 0;

@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "knee/diode_law.h"
 #include "torture/network_generator.h"
 #include "torture/torture_case.h"
 #include "torture/verify_solution.h"
@@ -232,6 +233,45 @@ TEST_P(TortureSlice, ConvergesAndVerifies) {
   }
 }
 INSTANTIATE_TEST_SUITE_P(Seeds, TortureSlice, ::testing::Range(0, 8));
+
+// The families of the law's extremes (network_generator.h): cold junctions whose
+// area*Is(T) is far below the smallest double, and wide-bandgap parts of 1e-45 A up to
+// 400 degC. Every network converges and passes the independent check on the exact law.
+TEST(TortureFamilies, ColdAndWideBandgapNetworksConvergeAndVerify) {
+  int cold_below_doubles = 0;
+  for (uint64_t seed = 1; seed <= 300; ++seed) {
+    const Circuit c = GenerateNetwork(seed, ColdFamily());
+    ASSERT_GE(c.temp, -269.0);
+    ASSERT_LE(c.temp, -100.0);
+    for (const Part& p : c.parts) {
+      ASSERT_GE(p.model.bandgap, 0.66);
+      ASSERT_LE(p.model.bandgap, 1.42);
+      if (SatCurrentAt(p.model, c.temp) == 0.0) ++cold_below_doubles;
+    }
+    const CaseResult cold = RunCase(seed, ColdFamily());
+    EXPECT_TRUE(cold.ok) << "cold seed " << seed << ": " << cold.problem;
+    const CaseResult wide = RunCase(seed, WideBandgapFamily());
+    EXPECT_TRUE(wide.ok) << "wide-bandgap seed " << seed << ": " << wide.problem;
+  }
+  EXPECT_GT(cold_below_doubles, 0);  // the family does reach the log-domain law
+}
+
+// The extreme family (-269..400 degC, 1e-45..1e-6 A, bandgaps 0.66..3.4 eV): no
+// network gives a wrong number; the ones without an answer are parts whose saturation
+// current at their temperature exceeds 1 MA, reported out of range.
+TEST(TortureFamilies, ExtremeNetworksGiveNoWrongNumber) {
+  int out_of_range = 0;
+  for (uint64_t seed = 1; seed <= 400; ++seed) {
+    const CaseResult r = RunCase(seed, ExtremeFamily());
+    EXPECT_FALSE(r.converged && !r.ok) << "seed " << seed << ": " << r.problem;
+    if (!r.converged) {
+      EXPECT_EQ(r.status, "out of range") << "seed " << seed << ": " << r.problem;
+      ++out_of_range;
+    }
+  }
+  EXPECT_GT(out_of_range, 0);
+  EXPECT_LT(out_of_range, 40);
+}
 
 }  // namespace
 }  // namespace knee::torture

@@ -29,24 +29,33 @@ namespace {
 // The contract's temperature laws (netlist-format.md, "Diode parameters"):
 // Is(T) = Is(T0) (T/T0)^(sat_temp_exp/n) exp((Eg/(n Vt0)) (1 - T0/T)),
 // Vbr(T) = breakdown_v (1 + breakdown_tc (T - T0)).
+// Written out plainly, as products, in x87 extended precision: its exponent range
+// (1e-4951 .. 1e4932) holds Is(T) at 4 K (about 1e-1350 A) and e^(Vj/(n Vt)) there
+// (e^3100), so the law needs no logarithmic form here and the engine's is not reused.
+static_assert(std::numeric_limits<long double>::max_exponent10 >= 4000,
+              "the verifier's law needs an extended exponent range");
+using Wide = long double;
+
 struct ContractLaw {
-  double is = 0, n_vt = 0, ibr = 0, nbr_vt = 0, vbr = 0;
+  Wide is = 0, n_vt = 0, ibr = 0, nbr_vt = 0, vbr = 0;
   bool breakdown = false;
 };
 
 ContractLaw LawAt(const DiodeModel& m, double area, double temp_celsius) {
-  const double t = temp_celsius + 273.15;
-  const double t0 = m.ref_temp + 273.15;
-  const double n = m.ideality;
+  const Wide t = static_cast<Wide>(temp_celsius) + 273.15L;
+  const Wide t0 = static_cast<Wide>(m.ref_temp) + 273.15L;
+  const Wide n = m.ideality;
+  const Wide vt0 = static_cast<Wide>(Vt(m.ref_temp));
   ContractLaw law;
-  law.is = area * m.sat_current * std::pow(t / t0, m.sat_temp_exp / n) *
-           std::exp(m.bandgap / (n * Vt(m.ref_temp)) * (1.0 - t0 / t));
-  law.n_vt = n * Vt(temp_celsius);
+  law.is = static_cast<Wide>(area) * static_cast<Wide>(m.sat_current) *
+           std::pow(t / t0, static_cast<Wide>(m.sat_temp_exp) / n) *
+           std::exp(static_cast<Wide>(m.bandgap) / (n * vt0) * (1.0L - t0 / t));
+  law.n_vt = n * static_cast<Wide>(Vt(temp_celsius));
   if (m.breakdown_v) {
     law.breakdown = true;
     law.vbr = *m.breakdown_v * (1.0 + m.breakdown_tc * (temp_celsius - m.ref_temp));
-    law.ibr = area * m.breakdown_i;
-    law.nbr_vt = m.breakdown_ideality * Vt(temp_celsius);
+    law.ibr = static_cast<Wide>(area) * static_cast<Wide>(m.breakdown_i);
+    law.nbr_vt = static_cast<Wide>(m.breakdown_ideality) * static_cast<Wide>(Vt(temp_celsius));
   }
   return law;
 }
@@ -54,12 +63,14 @@ ContractLaw LawAt(const DiodeModel& m, double area, double temp_celsius) {
 }  // namespace
 
 // netlist-format.md, "Diode parameters": I = area*Is(T)*(exp(Vj/(n Vt)) - 1)
-//   - area*Ibr*exp(-(Vj + Vbr(T))/(nbr Vt)).
+//   - area*Ibr*exp(-(Vj + Vbr(T))/(nbr Vt)), the exact law (no overflow aid, no cap),
+// rounded to a double at the end (+-inf beyond the doubles).
 double ContractDiodeCurrent(const DiodeModel& m, double area, double temp_celsius, double vj) {
   const ContractLaw law = LawAt(m, area, temp_celsius);
-  double current = law.is * std::expm1(vj / law.n_vt);
-  if (law.breakdown) current -= law.ibr * std::exp(-(vj + law.vbr) / law.nbr_vt);
-  return current;
+  const Wide v = vj;
+  Wide current = law.is * std::expm1(v / law.n_vt);
+  if (law.breakdown) current -= law.ibr * std::exp(-(v + law.vbr) / law.nbr_vt);
+  return static_cast<double>(current);
 }
 
 // dI/dV of an element from the contract's equations: 1/R for a resistor; for a diode
@@ -72,11 +83,13 @@ double SmallSignalConductance(const Circuit& c, const Element& e, double vj) {
   if (e.kind != ElementKind::kDiode || !std::isfinite(vj)) return 0.0;
   const DiodeModel& m = c.parts[static_cast<size_t>(e.part)].model;
   const ContractLaw law = LawAt(m, e.area, c.DeviceTemp(e));
-  double g = law.is / law.n_vt * std::exp(vj / law.n_vt);
-  if (law.breakdown) g += law.ibr / law.nbr_vt * std::exp(-(vj + law.vbr) / law.nbr_vt);
+  const Wide v = vj;
+  Wide g = law.is / law.n_vt * std::exp(v / law.n_vt);
+  if (law.breakdown) g += law.ibr / law.nbr_vt * std::exp(-(v + law.vbr) / law.nbr_vt);
   const double rs = m.series_res / e.area;
-  if (!std::isfinite(g)) return rs > 0.0 ? 1.0 / rs : 0.0;
-  return g / (1.0 + rs * g);
+  const double gd = static_cast<double>(g);
+  if (!std::isfinite(gd)) return rs > 0.0 ? 1.0 / rs : 0.0;
+  return gd / (1.0 + rs * gd);
 }
 
 Verification VerifySolution(const Circuit& c, const Solution& s, const VerifyTolerances& tol) {

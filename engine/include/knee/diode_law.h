@@ -11,46 +11,58 @@ inline constexpr double kBoltzmann = 1.380649e-23;            // J/K
 inline constexpr double kElementaryCharge = 1.602176634e-19;  // C
 inline constexpr double kZeroCelsius = 273.15;                // K
 
+// ln of the largest finite double (DBL_MAX = 1.797e308): an exponential term whose log
+// exceeds it is not a double. The junction law is evaluated exactly below it.
+inline constexpr double kLogDoubleMax = 709.782712893384;
+
 inline double ToKelvin(double celsius) { return celsius + kZeroCelsius; }
 inline double ThermalVoltage(double kelvin) { return kBoltzmann * kelvin / kElementaryCharge; }
 
-// Temperature-adjusted constants of one diode element (area applied).
+// Temperature-adjusted constants of one diode element (area applied). The saturation
+// current is carried as its logarithm too: at 4 K area*Is(T) is e^-3000 and more, far
+// below the smallest double, while the law's currents at a forward bias are ordinary.
 struct DiodeConstants {
-  double is = 0;    // A: area * Is(T)
-  double n_vt = 0;  // V: ideality * Vt(T)
-  double rs = 0;    // Ohm: series_res / area
+  double is = 0;      // A: area * Is(T), 0 where it underflows
+  double log_is = 0;  // ln(area * Is(T)), finite for every valid part
+  double n_vt = 0;    // V: ideality * Vt(T)
+  double rs = 0;      // Ohm: series_res / area
   bool has_breakdown = false;
-  double ibr = 0;     // A: area * breakdown_i
-  double nbr_vt = 0;  // V: breakdown_ideality * Vt(T)
-  double vbr = 0;     // V: breakdown_v(T)
+  double ibr = 0;      // A: area * breakdown_i
+  double log_ibr = 0;  // ln(area * breakdown_i)
+  double nbr_vt = 0;   // V: breakdown_ideality * Vt(T)
+  double vbr = 0;      // V: breakdown_v(T)
 };
 
 DiodeConstants ComputeDiodeConstants(const DiodeModel& model, double area, double temp_celsius);
 
-// Saturation current at temperature T (degC) per the contract's law, area 1.
+// Saturation current at temperature T (degC) per the contract's law, area 1; 0 where it
+// is below the smallest double (use LogSatCurrentAt there).
 double SatCurrentAt(const DiodeModel& model, double temp_celsius);
+// ln Is(T), area 1, in closed form: finite at any temperature above absolute zero.
+double LogSatCurrentAt(const DiodeModel& model, double temp_celsius);
 // Breakdown voltage at temperature T (degC).
 double BreakdownVoltageAt(const DiodeModel& model, double temp_celsius);
 
-// Junction current and its derivative dI/dVj at junction voltage vj, with the
-// overflow-safe exponential (continued linearly above an exponent of kExpLimit,
-// continuous in value and slope).
+// Junction current and its derivative dI/dVj at junction voltage vj: the contract's law
+// exactly, as far as the values are doubles. Each exponential term is evaluated as
+// exp(ln(scale) + exponent), so that neither a saturation current below the smallest
+// double nor an exponent above 709 loses it; where a term exceeds the largest double
+// the current (or conductance) is +inf, never a stand-in value.
 struct JunctionPoint {
   double current = 0;      // A
   double conductance = 0;  // S
 };
-inline constexpr double kExpLimit = 80.0;
 JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj);
+
+// ln of the magnitude of the dominant exponential term of the law at vj (the forward
+// term area*Is(T)*e^(vj/(n*Vt)) or the breakdown term), finite where the current itself
+// would overflow: for saying how large a current would be.
+double LogJunctionCurrent(const DiodeConstants& d, double vj);
 
 // The junction voltage of a diode with series resistance d.rs at terminal voltage v (the
 // root of v = vj + rs*I(vj)); `guess` is where the search starts. v itself when rs == 0.
 // When `at` is given it receives the junction's current and conductance at the result.
 double JunctionVoltageAt(const DiodeConstants& d, double v, double guess,
                          JunctionPoint* at = nullptr);
-
-// exp(x) for x <= kExpLimit, exp(kExpLimit) * (1 + x - kExpLimit) above.
-double SafeExp(double x);
-// d/dx SafeExp(x): exp(x) for x <= kExpLimit, exp(kExpLimit) above.
-double SafeExpSlope(double x);
 
 }  // namespace knee

@@ -77,6 +77,10 @@ enum class SolveStatus {
   // sources push more current than the reverse-biased diodes leaving it can carry, so
   // the potential is unbounded below); the detail names those elements.
   kNoSolution,
+  // Not usable: the answer is beyond the model: a junction that voltage sources alone
+  // hold carries more than any diode can (or more than a double holds); the detail says
+  // which junction, across which sources, and the current it would carry.
+  kOutOfRange,
 };
 const char* ToString(SolveStatus status);
 
