@@ -3,12 +3,14 @@
 #include <fmt/format.h>
 
 #include <cstdio>
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <string>
 #include <string_view>
 
 #include "analyses.h"
 #include "eng_format.h"
+#include "knee/sweep.h"
 #include "output.h"
 #include "pipeline.h"
 #include "svg_chart.h"
@@ -73,6 +75,19 @@ std::string DrawCharts(const std::vector<AnalysisResult>& results, const Analysi
   return "";
 }
 
+// The point failures and missed expectations of every analysis, on standard error.
+void PrintMisses(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
+  if (options.quiet) return;
+  for (const AnalysisResult& r : results) {
+    for (const PointFailure& f : r.report.failures) PrintPointFailure(f);
+    for (const ExpectationCheck& e : r.report.expectations) {
+      if (e.met) continue;
+      fmt::print(stderr, "knee: expectation missed: {} expected {}, exact {}\n", e.quantity,
+                 FormatEng(e.expected, e.unit, 6), FormatEng(e.actual, e.unit, 6));
+    }
+  }
+}
+
 int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
   Outcome outcome;
   for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
@@ -87,24 +102,7 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
     fmt::print(stderr, "knee: error: {}\n", problem);
     outcome.bad_input = true;
   }
-  if (!options.quiet) {
-    for (const AnalysisResult& r : results) {
-      for (const PointFailure& f : r.report.failures) {
-        // The reason may itself begin with the status ("no solution: no DC solution: ...").
-        constexpr std::string_view kStatus = "no solution: ";
-        const std::string_view why = std::string_view(f.why).starts_with(kStatus)
-                                         ? std::string_view(f.why).substr(kStatus.size())
-                                         : std::string_view(f.why);
-        fmt::print(stderr, "knee: no solution{}: {}\n", f.where.empty() ? "" : " at " + f.where,
-                   why);
-      }
-      for (const ExpectationCheck& e : r.report.expectations) {
-        if (e.met) continue;
-        fmt::print(stderr, "knee: expectation missed: {} expected {}, exact {}\n", e.quantity,
-                   FormatEng(e.expected, e.unit, 6), FormatEng(e.actual, e.unit, 6));
-      }
-    }
-  }
+  PrintMisses(results, options);
   return static_cast<int>(outcome.Status());
 }
 
@@ -113,6 +111,40 @@ struct Start {
   LoadedDesign loaded;
   std::vector<QuantityExpr> show;
 };
+
+// CSV without a chart is streamed: nothing needs every row at once (docs/sweeps.md).
+bool Streams(const AnalysisOptions& options) {
+  return options.format == ReportFormat::kCsv && options.plot_path.empty();
+}
+
+// The bias point (when asked for) and the sweeps, in order, each one's CSV written as it
+// is produced (a sweep's rows as its windows of blocks finish), separated by one empty
+// line as Combine does; --out is still replaced whole or not at all.
+int RunStreamed(const Start& start, bool bias, const std::vector<std::vector<SweepAxis>>& sweeps,
+                const AnalysisOptions& options) {
+  OutputStream out;
+  if (std::string problem = out.Open(options.out_path); !problem.empty()) return FailWith(problem);
+  const TextSink sink = [&out](std::string_view text) { return out.Write(text); };
+  std::vector<AnalysisResult> results;
+  auto separate = [&]() { return results.empty() ? std::string() : out.Write("\n"); };
+  if (bias) {
+    AnalysisResult r = AnalyzeBias(start.loaded, start.show, options);
+    if (r.outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+    std::string problem = out.Write(WriteReport(r.report, ReportFormat::kCsv));
+    if (!problem.empty()) return FailWith(problem);
+    results.push_back(std::move(r));
+  }
+  for (const std::vector<SweepAxis>& axes : sweeps) {
+    if (std::string problem = separate(); !problem.empty()) return FailWith(problem);
+    results.push_back(AnalyzeSweep(start.loaded, axes, start.show, options, &sink));
+    if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+  }
+  if (std::string problem = out.Commit(); !problem.empty()) return FailWith(problem);
+  PrintMisses(results, options);  // the sweeps' failures were printed as they were found
+  Outcome outcome;
+  for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
+  return static_cast<int>(outcome.Status());
+}
 
 // Returns the exit status when something is wrong (after saying what), else fills *start.
 std::optional<int> StartAnalysis(const std::string& file, AnalysisOptions* options,
@@ -170,9 +202,16 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
   std::vector<std::string> requests;
   if (loaded->design->bias_requested) requests.push_back("bias point");
   for (const auto& sweep : loaded->design->sweeps) {
-    long long points = 1;
-    for (const SweepAxis& axis : sweep) points *= static_cast<long long>(axis.values.size());
-    requests.push_back(fmt::format("sweep of {}", Count(points, "point", "points")));
+    SweepGrid grid;
+    for (const SweepAxis& axis : sweep) grid.axes.push_back(axis.values);
+    const std::optional<long long> points = grid.CheckedPointCount();
+    if (!points) {
+      return FailWith(
+          fmt::format("a sweep of the file has more than {} points, the most a sweep "
+                      "can count; sweep fewer values",
+                      std::numeric_limits<long long>::max()));
+    }
+    requests.push_back(fmt::format("sweep of {}", Count(*points, "point", "points")));
   }
   if (!loaded->design->expects.empty()) {
     requests.push_back(Count(static_cast<long long>(loaded->design->expects.size()), "expectation",
@@ -211,6 +250,7 @@ int RunSweep(const std::string& file, AnalysisOptions options) {
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
   if (!axes) return static_cast<int>(ExitStatus::kBadInput);
+  if (Streams(options)) return RunStreamed(*start, false, {*axes}, options);
   std::vector<AnalysisResult> results;
   results.push_back(AnalyzeSweep(start->loaded, *axes, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
@@ -221,6 +261,10 @@ int RunRun(const std::string& file, AnalysisOptions options) {
   std::optional<Start> start;
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   const Design& design = *start->loaded.design;
+  if (Streams(options)) {
+    return RunStreamed(*start, design.bias_requested || !design.expects.empty(), design.sweeps,
+                       options);
+  }
   std::vector<AnalysisResult> results;
   if (design.bias_requested || !design.expects.empty()) {
     results.push_back(AnalyzeBias(start->loaded, start->show, options));
