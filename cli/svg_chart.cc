@@ -118,6 +118,61 @@ std::string OverRatingBands(const Report& report, const Axis& x_axis, int left, 
   return svg;
 }
 
+// Writes a trace's path data, one pixel column at a time: of the points that fall in the
+// same column only the first, the lowest, the highest and the last are kept, in their
+// order. The line drawn is the same at the chart's resolution, and a path of millions of
+// points stays at most four points per pixel column long (docs/sweeps.md, "Charts").
+class ThinPath {
+ public:
+  explicit ThinPath(std::string* d) : d_(d) {}
+  ~ThinPath() { Flush(); }
+  void Add(double x, double y) {
+    const double column = std::floor(x);
+    if (count_ > 0 && column != column_) Flush();
+    const Point p{x, y, count_};
+    if (count_ == 0) {
+      column_ = column;
+      first_ = lo_ = hi_ = p;
+    } else {
+      if (y < lo_.y) lo_ = p;
+      if (y > hi_.y) hi_ = p;
+    }
+    last_ = p;
+    ++count_;
+  }
+  // A gap in the line (a failed point or one off a logarithmic axis).
+  void Break() {
+    Flush();
+    pen_down_ = false;
+  }
+
+ private:
+  struct Point {
+    double x = 0, y = 0;
+    long long index = 0;  // order within the column
+  };
+  void Flush() {
+    if (count_ == 0) return;
+    const Point& early = lo_.index <= hi_.index ? lo_ : hi_;
+    const Point& late = lo_.index <= hi_.index ? hi_ : lo_;
+    long long written = -1;
+    for (const Point* p : std::initializer_list<const Point*>{&first_, &early, &late, &last_}) {
+      if (p->index == written) continue;
+      *d_ +=
+          fmt::format("{}{:.2f},{:.2f}", pen_down_ ? " L" : (d_->empty() ? "M" : " M"), p->x, p->y);
+      pen_down_ = true;
+      written = p->index;
+    }
+    count_ = 0;
+  }
+
+  std::string* d_;
+  bool pen_down_ = false;
+  long long count_ = 0;
+  double column_ = 0;
+  Point first_, lo_, hi_, last_;
+};
+
 }  // namespace
 
 std::vector<double> LinearTicks(double lo, double hi, int target) {
@@ -259,15 +314,15 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
       const char* colour = kColours[t % std::size(kColours)];
       const bool dashed = t >= std::size(kColours);
       std::string d;
-      bool pen_down = false;
-      for (auto [x, y] : traces[t].points) {
-        if (!std::isfinite(y) || (log_y && y <= 0) || (x_axis.log && x <= 0)) {
-          pen_down = false;
-          continue;
+      {
+        ThinPath path(&d);
+        for (auto [x, y] : traces[t].points) {
+          if (!std::isfinite(y) || (log_y && y <= 0) || (x_axis.log && x <= 0)) {
+            path.Break();
+            continue;
+          }
+          path.Add(x_axis.Map(x, left, right), y_axis.Map(y, bottom, top));
         }
-        d += fmt::format("{}{:.2f},{:.2f}", pen_down ? " L" : (d.empty() ? "M" : " M"),
-                         x_axis.Map(x, left, right), y_axis.Map(y, bottom, top));
-        pen_down = true;
       }
       svg += fmt::format(
           "<path class=\"trace\" d=\"{}\" fill=\"none\" stroke=\"{}\" "

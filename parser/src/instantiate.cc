@@ -644,10 +644,11 @@ class Elaborator {
     std::optional<double> v = Evaluate(value, &place, context);
     if (!v) return;
     if (!PartKeyValueOk(info, *v)) {
-      Diagnostic& d = Error(value.span, fmt::format("{}part '{}': {} = {} is out of range; it "
-                                                    "must be {}",
-                                                    context.empty() ? "" : context + ": ",
-                                                    part->name, info.key, Number(*v), info.rule));
+      Diagnostic& d =
+          Error(value.span, fmt::format("{}part '{}': {} = {} is out of range; it "
+                                        "must be {}",
+                                        context.empty() ? "" : context + ": ", part->name, info.key,
+                                        Number(*v), PartKeyRule(info, *v)));
       (void)d;
       return;
     }
@@ -667,7 +668,7 @@ class Elaborator {
     } else if (d_.temp) {
       if (auto t = Evaluate(*d_.temp, &kTempPlace)) circuit->temp = *t;
     }
-    if (!(circuit->temp > -kZeroCelsius)) {
+    if (!(circuit->temp > -kZeroCelsius) || !std::isfinite(circuit->temp)) {
       Error(d_.temp && !overrides_.temp ? d_.temp->span : Span{},
             fmt::format("circuit temperature {} C is not above absolute zero (-273.15 C)",
                         Number(circuit->temp)));
@@ -694,10 +695,10 @@ class Elaborator {
         const ValuePlace place = ElementPlace(s.kind);
         if (auto v = Evaluate(value, &place, context)) {
           e.value = *v;
-          if (s.kind == ElementKind::kResistor && !(*v > 0)) {
-            Error(value.span,
-                  fmt::format("{}resistor '{}' has resistance {} Ohm; it must be > 0",
-                              context.empty() ? "" : context + ": ", s.name, Number(*v)));
+          if (s.kind == ElementKind::kResistor && !UsableResistance(*v)) {
+            Error(value.span, fmt::format("{}resistor '{}' has resistance {} Ohm; it must be {}",
+                                          context.empty() ? "" : context + ": ", s.name, Number(*v),
+                                          *v > 0 ? kResistanceRule : "> 0"));
           }
         }
       }
