@@ -24,7 +24,7 @@ constexpr std::streamsize kMaxFileBytes = std::streamsize{1} << 30;
 // Appends what `in` holds to *text, in chunks, and stops as soon as more than
 // kMaxFileBytes arrived: a pipe or a device has no size to check first, so the limit is
 // kept while reading. Reading also stops after a chunk holding a NUL byte: such a text is
-// not a netlist, and the lexer reports where the byte is (so /dev/zero ends at once).
+// no netlist and the lexer refuses it (so /dev/zero ends at once).
 // False when the limit was passed.
 bool ReadBounded(std::istream& in, std::string* text) {
   constexpr std::streamsize kChunk = std::streamsize{1} << 20;

@@ -109,19 +109,19 @@ class Collector {
     if (r.solutions.empty()) {
       r.status = HandStatus::kNoConsistent;
       if (r.detail.empty()) {
-        r.detail = exhaustive ? fmt::format(
-                                    "none of the {} state sets is consistent ({} leave the "
-                                    "circuit undetermined)",
-                                    r.sets_tried, r.singular_sets)
-                   : r.work_limit_reached
-                       ? fmt::format(
-                             "the iterative search stopped after {} state sets at its work "
-                             "limit for a network of this size (docs/hand-models.md, "
-                             "\"Limits\") and found no consistent set",
-                             r.sets_tried)
-                       : fmt::format(
-                             "the iterative search found no consistent state set in {} tries",
-                             r.sets_tried);
+        r.detail =
+            exhaustive ? fmt::format(
+                             "none of the {} state sets is consistent ({} leave the "
+                             "circuit undetermined)",
+                             r.sets_tried, r.singular_sets)
+            : r.work_limit_reached
+                ? fmt::format(
+                      "the iterative search stopped after {} state sets at its work "
+                      "limit for a network of this size (docs/hand-models.md, "
+                      "\"Limits\") and found no consistent set",
+                      r.sets_tried)
+                : fmt::format("the iterative search found no consistent state set in {} tries",
+                              r.sets_tried);
       }
       return;
     }
