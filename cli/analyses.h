@@ -39,6 +39,12 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
                             const std::vector<QuantityExpr>& show, const AnalysisOptions& options,
                             const TextSink* stream = nullptr);
 
+// The values a held report of this sweep would keep (points of the --shard slice times
+// columns, the CSV-only stress columns included); the largest long long when that does
+// not fit one.
+long long HeldSweepValues(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
+                          size_t shown, const AnalysisOptions& options);
+
 // "knee: no solution at {where}: {why}" on standard error.
 void PrintPointFailure(const PointFailure& failure);
 

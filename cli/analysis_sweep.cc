@@ -151,6 +151,25 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
   return axes;
 }
 
+long long HeldSweepValues(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
+                          size_t shown, const AnalysisOptions& options) {
+  SweepGrid grid;
+  for (const SweepAxis& axis : axes) grid.axes.push_back(axis.values);
+  int shard = 0, shards = 1;
+  std::string problem;
+  if (!grid.CheckedPointCount() || !ParseShard(options.shard, &shard, &shards, &problem)) {
+    return std::numeric_limits<long long>::max();
+  }
+  const auto [first, end] = ShardPoints(grid, shard, shards);
+  const size_t checks = CollectStressChecks(loaded.design->circuit, options.derate / 100).size();
+  long long values = 0;
+  if (__builtin_mul_overflow(end - first, static_cast<long long>(axes.size() + shown + checks),
+                             &values)) {
+    return std::numeric_limits<long long>::max();
+  }
+  return values;
+}
+
 AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
                             const std::vector<QuantityExpr>& show, const AnalysisOptions& options,
                             const TextSink* stream) {

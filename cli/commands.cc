@@ -265,6 +265,22 @@ int RunRun(const std::string& file, AnalysisOptions options) {
     return RunStreamed(*start, design.bias_requested || !design.expects.empty(), design.sweeps,
                        options);
   }
+  // The held reports of all the run's sweeps are kept at once: their sum is limited (each
+  // sweep alone is checked again by AnalyzeSweep, which names the format).
+  long long held = 0;
+  for (const std::vector<SweepAxis>& axes : design.sweeps) {
+    const long long values = HeldSweepValues(start->loaded, axes, start->show.size(), options);
+    held = values > std::numeric_limits<long long>::max() - held
+               ? std::numeric_limits<long long>::max()
+               : held + values;
+  }
+  if (design.sweeps.size() > 1 && held > kMaxHeldValues) {
+    return FailWith(fmt::format(
+        "the {} sweeps of this run hold {} values together, more than the {} values a held "
+        "report keeps in memory; write CSV without --plot (streamed, with no limit), or run "
+        "the sweeps one at a time with knee sweep",
+        design.sweeps.size(), held, kMaxHeldValues));
+  }
   std::vector<AnalysisResult> results;
   if (design.bias_requested || !design.expects.empty()) {
     results.push_back(AnalyzeBias(start->loaded, start->show, options));

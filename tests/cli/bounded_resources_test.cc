@@ -119,6 +119,19 @@ TEST_F(BoundedResources, HeldReportBeyondTheLimitIsRefusedBeforeSolving) {
     EXPECT_NE(run.err.find("write CSV without --plot"), std::string::npos) << run.err;
   }
   EXPECT_FALSE(fs::exists(plot));
+
+  // knee run holds the reports of all its sweeps at once: two sweeps of 12,000,000 values
+  // each are refused together, before either is solved, though each alone is within the
+  // limit when streamed.
+  const std::string file = folder_ + "/two-sweeps.knee";
+  std::ofstream(file) << "vsource V1 a -> gnd 5\nresistor R1 a -> gnd 1k\n"
+                         "sweep V1 0..5999999:1\nsweep V1 0..5999999:1\nshow a.v\n";
+  LimitedRun run = RunLimited(kSmallLimitKib, "$KNEE run " + file);
+  EXPECT_EQ(run.status, 2) << run.err;
+  EXPECT_EQ(run.out, "");
+  EXPECT_NE(run.err.find("the 2 sweeps of this run hold 24000000 values together"),
+            std::string::npos)
+      << run.err;
 }
 
 // CSV is streamed: the first rows of a 1e9-point sweep arrive at once and in a quarter
