@@ -260,7 +260,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
 
   // The slice is solved a window of blocks at a time when streaming (rows written and
   // dropped after each window), else in one window holding every row.
-  const long long window_blocks = 16LL * sweep_options.jobs;
+  const long long window_blocks = 32LL * sweep_options.jobs;
   Progress progress(slice_points, !options.quiet);
   StressRecorder stress(checks);
   const size_t stress_column = axes.size() + show.size();
