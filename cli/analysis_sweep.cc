@@ -76,6 +76,28 @@ std::string DescribePoint(const std::vector<SweepAxis>& axes, const Circuit& cir
   return where;
 }
 
+// Why a sweep whose point count does not fit a long long is refused.
+std::string TooManyToCount(const std::vector<SweepAxis>& axes) {
+  std::vector<std::string> sizes;
+  for (const SweepAxis& axis : axes) sizes.push_back(std::to_string(axis.values.size()));
+  return fmt::format(
+      "the sweep has {} points, more than the {} a sweep can count; sweep fewer "
+      "values",
+      fmt::join(sizes, " x "), std::numeric_limits<long long>::max());
+}
+
+// Why a held report (table, JSON, chart) of this many points is refused.
+std::string TooLargeToHold(long long points, size_t width, ReportFormat format) {
+  const char* held = format == ReportFormat::kJson    ? "a JSON report"
+                     : format == ReportFormat::kTable ? "a table"
+                                                      : "a chart";
+  return fmt::format(
+      "this sweep has {} points of {} values each, more than the {} values {} holds in "
+      "memory; write CSV without --plot (streamed as it is solved, with no limit), sweep "
+      "fewer points, or split it with --shard",
+      points, width, kMaxHeldValues, held);
+}
+
 }  // namespace
 
 bool ParseShard(const std::string& text, int* shard, int* shards, std::string* problem) {
@@ -203,12 +225,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     any_param |= axis.target.kind == SweepTarget::Kind::kParam;
   }
   if (!grid.CheckedPointCount()) {
-    std::vector<std::string> sizes;
-    for (const SweepAxis& axis : axes) sizes.push_back(std::to_string(axis.values.size()));
-    fmt::print(stderr,
-               "knee: error: the sweep has {} points, more than the {} a sweep can count; "
-               "sweep fewer values\n",
-               fmt::join(sizes, " x "), std::numeric_limits<long long>::max());
+    fmt::print(stderr, "knee: error: {}\n", TooManyToCount(axes));
     result.outcome.bad_input = true;
     return result;
   }
@@ -223,14 +240,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   const size_t width = report.columns.size();
   if (!stream &&
       slice_points > kMaxHeldValues / static_cast<long long>(std::max<size_t>(width, 1))) {
-    const char* held = options.format == ReportFormat::kJson    ? "a JSON report"
-                       : options.format == ReportFormat::kTable ? "a table"
-                                                                : "a chart";
-    fmt::print(stderr,
-               "knee: error: this sweep has {} points of {} values each, more than the {} "
-               "values {} holds in memory; write CSV without --plot (streamed as it is "
-               "solved, with no limit), sweep fewer points, or split it with --shard\n",
-               slice_points, width, kMaxHeldValues, held);
+    fmt::print(stderr, "knee: error: {}\n", TooLargeToHold(slice_points, width, options.format));
     result.outcome.bad_input = true;
     return result;
   }
