@@ -146,6 +146,7 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
                                                               const AnalysisOptions& options) {
   std::vector<SweepAxis> axes;
   std::vector<Diagnostic> errors;
+  long long values = 0;  // of all ranges, against kMaxSweepValues
   for (const std::string& spec : options.sweeps) {
     SourceLocation where;
     where.file = "knee sweep";
@@ -163,6 +164,16 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
     if (!axis) {
       for (const Diagnostic& d : axis.errors()) errors.push_back(d);
       continue;
+    }
+    values += static_cast<long long>(axis->values.size());
+    if (values > kMaxSweepValues) {
+      errors.push_back({where,
+                        fmt::format("the sweep ranges of this command line hold at least {} "
+                                    "values together; the limit is {}",
+                                    values, kMaxSweepValues),
+                        "sweep fewer points, or split the sweep into several runs",
+                        {}});
+      break;
     }
     axes.push_back(std::move(axis).value());
   }

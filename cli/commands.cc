@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <limits>
 #include <nlohmann/json.hpp>
+#include <span>
 #include <string>
 #include <string_view>
 
@@ -120,7 +121,7 @@ bool Streams(const AnalysisOptions& options) {
 // The bias point (when asked for) and the sweeps, in order, each one's CSV written as it
 // is produced (a sweep's rows as its windows of blocks finish), separated by one empty
 // line as Combine does; --out is still replaced whole or not at all.
-int RunStreamed(const Start& start, bool bias, const std::vector<std::vector<SweepAxis>>& sweeps,
+int RunStreamed(const Start& start, bool bias, std::span<const std::vector<SweepAxis>> sweeps,
                 const AnalysisOptions& options) {
   OutputStream out;
   if (std::string problem = out.Open(options.out_path); !problem.empty()) return FailWith(problem);
@@ -250,7 +251,7 @@ int RunSweep(const std::string& file, AnalysisOptions options) {
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
   if (!axes) return static_cast<int>(ExitStatus::kBadInput);
-  if (Streams(options)) return RunStreamed(*start, false, {*axes}, options);
+  if (Streams(options)) return RunStreamed(*start, false, {&*axes, 1}, options);
   std::vector<AnalysisResult> results;
   results.push_back(AnalyzeSweep(start->loaded, *axes, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);

@@ -155,6 +155,7 @@ class Elaborator {
 
   void Requests(const Circuit& circuit, Design* design) {
     design->bias_requested = d_.bias || d_.sweeps.empty();
+    long long sweep_values = 0;  // of all sweep statements, against kMaxSweepValues
     for (const SweepStmt& s : d_.sweeps) {
       std::vector<SweepAxis> axes;
       bool ok = true;
@@ -175,6 +176,14 @@ class Elaborator {
           Take(std::move(axis).take_errors());
           ok = false;
           continue;
+        }
+        sweep_values += static_cast<long long>(axis->values.size());
+        if (sweep_values > kMaxSweepValues) {
+          Error(p.range_span, fmt::format("the sweep ranges of this netlist hold at least {} "
+                                          "values together; the limit is {} (sweep fewer "
+                                          "points, or in several runs)",
+                                          sweep_values, kMaxSweepValues));
+          return;
         }
         axes.push_back(std::move(*axis));
       }

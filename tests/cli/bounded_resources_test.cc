@@ -98,6 +98,36 @@ TEST_F(BoundedResources, PointCountThatOverflowsIsRefused) {
   EXPECT_NE(run.err.find("the most a sweep can count"), std::string::npos) << run.err;
 }
 
+// The ranges of one command line, or of one netlist's sweeps, hold at most 10,000,000
+// values together: four ranges of 10,000,000 values (80 MB each) are refused after the
+// second instead of being expanded into 320 MB first.
+TEST_F(BoundedResources, SweepRangesAreBoundedTogether) {
+  LimitedRun run = RunLimited(kSmallLimitKib, "$KNEE sweep " + Clamp() +
+                                                  " Vfield=0..9999999:1 Vrail=0..9999999:1 "
+                                                  "Rlimit=1..10000000:1 temp=0..9999999:1");
+  EXPECT_EQ(run.status, 2) << run.err;
+  EXPECT_NE(run.err.find("the sweep ranges of this command line hold at least 20000000 values "
+                         "together; the limit is 10000000"),
+            std::string::npos)
+      << run.err;
+  const std::string file = folder_ + "/many-sweeps.knee";
+  std::ofstream(file) << "vsource V1 a -> gnd 5\nresistor R1 a -> gnd 1k\n"
+                         "sweep V1 0..5999999:1\nsweep V1 0..5999999:1\nsweep V1 0..5999999:1\n";
+  run = RunLimited(kSmallLimitKib, "$KNEE check " + file);
+  EXPECT_EQ(run.status, 2) << run.err;
+  EXPECT_NE(run.err.find(":4:10: error: the sweep ranges of this netlist hold at least "
+                         "12000000 values together"),
+            std::string::npos)
+      << run.err;
+  // Silent at the limit: one range of 10,000,000 values is accepted.
+  run = RunLimited(kSmallLimitKib, "$KNEE sweep " + Clamp() +
+                                       " Vfield=0..9999999:1 --format csv --quiet | head -c 10;"
+                                       " exit ${PIPESTATUS[0]}");
+  EXPECT_EQ(run.status, 2) << run.err;  // the closed pipe, after the first rows
+  EXPECT_NE(run.err.find("Broken pipe"), std::string::npos) << run.err;
+  EXPECT_EQ(run.out, "Vfield [V]");
+}
+
 // A report that must hold every row (table, JSON, a chart) is refused before anything
 // is solved or allocated when it is beyond the limit; 1e9 points used to abort with
 // std::bad_alloc.
@@ -120,16 +150,16 @@ TEST_F(BoundedResources, HeldReportBeyondTheLimitIsRefusedBeforeSolving) {
   }
   EXPECT_FALSE(fs::exists(plot));
 
-  // knee run holds the reports of all its sweeps at once: two sweeps of 12,000,000 values
+  // knee run holds the reports of all its sweeps at once: two sweeps of 6,000,000 values
   // each are refused together, before either is solved, though each alone is within the
-  // limit when streamed.
+  // limit.
   const std::string file = folder_ + "/two-sweeps.knee";
   std::ofstream(file) << "vsource V1 a -> gnd 5\nresistor R1 a -> gnd 1k\n"
-                         "sweep V1 0..5999999:1\nsweep V1 0..5999999:1\nshow a.v\n";
+                         "sweep V1 0..2999999:1\nsweep V1 0..2999999:1\nshow a.v\n";
   LimitedRun run = RunLimited(kSmallLimitKib, "$KNEE run " + file);
   EXPECT_EQ(run.status, 2) << run.err;
   EXPECT_EQ(run.out, "");
-  EXPECT_NE(run.err.find("the 2 sweeps of this run hold 24000000 values together"),
+  EXPECT_NE(run.err.find("the 2 sweeps of this run hold 12000000 values together"),
             std::string::npos)
       << run.err;
 }
