@@ -10,6 +10,7 @@
 #include <cstdio>
 #include <limits>
 #include <mutex>
+#include <optional>
 #include <string_view>
 #include <thread>
 
@@ -17,6 +18,7 @@
 #include "eng_format.h"
 #include "knee/sweep.h"
 #include "stress.h"
+#include "svg_chart.h"
 
 namespace knee::cli {
 namespace {
@@ -279,6 +281,39 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return "";
   };
 
+  // A streamed sweep with --plot keeps a sample of its rows for the chart.
+  std::optional<ChartSample> sample;
+  if (stream && !options.plot_path.empty()) {
+    ChartOptions chart;
+    chart.log_x = report.log_inner;
+    const long long lines =
+        axes.empty() || slice_points == 0 ? 0 : (slice_points + blocks.line - 1) / blocks.line;
+    const long long most = ChartSample::MostRows(lines, report, chart);
+    if (most > kMaxHeldValues / static_cast<long long>(std::max<size_t>(width, 1))) {
+      fmt::print(stderr,
+                 "knee: error: --plot: a chart of this sweep would keep up to {} rows of {} "
+                 "values ({} combinations of outer values), more than the {} values a chart "
+                 "holds in memory; sweep fewer outer values, or leave out --plot\n",
+                 most, width, lines, kMaxHeldValues);
+      result.outcome.bad_input = true;
+      return result;
+    }
+    double x_lo = INFINITY, x_hi = -INFINITY;
+    const std::vector<double>& inner = axes.front().values;
+    const size_t from = axes.size() == 1 ? static_cast<size_t>(first_point) : 0;
+    const size_t to = axes.size() == 1   ? static_cast<size_t>(end_point)
+                      : slice_points > 0 ? inner.size()
+                                         : 0;
+    for (size_t i = from; i < to; ++i) {
+      if (std::isfinite(inner[i]) && (!chart.log_x || inner[i] > 0)) {
+        x_lo = std::min(x_lo, inner[i]);
+        x_hi = std::max(x_hi, inner[i]);
+      }
+    }
+    sample.emplace(report, chart, x_lo, x_hi);
+  }
+  std::vector<char> window_over;
+
   // The slice is solved a window of blocks at a time when streaming (rows written and
   // dropped after each window), else in one window holding every row.
   const long long window_blocks = 32LL * sweep_options.jobs;
@@ -327,7 +362,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       return result;
     }
     MergeSweepStats(part, &stats);
-    stress.EndWindow(stream ? nullptr : &report.row_over_rating);
+    window_over.clear();
+    stress.EndWindow(!stream ? &report.row_over_rating : sample ? &window_over : nullptr);
     for (double v : largest_voltage) largest = std::max(largest, v);
     for (size_t r = 0; r < count; ++r) {
       if (failure_why[r].empty()) continue;
@@ -340,6 +376,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       std::string text = header_due ? WriteCsvHeader(report) : std::string();
       header_due = false;
       text += WriteCsvRows(report);
+      if (sample) sample->Add(report.rows, window_over);
       report.rows.clear();
       if (std::string trouble = (*stream)(text); !trouble.empty()) {
         fmt::print(stderr, "knee: error: {}\n", trouble);
@@ -354,6 +391,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     }
     start = stop;
   }
+  if (sample) sample->MoveInto(&report);
   auto describe = [&](long long row) {
     std::vector<long long> indices(axes.size());
     grid.Indices(first_point + row, indices);

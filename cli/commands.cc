@@ -113,9 +113,20 @@ struct Start {
   std::vector<QuantityExpr> show;
 };
 
-// CSV without a chart is streamed: nothing needs every row at once (docs/sweeps.md).
-bool Streams(const AnalysisOptions& options) {
-  return options.format == ReportFormat::kCsv && options.plot_path.empty();
+// CSV is streamed (docs/sweeps.md, "Limits"): without a chart always; with one when the
+// rows held for it would pass the limit, the chart then drawn from a sample of the rows.
+bool Streams(const Start& start, const std::vector<const std::vector<SweepAxis>*>& sweeps,
+             const AnalysisOptions& options) {
+  if (options.format != ReportFormat::kCsv) return false;
+  if (options.plot_path.empty()) return true;
+  long long held = 0;
+  for (const std::vector<SweepAxis>* axes : sweeps) {
+    const long long values = HeldSweepValues(start.loaded, *axes, start.show.size(), options);
+    held = values > std::numeric_limits<long long>::max() - held
+               ? std::numeric_limits<long long>::max()
+               : held + values;
+  }
+  return held > kMaxHeldValues;
 }
 
 // The bias point (when asked for) and the sweeps, in order, each one's CSV written as it
@@ -141,6 +152,9 @@ int RunStreamed(const Start& start, bool bias, std::span<const std::vector<Sweep
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
   if (std::string problem = out.Commit(); !problem.empty()) return FailWith(problem);
+  if (std::string problem = DrawCharts(results, options); !problem.empty()) {
+    return FailWith(problem);
+  }
   PrintMisses(results, options);  // the sweeps' failures were printed as they were found
   Outcome outcome;
   for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
@@ -251,7 +265,7 @@ int RunSweep(const std::string& file, AnalysisOptions options) {
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
   if (!axes) return static_cast<int>(ExitStatus::kBadInput);
-  if (Streams(options)) return RunStreamed(*start, false, {&*axes, 1}, options);
+  if (Streams(*start, {&*axes}, options)) return RunStreamed(*start, false, {&*axes, 1}, options);
   std::vector<AnalysisResult> results;
   results.push_back(AnalyzeSweep(start->loaded, *axes, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
@@ -262,7 +276,9 @@ int RunRun(const std::string& file, AnalysisOptions options) {
   std::optional<Start> start;
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   const Design& design = *start->loaded.design;
-  if (Streams(options)) {
+  std::vector<const std::vector<SweepAxis>*> sweeps;
+  for (const std::vector<SweepAxis>& axes : design.sweeps) sweeps.push_back(&axes);
+  if (Streams(*start, sweeps, options)) {
     return RunStreamed(*start, design.bias_requested || !design.expects.empty(), design.sweeps,
                        options);
   }

@@ -137,7 +137,6 @@ TEST_F(BoundedResources, HeldReportBeyondTheLimitIsRefusedBeforeSolving) {
   const std::pair<std::string, std::string> cases[] = {
       {"--format table", "values a table holds in memory"},
       {"--format json", "values a JSON report holds in memory"},
-      {"--format csv --plot " + plot, "values a chart holds in memory"},
   };
   for (const auto& [options, message] : cases) {
     LimitedRun run = RunLimited(kSmallLimitKib, sweep + options);
@@ -148,6 +147,14 @@ TEST_F(BoundedResources, HeldReportBeyondTheLimitIsRefusedBeforeSolving) {
     EXPECT_NE(run.err.find(message), std::string::npos) << run.err;
     EXPECT_NE(run.err.find("write CSV without --plot"), std::string::npos) << run.err;
   }
+  // CSV with a chart streams and samples the rows for the chart, but 10,000 outer values
+  // would make a sample beyond the limit: refused before solving.
+  LimitedRun run = RunLimited(kSmallLimitKib, sweep + "--format csv --plot " + plot);
+  EXPECT_EQ(run.status, 2) << run.err;
+  EXPECT_EQ(run.out, "");
+  EXPECT_NE(run.err.find("--plot: a chart of this sweep would keep up to"), std::string::npos)
+      << run.err;
+  EXPECT_NE(run.err.find("(10000 combinations of outer values)"), std::string::npos) << run.err;
   EXPECT_FALSE(fs::exists(plot));
 
   // knee run holds the reports of all its sweeps at once: two sweeps of 6,000,000 values
@@ -156,7 +163,7 @@ TEST_F(BoundedResources, HeldReportBeyondTheLimitIsRefusedBeforeSolving) {
   const std::string file = folder_ + "/two-sweeps.knee";
   std::ofstream(file) << "vsource V1 a -> gnd 5\nresistor R1 a -> gnd 1k\n"
                          "sweep V1 0..2999999:1\nsweep V1 0..2999999:1\nshow a.v\n";
-  LimitedRun run = RunLimited(kSmallLimitKib, "$KNEE run " + file);
+  run = RunLimited(kSmallLimitKib, "$KNEE run " + file);
   EXPECT_EQ(run.status, 2) << run.err;
   EXPECT_EQ(run.out, "");
   EXPECT_NE(run.err.find("the 2 sweeps of this run hold 12000000 values together"),
@@ -205,6 +212,26 @@ TEST_F(BoundedResources, StreamedCsvIsTheHeldCsv) {
     EXPECT_EQ(to_file.out, "");
     EXPECT_TRUE(ReadWhole(out) == held.out) << "--jobs " << jobs;
   }
+}
+
+// CSV with --plot beyond the held limit is streamed too, and its chart drawn from a
+// sample of the rows: 1,000,001 points of 13 values (more than 10,000,000) in a quarter
+// GiB, the CSV whole and the chart small.
+TEST_F(BoundedResources, CsvWithAChartBeyondTheLimitIsStreamed) {
+  const std::string csv = folder_ + "/big.csv";
+  const std::string svg = folder_ + "/big.svg";
+  LimitedRun run = RunLimited(kSmallLimitKib, "$KNEE sweep " + Clamp() +
+                                                  " Vfield=-5..5:0.00001 --format csv --quiet "
+                                                  "--out " +
+                                                  csv + " --plot " + svg);
+  EXPECT_EQ(run.status, 0) << run.err;
+  const std::vector<std::string> lines = Lines(ReadWhole(csv));
+  ASSERT_EQ(lines.size(), 1'000'002u);
+  EXPECT_EQ(lines[1].rfind("-5,", 0), 0u) << lines[1];
+  EXPECT_EQ(lines.back().rfind("5,", 0), 0u) << lines.back();
+  const std::string chart = ReadWhole(svg);
+  EXPECT_NE(chart.find("class=\"trace\""), std::string::npos);
+  EXPECT_LT(chart.size(), 300'000u);
 }
 
 // Standard input and pipes have no size to check first: the 1 GiB limit is kept while
