@@ -90,7 +90,8 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   const Circuit& circuit = loaded.design->circuit;
   const double derate = options.derate / 100;
   const std::vector<StressCheck> checks = CollectStressChecks(circuit, derate);
-  StressRecorder stress(checks, 1);
+  StressRecorder stress(checks);
+  stress.BeginWindow(0, 1);
   AddStressColumns(checks, circuit, &report);
 
   Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options.solver);
@@ -126,6 +127,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     result.outcome.point_failed = true;
   }
   report.rows.push_back(std::move(row));
+  stress.EndWindow(&report.row_over_rating);
   stress.Finish(
       circuit, derate, [](long long) { return std::string(); }, &report);
   for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;

@@ -10,12 +10,15 @@
 #include <cstdio>
 #include <limits>
 #include <mutex>
+#include <optional>
+#include <string_view>
 #include <thread>
 
 #include "analyses.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
 #include "stress.h"
+#include "svg_chart.h"
 
 namespace knee::cli {
 namespace {
@@ -75,6 +78,28 @@ std::string DescribePoint(const std::vector<SweepAxis>& axes, const Circuit& cir
   return where;
 }
 
+// Why a sweep whose point count does not fit a long long is refused.
+std::string TooManyToCount(const std::vector<SweepAxis>& axes) {
+  std::vector<std::string> sizes;
+  for (const SweepAxis& axis : axes) sizes.push_back(std::to_string(axis.values.size()));
+  return fmt::format(
+      "the sweep has {} points, more than the {} a sweep can count; sweep fewer "
+      "values",
+      fmt::join(sizes, " x "), std::numeric_limits<long long>::max());
+}
+
+// Why a held report (table, JSON, chart) of this many points is refused.
+std::string TooLargeToHold(long long points, size_t width, ReportFormat format) {
+  const char* held = format == ReportFormat::kJson    ? "a JSON report"
+                     : format == ReportFormat::kTable ? "a table"
+                                                      : "a chart";
+  return fmt::format(
+      "this sweep has {} points of {} values each, more than the {} values {} holds in "
+      "memory; write CSV without --plot (streamed as it is solved, with no limit), sweep "
+      "fewer points, or split it with --shard",
+      points, width, kMaxHeldValues, held);
+}
+
 }  // namespace
 
 bool ParseShard(const std::string& text, int* shard, int* shards, std::string* problem) {
@@ -83,21 +108,47 @@ bool ParseShard(const std::string& text, int* shard, int* shards, std::string* p
     *shards = 1;
     return true;
   }
-  int k = 0, n = 0;
-  char extra = 0;
-  if (std::sscanf(text.c_str(), "%d/%d%c", &k, &n, &extra) != 2 || n < 1 || k < 1 || k > n) {
-    *problem = fmt::format("--shard: '{}' is not K/N with 1 <= K <= N (e.g. --shard 2/8)", text);
+  // Whole decimal numbers only, range-checked before narrowing: 4294967297/2 must not
+  // wrap to 1/2.
+  auto whole = [](std::string_view digits, long long* value) {
+    if (digits.empty() || digits.size() > 10) return false;
+    *value = 0;
+    for (char c : digits) {
+      if (c < '0' || c > '9') return false;
+      *value = *value * 10 + (c - '0');
+    }
+    return true;
+  };
+  const size_t slash = text.find('/');
+  long long k = 0, n = 0;
+  const bool ok = slash != std::string::npos &&
+                  whole(std::string_view(text).substr(0, slash), &k) &&
+                  whole(std::string_view(text).substr(slash + 1), &n) && n >= 1 &&
+                  n <= kMaxShards && k >= 1 && k <= n;
+  if (!ok) {
+    *problem = fmt::format("--shard: '{}' is not K/N with 1 <= K <= N <= {} (e.g. --shard 2/8)",
+                           text, kMaxShards);
     return false;
   }
-  *shard = k - 1;
-  *shards = n;
+  *shard = static_cast<int>(k - 1);
+  *shards = static_cast<int>(n);
   return true;
+}
+
+void PrintPointFailure(const PointFailure& f) {
+  // The reason may itself begin with the status ("no solution: no DC solution: ...").
+  constexpr std::string_view kStatus = "no solution: ";
+  const std::string_view why = std::string_view(f.why).starts_with(kStatus)
+                                   ? std::string_view(f.why).substr(kStatus.size())
+                                   : std::string_view(f.why);
+  fmt::print(stderr, "knee: no solution{}: {}\n", f.where.empty() ? "" : " at " + f.where, why);
 }
 
 std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign& loaded,
                                                               const AnalysisOptions& options) {
   std::vector<SweepAxis> axes;
   std::vector<Diagnostic> errors;
+  long long values = 0;  // of all ranges, against kMaxSweepValues
   for (const std::string& spec : options.sweeps) {
     SourceLocation where;
     where.file = "knee sweep";
@@ -116,6 +167,16 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
       for (const Diagnostic& d : axis.errors()) errors.push_back(d);
       continue;
     }
+    values += static_cast<long long>(axis->values.size());
+    if (values > kMaxSweepValues) {
+      errors.push_back({where,
+                        fmt::format("the sweep ranges of this command line hold at least {} "
+                                    "values together; the limit is {}",
+                                    values, kMaxSweepValues),
+                        "sweep fewer points, or split the sweep into several runs",
+                        {}});
+      break;
+    }
     axes.push_back(std::move(axis).value());
   }
   if (!errors.empty()) {
@@ -125,8 +186,28 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
   return axes;
 }
 
+long long HeldSweepValues(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
+                          size_t shown, const AnalysisOptions& options) {
+  SweepGrid grid;
+  for (const SweepAxis& axis : axes) grid.axes.push_back(axis.values);
+  int shard = 0, shards = 1;
+  std::string problem;
+  if (!grid.CheckedPointCount() || !ParseShard(options.shard, &shard, &shards, &problem)) {
+    return std::numeric_limits<long long>::max();
+  }
+  const auto [first, end] = ShardPoints(grid, shard, shards);
+  const size_t checks = CollectStressChecks(loaded.design->circuit, options.derate / 100).size();
+  long long values = 0;
+  if (__builtin_mul_overflow(end - first, static_cast<long long>(axes.size() + shown + checks),
+                             &values)) {
+    return std::numeric_limits<long long>::max();
+  }
+  return values;
+}
+
 AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepAxis>& axes,
-                            const std::vector<QuantityExpr>& show, const AnalysisOptions& options) {
+                            const std::vector<QuantityExpr>& show, const AnalysisOptions& options,
+                            const TextSink* stream) {
   AnalysisResult result;
   Report& report = result.report;
   report = StartReport(loaded, "sweep");
@@ -156,15 +237,26 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     grid.axes.push_back(axis.values);
     any_param |= axis.target.kind == SweepTarget::Kind::kParam;
   }
+  if (!grid.CheckedPointCount()) {
+    fmt::print(stderr, "knee: error: {}\n", TooManyToCount(axes));
+    result.outcome.bad_input = true;
+    return result;
+  }
   SweepOptions sweep_options;
   sweep_options.jobs = options.jobs > 0
                            ? options.jobs
                            : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   const SweepBlocks blocks = CutIntoBlocks(grid, sweep_options.block_size);
-  const auto [first_block, last_block] = ShardBlocks(grid, blocks, shard, shards);
+  const auto [first_point, end_point] = ShardPoints(grid, shard, shards);
   report.csv_header = shard == 0;
-  const long long first_point = blocks.starts[first_block];
-  const long long end_point = blocks.starts[last_block];
+  const long long slice_points = end_point - first_point;
+  const size_t width = report.columns.size();
+  if (!stream &&
+      slice_points > kMaxHeldValues / static_cast<long long>(std::max<size_t>(width, 1))) {
+    fmt::print(stderr, "knee: error: {}\n", TooLargeToHold(slice_points, width, options.format));
+    result.outcome.bad_input = true;
+    return result;
+  }
 
   // Applies one point: param axes re-evaluate the netlist's expressions; the others set
   // the value directly.
@@ -189,16 +281,53 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return "";
   };
 
-  const size_t width = report.columns.size();
-  report.rows.assign(static_cast<size_t>(end_point - first_point),
-                     std::vector<double>(width, kNaN));
-  std::vector<std::string> failure_why(report.rows.size());
-  Progress progress(end_point - first_point, !options.quiet);
-  StressRecorder stress(checks, end_point - first_point);
-  std::vector<double> largest_voltage(report.rows.size(), 0.0);
+  // A streamed sweep with --plot keeps a sample of its rows for the chart.
+  std::optional<ChartSample> sample;
+  if (stream && !options.plot_path.empty()) {
+    ChartOptions chart;
+    chart.log_x = report.log_inner;
+    const long long lines =
+        axes.empty() || slice_points == 0 ? 0 : (slice_points + blocks.line - 1) / blocks.line;
+    const long long most = ChartSample::MostRows(lines, report, chart);
+    if (most > kMaxHeldValues / static_cast<long long>(std::max<size_t>(width, 1))) {
+      fmt::print(stderr,
+                 "knee: error: --plot: a chart of this sweep would keep up to {} rows of {} "
+                 "values ({} combinations of outer values), more than the {} values a chart "
+                 "holds in memory; sweep fewer outer values, or leave out --plot\n",
+                 most, width, lines, kMaxHeldValues);
+      result.outcome.bad_input = true;
+      return result;
+    }
+    double x_lo = INFINITY, x_hi = -INFINITY;
+    const std::vector<double>& inner = axes.front().values;
+    const size_t from = axes.size() == 1 ? static_cast<size_t>(first_point) : 0;
+    const size_t to = axes.size() == 1   ? static_cast<size_t>(end_point)
+                      : slice_points > 0 ? inner.size()
+                                         : 0;
+    for (size_t i = from; i < to; ++i) {
+      if (std::isfinite(inner[i]) && (!chart.log_x || inner[i] > 0)) {
+        x_lo = std::min(x_lo, inner[i]);
+        x_hi = std::max(x_hi, inner[i]);
+      }
+    }
+    sample.emplace(report, chart, x_lo, x_hi);
+  }
+  std::vector<char> window_over;
+
+  // The slice is solved a window of blocks at a time when streaming (rows written and
+  // dropped after each window), else in one window holding every row.
+  const long long window_blocks = 32LL * sweep_options.jobs;
+  Progress progress(slice_points, !options.quiet);
+  StressRecorder stress(checks);
   const size_t stress_column = axes.size() + show.size();
+  std::vector<std::string> failure_why;
+  std::vector<double> largest_voltage;
+  double largest = 0;
+  SweepStats stats;
+  long long window_first = first_point;  // sweep point of report.rows[0]
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
-    std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
+    const auto r = static_cast<size_t>(index - window_first);
+    std::vector<double>& row = report.rows[r];
     thread_local std::vector<long long> indices;  // per worker thread, reused across points
     indices.resize(axes.size());
     grid.Indices(index, indices);
@@ -207,27 +336,62 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       for (size_t q = 0; q < show.size(); ++q) row[axes.size() + q] = show[q].Evaluate(*solution);
       FillStressColumns(checks, *solution, row.data() + stress_column);
       stress.Record(index - first_point, *solution);
-      largest_voltage[static_cast<size_t>(index - first_point)] = LargestVoltage(base, *solution);
+      largest_voltage[r] = LargestVoltage(base, *solution);
     } else {
-      failure_why[static_cast<size_t>(index - first_point)] =
-          fmt::format("{}: {}", ToString(summary.status), summary.detail);
+      failure_why[r] = fmt::format("{}: {}", ToString(summary.status), summary.detail);
     }
     progress.Tick();
   };
-  SweepStats stats = RunSweep(base, grid, blocks, first_block, last_block, apply, options.solver,
-                              sweep_options, sink);
-  if (!stats.setup_error.empty()) {
-    fmt::print(stderr, "knee: error: {}\n", stats.setup_error);
-    result.outcome.bad_input = true;
-    return result;
+  bool header_due = stream && report.csv_header;
+  for (long long start = first_point; start < end_point || header_due;) {
+    const long long stop =
+        stream && start < end_point
+            ? std::min(end_point, blocks.Start(blocks.BlockOf(start) + window_blocks))
+            : end_point;
+    const auto count = static_cast<size_t>(stop - start);
+    window_first = start;
+    report.rows.assign(count, std::vector<double>(width, kNaN));
+    failure_why.assign(count, std::string());
+    largest_voltage.assign(count, 0.0);
+    stress.BeginWindow(start - first_point, stop - start);
+    const SweepStats part =
+        RunSweep(base, grid, blocks, start, stop, apply, options.solver, sweep_options, sink);
+    if (!part.setup_error.empty()) {
+      fmt::print(stderr, "knee: error: {}\n", part.setup_error);
+      result.outcome.bad_input = true;
+      return result;
+    }
+    MergeSweepStats(part, &stats);
+    window_over.clear();
+    stress.EndWindow(!stream ? &report.row_over_rating : sample ? &window_over : nullptr);
+    for (double v : largest_voltage) largest = std::max(largest, v);
+    for (size_t r = 0; r < count; ++r) {
+      if (failure_why[r].empty()) continue;
+      std::vector<long long> indices(axes.size());
+      grid.Indices(start + static_cast<long long>(r), indices);
+      report.failures.push_back({start - first_point + static_cast<long long>(r),
+                                 DescribePoint(axes, base, indices), failure_why[r]});
+    }
+    if (stream) {
+      std::string text = header_due ? WriteCsvHeader(report) : std::string();
+      header_due = false;
+      text += WriteCsvRows(report);
+      if (sample) sample->Add(report.rows, window_over);
+      report.rows.clear();
+      if (std::string trouble = (*stream)(text); !trouble.empty()) {
+        fmt::print(stderr, "knee: error: {}\n", trouble);
+        result.outcome.bad_input = true;
+        return result;
+      }
+      result.outcome.point_failed |= !report.failures.empty();
+      if (!options.quiet) {
+        for (const PointFailure& f : report.failures) PrintPointFailure(f);
+      }
+      report.failures.clear();
+    }
+    start = stop;
   }
-  for (size_t r = 0; r < report.rows.size(); ++r) {
-    if (failure_why[r].empty()) continue;
-    std::vector<long long> indices(axes.size());
-    grid.Indices(first_point + static_cast<long long>(r), indices);
-    report.failures.push_back(
-        {static_cast<long long>(r), DescribePoint(axes, base, indices), failure_why[r]});
-  }
+  if (sample) sample->MoveInto(&report);
   auto describe = [&](long long row) {
     std::vector<long long> indices(axes.size());
     grid.Indices(first_point + row, indices);
@@ -236,8 +400,6 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   stress.Finish(base, derate, describe, &report);
   for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;
   // The caution also covers source values swept past the limit at points that failed.
-  double largest = 0;
-  for (double v : largest_voltage) largest = std::max(largest, v);
   for (const SweepAxis& axis : axes) {
     const bool source = axis.target.kind == SweepTarget::Kind::kElement &&
                         base.elements[axis.target.index].kind == ElementKind::kVoltageSource;

@@ -3,12 +3,15 @@
 #include <fmt/format.h>
 
 #include <cstdio>
+#include <limits>
 #include <nlohmann/json.hpp>
+#include <span>
 #include <string>
 #include <string_view>
 
 #include "analyses.h"
 #include "eng_format.h"
+#include "knee/sweep.h"
 #include "output.h"
 #include "pipeline.h"
 #include "svg_chart.h"
@@ -73,6 +76,19 @@ std::string DrawCharts(const std::vector<AnalysisResult>& results, const Analysi
   return "";
 }
 
+// The point failures and missed expectations of every analysis, on standard error.
+void PrintMisses(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
+  if (options.quiet) return;
+  for (const AnalysisResult& r : results) {
+    for (const PointFailure& f : r.report.failures) PrintPointFailure(f);
+    for (const ExpectationCheck& e : r.report.expectations) {
+      if (e.met) continue;
+      fmt::print(stderr, "knee: expectation missed: {} expected {}, exact {}\n", e.quantity,
+                 FormatEng(e.expected, e.unit, 6), FormatEng(e.actual, e.unit, 6));
+    }
+  }
+}
+
 int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& options) {
   Outcome outcome;
   for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
@@ -87,24 +103,7 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
     fmt::print(stderr, "knee: error: {}\n", problem);
     outcome.bad_input = true;
   }
-  if (!options.quiet) {
-    for (const AnalysisResult& r : results) {
-      for (const PointFailure& f : r.report.failures) {
-        // The reason may itself begin with the status ("no solution: no DC solution: ...").
-        constexpr std::string_view kStatus = "no solution: ";
-        const std::string_view why = std::string_view(f.why).starts_with(kStatus)
-                                         ? std::string_view(f.why).substr(kStatus.size())
-                                         : std::string_view(f.why);
-        fmt::print(stderr, "knee: no solution{}: {}\n", f.where.empty() ? "" : " at " + f.where,
-                   why);
-      }
-      for (const ExpectationCheck& e : r.report.expectations) {
-        if (e.met) continue;
-        fmt::print(stderr, "knee: expectation missed: {} expected {}, exact {}\n", e.quantity,
-                   FormatEng(e.expected, e.unit, 6), FormatEng(e.actual, e.unit, 6));
-      }
-    }
-  }
+  PrintMisses(results, options);
   return static_cast<int>(outcome.Status());
 }
 
@@ -113,6 +112,54 @@ struct Start {
   LoadedDesign loaded;
   std::vector<QuantityExpr> show;
 };
+
+// CSV is streamed (docs/sweeps.md, "Limits"): without a chart always; with one when the
+// rows held for it would pass the limit, the chart then drawn from a sample of the rows.
+bool Streams(const Start& start, const std::vector<const std::vector<SweepAxis>*>& sweeps,
+             const AnalysisOptions& options) {
+  if (options.format != ReportFormat::kCsv) return false;
+  if (options.plot_path.empty()) return true;
+  long long held = 0;
+  for (const std::vector<SweepAxis>* axes : sweeps) {
+    const long long values = HeldSweepValues(start.loaded, *axes, start.show.size(), options);
+    held = values > std::numeric_limits<long long>::max() - held
+               ? std::numeric_limits<long long>::max()
+               : held + values;
+  }
+  return held > kMaxHeldValues;
+}
+
+// The bias point (when asked for) and the sweeps, in order, each one's CSV written as it
+// is produced (a sweep's rows as its windows of blocks finish), separated by one empty
+// line as Combine does; --out is still replaced whole or not at all.
+int RunStreamed(const Start& start, bool bias, std::span<const std::vector<SweepAxis>> sweeps,
+                const AnalysisOptions& options) {
+  OutputStream out;
+  if (std::string problem = out.Open(options.out_path); !problem.empty()) return FailWith(problem);
+  const TextSink sink = [&out](std::string_view text) { return out.Write(text); };
+  std::vector<AnalysisResult> results;
+  auto separate = [&]() { return results.empty() ? std::string() : out.Write("\n"); };
+  if (bias) {
+    AnalysisResult r = AnalyzeBias(start.loaded, start.show, options);
+    if (r.outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+    std::string problem = out.Write(WriteReport(r.report, ReportFormat::kCsv));
+    if (!problem.empty()) return FailWith(problem);
+    results.push_back(std::move(r));
+  }
+  for (const std::vector<SweepAxis>& axes : sweeps) {
+    if (std::string problem = separate(); !problem.empty()) return FailWith(problem);
+    results.push_back(AnalyzeSweep(start.loaded, axes, start.show, options, &sink));
+    if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
+  }
+  if (std::string problem = out.Commit(); !problem.empty()) return FailWith(problem);
+  if (std::string problem = DrawCharts(results, options); !problem.empty()) {
+    return FailWith(problem);
+  }
+  PrintMisses(results, options);  // the sweeps' failures were printed as they were found
+  Outcome outcome;
+  for (const AnalysisResult& r : results) outcome.Merge(r.outcome);
+  return static_cast<int>(outcome.Status());
+}
 
 // Returns the exit status when something is wrong (after saying what), else fills *start.
 std::optional<int> StartAnalysis(const std::string& file, AnalysisOptions* options,
@@ -170,9 +217,16 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
   std::vector<std::string> requests;
   if (loaded->design->bias_requested) requests.push_back("bias point");
   for (const auto& sweep : loaded->design->sweeps) {
-    long long points = 1;
-    for (const SweepAxis& axis : sweep) points *= static_cast<long long>(axis.values.size());
-    requests.push_back(fmt::format("sweep of {}", Count(points, "point", "points")));
+    SweepGrid grid;
+    for (const SweepAxis& axis : sweep) grid.axes.push_back(axis.values);
+    const std::optional<long long> points = grid.CheckedPointCount();
+    if (!points) {
+      return FailWith(
+          fmt::format("a sweep of the file has more than {} points, the most a sweep "
+                      "can count; sweep fewer values",
+                      std::numeric_limits<long long>::max()));
+    }
+    requests.push_back(fmt::format("sweep of {}", Count(*points, "point", "points")));
   }
   if (!loaded->design->expects.empty()) {
     requests.push_back(Count(static_cast<long long>(loaded->design->expects.size()), "expectation",
@@ -211,6 +265,7 @@ int RunSweep(const std::string& file, AnalysisOptions options) {
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
   if (!axes) return static_cast<int>(ExitStatus::kBadInput);
+  if (Streams(*start, {&*axes}, options)) return RunStreamed(*start, false, {&*axes, 1}, options);
   std::vector<AnalysisResult> results;
   results.push_back(AnalyzeSweep(start->loaded, *axes, start->show, options));
   if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
@@ -221,6 +276,28 @@ int RunRun(const std::string& file, AnalysisOptions options) {
   std::optional<Start> start;
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
   const Design& design = *start->loaded.design;
+  std::vector<const std::vector<SweepAxis>*> sweeps;
+  for (const std::vector<SweepAxis>& axes : design.sweeps) sweeps.push_back(&axes);
+  if (Streams(*start, sweeps, options)) {
+    return RunStreamed(*start, design.bias_requested || !design.expects.empty(), design.sweeps,
+                       options);
+  }
+  // The held reports of all the run's sweeps are kept at once: their sum is limited (each
+  // sweep alone is checked again by AnalyzeSweep, which names the format).
+  long long held = 0;
+  for (const std::vector<SweepAxis>& axes : design.sweeps) {
+    const long long values = HeldSweepValues(start->loaded, axes, start->show.size(), options);
+    held = values > std::numeric_limits<long long>::max() - held
+               ? std::numeric_limits<long long>::max()
+               : held + values;
+  }
+  if (design.sweeps.size() > 1 && held > kMaxHeldValues) {
+    return FailWith(fmt::format(
+        "the {} sweeps of this run hold {} values together, more than the {} values a held "
+        "report keeps in memory; write CSV without --plot (streamed, with no limit), or run "
+        "the sweeps one at a time with knee sweep",
+        design.sweeps.size(), held, kMaxHeldValues));
+  }
   std::vector<AnalysisResult> results;
   if (design.bias_requested || !design.expects.empty()) {
     results.push_back(AnalyzeBias(start->loaded, start->show, options));

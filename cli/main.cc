@@ -36,7 +36,9 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
   command->add_option("--plot", o->plot_path, "Also draw an SVG chart")->type_name("PATH.svg");
   command->add_flag("--plot-log-current", o->plot_log_current,
                     "Draw currents on a logarithmic axis of |I| in charts");
-  command->add_option("--jobs", o->jobs, "Worker threads for sweeps (default: all cores)")
+  command
+      ->add_option("--jobs", o->jobs,
+                   "Worker threads for sweeps, 1 to 256; 0 or not given: one per core")
       ->type_name("N");
   command->add_option("--shard", o->shard, "Compute only the K-th of N slices of a sweep")
       ->type_name("K/N");

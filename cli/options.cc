@@ -2,6 +2,10 @@
 
 #include <fmt/format.h>
 
+#include <cmath>
+
+#include "knee/diode_law.h"
+
 namespace knee::cli {
 
 std::vector<std::string> SplitTopLevel(const std::string& text, char separator) {
@@ -51,8 +55,18 @@ std::string FinishOptions(AnalysisOptions* options) {
         "diode may use, e.g. --derate 80",
         options->derate);
   }
-  if (options->jobs < 0)
-    return fmt::format("--jobs: {} is negative; expected N >= 1", options->jobs);
+  if (options->jobs < 0 || options->jobs > kMaxJobs) {
+    return fmt::format(
+        "--jobs: {} is outside 0..{}; expected the number of worker threads (0 = one per "
+        "core, the default)",
+        options->jobs, kMaxJobs);
+  }
+  if (options->temp && !(std::isfinite(*options->temp) && *options->temp > -kZeroCelsius)) {
+    return fmt::format(
+        "--temp: {} is not a temperature above absolute zero (-273.15 C); expected degrees "
+        "Celsius, e.g. --temp 85",
+        *options->temp);
+  }
   if (std::optional<std::string> problem = Validate(solver)) return *problem;
   return "";
 }

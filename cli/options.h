@@ -11,6 +11,9 @@
 
 namespace knee::cli {
 
+// Most worker threads --jobs may ask for: each holds a copy of the circuit and a solver.
+inline constexpr int kMaxJobs = 256;
+
 struct AnalysisOptions {
   std::vector<std::string> sets;               // --set NAME=VALUE, in order
   std::optional<double> temp;                  // --temp C
@@ -19,7 +22,7 @@ struct AnalysisOptions {
   std::string out_path;                        // --out PATH ("" = standard output)
   std::string plot_path;                       // --plot PATH.svg ("" = no chart)
   bool plot_log_current = false;               // --plot-log-current: currents on a log axis of |I|
-  int jobs = 0;                                // --jobs N (0 = all cores)
+  int jobs = 0;                                // --jobs N (0 = one per core, <= kMaxJobs)
   std::string shard;                           // --shard K/N ("" = whole sweep)
   double derate = 100;                         // --derate PERCENT: usable share of each rating
   bool quiet = false;                          // --quiet

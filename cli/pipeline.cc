@@ -21,11 +21,42 @@ namespace {
 // Netlists larger than this are refused before reading them whole (docs/errors.md).
 constexpr std::streamsize kMaxFileBytes = std::streamsize{1} << 30;
 
+// Appends what `in` holds to *text, in chunks, and stops as soon as more than
+// kMaxFileBytes arrived: a pipe or a device has no size to check first, so the limit is
+// kept while reading. Reading also stops after a chunk holding a NUL byte: such a text is
+// no netlist and the lexer refuses it (so /dev/zero ends at once).
+// False when the limit was passed.
+bool ReadBounded(std::istream& in, std::string* text) {
+  constexpr std::streamsize kChunk = std::streamsize{1} << 20;
+  std::string chunk(static_cast<size_t>(kChunk), '\0');
+  while (in) {
+    in.read(chunk.data(), kChunk);
+    const std::streamsize got = in.gcount();
+    if (got <= 0) break;
+    if (static_cast<std::streamsize>(text->size()) + got > kMaxFileBytes) return false;
+    text->append(chunk.data(), static_cast<size_t>(got));
+    if (std::memchr(chunk.data(), '\0', static_cast<size_t>(got)) != nullptr) break;
+  }
+  return true;
+}
+
+std::string TooLarge(const std::string& file, const std::string& size) {
+  return fmt::format("cannot read '{}': {} is more than the limit of {} bytes (1 GiB)",
+                     file == "-" ? "<stdin>" : file, size, kMaxFileBytes);
+}
+
 std::optional<std::string> ReadSource(const std::string& file, std::string* problem) {
-  std::ostringstream text;
+  std::string text;
   if (file == "-") {
-    text << std::cin.rdbuf();
-    return text.str();
+    if (!ReadBounded(std::cin, &text)) {
+      *problem = TooLarge(file, "standard input");
+      return std::nullopt;
+    }
+    if (std::cin.bad()) {
+      *problem = "cannot read standard input: read error";
+      return std::nullopt;
+    }
+    return text;
   }
   std::error_code ec;
   if (std::filesystem::is_directory(file, ec)) {
@@ -40,20 +71,24 @@ std::optional<std::string> ReadSource(const std::string& file, std::string* prob
   in.seekg(0, std::ios::end);
   const std::streamoff size = in.tellg();
   if (size > kMaxFileBytes) {
-    *problem = fmt::format("cannot read '{}': {} bytes is more than the limit of {} bytes", file,
-                           size, kMaxFileBytes);
+    *problem = TooLarge(file, fmt::format("{} bytes", size));
     return std::nullopt;
   }
-  in.seekg(0, std::ios::beg);
-  if (size < 0) {  // not seekable (a pipe or a folder)
+  if (size < 0) {  // not seekable (a pipe or a device): the limit is kept while reading
     in.clear();
+  } else {
+    in.seekg(0, std::ios::beg);
+    text.reserve(static_cast<size_t>(size));
   }
-  text << in.rdbuf();
+  if (!ReadBounded(in, &text)) {
+    *problem = TooLarge(file, "its content");
+    return std::nullopt;
+  }
   if (in.bad()) {
     *problem = fmt::format("cannot read '{}': read error", file);
     return std::nullopt;
   }
-  return text.str();
+  return text;
 }
 
 SourceLocation OptionLocation(const std::string& option) {

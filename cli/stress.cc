@@ -59,23 +59,44 @@ double StressValue(const StressCheck& check, const Solution& solution) {
   return 0;
 }
 
-StressRecorder::StressRecorder(std::vector<StressCheck> checks, long long points)
+StressRecorder::StressRecorder(std::vector<StressCheck> checks)
     : checks_(std::move(checks)),
-      points_(points),
-      values_(checks_.size() * static_cast<size_t>(points),
-              std::numeric_limits<double>::quiet_NaN()) {}
+      worst_(checks_.size(), -std::numeric_limits<double>::infinity()),
+      worst_row_(checks_.size(), -1) {}
+
+void StressRecorder::BeginWindow(long long first, long long points) {
+  first_ = first;
+  points_ = points;
+  values_.assign(checks_.size() * static_cast<size_t>(points),
+                 std::numeric_limits<double>::quiet_NaN());
+}
 
 void StressRecorder::Record(long long point, const Solution& solution) {
-  double* row = values_.data() + static_cast<size_t>(point) * checks_.size();
+  double* row = values_.data() + static_cast<size_t>(point - first_) * checks_.size();
   for (size_t c = 0; c < checks_.size(); ++c) row[c] = StressValue(checks_[c], solution);
+}
+
+void StressRecorder::EndWindow(std::vector<char>* over_rating) {
+  if (checks_.empty()) return;
+  for (long long p = 0; p < points_; ++p) {
+    char over = 0;
+    for (size_t c = 0; c < checks_.size(); ++c) {
+      const double value = values_[static_cast<size_t>(p) * checks_.size() + c];
+      if (std::isnan(value)) continue;
+      if (value > worst_[c]) {
+        worst_[c] = value;
+        worst_row_[c] = first_ + p;
+      }
+      if (value > checks_[c].limit) over = 1;
+    }
+    if (over_rating) over_rating->push_back(over);
+  }
 }
 
 void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
                             const std::function<std::string(long long)>& describe,
                             Report* report) const {
   report->derate_percent = derate_fraction * 100;
-  if (checks_.empty()) return;
-  report->row_over_rating.assign(static_cast<size_t>(points_), 0);
   for (size_t c = 0; c < checks_.size(); ++c) {
     const StressCheck& check = checks_[c];
     const QuantityInfo info = Info(check.quantity);
@@ -86,16 +107,8 @@ void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
     line.unit = info.unit;
     line.rating = check.rating;
     line.limit = check.limit;
-    line.worst = -std::numeric_limits<double>::infinity();
-    for (long long p = 0; p < points_; ++p) {
-      const double value = values_[static_cast<size_t>(p) * checks_.size() + c];
-      if (std::isnan(value)) continue;
-      if (value > line.worst) {
-        line.worst = value;
-        line.row = p;
-      }
-      if (value > check.limit) report->row_over_rating[static_cast<size_t>(p)] = 1;
-    }
+    line.worst = worst_[c];
+    line.row = worst_row_[c];
     if (line.row < 0) {
       line.worst = std::numeric_limits<double>::quiet_NaN();
     } else {

@@ -29,21 +29,31 @@ std::vector<StressCheck> CollectStressChecks(const Circuit& circuit, double dera
 // -v (V), dissipation v*i (W).
 double StressValue(const StressCheck& check, const Solution& solution);
 
-// Per point values, gathered by index from any thread, then reduced in point order so
-// the result does not depend on thread timing.
+// Per point values, gathered by index from any thread a window of points at a time, then
+// reduced in point order so the result does not depend on thread timing. Memory is one
+// window, whatever the length of the sweep.
 class StressRecorder {
  public:
-  StressRecorder(std::vector<StressCheck> checks, long long points);
+  explicit StressRecorder(std::vector<StressCheck> checks);
   bool empty() const { return checks_.empty(); }
-  void Record(long long point, const Solution& solution);  // thread-safe for distinct points
-  // Fills report->stress and report->row_over_rating; describe(point) names a point.
+  // Starts a window of `points` points, the first of them point `first` of the analysis.
+  void BeginWindow(long long first, long long points);
+  // Thread-safe for distinct points of the current window.
+  void Record(long long point, const Solution& solution);
+  // Folds the window into the worst values, in point order; appends for each of its
+  // points whether some rating is exceeded there to *over_rating (when not null).
+  void EndWindow(std::vector<char>* over_rating);
+  // Fills report->stress; describe(point) names a point.
   void Finish(const Circuit& circuit, double derate_fraction,
               const std::function<std::string(long long)>& describe, Report* report) const;
 
  private:
   std::vector<StressCheck> checks_;
-  long long points_;
-  std::vector<double> values_;  // points x checks, NaN where a point failed
+  long long first_ = 0;
+  long long points_ = 0;
+  std::vector<double> values_;        // window points x checks, NaN where a point failed
+  std::vector<double> worst_;         // per check, -inf until a point is solved
+  std::vector<long long> worst_row_;  // per check, -1 until a point is solved
 };
 
 // Appends the CSV-only columns "Dhi.i/max_current [%]" (use of each rating per row).

@@ -65,6 +65,16 @@ Axis FitAxis(double lo, double hi, bool log) {
   return axis;
 }
 
+// The shared x axis over the inner values [lo, hi] (the finite ones; > 0 on a log axis).
+Axis XAxis(double lo, double hi, bool log) {
+  if (!(hi > lo)) return FitAxis(lo, hi, log);
+  Axis axis;
+  axis.log = log;
+  axis.lo = lo;
+  axis.hi = hi;
+  return axis;
+}
+
 std::string PanelLabel(const std::string& unit, bool log_y) {
   if (log_y) return "|current| [A], logarithmic";
   if (unit == "V") return "voltage [V]";
@@ -117,6 +127,61 @@ std::string OverRatingBands(const Report& report, const Axis& x_axis, int left, 
   }
   return svg;
 }
+
+// Writes a trace's path data, one pixel column at a time: of the points that fall in the
+// same column only the first, the lowest, the highest and the last are kept, in their
+// order. The line drawn is the same at the chart's resolution, and a path of millions of
+// points stays at most four points per pixel column long (docs/sweeps.md, "Charts").
+class ThinPath {
+ public:
+  explicit ThinPath(std::string* d) : d_(d) {}
+  ~ThinPath() { Flush(); }
+  void Add(double x, double y) {
+    const double column = std::floor(x);
+    if (count_ > 0 && column != column_) Flush();
+    const Point p{x, y, count_};
+    if (count_ == 0) {
+      column_ = column;
+      first_ = lo_ = hi_ = p;
+    } else {
+      if (y < lo_.y) lo_ = p;
+      if (y > hi_.y) hi_ = p;
+    }
+    last_ = p;
+    ++count_;
+  }
+  // A gap in the line (a failed point or one off a logarithmic axis).
+  void Break() {
+    Flush();
+    pen_down_ = false;
+  }
+
+ private:
+  struct Point {
+    double x = 0, y = 0;
+    long long index = 0;  // order within the column
+  };
+  void Flush() {
+    if (count_ == 0) return;
+    const Point& early = lo_.index <= hi_.index ? lo_ : hi_;
+    const Point& late = lo_.index <= hi_.index ? hi_ : lo_;
+    long long written = -1;
+    for (const Point* p : std::initializer_list<const Point*>{&first_, &early, &late, &last_}) {
+      if (p->index == written) continue;
+      *d_ +=
+          fmt::format("{}{:.2f},{:.2f}", pen_down_ ? " L" : (d_->empty() ? "M" : " M"), p->x, p->y);
+      pen_down_ = true;
+      written = p->index;
+    }
+    count_ = 0;
+  }
+
+  std::string* d_;
+  bool pen_down_ = false;
+  long long count_ = 0;
+  double column_ = 0;
+  Point first_, lo_, hi_, last_;
+};
 
 }  // namespace
 
@@ -195,13 +260,7 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
       x_hi = std::max(x_hi, row[0]);
     }
   }
-  Axis x_axis;
-  x_axis.log = options.log_x;
-  x_axis.lo = x_lo;
-  x_axis.hi = x_hi;
-  if (!(x_hi > x_lo)) {
-    x_axis = FitAxis(x_lo, x_hi, options.log_x);
-  }
+  const Axis x_axis = XAxis(x_lo, x_hi, options.log_x);
 
   for (size_t p = 0; p < units.size(); ++p) {
     const std::string& unit = units[p];
@@ -259,15 +318,15 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
       const char* colour = kColours[t % std::size(kColours)];
       const bool dashed = t >= std::size(kColours);
       std::string d;
-      bool pen_down = false;
-      for (auto [x, y] : traces[t].points) {
-        if (!std::isfinite(y) || (log_y && y <= 0) || (x_axis.log && x <= 0)) {
-          pen_down = false;
-          continue;
+      {
+        ThinPath path(&d);
+        for (auto [x, y] : traces[t].points) {
+          if (!std::isfinite(y) || (log_y && y <= 0) || (x_axis.log && x <= 0)) {
+            path.Break();
+            continue;
+          }
+          path.Add(x_axis.Map(x, left, right), y_axis.Map(y, bottom, top));
         }
-        d += fmt::format("{}{:.2f},{:.2f}", pen_down ? " L" : (d.empty() ? "M" : " M"),
-                         x_axis.Map(x, left, right), y_axis.Map(y, bottom, top));
-        pen_down = true;
       }
       svg += fmt::format(
           "<path class=\"trace\" d=\"{}\" fill=\"none\" stroke=\"{}\" "
@@ -283,6 +342,90 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
   }
   svg += "</svg>\n";
   return svg;
+}
+
+ChartSample::ChartSample(const Report& report, const ChartOptions& options, double x_lo,
+                         double x_hi)
+    : axes_(static_cast<size_t>(std::max(report.sweep_axes, 1))),
+      charted_(SharedColumns(report)),
+      log_x_(options.log_x),
+      x_lo_(x_lo),
+      x_hi_(x_hi),
+      width_(options.width) {}
+
+double ChartSample::PixelColumn(double x) const {
+  if (!std::isfinite(x) || (log_x_ && x <= 0)) return -1;
+  const Axis axis = XAxis(x_lo_, x_hi_, log_x_);
+  return std::floor(axis.Map(x, kLeft, width_ - kRight));
+}
+
+bool ChartSample::SameGroup(const std::vector<double>& row, char over) const {
+  if (!open_ || over != group_over_ || PixelColumn(row[0]) != group_column_) return false;
+  for (size_t a = 1; a < axes_; ++a) {
+    if (row[a] != group_first_.row[a]) return false;
+  }
+  for (size_t c = axes_; c < charted_; ++c) {
+    if (std::isfinite(row[c]) != std::isfinite(group_first_.row[c])) return false;
+  }
+  return true;
+}
+
+void ChartSample::Add(const std::vector<std::vector<double>>& rows, const std::vector<char>& over) {
+  for (size_t r = 0; r < rows.size(); ++r) {
+    const std::vector<double>& row = rows[r];
+    const char flag = over.empty() ? 0 : over[r];
+    const Kept here{seen_++, row, flag};
+    if (!SameGroup(row, flag)) {
+      Flush();
+      open_ = true;
+      group_over_ = flag;
+      group_column_ = PixelColumn(row[0]);
+      group_first_ = here;
+      extremes_.assign(4 * (charted_ - axes_), here);
+    } else {
+      // Lowest and highest of each charted value and of its magnitude (what a log
+      // current axis draws), first occurrence kept.
+      for (size_t c = axes_; c < charted_; ++c) {
+        if (!std::isfinite(row[c])) continue;
+        Kept* e = &extremes_[4 * (c - axes_)];
+        if (row[c] < e[0].row[c]) e[0] = here;
+        if (row[c] > e[1].row[c]) e[1] = here;
+        if (std::fabs(row[c]) < std::fabs(e[2].row[c])) e[2] = here;
+        if (std::fabs(row[c]) > std::fabs(e[3].row[c])) e[3] = here;
+      }
+    }
+    group_last_ = here;
+  }
+}
+
+void ChartSample::Flush() {
+  if (!open_) return;
+  std::vector<const Kept*> keep = {&group_first_, &group_last_};
+  for (const Kept& e : extremes_) keep.push_back(&e);
+  std::sort(keep.begin(), keep.end(),
+            [](const Kept* a, const Kept* b) { return a->index < b->index; });
+  long long written = -1;
+  for (const Kept* k : keep) {
+    if (k->index == written) continue;
+    rows_.push_back(k->row);
+    over_.push_back(k->over);
+    written = k->index;
+  }
+  open_ = false;
+}
+
+void ChartSample::MoveInto(Report* report) {
+  Flush();
+  report->rows = std::move(rows_);
+  report->row_over_rating = std::move(over_);
+}
+
+long long ChartSample::MostRows(long long lines, const Report& report,
+                                const ChartOptions& options) {
+  const auto charted = static_cast<long long>(SharedColumns(report)) -
+                       static_cast<long long>(std::max(report.sweep_axes, 1));
+  const long long columns = options.width - kLeft - kRight + 1;
+  return lines * columns * (2 + 4 * std::max(charted, 0LL));
 }
 
 }  // namespace knee::cli

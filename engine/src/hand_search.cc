@@ -1,16 +1,18 @@
 // The state search of the simplified models (docs/hand-models.md, "State search"): each
-// state set is a linear circuit solved by dense LU; a set is consistent when every
+// state set is a linear circuit solved by sparse LU (KLU), so that a set of a large
+// network costs about as much as the network's size, not its cube; a set is consistent when every
 // conducting diode carries current in its direction and every blocking one sees a
 // voltage between -Vbr and its on-voltage.
 #include <fmt/format.h>
 
-#include <Eigen/Dense>
+#include <Eigen/SparseCore>
 #include <algorithm>
 #include <cmath>
 #include <limits>
 #include <set>
 
 #include "check.h"
+#include "klu_solver.h"
 #include "knee/hand.h"
 
 namespace knee {
@@ -107,14 +109,19 @@ class Collector {
     if (r.solutions.empty()) {
       r.status = HandStatus::kNoConsistent;
       if (r.detail.empty()) {
-        r.detail = exhaustive ? fmt::format(
-                                    "none of the {} state sets is consistent ({} leave the "
-                                    "circuit undetermined)",
-                                    r.sets_tried, r.singular_sets)
-                              : fmt::format(
-                                    "the iterative search found no consistent state set in {} "
-                                    "tries",
-                                    r.sets_tried);
+        r.detail =
+            exhaustive ? fmt::format(
+                             "none of the {} state sets is consistent ({} leave the "
+                             "circuit undetermined)",
+                             r.sets_tried, r.singular_sets)
+            : r.work_limit_reached
+                ? fmt::format(
+                      "the iterative search stopped after {} state sets at its work "
+                      "limit for a network of this size (docs/hand-models.md, "
+                      "\"Limits\") and found no consistent set",
+                      r.sets_tried)
+                : fmt::format("the iterative search found no consistent state set in {} tries",
+                              r.sets_tried);
       }
       return;
     }
@@ -180,8 +187,9 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
       branch[e] = unknowns++;
     }
   }
-  Eigen::MatrixXd a = Eigen::MatrixXd::Zero(unknowns, unknowns);
-  Eigen::VectorXd b = Eigen::VectorXd::Zero(unknowns);
+  std::vector<Eigen::Triplet<double>> entries;                // duplicates are summed
+  std::vector<double> x(static_cast<size_t>(unknowns), 0.0);  // the right side, then the solution
+  auto add = [&entries](int r, int c, double v) { entries.emplace_back(r, c, v); };
   auto row = [](int node) { return node - 1; };  // -1 for gnd: no equation
   for (size_t e = 0; e < circuit.elements.size(); ++e) {
     const Element& el = circuit.elements[e];
@@ -189,18 +197,18 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
     switch (el.kind) {
       case ElementKind::kResistor: {
         const double g = 1.0 / el.value;
-        if (p >= 0) a(p, p) += g;
-        if (n >= 0) a(n, n) += g;
+        if (p >= 0) add(p, p, g);
+        if (n >= 0) add(n, n, g);
         if (p >= 0 && n >= 0) {
-          a(p, n) -= g;
-          a(n, p) -= g;
+          add(p, n, -g);
+          add(n, p, -g);
         }
         break;
       }
       case ElementKind::kCurrentSource:
         // value flows out of node_a and into node_b
-        if (p >= 0) b(p) -= el.value;
-        if (n >= 0) b(n) += el.value;
+        if (p >= 0) x[static_cast<size_t>(p)] -= el.value;
+        if (n >= 0) x[static_cast<size_t>(n)] += el.value;
         break;
       case ElementKind::kVoltageSource:
       case ElementKind::kDiode: {
@@ -214,28 +222,48 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
           res = on ? l.on_res : l.breakdown_res;
         }
         if (p >= 0) {
-          a(p, k) += 1;
-          a(k, p) += 1;
+          add(p, k, 1);
+          add(k, p, 1);
         }
         if (n >= 0) {
-          a(n, k) -= 1;
-          a(k, n) -= 1;
+          add(n, k, -1);
+          add(k, n, -1);
         }
-        a(k, k) -= res;  // v(a) - v(b) - r I = e
-        b(k) = emf;
+        add(k, k, -res);  // v(a) - v(b) - r I = e
+        x[static_cast<size_t>(k)] = emf;
         break;
       }
     }
   }
-  Eigen::FullPivLU<Eigen::MatrixXd> lu(a);
-  if (!lu.isInvertible()) return false;
-  const Eigen::VectorXd x = lu.solve(b);
-  if (!x.allFinite()) return false;
+  if (unknowns > 0) {
+    // Every diagonal entry present (zero where nothing stamps it), so that a structurally
+    // empty row shows as a zero pivot rather than an invalid pattern.
+    for (int i = 0; i < unknowns; ++i) add(i, i, 0.0);
+    Eigen::SparseMatrix<double, Eigen::ColMajor, int> a(unknowns, unknowns);
+    a.setFromTriplets(entries.begin(), entries.end());
+    a.makeCompressed();
+    internal::KluSolver lu;
+    const auto n_cols = static_cast<size_t>(unknowns);
+    const auto nnz = static_cast<size_t>(a.nonZeros());
+    if (lu.Analyze(unknowns, {a.outerIndexPtr(), n_cols + 1}, {a.innerIndexPtr(), nnz}) !=
+            internal::LinearStatus::kOk ||
+        lu.Factor({a.valuePtr(), nnz}) != internal::LinearStatus::kOk) {
+      return false;
+    }
+    // The rank test of a full-pivoting LU: a pivot below n * epsilon of the largest
+    // means the set leaves the circuit undetermined.
+    if (!(lu.rcond() > std::numeric_limits<double>::epsilon() * unknowns)) return false;
+    if (lu.Solve(x) != internal::LinearStatus::kOk) return false;
+    for (double v : x) {
+      if (!std::isfinite(v)) return false;
+    }
+  }
 
   const double nan = std::numeric_limits<double>::quiet_NaN();
   Solution& s = *out;
   s.node_voltage.assign(circuit.nodes.size(), 0.0);
-  for (int i = 0; i < nodes; ++i) s.node_voltage[static_cast<size_t>(i) + 1] = x(i);
+  for (int i = 0; i < nodes; ++i)
+    s.node_voltage[static_cast<size_t>(i) + 1] = x[static_cast<size_t>(i)];
   const size_t count = circuit.elements.size();
   s.element_voltage.assign(count, nan);
   s.element_current.assign(count, nan);
@@ -254,10 +282,10 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
         s.element_current[e] = el.value;
         break;
       case ElementKind::kVoltageSource:
-        s.element_current[e] = x(branch[e]);
+        s.element_current[e] = x[static_cast<size_t>(branch[e])];
         break;
       case ElementKind::kDiode:
-        s.element_current[e] = branch[e] >= 0 ? x(branch[e]) : 0.0;
+        s.element_current[e] = branch[e] >= 0 ? x[static_cast<size_t>(branch[e])] : 0.0;
         s.small_signal_res[e] = states[e] == DiodeState::kOn ? model.lines[e].on_res
                                 : states[e] == DiodeState::kBreakdown
                                     ? model.lines[e].breakdown_res
@@ -282,6 +310,9 @@ HandResult SolveHand(const Circuit& circuit, const HandModel& model,
     if (total > options.max_enumerated_sets) too_many = true;
     if (too_many) total = options.max_enumerated_sets + 1;  // no overflow
   }
+  // The cost of one set, in the units of options.max_work.
+  const auto size = static_cast<long long>(circuit.nodes.size() + circuit.elements.size());
+  if (!too_many && total > options.max_work / std::max(size, 1LL)) too_many = true;
   std::vector<DiodeState> states(circuit.elements.size(), DiodeState::kOff);
   Solution solution;
 
@@ -329,6 +360,10 @@ HandResult SolveHand(const Circuit& circuit, const HandModel& model,
     return false;
   };
   for (int iteration = 0; iteration < options.max_iterations; ++iteration) {
+    if (result.sets_tried + 1 > options.max_work / std::max(size, 1LL)) {
+      result.work_limit_reached = true;
+      break;
+    }
     visited.insert(states);
     ++result.sets_tried;
     std::vector<DiodeState> next;

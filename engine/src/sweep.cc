@@ -10,13 +10,34 @@
 #include <mutex>
 #include <thread>
 
+#include "check.h"
+
 namespace knee {
 
-long long SweepGrid::PointCount() const {
+std::optional<long long> SweepGrid::CheckedPointCount() const {
   if (axes.empty()) return 0;
   long long count = 1;
-  for (const auto& axis : axes) count *= static_cast<long long>(axis.size());
+  for (const auto& axis : axes) {
+    if (__builtin_mul_overflow(count, static_cast<long long>(axis.size()), &count)) {
+      return std::nullopt;
+    }
+  }
   return count;
+}
+
+long long SweepGrid::PointCount() const {
+  const std::optional<long long> count = CheckedPointCount();
+  KNEE_CHECK(count.has_value());
+  return *count;
+}
+
+long long SweepBlocks::Start(long long b) const {
+  if (b >= block_count()) return total;
+  return b / per_line * line + b % per_line * block_size;
+}
+
+long long SweepBlocks::BlockOf(long long point) const {
+  return point / line * per_line + point % line / block_size;
 }
 
 void SweepGrid::Indices(long long index, std::span<long long> out) const {
@@ -40,38 +61,26 @@ std::optional<std::string> Validate(const SweepOptions& options) {
 
 SweepBlocks CutIntoBlocks(const SweepGrid& grid, long long block_size) {
   SweepBlocks blocks;
-  const long long total = grid.PointCount();
-  if (total == 0) {
-    blocks.starts.push_back(0);
-    return blocks;
-  }
-  const auto inner = static_cast<long long>(grid.axes[0].size());
-  for (long long line = 0; line < total; line += inner) {
-    for (long long start = line; start < line + inner; start += block_size) {
-      blocks.starts.push_back(start);
-    }
-  }
-  blocks.starts.push_back(total);
+  blocks.total = grid.PointCount();
+  blocks.block_size = block_size;
+  if (blocks.total == 0) return blocks;
+  blocks.line = static_cast<long long>(grid.axes[0].size());
+  blocks.per_line = (blocks.line + block_size - 1) / block_size;
   return blocks;
 }
 
-std::pair<long long, long long> ShardBlocks(const SweepGrid& grid, const SweepBlocks& blocks,
-                                            int shard, int shards) {
-  const long long n = blocks.block_count();
-  if (grid.axes.size() <= 1) {
-    return {n * shard / shards, n * (shard + 1) / shards};
-  }
+std::pair<long long, long long> ShardPoints(const SweepGrid& grid, int shard, int shards) {
+  const long long total = grid.PointCount();
+  // k * total / n without overflow: total = q * n + r with r < n.
+  auto share = [shards](long long count, long long k) {
+    const long long q = count / shards, r = count % shards;
+    return q * k + r * k / shards;
+  };
+  if (grid.axes.size() <= 1) return {share(total, shard), share(total, shard + 1)};
   // Slices of the outer axis: its values [lo, hi) cover the points [lo*stride, hi*stride).
   const auto outer = static_cast<long long>(grid.axes.back().size());
-  const long long stride = grid.PointCount() / outer;
-  const long long lo = outer * shard / shards;
-  const long long hi = outer * (shard + 1) / shards;
-  auto first_block_at = [&](long long point) {
-    return static_cast<long long>(
-        std::lower_bound(blocks.starts.begin(), blocks.starts.end() - 1, point) -
-        blocks.starts.begin());
-  };
-  return {first_block_at(lo * stride), first_block_at(hi * stride)};
+  const long long stride = outer == 0 ? 0 : total / outer;
+  return {share(outer, shard) * stride, share(outer, shard + 1) * stride};
 }
 
 namespace {
@@ -105,7 +114,9 @@ class Worker {
     return "";
   }
 
-  void SolveBlock(long long first, long long end) {
+  // Solves points [first, end) in continuation; reports and counts those from
+  // `report_from` on.
+  void SolveBlock(long long first, long long end, long long report_from) {
     bool have_prev = false;  // x1_ holds the last converged point of this block
     bool have_prev2 = false;
     for (long long index = first; index < end; ++index) {
@@ -121,7 +132,8 @@ class Worker {
       } else {
         ok = SolveWarm(have_prev2, &summary);
       }
-      Account(summary);
+      const bool reported = index >= report_from;
+      if (reported) Account(summary);
       if (ok) {
         have_prev2 = have_prev;
         x2_.swap(x1_);
@@ -130,11 +142,13 @@ class Worker {
         x1_.assign(x.begin(), x.end());
         p1_ = values_[0];
         have_prev = true;
-        sink_(index, summary, &solution_);
+        if (reported) sink_(index, summary, &solution_);
       } else {
-        ++stats.failed;
         have_prev = have_prev2 = false;
-        sink_(index, summary, nullptr);
+        if (reported) {
+          ++stats.failed;
+          sink_(index, summary, nullptr);
+        }
       }
     }
   }
@@ -251,14 +265,17 @@ int AidRank(const std::string& aid) {
 }  // namespace
 
 SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBlocks& blocks,
-                    long long first_block, long long last_block, const ApplyPoint& apply,
+                    long long first_point, long long end_point, const ApplyPoint& apply,
                     const SolverOptions& solver_options, const SweepOptions& options,
                     const PointSink& sink) {
+  SweepStats total;
+  if (first_point >= end_point) return total;
+  const long long first_block = blocks.BlockOf(first_point);
+  const long long last_block = blocks.BlockOf(end_point - 1) + 1;
   const long long block_count = last_block - first_block;
   const int jobs =
       static_cast<int>(std::max<long long>(1, std::min<long long>(options.jobs, block_count)));
   std::vector<std::unique_ptr<Worker>> workers;
-  SweepStats total;
   for (int j = 0; j < jobs; ++j) {
     workers.push_back(std::make_unique<Worker>(circuit, grid, apply, options, sink));
     std::string problem = workers.back()->Init(solver_options);
@@ -270,7 +287,7 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
   std::atomic<long long> next{first_block};
   auto work = [&](Worker* worker) {
     for (long long b = next++; b < last_block; b = next++) {
-      worker->SolveBlock(blocks.starts[b], blocks.starts[b + 1]);
+      worker->SolveBlock(blocks.Start(b), std::min(blocks.Start(b + 1), end_point), first_point);
     }
   };
   if (jobs == 1) {
@@ -280,33 +297,35 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
     for (auto& w : workers) threads.emplace_back(work, w.get());
     for (auto& t : threads) t.join();
   }
-  for (const auto& w : workers) {
-    const SweepStats& s = w->stats;
-    total.points += s.points;
-    total.failed += s.failed;
-    total.newton_steps += s.newton_steps;
-    total.max_newton_steps = std::max(total.max_newton_steps, s.max_newton_steps);
-    for (SolverMethod m : s.methods) {
-      if (std::find(total.methods.begin(), total.methods.end(), m) == total.methods.end()) {
-        total.methods.push_back(m);
-      }
-    }
-    total.unique = total.unique && s.unique;
-    for (const std::string& aid : s.aids) {
-      if (std::find(total.aids.begin(), total.aids.end(), aid) == total.aids.end()) {
-        total.aids.push_back(aid);
-      }
-    }
-    AddFaint(s.faint_nodes, &total);
-    if (s.max_kcl_residual > total.max_kcl_residual) {
-      total.max_kcl_residual = s.max_kcl_residual;
-      total.worst_node = s.worst_node;
+  for (const auto& w : workers) MergeSweepStats(w->stats, &total);
+  return total;
+}
+
+void MergeSweepStats(const SweepStats& s, SweepStats* total) {
+  total->points += s.points;
+  total->failed += s.failed;
+  total->newton_steps += s.newton_steps;
+  total->max_newton_steps = std::max(total->max_newton_steps, s.max_newton_steps);
+  for (SolverMethod m : s.methods) {
+    if (std::find(total->methods.begin(), total->methods.end(), m) == total->methods.end()) {
+      total->methods.push_back(m);
     }
   }
+  total->unique = total->unique && s.unique;
+  for (const std::string& aid : s.aids) {
+    if (std::find(total->aids.begin(), total->aids.end(), aid) == total->aids.end()) {
+      total->aids.push_back(aid);
+    }
+  }
+  AddFaint(s.faint_nodes, total);
+  if (s.max_kcl_residual > total->max_kcl_residual) {
+    total->max_kcl_residual = s.max_kcl_residual;
+    total->worst_node = s.worst_node;
+  }
+  if (total->setup_error.empty()) total->setup_error = s.setup_error;
   std::stable_sort(
-      total.aids.begin(), total.aids.end(),
+      total->aids.begin(), total->aids.end(),
       [](const std::string& a, const std::string& b) { return AidRank(a) < AidRank(b); });
-  return total;
 }
 
 }  // namespace knee

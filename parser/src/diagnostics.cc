@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cctype>
 #include <cstdlib>
+#include <limits>
 #include <optional>
 
 namespace knee {
@@ -33,14 +34,16 @@ std::optional<std::string_view> FindLine(std::string_view text, int number) {
   return line;
 }
 
-// The characters of a line for display: each UTF-8 character kept whole, control
-// characters and bytes that are not valid UTF-8 shown as '?'.
-std::vector<std::string> DisplayChars(std::string_view line) {
-  std::vector<std::string> chars;
+// Calls show(text) for each character of a line as displayed, in order: each UTF-8
+// character kept whole, control characters and bytes that are not valid UTF-8 shown as
+// '?'. Stops when show returns false. Nothing is stored, so a long line costs nothing
+// beyond itself.
+template <typename Show>
+void ForEachDisplayChar(std::string_view line, Show show) {
   for (std::size_t i = 0; i < line.size();) {
     const auto c = static_cast<unsigned char>(line[i]);
     if (c < 0x80) {
-      chars.emplace_back(1, (c < 0x20 || c == 0x7F) ? '?' : static_cast<char>(c));
+      if (!show(c < 0x20 || c == 0x7F ? std::string_view("?") : line.substr(i, 1))) return;
       ++i;
       continue;
     }
@@ -48,13 +51,34 @@ std::vector<std::string> DisplayChars(std::string_view line) {
     while (i + n < line.size() && IsContinuationByte(line[i + n]) && n < 4) ++n;
     const std::size_t expected = c >= 0xF0 ? 4 : c >= 0xE0 ? 3 : c >= 0xC0 ? 2 : 0;
     if (expected == n) {
-      chars.emplace_back(line.substr(i, n));
+      if (!show(line.substr(i, n))) return;
     } else {
-      for (std::size_t k = 0; k < n; ++k) chars.emplace_back("?");
+      for (std::size_t k = 0; k < n; ++k) {
+        if (!show(std::string_view("?"))) return;
+      }
     }
     i += n;
   }
-  return chars;
+}
+
+int DisplayCharCount(std::string_view line) {
+  long long count = 0;
+  ForEachDisplayChar(line, [&count](std::string_view) {
+    ++count;
+    return true;
+  });
+  return static_cast<int>(std::min<long long>(count, std::numeric_limits<int>::max()));
+}
+
+// Display characters [first, last) of a line.
+std::string DisplaySlice(std::string_view line, int first, int last) {
+  std::string out;
+  int index = 0;
+  ForEachDisplayChar(line, [&](std::string_view ch) {
+    if (index >= first) out += ch;
+    return ++index < last;
+  });
+  return out;
 }
 
 std::string Place(const SourceLocation& where) {
@@ -95,8 +119,7 @@ std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view sour
   std::optional<std::string_view> line;
   if (where.line > 0) line = FindLine(source_text, where.line);
   if (line) {
-    std::vector<std::string> chars = DisplayChars(*line);
-    const int total = static_cast<int>(chars.size());
+    const int total = DisplayCharCount(*line);
     int caret = std::max(where.column, 1) - 1;  // 0-based character index
     int first = 0;
     int last = total;
@@ -105,7 +128,7 @@ std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view sour
       last = std::min(total, first + kMaxQuotedChars);
     }
     std::string quoted = first > 0 ? "..." : "";
-    for (int i = first; i < last; ++i) quoted += chars[static_cast<std::size_t>(i)];
+    if (first < last) quoted += DisplaySlice(*line, first, last);
     if (last < total) quoted += "...";
     const int shift = first > 0 ? 3 - first : 0;
     const int caret_pos = std::max(caret + shift, 0);

@@ -155,6 +155,7 @@ class Elaborator {
 
   void Requests(const Circuit& circuit, Design* design) {
     design->bias_requested = d_.bias || d_.sweeps.empty();
+    long long sweep_values = 0;  // of all sweep statements, against kMaxSweepValues
     for (const SweepStmt& s : d_.sweeps) {
       std::vector<SweepAxis> axes;
       bool ok = true;
@@ -175,6 +176,14 @@ class Elaborator {
           Take(std::move(axis).take_errors());
           ok = false;
           continue;
+        }
+        sweep_values += static_cast<long long>(axis->values.size());
+        if (sweep_values > kMaxSweepValues) {
+          Error(p.range_span, fmt::format("the sweep ranges of this netlist hold at least {} "
+                                          "values together; the limit is {} (sweep fewer "
+                                          "points, or in several runs)",
+                                          sweep_values, kMaxSweepValues));
+          return;
         }
         axes.push_back(std::move(*axis));
       }
@@ -644,10 +653,11 @@ class Elaborator {
     std::optional<double> v = Evaluate(value, &place, context);
     if (!v) return;
     if (!PartKeyValueOk(info, *v)) {
-      Diagnostic& d = Error(value.span, fmt::format("{}part '{}': {} = {} is out of range; it "
-                                                    "must be {}",
-                                                    context.empty() ? "" : context + ": ",
-                                                    part->name, info.key, Number(*v), info.rule));
+      Diagnostic& d =
+          Error(value.span, fmt::format("{}part '{}': {} = {} is out of range; it "
+                                        "must be {}",
+                                        context.empty() ? "" : context + ": ", part->name, info.key,
+                                        Number(*v), PartKeyRule(info, *v)));
       (void)d;
       return;
     }
@@ -667,7 +677,7 @@ class Elaborator {
     } else if (d_.temp) {
       if (auto t = Evaluate(*d_.temp, &kTempPlace)) circuit->temp = *t;
     }
-    if (!(circuit->temp > -kZeroCelsius)) {
+    if (!(circuit->temp > -kZeroCelsius) || !std::isfinite(circuit->temp)) {
       Error(d_.temp && !overrides_.temp ? d_.temp->span : Span{},
             fmt::format("circuit temperature {} C is not above absolute zero (-273.15 C)",
                         Number(circuit->temp)));
@@ -694,10 +704,10 @@ class Elaborator {
         const ValuePlace place = ElementPlace(s.kind);
         if (auto v = Evaluate(value, &place, context)) {
           e.value = *v;
-          if (s.kind == ElementKind::kResistor && !(*v > 0)) {
-            Error(value.span,
-                  fmt::format("{}resistor '{}' has resistance {} Ohm; it must be > 0",
-                              context.empty() ? "" : context + ": ", s.name, Number(*v)));
+          if (s.kind == ElementKind::kResistor && !UsableResistance(*v)) {
+            Error(value.span, fmt::format("{}resistor '{}' has resistance {} Ohm; it must be {}",
+                                          context.empty() ? "" : context + ": ", s.name, Number(*v),
+                                          *v > 0 ? kResistanceRule : "> 0"));
           }
         }
       }

@@ -239,4 +239,6 @@ bool ApplyPlace(const NumberLiteral& literal, std::string_view literal_text,
   return false;
 }
 
+bool UsableResistance(double ohms) { return ohms > 0 && std::isnormal(ohms); }
+
 }  // namespace knee

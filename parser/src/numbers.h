@@ -39,6 +39,13 @@ struct ValuePlace {
 bool ApplyPlace(const NumberLiteral& literal, std::string_view literal_text,
                 const ValuePlace& place, double* value, std::string* message, std::string* hint);
 
+// A resistance the circuit can use: positive and a normal double (at least about
+// 2.2e-308 Ohm), so that its conductance 1/r is finite; a subnormal value would give an
+// infinite conductance. An infinite resistance is no resistor (leave it out).
+inline constexpr const char* kResistanceRule =
+    "> 0 and a normal number (at least 2.2e-308 Ohm, so that its conductance is finite)";
+bool UsableResistance(double ohms);
+
 // "ohms (Ohm, ohm or Ω) or no unit", ...
 std::string DescribeUnit(std::string_view place_unit);
 

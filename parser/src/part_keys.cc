@@ -1,5 +1,7 @@
 #include "part_keys.h"
 
+#include <fmt/format.h>
+
 #include <cmath>
 
 #include "knee/diode_law.h"
@@ -38,9 +40,18 @@ bool PartKeyValueOk(const PartKeyInfo& info, double value) {
   const std::string_view rule = info.rule;
   if (!std::isfinite(value)) return false;
   if (rule == "> 0") return value > 0;
+  // A subnormal series resistance has no finite conductance (see UsableResistance).
+  if (info.unit == std::string_view("Ohm")) return value == 0 || UsableResistance(value);
   if (rule == ">= 0") return value >= 0;
   if (rule == "finite") return true;
   return value > -kZeroCelsius;
+}
+
+std::string PartKeyRule(const PartKeyInfo& info, double value) {
+  if (info.unit == std::string_view("Ohm") && value > 0) {
+    return fmt::format("0 or {}", kResistanceRule);
+  }
+  return info.rule;
 }
 
 void SetPartKey(DiodeModel* m, std::string_view key, double v) {

@@ -23,6 +23,8 @@ std::vector<std::string> PartKeyNames();
 ValuePlace PartKeyPlace(const PartKeyInfo& info);
 // Whether `value` obeys the key's rule.
 bool PartKeyValueOk(const PartKeyInfo& info, double value);
+// The rule a refused value breaks, in words ("> 0"; for a subnormal resistance, why).
+std::string PartKeyRule(const PartKeyInfo& info, double value);
 // Stores `value` in the model's field for the key.
 void SetPartKey(DiodeModel* model, std::string_view key, double value);
 

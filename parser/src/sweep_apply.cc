@@ -48,8 +48,9 @@ std::string ApplySweepValue(const SweepTarget& target, double value, Circuit* ci
       return "";
     case SweepTarget::Kind::kElement: {
       Element& e = circuit->elements[static_cast<size_t>(target.index)];
-      if (e.kind == ElementKind::kResistor && !(value > 0)) {
-        return fmt::format("{} = {} Ohm: a resistance must be > 0", target.name, value);
+      if (e.kind == ElementKind::kResistor && !UsableResistance(value)) {
+        return fmt::format("{} = {} Ohm: a resistance must be {}", target.name, value,
+                           value > 0 ? kResistanceRule : "> 0");
       }
       e.value = value;
       return "";
@@ -58,7 +59,8 @@ std::string ApplySweepValue(const SweepTarget& target, double value, Circuit* ci
       const PartKeyInfo* info = FindPartKey(target.key);
       if (info == nullptr) return fmt::format("unknown part key '{}'", target.key);
       if (!PartKeyValueOk(*info, value)) {
-        return fmt::format("{} = {}: the value must be {}", target.name, value, info->rule);
+        return fmt::format("{} = {}: the value must be {}", target.name, value,
+                           PartKeyRule(*info, value));
       }
       SetPartKey(&circuit->parts[static_cast<size_t>(target.index)].model, target.key, value);
       return "";

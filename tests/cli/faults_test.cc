@@ -123,5 +123,22 @@ TEST_F(Faults, InterruptDuringSweepLeavesNoFile) {
   EXPECT_EQ(FileCount(), 0);
 }
 
+// SIGHUP (the terminal closed), SIGQUIT and SIGTERM clean up like SIGINT: status
+// 128 + the signal number, no report and no temporary file.
+TEST_F(Faults, HangupQuitAndTerminateLeaveNoFile) {
+  const std::pair<const char*, int> signals[] = {{"HUP", 129}, {"QUIT", 131}, {"TERM", 143}};
+  for (const auto& [name, status] : signals) {
+    const std::string out = folder_ + "/sweep-" + name + ".csv";
+    ShellRun run =
+        RunShell("set -m; " + std::string(KNEE_BINARY) + " sweep " + Netlist("input-clamp.knee") +
+                 " Vfield=-24..24:0.0001 --jobs 1 --format csv --quiet --out " + out +
+                 " & pid=$!; sleep 0.3; kill -" + name + " $pid; wait $pid");
+    EXPECT_EQ(run.status, status) << name;
+    EXPECT_NE(run.err.find("knee: interrupted"), std::string::npos) << name << ": " << run.err;
+    EXPECT_FALSE(fs::exists(out)) << name;
+    EXPECT_EQ(FileCount(), 0) << name;
+  }
+}
+
 }  // namespace
 }  // namespace knee::testing

@@ -333,5 +333,58 @@ TEST(HandModels, ExactStateThresholds) {
   EXPECT_EQ(ExactState(b.circuit(), d, -5.0 + 10.5 * vt), DiodeState::kOff);
 }
 
+// A chain of `n` diodes in series from a source of `volts` into a 1 kOhm load.
+Circuit DiodeChain(int n, double volts) {
+  DiodeModel part;
+  CircuitBuilder b;
+  const int p = b.Part("chain", part);
+  b.V("V1", "n0", "gnd", volts);
+  for (int k = 0; k < n; ++k) {
+    b.D("D" + std::to_string(k + 1), "n" + std::to_string(k), "n" + std::to_string(k + 1), p);
+  }
+  b.R("RL", "n" + std::to_string(n), "gnd", 1e3);
+  return b.circuit();
+}
+
+// A long chain is solved by the sparse factorisation: with every diode conducting under
+// the constant-drop model, Kirchhoff's voltage law (common practice, no source) gives the
+// load current (V - n * 0.7 V) / 1 kOhm and each node 0.7 V below the one before.
+TEST(HandModels, LongChainSolvedSparse) {
+  const int n = 2000;
+  const Circuit c = DiodeChain(n, 2000.0);
+  HandSearchOptions o;
+  o.start.assign(c.elements.size(), DiodeState::kOn);
+  const HandResult r = SolveHand(c, MakeConstantDropModel(c, 0.7), o);
+  ASSERT_EQ(r.status, HandStatus::kFound) << r.detail;
+  EXPECT_EQ(r.sets_tried, 1);
+  const Solution& s = r.solutions.front().solution;
+  EXPECT_CLOSE(s.element_current.back(), (2000.0 - n * 0.7) / 1e3, 1e-12, 1e-9);
+  for (int k = 0; k <= n; k += 250) {
+    EXPECT_CLOSE(s.node_voltage[static_cast<size_t>(k) + 1], 2000.0 - 0.7 * k, 1e-9, 1e-9) << k;
+  }
+}
+
+// The search's work is bounded by sets tried times the network's size: a chain started
+// with every diode blocking leaves its nodes undetermined set after set, and the search
+// stops at the limit with a reason instead of running on.
+TEST(HandModels, SearchStopsAtItsWorkLimit) {
+  const Circuit c = DiodeChain(300, 300.0);
+  HandSearchOptions o;
+  o.start.assign(c.elements.size(), DiodeState::kOff);
+  const auto size = static_cast<long long>(c.nodes.size() + c.elements.size());
+  o.max_work = 12 * size;
+  const HandResult r = SolveHand(c, MakeConstantDropModel(c, 0.7), o);
+  EXPECT_EQ(r.status, HandStatus::kNoConsistent);
+  EXPECT_TRUE(r.work_limit_reached);
+  EXPECT_EQ(r.sets_tried, 12);
+  EXPECT_NE(r.detail.find("work limit"), std::string::npos) << r.detail;
+
+  // Without the limit the same search goes on past it (it is the limit that stopped it).
+  o.max_work = HandSearchOptions().max_work;
+  const HandResult free = SolveHand(c, MakeConstantDropModel(c, 0.7), o);
+  EXPECT_FALSE(free.work_limit_reached);
+  EXPECT_GT(free.sets_tried, 12);
+}
+
 }  // namespace
 }  // namespace knee

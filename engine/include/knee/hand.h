@@ -84,6 +84,10 @@ struct HandSearchOptions {
   // and flips the violating diodes of each tried set; it stops after max_iterations sets.
   std::vector<DiodeState> start;
   int max_iterations = 1000;
+  // Bounds the time of either search on a large network: state sets tried times the
+  // network's size (nodes plus elements) stays within this. Every set is tried only when
+  // all of them fit; the iterative search stops when the next set would not fit.
+  long long max_work = 200'000'000;
   // A conducting diode may carry down to -current_tol A, a blocking one may see up to
   // voltage_tol V beyond its on or breakdown voltage (floating-point slack).
   double voltage_tol = 1e-9;   // V, plus 1e-9 times the largest node voltage
@@ -115,6 +119,7 @@ struct HandResult {
   long long singular_sets = 0;          // sets that leave the circuit undetermined
   std::vector<HandSolution> solutions;  // consistent sets found (at most 8 kept)
   long long consistent_sets = 0;        // how many were found in all
+  bool work_limit_reached = false;      // the iterative search stopped at max_work
   std::string detail;                   // for kNoConsistent / kAmbiguous: why, in words
 };
 

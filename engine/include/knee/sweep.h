@@ -18,16 +18,28 @@ namespace knee {
 struct SweepGrid {
   std::vector<std::vector<double>> axes;  // axes[0] is the inner loop
 
-  long long PointCount() const;
+  // The product of the axis sizes (0 without axes), or nullopt when it does not fit a
+  // long long: such a sweep is refused, never wrapped to a small count.
+  std::optional<long long> CheckedPointCount() const;
+  long long PointCount() const;  // CheckedPointCount(), which must fit
   // The per-axis value indices of point `index` (row-major, axis 0 fastest).
   void Indices(long long index, std::span<long long> out) const;
 };
 
 // Points are cut into blocks of at most block_size consecutive inner-axis points that
-// never cross a change of an outer axis value.
+// never cross a change of an outer axis value. The blocks are computed, not stored, so a
+// sweep of any size costs nothing here.
 struct SweepBlocks {
-  std::vector<long long> starts;  // first point of each block, plus the end as last entry
-  long long block_count() const { return static_cast<long long>(starts.size()) - 1; }
+  long long total = 0;       // points of the sweep
+  long long line = 1;        // points per value of the outer axes (the inner axis' size)
+  long long block_size = 1;  // most points per block
+  long long per_line = 0;    // blocks per line
+
+  long long block_count() const { return total == 0 ? 0 : total / line * per_line; }
+  // First point of block b (0 <= b <= block_count(); Start(block_count()) is the end).
+  long long Start(long long b) const;
+  // The block holding `point` (0 <= point < total).
+  long long BlockOf(long long point) const;
 };
 
 struct SweepOptions {
@@ -40,10 +52,11 @@ std::optional<std::string> Validate(const SweepOptions& options);
 
 SweepBlocks CutIntoBlocks(const SweepGrid& grid, long long block_size);
 
-// Blocks [first, last) of the slice `shard` (0-based) of `shards`: slices of the outer
-// axis' values when there are several axes, else slices of the block list.
-std::pair<long long, long long> ShardBlocks(const SweepGrid& grid, const SweepBlocks& blocks,
-                                            int shard, int shards);
+// Points [first, end) of the slice `shard` (0-based) of `shards`: slices of the outer
+// axis' values when there are several axes, else equal slices of the points (so a sweep
+// of one block still splits evenly; see RunSweep for how a slice that starts inside a
+// block keeps the whole sweep's numbers).
+std::pair<long long, long long> ShardPoints(const SweepGrid& grid, int shard, int shards);
 
 // Sets `circuit` to the values of one point (one value per axis, which may lie between
 // grid values while a step is subdivided); returns "" or a message. Called from worker
@@ -73,10 +86,16 @@ struct SweepStats {
   std::string setup_error;  // BiasSolver::Create failed; nothing was solved
 };
 
-// Solves blocks [first_block, last_block).
+// Solves and reports the points [first_point, end_point). A block that begins before
+// first_point is solved from its own start, and its points before first_point are
+// neither reported nor counted: every reported number is the one the whole sweep gives,
+// wherever a slice or a window of the sweep begins.
 SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBlocks& blocks,
-                    long long first_block, long long last_block, const ApplyPoint& apply,
+                    long long first_point, long long end_point, const ApplyPoint& apply,
                     const SolverOptions& solver_options, const SweepOptions& options,
                     const PointSink& sink);
+
+// Adds the account of `part` (a later window of the same sweep) to *total.
+void MergeSweepStats(const SweepStats& part, SweepStats* total);
 
 }  // namespace knee

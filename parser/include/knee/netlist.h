@@ -87,6 +87,11 @@ Result<std::vector<double>> ExpandRange(std::string_view text, const SourceLocat
                                         bool* logarithmic);
 Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& netlist,
                                        const Circuit& circuit, const SourceLocation& where);
+// Most values the sweep ranges of one netlist hold together (all its sweep statements),
+// and likewise those of one command line: each range alone may have 10,000,000 points, and
+// this keeps the values held before any point is solved to about 80 MB.
+inline constexpr long long kMaxSweepValues = 10'000'000;
+
 // ResolveSweepTarget and ExpandRange together, with the range's units checked against
 // the target (ohms for a resistor, degrees Celsius or kelvin for temp, the key's unit for
 // PART.key). ExpandRange alone accepts any unit and converts none.
