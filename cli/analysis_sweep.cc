@@ -99,8 +99,7 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
   std::vector<SweepAxis> axes;
   std::vector<Diagnostic> errors;
   for (const std::string& spec : options.sweeps) {
-    SourceLocation where;
-    where.file = "knee sweep";
+    const SourceLocation where = OptionLocation(spec);
     const size_t eq = spec.find('=');
     if (eq == std::string::npos || eq == 0) {
       errors.push_back({where,
@@ -119,7 +118,7 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
     axes.push_back(std::move(axis).value());
   }
   if (!errors.empty()) {
-    PrintDiagnostics(errors, "");
+    PrintOptionDiagnostics(std::move(errors));
     return std::nullopt;
   }
   return axes;
@@ -209,8 +208,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       stress.Record(index - first_point, *solution);
       largest_voltage[static_cast<size_t>(index - first_point)] = LargestVoltage(base, *solution);
     } else {
-      failure_why[static_cast<size_t>(index - first_point)] =
-          fmt::format("{}: {}", ToString(summary.status), summary.detail);
+      failure_why[static_cast<size_t>(index - first_point)] = FailureReason(summary);
     }
     progress.Tick();
   };

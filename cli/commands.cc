@@ -9,6 +9,7 @@
 
 #include "analyses.h"
 #include "eng_format.h"
+#include "knee/part_report.h"
 #include "output.h"
 #include "pipeline.h"
 #include "svg_chart.h"
@@ -90,13 +91,8 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
   if (!options.quiet) {
     for (const AnalysisResult& r : results) {
       for (const PointFailure& f : r.report.failures) {
-        // The reason may itself begin with the status ("no solution: no DC solution: ...").
-        constexpr std::string_view kStatus = "no solution: ";
-        const std::string_view why = std::string_view(f.why).starts_with(kStatus)
-                                         ? std::string_view(f.why).substr(kStatus.size())
-                                         : std::string_view(f.why);
         fmt::print(stderr, "knee: no solution{}: {}\n", f.where.empty() ? "" : " at " + f.where,
-                   why);
+                   f.why);
       }
       for (const ExpectationCheck& e : r.report.expectations) {
         if (e.met) continue;
@@ -106,6 +102,19 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
     }
   }
   return static_cast<int>(outcome.Status());
+}
+
+// knee check --parts: every key of every part as resolved, defaults marked.
+std::string PartsText(const LoadedDesign& loaded) {
+  std::string out;
+  for (const Part& part : loaded.design->circuit.parts) {
+    out += fmt::format("\npart {} diode\n", part.name);
+    for (const ResolvedPartKey& k : ResolvePartKeys(*loaded.netlist, loaded.overrides, part)) {
+      const std::string value = k.value ? FormatEng(*k.value, k.unit, 6) : std::string("none");
+      out += fmt::format("  {:<19} {:<14}{}\n", k.key, value, k.given ? "" : "  (default)");
+    }
+  }
+  return out;
 }
 
 // Options, netlist and quantities to show: what every analysis command starts from.
@@ -185,6 +194,7 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
       Count(static_cast<long long>(c.elements.size()), "element", "elements"),
       fmt::join(kinds, ", "), Count(static_cast<long long>(c.parts.size()), "part", "parts"),
       requests.empty() ? std::string("none") : fmt::format("{}", fmt::join(requests, ", ")));
+  if (options.parts) text += PartsText(*loaded);
   problem =
       options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
   if (!problem.empty()) return FailWith(problem);

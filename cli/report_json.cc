@@ -6,6 +6,14 @@
 #include "report_common.h"
 
 namespace knee::cli {
+namespace {
+
+nlohmann::ordered_json OrNull(bool present, const std::string& text) {
+  if (!present) return nullptr;
+  return text;
+}
+
+}  // namespace
 
 std::string WriteJson(const Report& report) {
   nlohmann::ordered_json j;
@@ -41,14 +49,18 @@ std::string WriteJson(const Report& report) {
   nlohmann::ordered_json stress = nlohmann::ordered_json::array();
   for (const StressLine& s : report.stress) {
     stress.push_back({{"diode", s.diode},
-                      {"rating_key", s.key},
+                      {"element", s.diode},
+                      {"element_kind", s.element_kind},
+                      {"rating_key", OrNull(s.rated, s.key)},
                       {"quantity", s.quantity},
                       {"unit", s.unit},
+                      {"direction", s.direction},
+                      {"never", OrNull(!s.never.empty(), s.never)},
                       {"worst", JsonNumber(s.worst)},
                       {"row", s.row},
                       {"where", s.where},
-                      {"rating", s.rating},
-                      {"limit", s.limit},
+                      {"rating", JsonNumber(s.rating)},
+                      {"limit", JsonNumber(s.limit)},
                       {"use_percent", JsonNumber(s.use_percent)},
                       {"exceeded", s.exceeded}});
   }

@@ -137,10 +137,24 @@ std::string Stress(const Report& report) {
     name_width = std::max(name_width, DisplayWidth(s.diode));
   for (const StressLine& s : report.stress) {
     std::string at = s.where.empty() ? "" : " at " + s.where;
-    out += fmt::format("  {} {}  {:<15}  worst {:>10}{}, rating {} ({}): {:.0f} % of rating\n",
-                       s.exceeded ? "EXCEEDED" : "ok      ", PadRight(s.diode, name_width),
-                       s.quantity, FormatEng(s.worst, s.unit), at, FormatEng(s.rating, s.unit),
-                       s.key, std::max(0.0, s.use_percent));  // unused in that sense: 0 %
+    const std::string verdict = !s.rated ? "info    " : s.exceeded ? "EXCEEDED" : "ok      ";
+    // Values are magnitudes in the named direction; one that never goes that way is named
+    // as such rather than shown as a negative worst.
+    std::string worst;
+    if (!s.never.empty()) {
+      worst = s.never;
+    } else if (std::isnan(s.worst)) {
+      worst = "no solved point";
+    } else {
+      worst = fmt::format("worst {:>10}{}{}", FormatEng(s.worst, s.unit),
+                          s.direction.empty() ? "" : " (" + s.direction + ")", at);
+    }
+    const std::string rating =
+        s.rated ? fmt::format(", rating {} ({}): {:.0f} % of rating", FormatEng(s.rating, s.unit),
+                              s.key, s.never.empty() ? s.use_percent : 0.0)
+                : std::string("; no rating of its own (max_power covers breakdown)");
+    out += fmt::format("  {} {}  {:<15}  {}{}\n", verdict, PadRight(s.diode, name_width),
+                       s.quantity, worst, rating);
   }
   const bool any_marked = std::find(report.row_over_rating.begin(), report.row_over_rating.end(),
                                     1) != report.row_over_rating.end();

@@ -116,6 +116,10 @@ struct Design {
   std::vector<std::vector<SweepAxis>> sweeps;  // one per 'sweep' statement
   std::vector<QuantityExpr> show;              // empty: every node v and element i
   std::vector<Expectation> expects;
+  // A valid netlist that is probably not what was meant (docs/errors.md, "Warnings"):
+  // a node touched by one element only, a node named like gnd in other capitals, a
+  // tolerance that is a bare number.
+  std::vector<Diagnostic> warnings;
 };
 
 Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides);
