@@ -131,7 +131,8 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
   }
   // --expect QUANTITY=VALUE[~TOL] joins the file's expect statements.
   for (const std::string& text : options.expects) {
-    Result<Expectation> e = ParseExpectOption(text, design->circuit, OptionLocation("--expect"));
+    Result<Expectation> e =
+        ParseExpectOption(text, design->circuit, OptionLocation("--expect"), &design->params);
     if (!e) {
       PrintOptionDiagnostics(e.errors());
       return std::nullopt;
@@ -149,7 +150,8 @@ std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
   if (!options.show.empty()) {
     std::vector<Diagnostic> errors;
     for (const std::string& text : SplitTopLevel(options.show, ',')) {
-      Result<QuantityExpr> q = ParseQuantity(text, circuit, OptionLocation("--show"));
+      Result<QuantityExpr> q =
+          ParseQuantity(text, circuit, OptionLocation("--show"), &loaded.design->params);
       if (q) {
         show.push_back(std::move(q).value());
       } else {

@@ -72,11 +72,12 @@ struct SolverAccount {
 };
 
 struct Report {
-  std::string title;     // circuit title (may be empty)
-  std::string file;      // netlist file as given
-  std::string analysis;  // "bias", "sweep", ...
-  double temp = 25;      // degC of the circuit (for a temperature sweep: the base)
-  int sweep_axes = 0;    // leading columns that are sweep variables (0 for bias)
+  std::string title;        // circuit title (may be empty)
+  std::string file;         // netlist file as given
+  std::string analysis;     // "bias", "sweep", ...
+  double temp = 25;         // degC of the circuit (for a temperature sweep: the base)
+  bool temp_swept = false;  // a sweep axis is temp: the temperature is per row, not one
+  int sweep_axes = 0;       // leading columns that are sweep variables (0 for bias)
   std::vector<Column> columns;
   std::vector<std::vector<double>> rows;  // NaN where a point failed
   std::vector<PointFailure> failures;

@@ -21,7 +21,10 @@ std::string WriteJson(const Report& report) {
   j["title"] = report.title;
   j["file"] = report.file;
   j["analysis"] = report.analysis;
-  j["temp_c"] = report.temp;
+  // A temperature sweep has no one temperature: temp_c is null and the temperature of each
+  // row is its temp column (docs/json-schema.md).
+  j["temp_c"] = report.temp_swept ? nlohmann::ordered_json(nullptr) : JsonNumber(report.temp);
+  j["temp_swept"] = report.temp_swept;
   j["sweep_columns"] = report.sweep_axes;
   nlohmann::ordered_json columns = nlohmann::ordered_json::array();
   const size_t shared = SharedColumns(report);

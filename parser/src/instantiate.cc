@@ -174,6 +174,16 @@ class Elaborator {
   Elaborator(const Netlist& netlist, const Overrides& overrides)
       : netlist_(netlist), d_(netlist.data()), file_(d_.file_name), overrides_(overrides) {}
 
+  // Only the names, the overrides and the params.
+  bool RunParams() {
+    RegisterNames();
+    if (Full()) return false;
+    ApplyOverrides();
+    if (Full()) return false;
+    EvaluateParams();
+    return errors_.empty();
+  }
+
   bool Run(Circuit* circuit) {
     RegisterNames();
     if (Full()) return false;
@@ -185,8 +195,17 @@ class Elaborator {
     return errors_.empty();
   }
 
+  ParamValues Params() const {
+    ParamValues values;
+    for (std::size_t i = 0; i < d_.params.size(); ++i) {
+      if (param_state_[i] == kDone) values.emplace_back(d_.params[i].name, param_values_[i]);
+    }
+    return values;
+  }
+
   void Requests(const Circuit& circuit, Design* design) {
     design->bias_requested = d_.bias || d_.sweeps.empty();
+    design->params = Params();
     for (const SweepStmt& s : d_.sweeps) {
       std::vector<SweepAxis> axes;
       bool ok = true;
@@ -213,7 +232,8 @@ class Elaborator {
       if (ok) design->sweeps.push_back(std::move(axes));
     }
     for (const QuantityText& q : d_.show) {
-      Result<QuantityExpr> r = ParseQuantity(q.text, circuit, ToLocation(file_, q.span));
+      Result<QuantityExpr> r =
+          ParseQuantity(q.text, circuit, ToLocation(file_, q.span), &design->params);
       if (!r.ok()) {
         Take(std::move(r).take_errors());
         continue;
@@ -221,8 +241,8 @@ class Elaborator {
       design->show.push_back(std::move(*r));
     }
     for (const ExpectStmt& e : d_.expects) {
-      Result<QuantityExpr> q =
-          ParseQuantity(e.quantity.text, circuit, ToLocation(file_, e.quantity.span));
+      Result<QuantityExpr> q = ParseQuantity(e.quantity.text, circuit,
+                                             ToLocation(file_, e.quantity.span), &design->params);
       if (!q.ok()) {
         Take(std::move(q).take_errors());
         continue;
@@ -870,6 +890,12 @@ Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overri
   Circuit circuit;
   if (!e.Run(&circuit)) return e.TakeErrors();
   return circuit;
+}
+
+Result<ParamValues> ElaborateParams(const Netlist& netlist, const Overrides& overrides) {
+  Elaborator e(netlist, overrides);
+  if (!e.RunParams()) return e.TakeErrors();
+  return e.Params();
 }
 
 Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides) {
