@@ -231,3 +231,30 @@ TEST(FirstHour, Item10BandgapDefault) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+// The five designs (our own invented versions in tests/cli/first_hour/) run with no
+// warning, no negative "worst" in their stress reports, and the mains one with its caution.
+TEST(FirstHour, FiveDesignsRunWithoutMisleadingOutput) {
+  struct Design {
+    const char* file;
+    int status;  // 3 where an invented rating is deliberately too small
+  };
+  for (const Design d :
+       {Design{"clamp-5v.knee", 3}, Design{"shunt-6v2.knee", 3}, Design{"diode-or.knee", 0},
+        Design{"two-current-sensor.knee", 0}, Design{"mains-bridge.knee", 3}}) {
+    KneeRun run = RunKnee("run " + SourcePath(std::string("tests/cli/first_hour/") + d.file));
+    EXPECT_EQ(run.status, d.status) << d.file << "\n" << run.err;
+    EXPECT_FALSE(Has(run.err, "warning")) << d.file << "\n" << run.err;
+    EXPECT_FALSE(Has(run.out, "worst -")) << d.file;
+    EXPECT_FALSE(Has(run.out, " µ1/K")) << d.file;
+    if (std::string(d.file) == "mains-bridge.knee") {
+      EXPECT_TRUE(Has(run.out, "CAUTION")) << run.out;
+    }
+  }
+}
+
+}  // namespace
+}  // namespace knee::testing
