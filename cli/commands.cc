@@ -111,7 +111,8 @@ std::string PartsText(const LoadedDesign& loaded) {
     out += fmt::format("\npart {} diode\n", part.name);
     for (const ResolvedPartKey& k : ResolvePartKeys(*loaded.netlist, loaded.overrides, part)) {
       const std::string value = k.value ? FormatEng(*k.value, k.unit, 6) : std::string("none");
-      out += fmt::format("  {:<19} {:<14}{}\n", k.key, value, k.given ? "" : "  (default)");
+      out += k.given ? fmt::format("  {:<19} {}\n", k.key, value)
+                     : fmt::format("  {:<19} {:<14}  (default)\n", k.key, value);
     }
   }
   return out;
