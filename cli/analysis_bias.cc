@@ -3,6 +3,7 @@
 #include <cmath>
 #include <cstdio>
 #include <limits>
+#include <string_view>
 
 #include "analyses.h"
 #include "stress.h"
@@ -39,6 +40,17 @@ void PrintTrace(const BiasSolver& solver) {
 }
 
 }  // namespace
+
+std::string FailureReason(const SolveSummary& summary) {
+  if (summary.status != SolveStatus::kNoSolution) {
+    return fmt::format("{}: {}", ToString(summary.status), summary.detail);
+  }
+  std::string_view detail = summary.detail;
+  for (std::string_view lead : {"no solution: ", "no DC solution: "}) {
+    if (detail.starts_with(lead)) detail.remove_prefix(lead.size());
+  }
+  return std::string(detail);
+}
 
 const char* SolverMethodName(const SolverOptions& options) {
   return SolverMethodName(options.method, options.junction_limiting);
@@ -119,7 +131,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
       if (!report.expectations.back().met) result.outcome.expect_missed = true;
     }
   } else {
-    std::string why = fmt::format("{}: {}", ToString(summary.status), summary.detail);
+    std::string why = FailureReason(summary);
     if (!summary.unsettled.empty()) {
       why += fmt::format("; still moving: {}", fmt::join(summary.unsettled, ", "));
     }

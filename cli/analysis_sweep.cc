@@ -11,6 +11,7 @@
 #include <limits>
 #include <mutex>
 #include <optional>
+#include <span>
 #include <string_view>
 #include <thread>
 
@@ -100,6 +101,57 @@ std::string TooLargeToHold(long long points, size_t width, ReportFormat format) 
       points, width, kMaxHeldValues, held);
 }
 
+// Where each variable (param or temp) of each shown expression takes its value at a sweep
+// point: the point's value of a sweep axis that is that param or temp; for another param
+// in a sweep over params, the param re-evaluated at the point (it may depend on a swept
+// one); else its nominal value.
+class ExpressionVariables {
+ public:
+  ExpressionVariables(const std::vector<SweepAxis>& axes, const std::vector<QuantityExpr>& show) {
+    bool any_param = false;
+    for (const SweepAxis& axis : axes) any_param |= axis.target.kind == SweepTarget::Kind::kParam;
+    sources_.resize(show.size());
+    for (size_t q = 0; q < show.size(); ++q) {
+      for (const std::string& name : show[q].variables()) {
+        Source source;
+        for (size_t a = 0; a < axes.size(); ++a) {
+          const SweepTarget& t = axes[a].target;
+          const bool temp = name == "temp" && t.kind == SweepTarget::Kind::kTemp;
+          const bool param = t.kind == SweepTarget::Kind::kParam && t.name == name;
+          if (temp || param) source.axis = static_cast<int>(a);
+        }
+        source.derived = source.axis < 0 && name != "temp" && any_param;
+        needs_params_ |= source.derived;
+        sources_[q].push_back(source);
+      }
+    }
+  }
+  bool needs_params() const { return needs_params_; }
+
+  double Evaluate(size_t q, const QuantityExpr& expr, std::span<const double> point,
+                  const ParamValues& params, const Solution& solution) const {
+    if (expr.variables().empty()) return expr.Evaluate(solution);
+    std::vector<double> values = expr.nominal();
+    for (size_t v = 0; v < values.size(); ++v) {
+      const Source& source = sources_[q][v];
+      if (source.axis >= 0) values[v] = point[static_cast<size_t>(source.axis)];
+      if (!source.derived) continue;
+      for (const auto& [name, value] : params) {
+        if (name == expr.variables()[v]) values[v] = value;
+      }
+    }
+    return expr.Evaluate(solution, values);
+  }
+
+ private:
+  struct Source {
+    int axis = -1;         // the sweep axis that sets it, or -1
+    bool derived = false;  // a param to re-evaluate at each point
+  };
+  std::vector<std::vector<Source>> sources_;  // per shown quantity, per variable
+  bool needs_params_ = false;
+};
+
 }  // namespace
 
 bool ParseShard(const std::string& text, int* shard, int* shards, std::string* problem) {
@@ -150,8 +202,7 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
   std::vector<Diagnostic> errors;
   long long values = 0;  // of all ranges, against kMaxSweepValues
   for (const std::string& spec : options.sweeps) {
-    SourceLocation where;
-    where.file = "knee sweep";
+    const SourceLocation where = OptionLocation(spec);
     const size_t eq = spec.find('=');
     if (eq == std::string::npos || eq == 0) {
       errors.push_back({where,
@@ -180,7 +231,7 @@ std::optional<std::vector<SweepAxis>> ResolveCommandLineSweep(const LoadedDesign
     axes.push_back(std::move(axis).value());
   }
   if (!errors.empty()) {
-    PrintDiagnostics(errors, "");
+    PrintOptionDiagnostics(std::move(errors));
     return std::nullopt;
   }
   return axes;
@@ -216,6 +267,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   report.log_inner = !axes.empty() && axes.front().logarithmic;
   for (const SweepAxis& axis : axes) {
     report.columns.push_back({axis.target.name, SweepTargetUnit(axis.target, base)});
+    report.temp_swept |= axis.target.kind == SweepTarget::Kind::kTemp;
   }
   for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
   const double derate = options.derate / 100;
@@ -262,15 +314,18 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   // the value directly.
   const Netlist& netlist = *loaded.netlist;
   const Overrides& base_overrides = loaded.overrides;
+  auto param_overrides = [&](std::span<const double> values) {
+    Overrides overrides = base_overrides;
+    for (size_t a = 0; a < axes.size(); ++a) {
+      if (axes[a].target.kind == SweepTarget::Kind::kParam) {
+        overrides.sets.push_back({axes[a].target.name, FormatRoundTrip(values[a])});
+      }
+    }
+    return overrides;
+  };
   ApplyPoint apply = [&](std::span<const double> values, Circuit* circuit) -> std::string {
     if (any_param) {
-      Overrides overrides = base_overrides;
-      for (size_t a = 0; a < axes.size(); ++a) {
-        if (axes[a].target.kind == SweepTarget::Kind::kParam) {
-          overrides.sets.push_back({axes[a].target.name, FormatRoundTrip(values[a])});
-        }
-      }
-      Result<Circuit> fresh = ElaborateCircuit(netlist, overrides);
+      Result<Circuit> fresh = ElaborateCircuit(netlist, param_overrides(values));
       if (!fresh) return fresh.errors().front().message;
       *circuit = std::move(fresh).value();
     }
@@ -280,6 +335,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     }
     return "";
   };
+
+  const ExpressionVariables variables(axes, show);
 
   // A streamed sweep with --plot keeps a sample of its rows for the chart.
   std::optional<ChartSample> sample;
@@ -333,12 +390,20 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     grid.Indices(index, indices);
     for (size_t a = 0; a < axes.size(); ++a) row[a] = axes[a].values[indices[a]];
     if (solution) {
-      for (size_t q = 0; q < show.size(); ++q) row[axes.size() + q] = show[q].Evaluate(*solution);
+      const std::span<const double> point(row.data(), axes.size());
+      ParamValues params;
+      if (variables.needs_params()) {
+        Result<ParamValues> elaborated = ElaborateParams(netlist, param_overrides(point));
+        if (elaborated) params = std::move(elaborated).value();
+      }
+      for (size_t q = 0; q < show.size(); ++q) {
+        row[axes.size() + q] = variables.Evaluate(q, show[q], point, params, *solution);
+      }
       FillStressColumns(checks, *solution, row.data() + stress_column);
       stress.Record(index - first_point, *solution);
       largest_voltage[r] = LargestVoltage(base, *solution);
     } else {
-      failure_why[r] = fmt::format("{}: {}", ToString(summary.status), summary.detail);
+      failure_why[r] = FailureReason(summary);
     }
     progress.Tick();
   };

@@ -11,6 +11,7 @@
 
 #include "analyses.h"
 #include "eng_format.h"
+#include "knee/part_report.h"
 #include "knee/sweep.h"
 #include "output.h"
 #include "pipeline.h"
@@ -105,6 +106,20 @@ int Emit(const std::vector<AnalysisResult>& results, const AnalysisOptions& opti
   }
   PrintMisses(results, options);
   return static_cast<int>(outcome.Status());
+}
+
+// knee check --parts: every key of every part as resolved, defaults marked.
+std::string PartsText(const LoadedDesign& loaded) {
+  std::string out;
+  for (const Part& part : loaded.design->circuit.parts) {
+    out += fmt::format("\npart {} diode\n", part.name);
+    for (const ResolvedPartKey& k : ResolvePartKeys(*loaded.netlist, loaded.overrides, part)) {
+      const std::string value = k.value ? FormatEng(*k.value, k.unit, 6) : std::string("none");
+      out += k.given ? fmt::format("  {:<19} {}\n", k.key, value)
+                     : fmt::format("  {:<19} {:<14}  (default)\n", k.key, value);
+    }
+  }
+  return out;
 }
 
 // Options, netlist and quantities to show: what every analysis command starts from.
@@ -239,6 +254,7 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
       Count(static_cast<long long>(c.elements.size()), "element", "elements"),
       fmt::join(kinds, ", "), Count(static_cast<long long>(c.parts.size()), "part", "parts"),
       requests.empty() ? std::string("none") : fmt::format("{}", fmt::join(requests, ", ")));
+  if (options.parts) text += PartsText(*loaded);
   problem =
       options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
   if (!problem.empty()) return FailWith(problem);

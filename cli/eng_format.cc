@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <array>
 #include <cmath>
 
@@ -12,7 +13,10 @@ struct Prefix {
   int exponent;
   const char* symbol;
 };
-constexpr std::array<Prefix, 10> kPrefixes{{{-15, "f"},
+constexpr std::array<Prefix, 15> kPrefixes{{{-24, "y"},
+                                            {-21, "z"},
+                                            {-18, "a"},
+                                            {-15, "f"},
                                             {-12, "p"},
                                             {-9, "n"},
                                             {-6, "µ"},
@@ -21,7 +25,11 @@ constexpr std::array<Prefix, 10> kPrefixes{{{-15, "f"},
                                             {3, "k"},
                                             {6, "M"},
                                             {9, "G"},
-                                            {12, "T"}}};
+                                            {12, "T"},
+                                            {15, "P"},
+                                            {18, "E"}}};
+constexpr int kSmallestGroup = -24;
+constexpr int kLargestGroup = 18;
 
 std::string TrimZeros(std::string digits) {
   if (digits.find('.') == std::string::npos) return digits;
@@ -36,6 +44,32 @@ std::string WithUnit(const std::string& number, std::string_view prefix, std::st
   return fmt::format("{} {}{}", number, prefix, display);
 }
 
+// `value` rounded to `significant` digits without a prefix, in the shortest of fixed and
+// exponent form, the exponent without leading zeros ("0.5", "1250", "1.5e-7").
+std::string PlainNumber(double value, int significant) {
+  std::string text = fmt::format("{:.{}g}", value, significant);
+  const size_t e = text.find('e');
+  if (e == std::string::npos) return text;
+  std::string mantissa = text.substr(0, e);
+  std::string exponent = text.substr(e + 1);
+  const bool negative = exponent[0] == '-';
+  exponent = exponent.substr(exponent.find_first_not_of("+-0") == std::string::npos
+                                 ? exponent.size() - 1
+                                 : exponent.find_first_not_of("+-0"));
+  return mantissa + "e" + (negative ? "-" : "") + exponent;
+}
+
+// A coefficient per kelvin (or per any unit, "1/X"): in ppm/X when small, %/X otherwise,
+// never an SI prefix in front of "1/" ("350 µ1/K" reads as nothing).
+std::string PerUnit(double value, std::string_view unit, int significant) {
+  const std::string_view per = unit.substr(2);
+  if (value == 0.0) return fmt::format("0 /{}", per);
+  if (std::fabs(value) >= 1e-2) {
+    return fmt::format("{} %/{}", PlainNumber(value * 100, significant), per);
+  }
+  return fmt::format("{} ppm/{}", PlainNumber(value * 1e6, significant), per);
+}
+
 }  // namespace
 
 std::string DisplayUnit(std::string_view unit) {
@@ -47,10 +81,13 @@ std::string DisplayUnit(std::string_view unit) {
 std::string FormatEng(double value, std::string_view unit, int significant) {
   if (std::isnan(value)) return "—";
   if (std::isinf(value)) return WithUnit(value > 0 ? "inf" : "-inf", "", unit);
+  if (unit.starts_with("1/")) return PerUnit(value, unit, significant);
+  // A plain number takes no SI prefix: "500 m" of nothing reads as metres.
+  if (unit.empty()) return PlainNumber(value, significant);
   if (value == 0.0) return WithUnit("0", "", unit);
   const double magnitude = std::fabs(value);
-  if (magnitude < 1e-15 || magnitude >= 1e15) {
-    return WithUnit(fmt::format("{:.{}e}", value, significant - 1), "", unit);
+  if (magnitude < 1e-24 || magnitude >= 1e21) {
+    return WithUnit(PlainNumber(value, significant), "", unit);
   }
   // Round first, then pick the prefix, so that 999.96 mV becomes 1 V, not 1000 mV.
   int exponent = static_cast<int>(std::floor(std::log10(magnitude)));
@@ -58,13 +95,12 @@ std::string FormatEng(double value, std::string_view unit, int significant) {
   double rounded = std::round(value * scale) / scale;
   exponent = static_cast<int>(std::floor(std::log10(std::fabs(rounded))));
   int group = exponent >= 0 ? exponent / 3 * 3 : -((-exponent + 2) / 3 * 3);
-  if (group < -15) group = -15;
-  if (group > 12) group = 12;
+  group = std::clamp(group, kSmallestGroup, kLargestGroup);
   const double mantissa = rounded / std::pow(10.0, group);
   const int int_digits = exponent - group + 1;
   const int decimals = std::max(0, significant - int_digits);
   std::string number = TrimZeros(fmt::format("{:.{}f}", mantissa, decimals));
-  const Prefix* prefix = &kPrefixes[5];
+  const Prefix* prefix = &kPrefixes[8];
   for (const Prefix& p : kPrefixes) {
     if (p.exponent == group) prefix = &p;
   }

@@ -9,8 +9,10 @@ namespace knee::cli {
 
 // `value` with an SI prefix chosen so that the mantissa lies in [1, 1000), rounded to
 // `significant` digits with trailing zeros dropped, then a space and `unit`
-// ("Ohm" is shown as "Ω"). Values below 1e-15 in magnitude (but not zero) are shown in
-// exponent form; NaN as "—", infinities as "inf".
+// ("Ohm" is shown as "Ω"). The prefixes run from y (1e-24) to E (1e18); values beyond
+// them (but not zero) are shown in exponent form ("3.4e-30 A"). A plain number (unit "")
+// takes no prefix ("0.5", "1.5e-7"); a coefficient per unit ("1/K") is shown in ppm/K, or
+// in %/K from 1e-2 up. NaN as "—", infinities as "inf".
 std::string FormatEng(double value, std::string_view unit, int significant = 4);
 
 // Shortest decimal text that reads back to exactly `value` ("nan" for NaN).

@@ -17,7 +17,9 @@ namespace {
 using knee::cli::AnalysisOptions;
 using knee::cli::ReportFormat;
 
-void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
+// The options of every command, knee check included: what the file means and where the
+// report goes.
+void AddInputOptions(CLI::App* command, AnalysisOptions* o) {
   command
       ->add_option("--set", o->sets,
                    "Override a param, an element value or a part parameter (PART.key): "
@@ -28,11 +30,18 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
       ->type_name("C");
   command->add_option("--show", o->show, "Quantities to report, comma separated")
       ->type_name("Q1,Q2,...");
+  command->add_option("--out", o->out_path, "Write the report to PATH (whole or not at all)")
+      ->type_name("PATH");
+  command->add_flag("--quiet", o->quiet,
+                    "No progress display and no notes on standard error (warnings stay)");
+  command->add_flag("--no-warn", o->no_warn, "No warnings about the netlist on standard error");
+}
+
+// The options of the commands that solve: report format, charts, sweeps, ratings, solver.
+void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
   command->add_option("--format", *format, "Report format")
       ->check(CLI::IsMember({"table", "csv", "json"}))
       ->type_name("table|csv|json");
-  command->add_option("--out", o->out_path, "Write the report to PATH (whole or not at all)")
-      ->type_name("PATH");
   command->add_option("--plot", o->plot_path, "Also draw an SVG chart")->type_name("PATH.svg");
   command->add_flag("--plot-log-current", o->plot_log_current,
                     "Draw currents on a logarithmic axis of |I| in charts");
@@ -46,7 +55,6 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
       ->add_option("--derate", o->derate,
                    "Share of each diode rating that may be used, in % (default 100)")
       ->type_name("PERCENT");
-  command->add_flag("--quiet", o->quiet, "No progress display and no notes on standard error");
   command->add_flag("--trace", o->trace, "Print every Newton step on standard error");
   auto* solver = command->add_option_group("Solver settings (docs/solver.md)");
   solver->add_option("--voltage-tol", o->solver.abs_voltage_tol,
@@ -71,8 +79,16 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
                    "monotone, the classic ladder otherwise or if it fails), potential (line "
                    "search on the network's potential; monotone networks only) or classic "
                    "(junction limiting and the aid ladder)")
-      ->transform(CLI::CheckedTransformer(methods))
+      ->transform(CLI::CheckedTransformer(methods).description(""))
       ->type_name("auto|potential|classic");
+}
+
+// CLI11's message, starting in lower case like every other message of knee.
+std::string UsageMessage(std::string text) {
+  if (text.size() > 1 && text[0] >= 'A' && text[0] <= 'Z' && !(text[1] >= 'A' && text[1] <= 'Z')) {
+    text[0] = static_cast<char>(text[0] - 'A' + 'a');
+  }
+  return text;
 }
 
 ReportFormat ParseFormat(const std::string& text) {
@@ -124,8 +140,14 @@ int main(int argc, char** argv) {
                        "Sweep target and range, e.g. Vline=-30..30:0.1 temp=-40,25,85")
           ->required();
     }
-    AddShared(c.app, &options, &format);
     const std::string name = c.name;
+    AddInputOptions(c.app, &options);
+    if (name == "check") {
+      c.app->add_flag("--parts", options.parts,
+                      "Also print every key of every part as resolved, defaults marked");
+    } else {
+      AddShared(c.app, &options, &format);
+    }
     if (name == "bias" || name == "hand" || name == "run") {
       c.app
           ->add_option("--expect", options.expects,
@@ -155,8 +177,14 @@ int main(int argc, char** argv) {
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    const int code = app.exit(e);
-    return code == 0 ? 0 : 2;
+    // --help and --version print through CLI11; every usage error takes the one prefix of
+    // command-line errors (docs/errors.md) with CLI11's own wording after it.
+    if (e.get_exit_code() == static_cast<int>(CLI::ExitCodes::Success)) return app.exit(e);
+    fmt::print(stderr,
+               "knee: error: {}\nhint: knee --help lists the commands; knee COMMAND "
+               "--help lists a command's options\n",
+               UsageMessage(e.what()));
+    return 2;
   }
   options.format = ParseFormat(format);
   for (const Command& c : commands) {

@@ -26,6 +26,8 @@ struct AnalysisOptions {
   std::string shard;                           // --shard K/N ("" = whole sweep)
   double derate = 100;                         // --derate PERCENT: usable share of each rating
   bool quiet = false;                          // --quiet
+  bool no_warn = false;                        // --no-warn: no netlist warnings on stderr
+  bool parts = false;                          // knee check --parts: every key of every part
   bool trace = false;                          // --trace: Newton step records on standard error
   std::vector<std::string> sweeps;             // knee sweep: TARGET=RANGE, first = inner loop
   std::vector<std::string> expects;            // --expect QUANTITY=VALUE[~TOL] (bias, hand, run)

@@ -91,16 +91,25 @@ std::optional<std::string> ReadSource(const std::string& file, std::string* prob
   return text;
 }
 
+}  // namespace
+
 SourceLocation OptionLocation(const std::string& option) {
   SourceLocation where;
   where.file = option;
   return where;
 }
 
-}  // namespace
-
 void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, const std::string& source) {
   std::fputs(FormatDiagnostics(diagnostics, source).c_str(), stderr);
+}
+
+void PrintOptionDiagnostics(std::vector<Diagnostic> diagnostics) {
+  for (Diagnostic& d : diagnostics) {
+    if (d.where.line > 0 || d.where.file.empty()) continue;
+    d.message = d.where.file.str() + ": " + d.message;
+    d.where.file = FileName();
+  }
+  PrintDiagnostics(diagnostics, "");
 }
 
 std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOptions& options) {
@@ -125,11 +134,10 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
   for (const std::string& set : options.sets) {
     const size_t eq = set.find('=');
     if (eq == std::string::npos || eq == 0 || eq + 1 == set.size()) {
-      PrintDiagnostics({Diagnostic{OptionLocation("--set"),
-                                   fmt::format("'{}' is not NAME=VALUE", set),
-                                   "write for example --set Rload=4k7",
-                                   {}}},
-                       "");
+      PrintOptionDiagnostics({Diagnostic{OptionLocation("--set"),
+                                         fmt::format("'{}' is not NAME=VALUE", set),
+                                         "write for example --set Rload=4k7",
+                                         {}}});
       return std::nullopt;
     }
     loaded.overrides.sets.push_back({set.substr(0, eq), set.substr(eq + 1)});
@@ -149,11 +157,19 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
     PrintDiagnostics(topology, loaded.source);
     return std::nullopt;
   }
+  // Warnings go to standard error even with --quiet (cli.md, "Warnings"); --no-warn
+  // silences them. They never change the exit status.
+  if (!options.no_warn) {
+    for (const Diagnostic& w : design->warnings) {
+      fmt::print(stderr, "{}\n", FormatWarning(w, loaded.source));
+    }
+  }
   // --expect QUANTITY=VALUE[~TOL] joins the file's expect statements.
   for (const std::string& text : options.expects) {
-    Result<Expectation> e = ParseExpectOption(text, design->circuit, OptionLocation("--expect"));
+    Result<Expectation> e =
+        ParseExpectOption(text, design->circuit, OptionLocation("--expect"), &design->params);
     if (!e) {
-      PrintDiagnostics(e.errors(), "");
+      PrintOptionDiagnostics(e.errors());
       return std::nullopt;
     }
     design->expects.push_back(std::move(e).value());
@@ -169,7 +185,8 @@ std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
   if (!options.show.empty()) {
     std::vector<Diagnostic> errors;
     for (const std::string& text : SplitTopLevel(options.show, ',')) {
-      Result<QuantityExpr> q = ParseQuantity(text, circuit, OptionLocation("--show"));
+      Result<QuantityExpr> q =
+          ParseQuantity(text, circuit, OptionLocation("--show"), &loaded.design->params);
       if (q) {
         show.push_back(std::move(q).value());
       } else {
@@ -177,7 +194,7 @@ std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
       }
     }
     if (!errors.empty()) {
-      PrintDiagnostics(errors, "");
+      PrintOptionDiagnostics(std::move(errors));
       return std::nullopt;
     }
     return show;

@@ -30,5 +30,10 @@ std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
 
 // Prints diagnostics with the source lines quoted.
 void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, const std::string& source);
+// Diagnostics of command-line text located at OptionLocation: printed with the program's
+// one prefix of command-line errors, "knee: error: OPTION: message".
+void PrintOptionDiagnostics(std::vector<Diagnostic> diagnostics);
+// The location of a problem in a command-line option (no line; the option's name or text).
+SourceLocation OptionLocation(const std::string& option);
 
 }  // namespace knee::cli

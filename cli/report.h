@@ -35,15 +35,21 @@ struct ExpectationCheck {
   SourceLocation where;  // line 0 when given on the command line
 };
 
-// The worst use of one rating of one diode across an analysis.
+// The worst use of one rating of one diode or resistor across an analysis; or, unrated,
+// the largest reverse (breakdown) current of a rated breakdown diode.
 struct StressLine {
-  std::string diode;
-  std::string key;       // "max_current", "max_reverse_v", "max_power"
-  std::string quantity;  // "forward current", "reverse voltage", "dissipation"
-  std::string unit;      // "A", "V", "W"
-  double worst = 0;      // largest value across the analysis
-  long long row = -1;    // row where it occurs (first such row)
-  std::string where;     // the sweep values of that row ("" for a bias point)
+  std::string diode;         // the element's name (a diode or a resistor)
+  std::string element_kind;  // "diode" or "resistor"
+  std::string key;           // "max_current", "max_reverse_v", "max_power"; "" when unrated
+  std::string quantity;      // "forward current", "reverse voltage", "dissipation",
+                             // "reverse current"
+  std::string unit;          // "A", "V", "W"
+  std::string direction;     // "anode to cathode", "cathode above anode", ... ("" for power)
+  std::string never;         // "never forward-biased" when the value never goes that way
+  bool rated = true;         // false: reported only (reverse current), never exceeded
+  double worst = 0;          // largest value across the analysis (signed)
+  long long row = -1;        // row where it occurs (first such row)
+  std::string where;         // the sweep values of that row ("" for a bias point)
   double rating = 0;
   double limit = 0;        // rating * derate
   double use_percent = 0;  // 100 * worst / rating
@@ -66,11 +72,12 @@ struct SolverAccount {
 };
 
 struct Report {
-  std::string title;     // circuit title (may be empty)
-  std::string file;      // netlist file as given
-  std::string analysis;  // "bias", "sweep", ...
-  double temp = 25;      // degC of the circuit (for a temperature sweep: the base)
-  int sweep_axes = 0;    // leading columns that are sweep variables (0 for bias)
+  std::string title;        // circuit title (may be empty)
+  std::string file;         // netlist file as given
+  std::string analysis;     // "bias", "sweep", ...
+  double temp = 25;         // degC of the circuit (for a temperature sweep: the base)
+  bool temp_swept = false;  // a sweep axis is temp: the temperature is per row, not one
+  int sweep_axes = 0;       // leading columns that are sweep variables (0 for bias)
   std::vector<Column> columns;
   std::vector<std::vector<double>> rows;  // NaN where a point failed
   std::vector<PointFailure> failures;

@@ -39,7 +39,8 @@ std::string WriteCsvHeader(const Report& report) {
   for (size_t i = 0; i < report.columns.size(); ++i) {
     const Column& c = report.columns[i];
     if (i) out += ',';
-    out += CsvField(c.unit.empty() ? c.name : fmt::format("{} [{}]", c.name, c.unit));
+    // Every column carries a unit cell; "[]" says "a plain number" (a param, a ratio).
+    out += CsvField(fmt::format("{} [{}]", c.name, c.unit));
   }
   return out + "\n";
 }

@@ -6,6 +6,14 @@
 #include "report_common.h"
 
 namespace knee::cli {
+namespace {
+
+nlohmann::ordered_json OrNull(bool present, const std::string& text) {
+  if (!present) return nullptr;
+  return text;
+}
+
+}  // namespace
 
 std::string WriteJson(const Report& report) {
   nlohmann::ordered_json j;
@@ -13,7 +21,10 @@ std::string WriteJson(const Report& report) {
   j["title"] = report.title;
   j["file"] = report.file;
   j["analysis"] = report.analysis;
-  j["temp_c"] = report.temp;
+  // A temperature sweep has no one temperature: temp_c is null and the temperature of each
+  // row is its temp column (docs/json-schema.md).
+  j["temp_c"] = report.temp_swept ? nlohmann::ordered_json(nullptr) : JsonNumber(report.temp);
+  j["temp_swept"] = report.temp_swept;
   j["sweep_columns"] = report.sweep_axes;
   nlohmann::ordered_json columns = nlohmann::ordered_json::array();
   const size_t shared = SharedColumns(report);
@@ -41,14 +52,18 @@ std::string WriteJson(const Report& report) {
   nlohmann::ordered_json stress = nlohmann::ordered_json::array();
   for (const StressLine& s : report.stress) {
     stress.push_back({{"diode", s.diode},
-                      {"rating_key", s.key},
+                      {"element", s.diode},
+                      {"element_kind", s.element_kind},
+                      {"rating_key", OrNull(s.rated, s.key)},
                       {"quantity", s.quantity},
                       {"unit", s.unit},
+                      {"direction", s.direction},
+                      {"never", OrNull(!s.never.empty(), s.never)},
                       {"worst", JsonNumber(s.worst)},
                       {"row", s.row},
                       {"where", s.where},
-                      {"rating", s.rating},
-                      {"limit", s.limit},
+                      {"rating", JsonNumber(s.rating)},
+                      {"limit", JsonNumber(s.limit)},
                       {"use_percent", JsonNumber(s.use_percent)},
                       {"exceeded", s.exceeded}});
   }

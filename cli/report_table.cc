@@ -16,6 +16,7 @@ std::string Header(const Report& report) {
   const std::string file = report.file == "-" ? "<stdin>" : report.file;
   std::string name = report.title.empty() ? file : "\"" + report.title + "\"";
   std::string analysis = report.analysis == "bias" ? "bias point" : report.analysis;
+  if (report.temp_swept) return fmt::format("{}: {}, temperature swept\n", name, analysis);
   return fmt::format("{}: {} at {}\n", name, analysis, FormatEng(report.temp, "°C", 4));
 }
 
@@ -78,16 +79,38 @@ std::string Account(const Report& report) {
   return out;
 }
 
+// A current below the largest KCL residual of the report is zero to the solution's
+// accuracy: the table shows it as 0 (CSV and JSON keep every digit).
+bool BelowResolution(const Report& report, double value, const std::string& unit) {
+  const double resolution = report.account.max_kcl_residual;
+  return unit == "A" && resolution > 0 && std::fabs(value) < resolution;
+}
+
+std::string Cell(const Report& report, double value, const std::string& unit, bool* zeroed) {
+  if (BelowResolution(report, value, unit)) {
+    *zeroed = true;
+    return FormatEng(0.0, unit);
+  }
+  return FormatEng(value, unit);
+}
+
+std::string ResolutionNote(const Report& report, bool zeroed) {
+  if (!zeroed) return "";
+  return fmt::format("  (currents below the largest KCL residual, {:.2e} A, are shown as 0)\n",
+                     report.account.max_kcl_residual);
+}
+
 std::string Vertical(const Report& report) {
   size_t name_width = 0;
   for (const Column& c : report.columns) name_width = std::max(name_width, DisplayWidth(c.name));
   std::string out;
+  bool zeroed = false;
   const std::vector<double>& row = report.rows.front();
   for (size_t i = 0; i < SharedColumns(report); ++i) {
     out += fmt::format("  {}  {}\n", PadRight(report.columns[i].name, name_width),
-                       PadLeft(FormatEng(row[i], report.columns[i].unit), 12));
+                       PadLeft(Cell(report, row[i], report.columns[i].unit, &zeroed), 12));
   }
-  return out;
+  return out + ResolutionNote(report, zeroed);
 }
 
 std::string Columns(const Report& report) {
@@ -101,31 +124,34 @@ std::string Columns(const Report& report) {
   }
   std::vector<std::vector<std::string>> cells;
   cells.reserve(report.rows.size());
+  bool zeroed = false;
   for (const auto& row : report.rows) {
     std::vector<std::string> line(n);
     for (size_t i = 0; i < n; ++i) {
-      line[i] = FormatEng(row[i], report.columns[i].unit);
+      line[i] = Cell(report, row[i], report.columns[i].unit, &zeroed);
       width[i] = std::max(width[i], DisplayWidth(line[i]));
     }
     cells.push_back(std::move(line));
   }
+  // Two blanks between columns, so that headers with blanks inside ("(a.v - b.v)") stay
+  // apart from their neighbours.
   const bool marks = !report.row_over_rating.empty();
   std::string out = " ";
   for (size_t i = 0; i < n; ++i) {
-    out += " " + PadLeft(head[i], width[i]);
-    if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += " │";
+    out += "  " + PadLeft(head[i], width[i]);
+    if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += "  │";
   }
   out += "\n";
   for (size_t r = 0; r < cells.size(); ++r) {
     const auto& line = cells[r];
     out += marks && report.row_over_rating[r] ? "!" : " ";
     for (size_t i = 0; i < n; ++i) {
-      out += " " + PadLeft(line[i], width[i]);
-      if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += " │";
+      out += "  " + PadLeft(line[i], width[i]);
+      if (i + 1 == static_cast<size_t>(report.sweep_axes) && i + 1 < n) out += "  │";
     }
     out += "\n";
   }
-  return out;
+  return out + ResolutionNote(report, zeroed);
 }
 
 std::string Stress(const Report& report) {
@@ -137,10 +163,24 @@ std::string Stress(const Report& report) {
     name_width = std::max(name_width, DisplayWidth(s.diode));
   for (const StressLine& s : report.stress) {
     std::string at = s.where.empty() ? "" : " at " + s.where;
-    out += fmt::format("  {} {}  {:<15}  worst {:>10}{}, rating {} ({}): {:.0f} % of rating\n",
-                       s.exceeded ? "EXCEEDED" : "ok      ", PadRight(s.diode, name_width),
-                       s.quantity, FormatEng(s.worst, s.unit), at, FormatEng(s.rating, s.unit),
-                       s.key, std::max(0.0, s.use_percent));  // unused in that sense: 0 %
+    const std::string verdict = !s.rated ? "info    " : s.exceeded ? "EXCEEDED" : "ok      ";
+    // Values are magnitudes in the named direction; one that never goes that way is named
+    // as such rather than shown as a negative worst.
+    std::string worst;
+    if (!s.never.empty()) {
+      worst = s.never;
+    } else if (std::isnan(s.worst)) {
+      worst = "no solved point";
+    } else {
+      worst = fmt::format("worst {:>10}{}{}", FormatEng(s.worst, s.unit),
+                          s.direction.empty() ? "" : " (" + s.direction + ")", at);
+    }
+    const std::string rating =
+        s.rated ? fmt::format(", rating {} ({}): {:.0f} % of rating", FormatEng(s.rating, s.unit),
+                              s.key, s.never.empty() ? s.use_percent : 0.0)
+                : std::string("; no rating of its own (max_power covers breakdown)");
+    out += fmt::format("  {} {}  {:<15}  {}{}\n", verdict, PadRight(s.diode, name_width),
+                       s.quantity, worst, rating);
   }
   const bool any_marked = std::find(report.row_over_rating.begin(), report.row_over_rating.end(),
                                     1) != report.row_over_rating.end();

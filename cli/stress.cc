@@ -13,32 +13,51 @@ struct QuantityInfo {
   const char* key;
   const char* name;
   const char* unit;
+  const char* direction;  // the sense in which the value counts, named for people
+  const char* never;      // what it means that the value never goes that way
 };
 
 QuantityInfo Info(StressQuantity q) {
   switch (q) {
     case StressQuantity::kForwardCurrent:
-      return {"max_current", "forward current", "A"};
+      return {"max_current", "forward current", "A", "anode to cathode", "never forward-biased"};
     case StressQuantity::kReverseVoltage:
-      return {"max_reverse_v", "reverse voltage", "V"};
+      return {"max_reverse_v", "reverse voltage", "V", "cathode above anode",
+              "never reverse-biased"};
     case StressQuantity::kPower:
-      return {"max_power", "dissipation", "W"};
+      return {"max_power", "dissipation", "W", "", ""};
+    case StressQuantity::kReverseCurrent:
+      return {"", "reverse current", "A", "cathode to anode", "never in reverse conduction"};
   }
-  return {"", "", ""};
+  return {"", "", "", "", ""};
 }
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 }  // namespace
 
 std::vector<StressCheck> CollectStressChecks(const Circuit& circuit, double derate_fraction) {
+  std::vector<const ResistorRating*> resistor_rating(circuit.elements.size(), nullptr);
+  for (const ResistorRating& r : circuit.resistor_ratings) {
+    resistor_rating[static_cast<size_t>(r.element)] = &r;
+  }
   std::vector<StressCheck> checks;
   for (size_t e = 0; e < circuit.elements.size(); ++e) {
     const Element& element = circuit.elements[e];
-    if (element.kind != ElementKind::kDiode) continue;
-    const DiodeModel& m = circuit.parts[element.part].model;
     auto add = [&](const std::optional<double>& rating, StressQuantity q) {
       if (rating) checks.push_back({static_cast<int>(e), q, *rating, *rating * derate_fraction});
     };
+    if (element.kind == ElementKind::kResistor && resistor_rating[e]) {
+      add(resistor_rating[e]->max_power, StressQuantity::kPower);
+      continue;
+    }
+    if (element.kind != ElementKind::kDiode) continue;
+    const DiodeModel& m = circuit.parts[element.part].model;
     add(m.max_current, StressQuantity::kForwardCurrent);
+    const bool rated = m.max_current || m.max_reverse_v || m.max_power;
+    if (rated && m.breakdown_v) {
+      checks.push_back({static_cast<int>(e), StressQuantity::kReverseCurrent, kNaN, kNaN});
+    }
     add(m.max_reverse_v, StressQuantity::kReverseVoltage);
     add(m.max_power, StressQuantity::kPower);
   }
@@ -55,6 +74,8 @@ double StressValue(const StressCheck& check, const Solution& solution) {
       return -v;
     case StressQuantity::kPower:
       return v * i;
+    case StressQuantity::kReverseCurrent:
+      return -i;
   }
   return 0;
 }
@@ -87,7 +108,7 @@ void StressRecorder::EndWindow(std::vector<char>* over_rating) {
         worst_[c] = value;
         worst_row_[c] = first_ + p;
       }
-      if (value > checks_[c].limit) over = 1;
+      if (checks_[c].rated() && value > checks_[c].limit) over = 1;
     }
     if (over_rating) over_rating->push_back(over);
   }
@@ -100,21 +121,29 @@ void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
   for (size_t c = 0; c < checks_.size(); ++c) {
     const StressCheck& check = checks_[c];
     const QuantityInfo info = Info(check.quantity);
+    const Element& element = circuit.elements[check.element];
     StressLine line;
-    line.diode = circuit.elements[check.element].name;
+    line.diode = element.name;
+    line.element_kind = ElementKindName(element.kind);
     line.key = info.key;
     line.quantity = info.name;
     line.unit = info.unit;
+    line.direction = info.direction;
+    line.rated = check.rated();
     line.rating = check.rating;
     line.limit = check.limit;
     line.worst = worst_[c];
     line.row = worst_row_[c];
     if (line.row < 0) {
-      line.worst = std::numeric_limits<double>::quiet_NaN();
+      line.worst = kNaN;
     } else {
       line.where = describe(line.row);
-      line.use_percent = 100 * line.worst / line.rating;
-      line.exceeded = line.worst > line.limit;
+      line.use_percent = check.rated() ? 100 * line.worst / line.rating : kNaN;
+      line.exceeded = check.rated() && line.worst > line.limit;
+      // A current or voltage that never goes the rated way: its signed worst is the least
+      // of the other way, which reads as nonsense beside the rating ("forward current
+      // worst -27.84 mA"); the report names the fact instead.
+      if (line.worst <= 0 && *info.never != '\0') line.never = info.never;
     }
     report->stress.push_back(std::move(line));
   }
@@ -123,17 +152,20 @@ void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
 void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,
                       Report* report) {
   static constexpr const char* kSuffix[] = {".i/max_current", ".v/max_reverse_v", ".p/max_power"};
+  int added = 0;
   for (const StressCheck& check : checks) {
+    if (!check.rated()) continue;
     report->columns.push_back(
         {circuit.elements[check.element].name + kSuffix[static_cast<int>(check.quantity)], "%"});
+    ++added;
   }
-  report->csv_only_columns = static_cast<int>(checks.size());
+  report->csv_only_columns = added;
 }
 
 void FillStressColumns(const std::vector<StressCheck>& checks, const Solution& solution,
                        double* tail) {
-  for (size_t c = 0; c < checks.size(); ++c) {
-    tail[c] = 100 * StressValue(checks[c], solution) / checks[c].rating;
+  for (const StressCheck& check : checks) {
+    if (check.rated()) *tail++ = 100 * StressValue(check, solution) / check.rating;
   }
 }
 

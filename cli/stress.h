@@ -1,6 +1,7 @@
 // Stress checks (docs/stress.md): each rated diode's forward current, reverse voltage
-// and dissipation against its part's ratings, with a design margin (--derate), and the
-// extra-low-voltage caution.
+// and dissipation against its part's ratings, each rated resistor's dissipation, with a
+// design margin (--derate), the reverse (breakdown) current of rated breakdown diodes, and
+// the extra-low-voltage caution.
 #pragma once
 
 #include <functional>
@@ -13,20 +14,24 @@
 
 namespace knee::cli {
 
-enum class StressQuantity { kForwardCurrent, kReverseVoltage, kPower };
+// kReverseCurrent has no rating of its own (max_current rates the forward current; a
+// breakdown diode's reverse current is covered by max_power): it is reported, never checked.
+enum class StressQuantity { kForwardCurrent, kReverseVoltage, kPower, kReverseCurrent };
 
 struct StressCheck {
-  int element = 0;  // diode element index
+  int element = 0;  // diode or resistor element index
   StressQuantity quantity = StressQuantity::kForwardCurrent;
-  double rating = 0;  // the part's rating
+  double rating = 0;  // the part's (or resistor's) rating; NaN for kReverseCurrent
   double limit = 0;   // rating * derate
+  bool rated() const { return quantity != StressQuantity::kReverseCurrent; }
 };
 
-// Every rated quantity of every diode of `circuit`, in element order.
+// Every rated quantity of every diode and resistor of `circuit`, in element order, with the
+// reverse current of each rated diode whose part has breakdown_v.
 std::vector<StressCheck> CollectStressChecks(const Circuit& circuit, double derate_fraction);
 
 // The stressed value of one check at a solution: forward current i (A), reverse voltage
-// -v (V), dissipation v*i (W).
+// -v (V), dissipation v*i (W), reverse current -i (A).
 double StressValue(const StressCheck& check, const Solution& solution);
 
 // Per point values, gathered by index from any thread a window of points at a time, then
@@ -56,10 +61,11 @@ class StressRecorder {
   std::vector<long long> worst_row_;  // per check, -1 until a point is solved
 };
 
-// Appends the CSV-only columns "Dhi.i/max_current [%]" (use of each rating per row).
+// Appends the CSV-only columns "Dhi.i/max_current [%]" (use of each rating per row; the
+// unrated reverse current has none).
 void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,
                       Report* report);
-// Writes those columns' values of one solved point into `tail` (checks.size() values).
+// Writes those columns' values of one solved point into `tail` (one per rated check).
 void FillStressColumns(const std::vector<StressCheck>& checks, const Solution& solution,
                        double* tail);
 

@@ -250,7 +250,9 @@ std::string DrawSweepChart(const Report& report, const ChartOptions& options) {
   const std::string title = report.title.empty() ? report.file : report.title;
   svg += fmt::format(
       "<text x=\"{}\" y=\"26\" font-size=\"16\" font-weight=\"bold\" fill=\"#22262b\">{}</text>\n",
-      kLeft, XmlEscape(title + ": DC sweep at " + FormatEng(report.temp, "°C", 4)));
+      kLeft,
+      XmlEscape(title + (report.temp_swept ? std::string(": DC sweep, temperature swept")
+                                           : ": DC sweep at " + FormatEng(report.temp, "°C", 4))));
 
   // Shared x axis.
   double x_lo = INFINITY, x_hi = -INFINITY;

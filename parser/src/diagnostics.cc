@@ -113,9 +113,17 @@ int EditDistance(std::string_view a, std::string_view b, bool fold_case) {
 
 }  // namespace
 
-std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view source_text) {
+namespace {
+
+// `severity` is "error" or "warning". A place leads ("FILE:LINE:COL: error:", "FILE: error:"
+// for a whole file); a problem with no place at all (a command-line option, whose message
+// names it) takes the program's one prefix for command-line trouble, "knee: error:".
+std::string Format(const Diagnostic& diagnostic, std::string_view source_text,
+                   std::string_view severity) {
   const SourceLocation& where = diagnostic.where;
-  std::string out = fmt::format("{}error: {}", Place(where), diagnostic.message);
+  std::string out = where.file.empty() && where.line <= 0
+                        ? fmt::format("knee: {}: {}", severity, diagnostic.message)
+                        : fmt::format("{}{}: {}", Place(where), severity, diagnostic.message);
   std::optional<std::string_view> line;
   if (where.line > 0) line = FindLine(source_text, where.line);
   if (line) {
@@ -148,6 +156,16 @@ std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view sour
     out += fmt::format("\nnote: {}{}", Place(place), text);
   }
   return out;
+}
+
+}  // namespace
+
+std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view source_text) {
+  return Format(diagnostic, source_text, "error");
+}
+
+std::string FormatWarning(const Diagnostic& diagnostic, std::string_view source_text) {
+  return Format(diagnostic, source_text, "warning");
 }
 
 std::string FormatDiagnostics(const std::vector<Diagnostic>& diagnostics,

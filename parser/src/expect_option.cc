@@ -42,7 +42,7 @@ std::string Literal(const std::string& text, const ValuePlace& place, double* va
 }  // namespace
 
 Result<Expectation> ParseExpectOption(std::string_view text, const Circuit& circuit,
-                                      const SourceLocation& where) {
+                                      const SourceLocation& where, const ParamValues* params) {
   const std::string whole(text);
   const char* form = "write QUANTITY=VALUE[~TOL], e.g. --expect pin.v=3.9~50m";
   // The '=' outside parentheses separates the quantity from the value.
@@ -74,7 +74,7 @@ Result<Expectation> ParseExpectOption(std::string_view text, const Circuit& circ
         where, fmt::format("'{}' lacks a {}", whole, quantity_text.empty() ? "quantity" : "value"),
         form);
   }
-  Result<QuantityExpr> quantity = ParseQuantity(quantity_text, circuit, where);
+  Result<QuantityExpr> quantity = ParseQuantity(quantity_text, circuit, where, params);
   if (!quantity) return std::move(quantity).take_errors();
 
   const std::string& unit = quantity->unit();

@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <cstdint>
 #include <deque>
@@ -137,10 +138,51 @@ constexpr ValuePlace kAreaPlace{"an area factor", ""};
 
 std::string Number(double v) { return fmt::format("{}", v); }
 
+// A literal with no SI prefix, no unit and no %: "5", "0.05", "1e-3", "4R7".
+bool IsBareNumber(const Value& v) {
+  if (v.kind != Value::Kind::kLiteral || !v.unit.empty()) return false;
+  return std::all_of(v.text.begin(), v.text.end(), [](char c) {
+    return (c >= '0' && c <= '9') || c == '.' || c == 'e' || c == 'E' || c == '+' || c == '-' ||
+           c == 'R';
+  });
+}
+
+// `within 5`: absolute in the quantity's unit by the format's rule, but easily meant as 5 %.
+void WarnBareTolerance(const Value& tol, const Expectation& x, std::vector<Diagnostic>* warnings) {
+  const std::string unit = x.quantity.unit();
+  const std::string as = unit.empty() ? "an absolute tolerance of " + tol.text
+                                      : fmt::format("{} {} (absolute)", tol.text, unit);
+  warnings->push_back(MakeError(
+      x.where.file, ToSpan(x.where).line == 0 ? Span{} : tol.span,
+      fmt::format("tolerance '{}' has no unit and no %: it is taken as {}", tol.text, as),
+      fmt::format(
+          "write {}% for a relative tolerance{}", tol.text,
+          unit.empty() ? "" : fmt::format(", or {}{} for an absolute one", tol.text, unit))));
+}
+
+// "unknown part key 'IS'", or for a key of self-heating that this version does not model,
+// a message that says so.
+std::string UnknownKeyMessage(std::string_view key) {
+  if (IsPlannedPartKey(key)) {
+    return fmt::format("part key '{}' (self-heating) is not implemented in this version", key);
+  }
+  return fmt::format("unknown part key '{}'", key);
+}
+
 class Elaborator {
  public:
   Elaborator(const Netlist& netlist, const Overrides& overrides)
       : netlist_(netlist), d_(netlist.data()), file_(d_.file_name), overrides_(overrides) {}
+
+  // Only the names, the overrides and the params.
+  bool RunParams() {
+    RegisterNames();
+    if (Full()) return false;
+    ApplyOverrides();
+    if (Full()) return false;
+    EvaluateParams();
+    return errors_.empty();
+  }
 
   bool Run(Circuit* circuit) {
     RegisterNames();
@@ -153,9 +195,18 @@ class Elaborator {
     return errors_.empty();
   }
 
+  ParamValues Params() const {
+    ParamValues values;
+    for (std::size_t i = 0; i < d_.params.size(); ++i) {
+      if (param_state_[i] == kDone) values.emplace_back(d_.params[i].name, param_values_[i]);
+    }
+    return values;
+  }
+
   void Requests(const Circuit& circuit, Design* design) {
     design->bias_requested = d_.bias || d_.sweeps.empty();
     long long sweep_values = 0;  // of all sweep statements, against kMaxSweepValues
+    design->params = Params();
     for (const SweepStmt& s : d_.sweeps) {
       std::vector<SweepAxis> axes;
       bool ok = true;
@@ -190,7 +241,8 @@ class Elaborator {
       if (ok) design->sweeps.push_back(std::move(axes));
     }
     for (const QuantityText& q : d_.show) {
-      Result<QuantityExpr> r = ParseQuantity(q.text, circuit, ToLocation(file_, q.span));
+      Result<QuantityExpr> r =
+          ParseQuantity(q.text, circuit, ToLocation(file_, q.span), &design->params);
       if (!r.ok()) {
         Take(std::move(r).take_errors());
         continue;
@@ -198,8 +250,8 @@ class Elaborator {
       design->show.push_back(std::move(*r));
     }
     for (const ExpectStmt& e : d_.expects) {
-      Result<QuantityExpr> q =
-          ParseQuantity(e.quantity.text, circuit, ToLocation(file_, e.quantity.span));
+      Result<QuantityExpr> q = ParseQuantity(e.quantity.text, circuit,
+                                             ToLocation(file_, e.quantity.span), &design->params);
       if (!q.ok()) {
         Take(std::move(q).take_errors());
         continue;
@@ -226,8 +278,56 @@ class Elaborator {
           Error(t.span, fmt::format("tolerance {} must be > 0", t.text));
           continue;
         }
+        if (IsBareNumber(t)) WarnBareTolerance(t, x, &design->warnings);
       }
       design->expects.push_back(std::move(x));
+    }
+  }
+
+  // Warnings about the circuit itself: nodes that one element only touches, and nodes
+  // named like the reference node in other capitals.
+  void NodeWarnings(const Circuit& circuit, std::vector<Diagnostic>* warnings) {
+    std::vector<int> touches(circuit.nodes.size(), 0);
+    std::vector<int> toucher(circuit.nodes.size(), -1);
+    for (std::size_t i = 0; i < circuit.elements.size(); ++i) {
+      const Element& e = circuit.elements[i];
+      for (const int node : {e.node_a, e.node_b}) {
+        const auto n = static_cast<std::size_t>(node);
+        if (toucher[n] == static_cast<int>(i)) continue;  // both ends of one element
+        toucher[n] = static_cast<int>(i);
+        ++touches[n];
+      }
+    }
+    for (std::size_t n = 1; n < circuit.nodes.size(); ++n) {
+      const std::string& name = circuit.nodes[n];
+      const bool like_gnd = name.size() == 3 && std::tolower(name[0]) == 'g' &&
+                            std::tolower(name[1]) == 'n' && std::tolower(name[2]) == 'd';
+      if (!like_gnd && touches[n] != 1) continue;
+      auto it = names_.find(name);
+      const Span span = it != names_.end() ? it->second.span : Span{};
+      if (like_gnd) {
+        warnings->push_back(MakeError(file_, span,
+                                      fmt::format("node '{}' is not the reference node: names are "
+                                                  "case-sensitive, and the reference node is "
+                                                  "written 'gnd' or '0'",
+                                                  name),
+                                      "write gnd if this node is meant to be the reference"));
+      }
+      if (touches[n] == 1) {
+        const Element& e = circuit.elements[static_cast<std::size_t>(toucher[n])];
+        std::vector<std::string> others = {"gnd"};
+        for (std::size_t m = 1; m < circuit.nodes.size(); ++m) {
+          if (m != n) others.push_back(circuit.nodes[m]);
+        }
+        const std::string near = like_gnd ? "" : SuggestName(name, others);
+        warnings->push_back(MakeError(
+            file_, span,
+            fmt::format("node '{}' is touched by one element only ({} '{}'), so no current can "
+                        "flow through it",
+                        name, ElementKindName(e.kind), e.name),
+            near.empty() ? "connect a second element to it, or check the spelling of the name"
+                         : fmt::format("did you mean '{}'?", near)));
+      }
     }
   }
 
@@ -364,8 +464,8 @@ class Elaborator {
           continue;
         }
         if (!FindPartKey(key)) {
-          Error(Span{}, fmt::format("{}: '{}' is not a part key", context, key),
-                Suggest(key, PartKeyNames()));
+          Error(Span{}, fmt::format("{}: {}", context, UnknownKeyMessage(key)),
+                PartKeyHint(key, part + "."));
           continue;
         }
         if (auto v = OverrideValue(o, fmt::format("a value for {}", key))) {
@@ -624,8 +724,8 @@ class Elaborator {
       for (const PartKeyStmt& k : s.keys) {
         const PartKeyInfo* info = FindPartKey(k.key);
         if (!info) {
-          Error(k.key_span, fmt::format("unknown part key '{}' in part '{}'", k.key, s.name),
-                Suggest(k.key, PartKeyNames()));
+          Error(k.key_span, fmt::format("{} in part '{}'", UnknownKeyMessage(k.key), s.name),
+                IsPlannedPartKey(k.key) ? "" : PartKeyHint(k.key));
           continue;
         }
         auto [it, inserted] = given.try_emplace(k.key, &k);
@@ -713,6 +813,23 @@ class Elaborator {
       }
       circuit->elements.push_back(std::move(e));
     }
+    BuildResistorRatings(circuit);
+  }
+
+  void BuildResistorRatings(Circuit* circuit) {
+    static constexpr ValuePlace kPlace{"max_power", "W"};
+    for (const ResistorRatingStmt& r : d_.resistor_ratings) {
+      if (static_cast<std::size_t>(r.element) >= circuit->elements.size()) break;  // Full()
+      std::optional<double> v = Evaluate(r.value, &kPlace);
+      if (!v) continue;
+      if (!(std::isfinite(*v) && *v > 0)) {
+        Error(r.value.span,
+              fmt::format("resistor '{}': max_power = {} is out of range; it must be > 0",
+                          circuit->elements[static_cast<std::size_t>(r.element)].name, Number(*v)));
+        continue;
+      }
+      circuit->resistor_ratings.push_back({r.element, *v});
+    }
   }
 
   void BuildDiode(const ElementStmt& s, Element* e) {
@@ -785,11 +902,18 @@ Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overri
   return circuit;
 }
 
+Result<ParamValues> ElaborateParams(const Netlist& netlist, const Overrides& overrides) {
+  Elaborator e(netlist, overrides);
+  if (!e.RunParams()) return e.TakeErrors();
+  return e.Params();
+}
+
 Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides) {
   Elaborator e(netlist, overrides);
   Design design;
   if (!e.Run(&design.circuit)) return e.TakeErrors();
   e.Requests(design.circuit, &design);
+  e.NodeWarnings(design.circuit, &design.warnings);
   std::vector<Diagnostic> errors = e.TakeErrors();
   if (!errors.empty()) return errors;
   return design;
@@ -819,9 +943,7 @@ Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& net
                        near.empty() ? "" : fmt::format("did you mean '{}'?", near));
     }
     if (!FindPartKey(key)) {
-      const std::string near = SuggestName(key, PartKeyNames());
-      return MakeError(file, span, fmt::format("'{}' is not a part key", key),
-                       near.empty() ? "" : fmt::format("did you mean '{}.{}'?", part, near));
+      return MakeError(file, span, UnknownKeyMessage(key), PartKeyHint(key, part + "."));
     }
     t.kind = SweepTarget::Kind::kPartKey;
     t.index = index;

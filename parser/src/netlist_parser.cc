@@ -365,10 +365,44 @@ class StatementParser {
                                                                 : "a current";
       Value value;
       if (!TakeValue(place, &value)) return false;
+      if (kind == ElementKind::kResistor && !TakeResistorOptions(e)) return false;
       e.detail = static_cast<int>(data_->element_values.size());
       data_->element_values.push_back(std::move(value));
     }
     data_->elements.push_back(e);
+    return true;
+  }
+
+  // `max_power=VALUE` after a resistor's value, at most once.
+  bool TakeResistorOptions(const ElementStmt& e) {
+    bool seen = false;
+    while (!scanner_.AtEnd()) {
+      const Token option = scanner_.NextWord();
+      if (option.kind != Tok::kWord || option.text != "max_power") {
+        if (option.kind == Tok::kWord && !SuggestName(option.text, {"max_power"}).empty()) {
+          return Error(option,
+                       fmt::format("expected a resistor rating (max_power=VALUE) or the end of "
+                                   "the line but found {}",
+                                   Quote(option)),
+                       "did you mean 'max_power'?");
+        }
+        return Error(
+            option,
+            fmt::format("unexpected {} at the end of the resistor statement", Quote(option)),
+            "after its value a resistor takes only a rating, max_power=VALUE");
+      }
+      if (seen) {
+        return Error(option,
+                     fmt::format("option 'max_power' given twice for resistor '{}'", e.name));
+      }
+      seen = true;
+      ResistorRatingStmt rating;
+      rating.element = static_cast<int>(data_->elements.size());
+      rating.key_span = scanner_.SpanOf(option);
+      if (!TakeEquals("'max_power'")) return false;
+      if (!TakeValue("a rated dissipation", &rating.value)) return false;
+      data_->resistor_ratings.push_back(std::move(rating));
+    }
     return true;
   }
 

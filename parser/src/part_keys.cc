@@ -2,8 +2,11 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
+#include <cctype>
 #include <cmath>
 
+#include "knee/diagnostics.h"
 #include "knee/diode_law.h"
 
 namespace knee {
@@ -19,6 +22,78 @@ constexpr PartKeyInfo kKeys[] = {
     {"max_power", "W", "> 0"},
 };
 
+constexpr const char* kPlannedKeys[] = {"thermal_res", "max_junction_temp"};
+
+// Common abbreviations and spelled-out variants of the keys (lower case), mapped to the key
+// they most likely mean. Our own table: short forms engineers write in notes and data
+// sheets, not the names of any program.
+struct Alias {
+  const char* written;
+  const char* key;
+};
+constexpr Alias kAliases[] = {
+    {"is", "sat_current"},
+    {"isat", "sat_current"},
+    {"i_s", "sat_current"},
+    {"i0", "sat_current"},
+    {"saturation_current", "sat_current"},
+    {"n", "ideality"},
+    {"eta", "ideality"},
+    {"ideality_factor", "ideality"},
+    {"emission_coefficient", "ideality"},
+    {"rs", "series_res"},
+    {"r_s", "series_res"},
+    {"rser", "series_res"},
+    {"series_resistance", "series_res"},
+    {"bv", "breakdown_v"},
+    {"vbr", "breakdown_v"},
+    {"vz", "breakdown_v"},
+    {"breakdown_voltage", "breakdown_v"},
+    {"zener_voltage", "breakdown_v"},
+    {"ibr", "breakdown_i"},
+    {"iz", "breakdown_i"},
+    {"izt", "breakdown_i"},
+    {"breakdown_current", "breakdown_i"},
+    {"nbr", "breakdown_ideality"},
+    {"tc", "breakdown_tc"},
+    {"tcv", "breakdown_tc"},
+    {"eg", "bandgap"},
+    {"band_gap", "bandgap"},
+    {"energy_gap", "bandgap"},
+    {"tref", "ref_temp"},
+    {"t0", "ref_temp"},
+    {"reference_temp", "ref_temp"},
+    {"imax", "max_current"},
+    {"i_max", "max_current"},
+    {"if_max", "max_current"},
+    {"vrmax", "max_reverse_v"},
+    {"vr_max", "max_reverse_v"},
+    {"vrrm", "max_reverse_v"},
+    {"max_reverse_voltage", "max_reverse_v"},
+    {"pmax", "max_power"},
+    {"p_max", "max_power"},
+    {"pd", "max_power"},
+    {"rth", "thermal_res"},
+    {"rthja", "thermal_res"},
+    {"tjmax", "max_junction_temp"},
+};
+
+std::string Lower(std::string_view text) {
+  std::string out(text);
+  for (char& c : out) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  return out;
+}
+
+// The key `wrong` most likely means by the alias table or by case alone; "" if none.
+std::string LikelyKey(std::string_view wrong) {
+  const std::string lower = Lower(wrong);
+  if (FindPartKey(lower) || IsPlannedPartKey(lower)) return lower;
+  for (const Alias& a : kAliases) {
+    if (lower == a.written) return a.key;
+  }
+  return "";
+}
+
 }  // namespace
 
 const PartKeyInfo* FindPartKey(std::string_view key) {
@@ -26,6 +101,11 @@ const PartKeyInfo* FindPartKey(std::string_view key) {
     if (key == info.key) return &info;
   }
   return nullptr;
+}
+
+bool IsPlannedPartKey(std::string_view key) {
+  return std::any_of(std::begin(kPlannedKeys), std::end(kPlannedKeys),
+                     [&](const char* k) { return key == k; });
 }
 
 std::vector<std::string> PartKeyNames() {
@@ -68,6 +148,35 @@ void SetPartKey(DiodeModel* m, std::string_view key, double v) {
   if (key == "max_current") m->max_current = v;
   if (key == "max_reverse_v") m->max_reverse_v = v;
   if (key == "max_power") m->max_power = v;
+}
+
+std::optional<double> GetPartKey(const DiodeModel& m, std::string_view key) {
+  if (key == "sat_current") return m.sat_current;
+  if (key == "ideality") return m.ideality;
+  if (key == "series_res") return m.series_res;
+  if (key == "breakdown_v") return m.breakdown_v;
+  if (key == "breakdown_i") return m.breakdown_i;
+  if (key == "breakdown_ideality") return m.breakdown_ideality;
+  if (key == "breakdown_tc") return m.breakdown_tc;
+  if (key == "bandgap") return m.bandgap;
+  if (key == "sat_temp_exp") return m.sat_temp_exp;
+  if (key == "ref_temp") return m.ref_temp;
+  if (key == "max_current") return m.max_current;
+  if (key == "max_reverse_v") return m.max_reverse_v;
+  if (key == "max_power") return m.max_power;
+  return std::nullopt;
+}
+
+std::string PartKeyHint(std::string_view wrong, std::string_view prefix) {
+  const std::string likely = LikelyKey(wrong);
+  if (!likely.empty()) {
+    const bool by_case = Lower(wrong) == likely;
+    return fmt::format("did you mean '{}{}'? ('{}' reads as {})", prefix, likely, wrong,
+                       by_case ? "that key in other capitals" : "a common abbreviation of it");
+  }
+  const std::string near = SuggestName(wrong, PartKeyNames());
+  if (!near.empty()) return fmt::format("did you mean '{}{}'?", prefix, near);
+  return fmt::format("the part keys are {}", fmt::join(PartKeyNames(), ", "));
 }
 
 }  // namespace knee

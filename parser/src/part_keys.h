@@ -1,5 +1,5 @@
-// The keys of 'part NAME diode ...' (netlist-format.md, "Diode parameters"): their
-// units, their rules, and how they map onto DiodeModel.
+// The keys of 'part NAME diode ...' (docs/netlist-format.md, "Part keys"): their
+// units, their rules, defaults, and how they map onto DiodeModel.
 #pragma once
 
 #include <optional>
@@ -27,5 +27,17 @@ bool PartKeyValueOk(const PartKeyInfo& info, double value);
 std::string PartKeyRule(const PartKeyInfo& info, double value);
 // Stores `value` in the model's field for the key.
 void SetPartKey(DiodeModel* model, std::string_view key, double value);
+// The model's value for the key; nullopt for a rating or breakdown_v that is not set.
+std::optional<double> GetPartKey(const DiodeModel& model, std::string_view key);
+
+// Keys of the netlist format that this version reads but does not model yet (self-heating:
+// thermal_res, max_junction_temp); a part that gives one is an error that says so.
+bool IsPlannedPartKey(std::string_view key);
+
+// The hint for a key that is not a part key: the spelled-out key that `wrong` most likely
+// means (a key written in capitals, or a common abbreviation such as IS, N or RS), else the
+// nearest key by spelling, else the list of every key. `prefix` goes before a suggested
+// key ("SIG." for a --set or sweep target).
+std::string PartKeyHint(std::string_view wrong, std::string_view prefix = "");
 
 }  // namespace knee

@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <optional>
 
 #include "expr.h"
 #include "knee/diagnostics.h"
@@ -12,10 +13,11 @@
 namespace knee {
 
 struct QuantityExpr::Node {
-  enum class Kind { kNumber, kRef, kNegate, kAdd, kSub, kMul, kDiv, kPow, kCall };
+  enum class Kind { kNumber, kRef, kVariable, kNegate, kAdd, kSub, kMul, kDiv, kPow, kCall };
   Kind kind = Kind::kNumber;
   double number = 0;
   QuantityRef ref;
+  int variable = -1;  // kVariable: index into QuantityExpr::variables()
   std::string function;
   std::vector<std::shared_ptr<const Node>> args;
 };
@@ -34,15 +36,18 @@ void CollectRefs(const Node& node, std::vector<QuantityRef>* refs) {
   for (const auto& arg : node.args) CollectRefs(*arg, refs);
 }
 
-double EvaluateNode(const Node& node, const Solution& solution) {
+double EvaluateNode(const Node& node, const Solution& solution,
+                    const std::vector<double>& variables) {
   std::vector<double> v;
   v.reserve(node.args.size());
-  for (const auto& arg : node.args) v.push_back(EvaluateNode(*arg, solution));
+  for (const auto& arg : node.args) v.push_back(EvaluateNode(*arg, solution, variables));
   switch (node.kind) {
     case Node::Kind::kNumber:
       return node.number;
     case Node::Kind::kRef:
       return Evaluate(solution, node.ref);
+    case Node::Kind::kVariable:
+      return variables[static_cast<std::size_t>(node.variable)];
     case Node::Kind::kNegate:
       return -v[0];
     case Node::Kind::kAdd:
@@ -78,8 +83,11 @@ struct Converted {
 
 class QuantityResolver {
  public:
-  QuantityResolver(const Circuit& circuit, const std::string& file)
-      : circuit_(circuit), file_(file) {}
+  QuantityResolver(const Circuit& circuit, const std::string& file, const ParamValues* params)
+      : circuit_(circuit), file_(file), params_(params) {}
+
+  std::vector<std::string> variables;  // in order of first use
+  std::vector<double> nominal;
 
   Result<Converted> Convert(const Expr& e) {
     auto node = std::make_shared<Node>();
@@ -93,6 +101,15 @@ class QuantityResolver {
       case Expr::Kind::kName: {
         if (auto c = ConstantValue(e.name)) {
           node->number = *c;
+          out.is_number = true;
+          out.node = node;
+          return out;
+        }
+        if (std::optional<double> value = VariableValue(e.name)) {
+          // A param or temp is a number to the unit rules (docs/netlist-format.md,
+          // "Quantities in expressions").
+          node->kind = Node::Kind::kVariable;
+          node->variable = VariableIndex(e.name, *value);
           out.is_number = true;
           out.node = node;
           return out;
@@ -117,6 +134,8 @@ class QuantityResolver {
     }
     out.is_number =
         std::all_of(args.begin(), args.end(), [](const Converted& c) { return c.is_number; });
+    // Units of sums and differences follow the quantities in them, also when a param or
+    // temp stands beside them.
     switch (e.kind) {
       case Expr::Kind::kNegate:
         node->kind = Node::Kind::kNegate;
@@ -151,15 +170,46 @@ class QuantityResolver {
   }
 
  private:
+  // A param's value, or the circuit's temperature for "temp"; nullopt for other names.
+  std::optional<double> VariableValue(const std::string& name) const {
+    if (name == "temp") return circuit_.temp;
+    if (!params_) return std::nullopt;
+    for (const auto& [param, value] : *params_) {
+      if (param == name) return value;
+    }
+    return std::nullopt;
+  }
+  int VariableIndex(const std::string& name, double value) {
+    for (std::size_t i = 0; i < variables.size(); ++i) {
+      if (variables[i] == name) return static_cast<int>(i);
+    }
+    variables.push_back(name);
+    nominal.push_back(value);
+    return static_cast<int>(variables.size()) - 1;
+  }
+
+  // The hint for a bare name that is neither a param nor temp: NAME.v for a node, NAME.i
+  // for an element, else the nearest param (or temp) by spelling.
+  std::string BareNameHint(const std::string& name) const {
+    if (circuit_.FindNode(name) >= 0) return fmt::format("did you mean '{}.v'?", name);
+    if (circuit_.FindElement(name) >= 0) return fmt::format("did you mean '{}.i'?", name);
+    std::vector<std::string> names = {"temp"};
+    if (params_) {
+      for (const auto& entry : *params_) names.push_back(entry.first);
+    }
+    const std::string near = SuggestName(name, names);
+    return near.empty() ? "" : fmt::format("did you mean '{}'?", near);
+  }
+
   Result<QuantityRef> Resolve(const Expr& e) {
     const std::string& text = e.name;
     const std::size_t dot = text.find('.');
     if (dot == std::string::npos) {
       return MakeError(file_, e.span,
-                       fmt::format("'{}' is not a quantity; expected NODE.v, ELEMENT.v, "
-                                   "ELEMENT.i, ELEMENT.p, DIODE.vj or DIODE.rd",
+                       fmt::format("'{}' is not a quantity, a param or temp; expected NODE.v, "
+                                   "ELEMENT.v, ELEMENT.i, ELEMENT.p, DIODE.vj or DIODE.rd",
                                    text),
-                       fmt::format("did you mean '{}.v'?", text));
+                       BareNameHint(text));
     }
     const std::string name = text.substr(0, dot);
     const std::string field = text.substr(dot + 1);
@@ -202,17 +252,27 @@ class QuantityResolver {
 
   const Circuit& circuit_;
   const std::string& file_;
+  const ParamValues* params_;
 };
 
 }  // namespace
 
-QuantityExpr::QuantityExpr(std::string text, std::string unit, std::shared_ptr<const Node> root)
-    : text_(std::move(text)), unit_(std::move(unit)), root_(std::move(root)) {
+QuantityExpr::QuantityExpr(std::string text, std::string unit, std::shared_ptr<const Node> root,
+                           std::vector<std::string> variables, std::vector<double> nominal)
+    : text_(std::move(text)),
+      unit_(std::move(unit)),
+      root_(std::move(root)),
+      variables_(std::move(variables)),
+      nominal_(std::move(nominal)) {
   if (root_) CollectRefs(*root_, &refs_);
 }
 
 double QuantityExpr::Evaluate(const Solution& solution) const {
-  return root_ ? EvaluateNode(*root_, solution) : std::nan("");
+  return root_ ? EvaluateNode(*root_, solution, nominal_) : std::nan("");
+}
+
+double QuantityExpr::Evaluate(const Solution& solution, const std::vector<double>& values) const {
+  return root_ ? EvaluateNode(*root_, solution, values) : std::nan("");
 }
 
 QuantityExpr PlainQuantity(const Circuit& circuit, const QuantityRef& ref) {
@@ -223,7 +283,7 @@ QuantityExpr PlainQuantity(const Circuit& circuit, const QuantityRef& ref) {
 }
 
 Result<QuantityExpr> ParseQuantity(std::string_view text, const Circuit& circuit,
-                                   const SourceLocation& where) {
+                                   const SourceLocation& where, const ParamValues* params) {
   const std::string& file = where.file;
   // Trim blanks so that columns still count from `where`.
   std::size_t begin = 0, end = text.size();
@@ -258,10 +318,11 @@ Result<QuantityExpr> ParseQuantity(std::string_view text, const Circuit& circuit
     return MakeError(file, scanner.SpanOf(rest),
                      fmt::format("unexpected '{}' after the quantity", rest.text));
   }
-  QuantityResolver resolver(circuit, file);
+  QuantityResolver resolver(circuit, file, params);
   Result<Converted> converted = resolver.Convert(*expr);
   if (!converted.ok()) return std::move(converted).take_errors();
-  return QuantityExpr(std::string(trimmed), converted->unit, converted->node);
+  return QuantityExpr(std::string(trimmed), converted->unit, converted->node,
+                      std::move(resolver.variables), std::move(resolver.nominal));
 }
 
 }  // namespace knee

@@ -97,6 +97,13 @@ struct DiodeStmt {
   std::unique_ptr<Value> temp;
 };
 
+// A resistor's rating (netlist-format.md, "Resistor ratings"): `max_power=VALUE`.
+struct ResistorRatingStmt {
+  int element = -1;  // index into NetlistData::elements
+  Span key_span;
+  Value value;
+};
+
 struct SweepPairStmt {
   std::string target;
   Span target_span;
@@ -145,6 +152,7 @@ struct NetlistData {
   std::vector<ElementStmt> elements;
   std::vector<Value> element_values;  // of resistors and sources, by ElementStmt::detail
   std::vector<DiodeStmt> diodes;      // by ElementStmt::detail
+  std::vector<ResistorRatingStmt> resistor_ratings;  // in file order
 
   const Value& ValueOf(const ElementStmt& e) const {
     return element_values[static_cast<std::size_t>(e.detail)];

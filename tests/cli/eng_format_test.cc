@@ -28,10 +28,26 @@ TEST(FormatEng, RoundsBeforeChoosingThePrefix) {
 
 TEST(FormatEng, HandlesZeroTinyAndNonFinite) {
   EXPECT_EQ(FormatEng(0.0, "V"), "0 V");
-  EXPECT_EQ(FormatEng(1.2e-18, "A"), "1.200e-18 A");
+  EXPECT_EQ(FormatEng(1.2e-30, "A"), "1.2e-30 A");  // beyond the smallest prefix
   EXPECT_EQ(FormatEng(std::numeric_limits<double>::quiet_NaN(), "V"), "—");
   EXPECT_EQ(FormatEng(std::numeric_limits<double>::infinity(), "V"), "inf V");
   EXPECT_EQ(FormatEng(1.5, ""), "1.5");
+}
+
+// Issue 20, item 8: small and large values keep engineering notation (SI Brochure, BIPM,
+// 9th edition, 2019, Table 7: a 1e-18, z 1e-21, y 1e-24, P 1e15, E 1e18), a plain number
+// takes no prefix, and a coefficient per kelvin reads in ppm/K or %/K.
+TEST(FormatEng, Item8FormattingSlips) {
+  EXPECT_EQ(FormatEng(1.242e-17, "W"), "12.42 aW");
+  EXPECT_EQ(FormatEng(1e-19, "A", 3), "100 zA");
+  EXPECT_EQ(FormatEng(3.3e-24, "A"), "3.3 yA");
+  EXPECT_EQ(FormatEng(2.5e15, "Ohm"), "2.5 PΩ");
+  EXPECT_EQ(FormatEng(0.5, ""), "0.5");
+  EXPECT_EQ(FormatEng(1.5e-7, ""), "1.5e-7");
+  EXPECT_EQ(FormatEng(350e-6, "1/K"), "350 ppm/K");
+  EXPECT_EQ(FormatEng(-4e-4, "1/K"), "-400 ppm/K");
+  EXPECT_EQ(FormatEng(0.05, "1/K"), "5 %/K");
+  EXPECT_EQ(FormatEng(0.0, "1/K"), "0 /K");
 }
 
 TEST(FormatRoundTrip, ReadsBackToTheSameDouble) {

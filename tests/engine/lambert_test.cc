@@ -20,6 +20,10 @@
 namespace knee {
 namespace {
 
+// The bandgap of a part that gives none: silicon at 300 K, 1.12 eV (S. M. Sze, K. K. Ng,
+// Physics of Semiconductor Devices, 3rd ed., 2007; the netlist contract's default).
+constexpr double kDefaultBandgap = 1.12;
+
 // CODATA 2018 exact constants (SI 2019), written out here independently of the engine.
 constexpr double kK = 1.380649e-23;
 constexpr double kQ = 1.602176634e-19;
@@ -68,7 +72,7 @@ TEST_P(LambertTest, CurrentMatchesLambertW) {
                                      1.0,  2.0,  5.0, 10,   20,   30,    40,    50};
   for (const double temp : {-40.0, 25.0, 125.0}) {
     const double n_vt = p.ideality * kK * (temp + 273.15) / kQ;
-    const double is = p.area * SatCurrent(3e-14, p.ideality, 1.11, 3.0, 25.0, temp);
+    const double is = p.area * SatCurrent(3e-14, p.ideality, kDefaultBandgap, 3.0, 25.0, temp);
     const double r_total = r_ext + p.series_res / p.area;
     for (const double v : volts) {
       testing::CircuitBuilder b(temp);
@@ -125,7 +129,7 @@ TEST(LambertBreakdown, ZenerClampCurrentMatchesLambertW) {
         Solution s;
         const SolveSummary summary = (*solver)->Solve(&s);
         ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
-        const double is = SatCurrent(1e-15, 1.0, 1.11, 3.0, 25.0, temp);
+        const double is = SatCurrent(1e-15, 1.0, kDefaultBandgap, 3.0, 25.0, temp);
         const double y = std::log(5e-3 * r_total / nbr_vt) + (v - vbr - is * r_total) / nbr_vt;
         const double expected = is + nbr_vt / r_total * LambertW0OfExp(y);
         EXPECT_CLOSE(-s.element_current[z], expected, 1e-9, 0.0)

@@ -34,8 +34,9 @@ TEST(DiagnosticsTest, NoLineMeansNoQuote) {
   d.where.file = "--set";
   d.message = "something";
   EXPECT_EQ(FormatDiagnostic(d, "irrelevant"), "--set: error: something");
+  // One prefix for every command-line error (issue 20, item 9).
   d.where.file = "";
-  EXPECT_EQ(FormatDiagnostic(d, ""), "error: something");
+  EXPECT_EQ(FormatDiagnostic(d, ""), "knee: error: something");
 }
 
 TEST(DiagnosticsTest, ControlCharactersShownAsQuestionMarks) {

@@ -71,7 +71,7 @@ TEST(OverridesTest, ErrorsNameTheOption) {
   EXPECT_EQ(OnlyError(e), "0:0: --set SGI.sat_current=1p: there is no part named 'SGI'");
   EXPECT_EQ(e[0].hint, "did you mean 'SIG'?");
   e = AllErrors(kCircuit, Set({{"SIG.sat", "1p"}}));
-  EXPECT_EQ(OnlyError(e), "0:0: --set SIG.sat=1p: 'sat' is not a part key");
+  EXPECT_EQ(OnlyError(e), "0:0: --set SIG.sat=1p: unknown part key 'sat'");
   EXPECT_EQ(OnlyError(AllErrors(kCircuit, Set({{"D", "1"}}))),
             "0:0: --set D=1: diode 'D' has no value to set; set a key of its part instead "
             "(SIG.KEY)");

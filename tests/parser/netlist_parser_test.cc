@@ -72,7 +72,9 @@ TEST(NetlistParserTest, CompleteExampleElaboratesToTheWrittenValues) {
   EXPECT_EQ(sig.series_res, 0.6);
   EXPECT_EQ(sig.breakdown_v, 100.0);
   EXPECT_EQ(sig.breakdown_i, 100e-6);
-  EXPECT_EQ(sig.bandgap, 1.11);  // default of the contract's table
+  // The default: silicon at 300 K, S. M. Sze, K. K. Ng, Physics of Semiconductor Devices,
+  // 3rd ed., 2007 (netlist-format contract, "Defaults with sources").
+  EXPECT_EQ(sig.bandgap, 1.12);
   const DiodeModel& z = c.parts[1].model;
   EXPECT_EQ(z.sat_current, 1e-15);
   EXPECT_EQ(z.breakdown_v, 3.6);

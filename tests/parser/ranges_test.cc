@@ -172,7 +172,7 @@ TEST(RangesTest, SweepStatementsCheckUnitsAgainstTheTarget) {
   EXPECT_EQ(OnlyError(AllErrors(std::string(base) + "sweep D 0..1:1\n")),
             "5:7: diode 'D' has no value to sweep; sweep a key of its part (PART.key) or temp");
   EXPECT_EQ(OnlyError(AllErrors(std::string(base) + "sweep P.sat 1..2:1\n")),
-            "5:7: 'sat' is not a part key");
+            "5:7: unknown part key 'sat'");
   EXPECT_EQ(OnlyError(AllErrors(std::string(base) + "sweep V 0..1:1 V 1..2:1\n")),
             "5:16: sweep target 'V' appears twice in one sweep");
   EXPECT_EQ(OnlyError(AllErrors(std::string(base) + "sweep V\n")),

@@ -61,7 +61,7 @@ class Part:
         self.breakdown_i = 1e-3
         self.breakdown_ideality = 1.0
         self.breakdown_tc = 0.0
-        self.bandgap = 1.11
+        self.bandgap = 1.12  # knee's default: silicon at 300 K (Sze & Ng, 3rd ed., 2007)
         self.sat_temp_exp = 3.0
         self.ref_temp = 25.0
         for key, value in params.items():

@@ -10,6 +10,8 @@
 namespace knee::torture {
 namespace {
 
+constexpr double kTortureBandgap = 1.11;  // eV
+
 class Builder {
  public:
   Builder(uint64_t seed, const GeneratorOptions& options) : rng_(seed), o_(options) {}
@@ -64,6 +66,9 @@ class Builder {
     p.model.sat_current = LogUniform(o_.min_sat_current, o_.max_sat_current);
     p.model.ideality = Uniform(o_.min_ideality, o_.max_ideality);
     p.model.series_res = Chance(1.0 / 3.0) ? 0.0 : LogUniform(1e-3, o_.max_series_res);
+    // Fixed rather than the default, so that a seed stays the same network whatever the
+    // default (docs/solver.md quotes seeds).
+    p.model.bandgap = kTortureBandgap;
     if (Chance(0.5)) {
       p.model.breakdown_v = LogUniform(o_.min_breakdown_v, o_.max_breakdown_v);
       p.model.breakdown_i = LogUniform(1e-6, 1e-2);
@@ -274,8 +279,9 @@ std::string ToNetlist(const Circuit& c) {
   std::string text = fmt::format("title \"{}\"\ntemp {:.17g}\n", c.title, c.temp);
   for (const Part& p : c.parts) {
     const DiodeModel& m = p.model;
-    text += fmt::format("part {} diode sat_current={:.17g} ideality={:.17g} series_res={:.17g}",
-                        p.name, m.sat_current, m.ideality, m.series_res);
+    text += fmt::format(
+        "part {} diode sat_current={:.17g} ideality={:.17g} series_res={:.17g} bandgap={:.17g}",
+        p.name, m.sat_current, m.ideality, m.series_res, m.bandgap);
     if (m.breakdown_v) {
       text += fmt::format(" breakdown_v={:.17g} breakdown_i={:.17g} breakdown_ideality={:.17g}",
                           *m.breakdown_v, m.breakdown_i, m.breakdown_ideality);

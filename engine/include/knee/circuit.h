@@ -14,8 +14,9 @@ namespace knee {
 
 inline constexpr int kGroundNode = 0;  // Circuit::nodes[0] is always "gnd"
 
-// Parameters of a diode part (netlist-format.md, "Diode parameters"). SI units;
-// temperatures in degrees Celsius.
+// Parameters of a diode part (docs/netlist-format.md, "Part keys"; the source of each
+// default is in docs/model.md, "Defaults and their sources"). SI units; temperatures in
+// degrees Celsius.
 struct DiodeModel {
   double sat_current = 1e-14;         // A at ref_temp, > 0
   double ideality = 1.0;              // emission coefficient, > 0
@@ -24,7 +25,7 @@ struct DiodeModel {
   double breakdown_i = 1e-3;          // A, > 0: reverse current at breakdown_v
   double breakdown_ideality = 1.0;    // > 0
   double breakdown_tc = 0.0;          // 1/K
-  double bandgap = 1.11;              // eV, > 0
+  double bandgap = 1.12;              // eV, > 0: silicon at 300 K (Sze & Ng, 3rd ed., 2007)
   double sat_temp_exp = 3.0;
   double ref_temp = 25.0;               // degC, above absolute zero
   std::optional<double> max_current;    // A, rated forward current
@@ -55,12 +56,19 @@ struct Element {
   ElementKind kind = ElementKind::kResistor;
 };
 
+// A resistor's rated dissipation (netlist-format.md, "Resistor ratings"), for stress checks.
+struct ResistorRating {
+  int element = -1;      // index into Circuit::elements, a resistor
+  double max_power = 0;  // W, > 0
+};
+
 struct Circuit {
   std::string title;
   double temp = 25.0;              // degC
   std::vector<std::string> nodes;  // nodes[0] == "gnd"
   std::vector<Part> parts;
   std::vector<Element> elements;
+  std::vector<ResistorRating> resistor_ratings;  // in file order; not used by the solver
 
   Circuit() : nodes{"gnd"} {}
 

@@ -17,7 +17,12 @@ namespace knee {
 //   note: clamp.knee:8:6: 'SIG' is defined here
 // `source_text` is the whole netlist; the quoted line is taken from it (omitted when
 // the location has no line). Control characters in the quoted line are shown as '?'.
+// Without any place (a command-line option, named in the message) it reads
+// "knee: error: --set Rx=1k: ...".
 std::string FormatDiagnostic(const Diagnostic& diagnostic, std::string_view source_text);
+// The same with "warning:" in place of "error:" (a valid netlist that is probably not what
+// was meant; docs/errors.md, "Warnings").
+std::string FormatWarning(const Diagnostic& diagnostic, std::string_view source_text);
 // All of them, each followed by a newline, then "N errors" when there is more than one.
 std::string FormatDiagnostics(const std::vector<Diagnostic>& diagnostics,
                               std::string_view source_text);

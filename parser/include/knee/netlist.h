@@ -8,6 +8,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "knee/circuit.h"
@@ -44,12 +45,25 @@ struct Overrides {
   std::optional<double> temp;  // degC, replaces the file's temp statement
 };
 
-// A quantity or an expression of quantities, resolved against a circuit.
+// The netlist's params, evaluated (name, value), in file order.
+using ParamValues = std::vector<std::pair<std::string, double>>;
+
+// A quantity or an expression of quantities, resolved against a circuit. An expression may
+// also read params and `temp` (the ambient, degC): its variables, each with the nominal
+// value it had when the expression was parsed.
 class QuantityExpr {
  public:
   struct Node;  // defined in parser/src
-  QuantityExpr(std::string text, std::string unit, std::shared_ptr<const Node> root);
+  QuantityExpr(std::string text, std::string unit, std::shared_ptr<const Node> root,
+               std::vector<std::string> variables = {}, std::vector<double> nominal = {});
+  // With every variable at its nominal value.
   double Evaluate(const Solution& solution) const;
+  // With the variables at `values` (one per variables(), in that order): a sweep of temp or
+  // of a param passes the point's values.
+  double Evaluate(const Solution& solution, const std::vector<double>& values) const;
+  // The params and "temp" the expression reads, and their nominal values.
+  const std::vector<std::string>& variables() const { return variables_; }
+  const std::vector<double>& nominal() const { return nominal_; }
   const std::string& text() const { return text_; }  // as written: "pin.v", "(a.v - b.v)"
   const std::string& unit() const { return unit_; }  // "V", "A", "W", "Ohm", "" if mixed
   // The plain quantities this expression reads.
@@ -60,10 +74,15 @@ class QuantityExpr {
   std::string unit_;
   std::shared_ptr<const Node> root_;
   std::vector<QuantityRef> refs_;
+  std::vector<std::string> variables_;
+  std::vector<double> nominal_;
 };
 
+// `params` (may be null: no params) are the names an expression may use beside quantities
+// and `temp` (netlist-format.md, "Quantities in expressions").
 Result<QuantityExpr> ParseQuantity(std::string_view text, const Circuit& circuit,
-                                   const SourceLocation& where);
+                                   const SourceLocation& where,
+                                   const ParamValues* params = nullptr);
 // A plain quantity (no expression) straight from its reference, without a name look-up:
 // for the default report of every node voltage and element current of a large circuit.
 QuantityExpr PlainQuantity(const Circuit& circuit, const QuantityRef& ref);
@@ -121,6 +140,11 @@ struct Design {
   std::vector<std::vector<SweepAxis>> sweeps;  // one per 'sweep' statement
   std::vector<QuantityExpr> show;              // empty: every node v and element i
   std::vector<Expectation> expects;
+  ParamValues params;  // every param that evaluated, for expressions of show and expect
+  // A valid netlist that is probably not what was meant (docs/errors.md, "Warnings"):
+  // a node touched by one element only, a node named like gnd in other capitals, a
+  // tolerance that is a bare number.
+  std::vector<Diagnostic> warnings;
 };
 
 Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides);
@@ -130,7 +154,8 @@ Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides);
 // quantity, TOL absolute ("50m", "20mV") or relative ("5%"), default 5 % relative.
 // Errors are located at `where` (the option).
 Result<Expectation> ParseExpectOption(std::string_view text, const Circuit& circuit,
-                                      const SourceLocation& where);
+                                      const SourceLocation& where,
+                                      const ParamValues* params = nullptr);
 // One number literal of netlist-format.md ("650m", "4R7", "1mA") at a place whose unit is
 // `unit` ("V", "A", "Ohm"; the unit may be omitted); `what` names the place in errors.
 Result<double> ParseNumberText(std::string_view text, std::string_view unit, std::string_view what,
@@ -138,5 +163,7 @@ Result<double> ParseNumberText(std::string_view text, std::string_view unit, std
 // Only the circuit values (no requests), for sweeps over a param: the topology is the
 // same as Elaborate's for any values of the params.
 Result<Circuit> ElaborateCircuit(const Netlist& netlist, const Overrides& overrides);
+// Only the params, with the overrides applied (a sweep point of a param sweep).
+Result<ParamValues> ElaborateParams(const Netlist& netlist, const Overrides& overrides);
 
 }  // namespace knee
