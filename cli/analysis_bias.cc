@@ -5,6 +5,7 @@
 #include <limits>
 
 #include "analyses.h"
+#include "bounds.h"
 #include "stress.h"
 
 namespace knee::cli {
@@ -110,8 +111,14 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     std::string caution = HighVoltageCaution(LargestVoltage(circuit, solution));
     if (!caution.empty()) report.cautions.push_back(caution);
     for (const Expectation& e : loaded.design->expects) {
+      if (e.is_bound()) continue;
       report.expectations.push_back(CheckExpectation(e, solution));
       if (!report.expectations.back().met) result.outcome.expect_missed = true;
+    }
+    BoundRecorder bounds(loaded.design->expects, 1);
+    bounds.Record(0, solution);
+    if (!bounds.Finish([](long long) { return std::string(); }, &report)) {
+      result.outcome.expect_missed = true;
     }
   } else {
     std::string why = fmt::format("{}: {}", ToString(summary.status), summary.detail);

@@ -13,6 +13,7 @@
 #include <thread>
 
 #include "analyses.h"
+#include "bounds.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
 #include "stress.h"
@@ -195,6 +196,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   std::vector<std::string> failure_why(report.rows.size());
   Progress progress(end_point - first_point, !options.quiet);
   StressRecorder stress(checks, end_point - first_point);
+  BoundRecorder bounds(loaded.design->expects, end_point - first_point);
   std::vector<double> largest_voltage(report.rows.size(), 0.0);
   const size_t stress_column = axes.size() + show.size();
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
@@ -207,6 +209,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       for (size_t q = 0; q < show.size(); ++q) row[axes.size() + q] = show[q].Evaluate(*solution);
       FillStressColumns(checks, *solution, row.data() + stress_column);
       stress.Record(index - first_point, *solution);
+      bounds.Record(index - first_point, *solution);
       largest_voltage[static_cast<size_t>(index - first_point)] = LargestVoltage(base, *solution);
     } else {
       failure_why[static_cast<size_t>(index - first_point)] =
@@ -234,6 +237,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return DescribePoint(axes, base, indices);
   };
   stress.Finish(base, derate, describe, &report);
+  if (!bounds.Finish(describe, &report)) result.outcome.expect_missed = true;
   for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;
   // The caution also covers source values swept past the limit at points that failed.
   double largest = 0;

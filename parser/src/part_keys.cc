@@ -60,3 +60,24 @@ void SetPartKey(DiodeModel* m, std::string_view key, double v) {
 }
 
 }  // namespace knee
+
+namespace knee {
+
+std::optional<double> GetPartKey(const DiodeModel& m, std::string_view key) {
+  if (key == "sat_current") return m.sat_current;
+  if (key == "ideality") return m.ideality;
+  if (key == "series_res") return m.series_res;
+  if (key == "breakdown_v") return m.breakdown_v;
+  if (key == "breakdown_i") return m.breakdown_i;
+  if (key == "breakdown_ideality") return m.breakdown_ideality;
+  if (key == "breakdown_tc") return m.breakdown_tc;
+  if (key == "bandgap") return m.bandgap;
+  if (key == "sat_temp_exp") return m.sat_temp_exp;
+  if (key == "ref_temp") return m.ref_temp;
+  if (key == "max_current") return m.max_current;
+  if (key == "max_reverse_v") return m.max_reverse_v;
+  if (key == "max_power") return m.max_power;
+  return std::nullopt;
+}
+
+}  // namespace knee

@@ -25,5 +25,8 @@ ValuePlace PartKeyPlace(const PartKeyInfo& info);
 bool PartKeyValueOk(const PartKeyInfo& info, double value);
 // Stores `value` in the model's field for the key.
 void SetPartKey(DiodeModel* model, std::string_view key, double value);
+// The model's value for the key; nothing for an unset optional key (breakdown_v, ratings)
+// or an unknown key.
+std::optional<double> GetPartKey(const DiodeModel& model, std::string_view key);
 
 }  // namespace knee
