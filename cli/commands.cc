@@ -12,6 +12,7 @@
 #include "eng_format.h"
 #include "output.h"
 #include "pipeline.h"
+#include "spread.h"
 #include "svg_chart.h"
 
 namespace knee::cli {
@@ -245,6 +246,55 @@ int RunRun(const std::string& file, AnalysisOptions options) {
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
   return Emit(results, options);
+}
+
+int RunSpread(const std::string& file, AnalysisOptions options) {
+  std::optional<Start> start;
+  if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
+  std::vector<std::vector<SweepAxis>> sweeps;
+  if (!options.sweeps.empty()) {
+    std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
+    if (!axes) return static_cast<int>(ExitStatus::kBadInput);
+    sweeps.push_back(std::move(*axes));
+  } else {
+    sweeps = start->loaded.design->sweeps;
+  }
+  SpreadOutcome spread = AnalyzeSpread(start->loaded, sweeps, start->show, options);
+  for (const std::string& w : spread.warnings) fmt::print(stderr, "{}\n", w);
+  if (!spread.error.empty()) return FailWith(spread.error);
+  if (!options.quiet) {
+    for (const std::string& n : spread.notes) fmt::print(stderr, "knee: note: {}\n", n);
+  }
+  Outcome outcome = spread.outcome;
+  if (!options.plot_path.empty()) {
+    std::string problem =
+        WriteFileAtomically(options.plot_path, DrawSpreadHistograms(spread.report));
+    if (!problem.empty()) {
+      fmt::print(stderr, "knee: error: --plot: {}\n", problem);
+      outcome.bad_input = true;
+    }
+  }
+  const std::string text = WriteSpread(spread.report, options.format);
+  std::string problem =
+      options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
+  if (!problem.empty()) {
+    fmt::print(stderr, "knee: error: {}\n", problem);
+    outcome.bad_input = true;
+  }
+  if (!options.quiet) {
+    const SpreadReport& r = spread.report;
+    for (size_t i = 0; i < r.failures.size(); ++i) {
+      if (r.failures[i].empty()) continue;
+      fmt::print(stderr, "knee: no solution at {} {}: {}\n", r.corners ? "corner" : "sample",
+                 r.first + static_cast<long long>(i), r.failures[i]);
+    }
+    for (const SpreadCheck& c : r.checks) {
+      if (c.pass) continue;
+      fmt::print(stderr, "knee: yield missed: {} {}: {} of {} samples pass\n",
+                 c.rating ? "rating" : "expect", c.name, c.passing, c.samples);
+    }
+  }
+  return static_cast<int>(outcome.Status());
 }
 
 }  // namespace knee::cli
