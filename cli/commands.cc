@@ -285,8 +285,12 @@ int RunSpread(const std::string& file, AnalysisOptions options) {
     const SpreadReport& r = spread.report;
     for (size_t i = 0; i < r.failures.size(); ++i) {
       if (r.failures[i].empty()) continue;
+      constexpr std::string_view kStatus = "no solution: ";
+      const std::string_view why = std::string_view(r.failures[i]).starts_with(kStatus)
+                                       ? std::string_view(r.failures[i]).substr(kStatus.size())
+                                       : std::string_view(r.failures[i]);
       fmt::print(stderr, "knee: no solution at {} {}: {}\n", r.corners ? "corner" : "sample",
-                 r.first + static_cast<long long>(i), r.failures[i]);
+                 r.first + static_cast<long long>(i), why);
     }
     for (const SpreadCheck& c : r.checks) {
       if (c.pass) continue;

@@ -27,16 +27,17 @@ struct AnalysisOptions {
   std::vector<std::string> sweeps;             // knee sweep: TARGET=RANGE, first = inner loop
   std::vector<std::string> expects;            // --expect QUANTITY=VALUE[~TOL] (bias, hand, run)
   // knee hand (docs/hand-models.md): number texts in the netlist's forms ("" = default).
-  std::string hand_drop;    // --drop V: on-voltage of the drop models (default 0.7 V)
-  std::string hand_on_res;  // --on-res Ohm: on-resistance of the piecewise-linear model
-  std::string hand_fit_at;  // --fit-at A: piecewise-linear model tangent at this current
+  std::string hand_drop;             // --drop V: on-voltage of the drop models (default 0.7 V)
+  std::string hand_on_res;           // --on-res Ohm: on-resistance of the piecewise-linear model
+  std::string hand_fit_at;           // --fit-at A: piecewise-linear model tangent at this current
+  SolverOptions solver;              // --voltage-tol, --current-tol, --rel-tol, ...
+  std::string aids = "gmin,source";  // --aids: comma list of gmin, source; or none
+
   // knee spread (docs/spread.md).
   long long spread_samples = 1000;     // --samples N
   unsigned long long spread_seed = 1;  // --seed S
   bool spread_corners = false;         // --corners
   std::string spread_yield;            // --yield P ("" = every sample must pass)
-  SolverOptions solver;                // --voltage-tol, --current-tol, --rel-tol, ...
-  std::string aids = "gmin,source";    // --aids: comma list of gmin, source; or none
 };
 
 // Splits "a,b,(max(c.v,d.v))" at commas outside parentheses.

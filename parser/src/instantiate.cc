@@ -272,6 +272,17 @@ class Elaborator {
       Take(std::move(line).take_errors());
       return;
     }
+    // One shared and one `each` line may meet on a PART.key (lot and device); any other
+    // second line on a target is a mistake.
+    for (const VaryLine& other : design->varies) {
+      if (other.target.name != line->target.name || other.each != line->each) continue;
+      Diagnostic& d = Error(v.target_span,
+                            fmt::format("'{}' is varied twice{}; a target takes one vary line, "
+                                        "or for a part key one shared and one 'each' line",
+                                        v.target, line->each ? " with 'each'" : ""));
+      d.notes.push_back({other.where, "the first vary line of it"});
+      return;
+    }
     design->varies.push_back(std::move(*line));
   }
 
