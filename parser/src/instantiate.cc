@@ -276,10 +276,10 @@ class Elaborator {
     // second line on a target is a mistake.
     for (const VaryLine& other : design->varies) {
       if (other.target.name != line->target.name || other.each != line->each) continue;
-      Diagnostic& d = Error(v.target_span,
-                            fmt::format("'{}' is varied twice{}; a target takes one vary line, "
-                                        "or for a part key one shared and one 'each' line",
-                                        v.target, line->each ? " with 'each'" : ""));
+      Diagnostic& d =
+          Error(v.target_span, fmt::format("'{}' is varied twice{}; a target takes one vary line, "
+                                           "or for a part key one shared and one 'each' line",
+                                           v.target, line->each ? " with 'each'" : ""));
       d.notes.push_back({other.where, "the first vary line of it"});
       return;
     }
