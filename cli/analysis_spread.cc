@@ -282,6 +282,15 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
     sq.q_median = SortedQuantile(column, 0.5);
     sq.q_high = SortedQuantile(column, 0.99865);
   }
+  // Ranks of each draw column, once (draws are never NaN).
+  std::vector<std::vector<double>> draw_ranks;
+  if (!r->corners) {
+    for (size_t j = 0; j < draws; ++j) {
+      std::vector<double> x(r->rows.size());
+      for (size_t i = 0; i < r->rows.size(); ++i) x[i] = r->rows[i][j];
+      draw_ranks.push_back(MeanRanks(x));
+    }
+  }
   for (size_t c = 0; c < checks.size(); ++c) {
     SpreadCheck& sc = r->checks[c];
     const size_t col = draws + quantities + c;
@@ -314,9 +323,11 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
       }
     }
     // Which draws move the margin most: rank correlation, or main effects of corners.
+    const bool complete =
+        std::none_of(margin.begin(), margin.end(), [](double m) { return std::isnan(m); });
+    const std::vector<double> margin_ranks =
+        complete && !r->corners ? MeanRanks(margin) : std::vector<double>();
     for (size_t j = 0; j < draws; ++j) {
-      std::vector<double> x(r->rows.size());
-      for (size_t i = 0; i < r->rows.size(); ++i) x[i] = r->rows[i][j];
       double measure = kNaN;
       if (r->corners) {
         double hi_sum = 0, lo_sum = 0;
@@ -335,7 +346,11 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
         if (hi_n > 0 && lo_n > 0) {
           measure = hi_sum / static_cast<double>(hi_n) - lo_sum / static_cast<double>(lo_n);
         }
+      } else if (complete) {
+        measure = PearsonCorrelation(draw_ranks[j], margin_ranks);
       } else {
+        std::vector<double> x(r->rows.size());
+        for (size_t i = 0; i < r->rows.size(); ++i) x[i] = r->rows[i][j];
         measure = SpearmanRho(x, margin);
       }
       if (!std::isnan(measure)) sc.movers.push_back({r->columns[j].name, measure});

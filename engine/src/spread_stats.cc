@@ -13,23 +13,42 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 double Phi(double x) { return 0.5 * std::erfc(-x / std::sqrt(2.0)); }
 
-// Mean ranks (1-based) of values, ties averaged.
-std::vector<double> Ranks(const std::vector<double>& v) {
-  std::vector<size_t> order(v.size());
-  std::iota(order.begin(), order.end(), size_t{0});
-  std::stable_sort(order.begin(), order.end(), [&](size_t a, size_t b) { return v[a] < v[b]; });
+}  // namespace
+
+std::vector<double> MeanRanks(std::span<const double> v) {
+  std::vector<std::pair<double, size_t>> order(v.size());
+  for (size_t i = 0; i < v.size(); ++i) order[i] = {v[i], i};
+  std::sort(order.begin(), order.end());
   std::vector<double> rank(v.size());
   for (size_t i = 0; i < order.size();) {
     size_t j = i;
-    while (j + 1 < order.size() && v[order[j + 1]] == v[order[i]]) ++j;
+    while (j + 1 < order.size() && order[j + 1].first == order[i].first) ++j;
     const double mean_rank = 0.5 * static_cast<double>(i + j) + 1.0;
-    for (size_t k = i; k <= j; ++k) rank[order[k]] = mean_rank;
+    for (size_t k = i; k <= j; ++k) rank[order[k].second] = mean_rank;
     i = j + 1;
   }
   return rank;
 }
 
-}  // namespace
+double PearsonCorrelation(std::span<const double> x, std::span<const double> y) {
+  const size_t n = std::min(x.size(), y.size());
+  if (n < 2) return kNaN;
+  double mx = 0, my = 0;
+  for (size_t i = 0; i < n; ++i) {
+    mx += x[i];
+    my += y[i];
+  }
+  mx /= static_cast<double>(n);
+  my /= static_cast<double>(n);
+  double sxy = 0, sxx = 0, syy = 0;
+  for (size_t i = 0; i < n; ++i) {
+    sxy += (x[i] - mx) * (y[i] - my);
+    sxx += (x[i] - mx) * (x[i] - mx);
+    syy += (y[i] - my) * (y[i] - my);
+  }
+  if (sxx == 0 || syy == 0) return kNaN;
+  return sxy / std::sqrt(sxx * syy);
+}
 
 std::uint64_t SplitMix64(std::uint64_t x) {
   x += 0x9e3779b97f4a7c15ULL;
@@ -81,18 +100,7 @@ double SpearmanRho(std::span<const double> x, std::span<const double> y) {
     b.push_back(y[i]);
   }
   if (a.size() < 2) return kNaN;
-  const std::vector<double> ra = Ranks(a), rb = Ranks(b);
-  // Pearson's correlation of the ranks (exact with ties, unlike 1 - 6 sum d^2 / ...).
-  const double n = static_cast<double>(ra.size());
-  const double mean = (n + 1) / 2;
-  double sab = 0, saa = 0, sbb = 0;
-  for (size_t i = 0; i < ra.size(); ++i) {
-    sab += (ra[i] - mean) * (rb[i] - mean);
-    saa += (ra[i] - mean) * (ra[i] - mean);
-    sbb += (rb[i] - mean) * (rb[i] - mean);
-  }
-  if (saa == 0 || sbb == 0) return kNaN;
-  return sab / std::sqrt(saa * sbb);
+  return PearsonCorrelation(MeanRanks(a), MeanRanks(b));
 }
 
 Moments ComputeMoments(std::span<const double> values) {

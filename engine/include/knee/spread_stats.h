@@ -37,6 +37,12 @@ double SortedQuantile(std::span<const double> sorted, double p);
 // NaN are left out). NaN when fewer than 2 pairs remain or either side is constant.
 double SpearmanRho(std::span<const double> x, std::span<const double> y);
 
+// The mean ranks (1-based, ties averaged) of values without NaN, and Pearson's
+// correlation of two equally long sets: Spearman's rho is the latter of the former, so a
+// column correlated with many others is ranked once.
+std::vector<double> MeanRanks(std::span<const double> values);
+double PearsonCorrelation(std::span<const double> x, std::span<const double> y);
+
 struct Moments {
   long long count = 0;  // finite values
   double mean = 0;
