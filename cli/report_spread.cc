@@ -61,12 +61,14 @@ std::string WriteSpreadTable(const SpreadReport& r) {
   std::string out = Header(r) + "\n";
   out += "  varied:\n";
   for (const VaryLine& v : r.varies) {
-    const std::string unit = v.target.kind == SweepTarget::Kind::kTemp ? "°C" : "";
-    (void)unit;
+    std::string unit;
+    for (const DrawColumn& c : r.columns) {
+      if (&r.varies[static_cast<size_t>(c.vary)] == &v) unit = c.unit;
+    }
     out += fmt::format("    {} {} {}{}: {} .. {} (nominal {})\n", v.target.name, v.spread_text,
                        v.distribution == VaryLine::Distribution::kNormal ? "normal" : "uniform",
-                       v.each ? " each" : "", FormatRoundTrip(v.low), FormatRoundTrip(v.high),
-                       FormatRoundTrip(v.nominal));
+                       v.each ? " each" : "", FormatEng(v.low, unit, 6), FormatEng(v.high, unit, 6),
+                       FormatEng(v.nominal, unit, 6));
   }
   // The distribution table.
   const std::vector<std::string> heads = {"quantity", "nominal", "mean",     "std dev", "min",
