@@ -6,6 +6,7 @@
 #include <string_view>
 
 #include "analyses.h"
+#include "bounds.h"
 #include "stress.h"
 
 namespace knee::cli {
@@ -127,8 +128,14 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     std::string caution = HighVoltageCaution(LargestVoltage(circuit, solution));
     if (!caution.empty()) report.cautions.push_back(caution);
     for (const Expectation& e : loaded.design->expects) {
+      if (e.is_bound()) continue;
       report.expectations.push_back(CheckExpectation(e, solution));
       if (!report.expectations.back().met) result.outcome.expect_missed = true;
+    }
+    BoundRecorder bounds(loaded.design->expects, 1);
+    bounds.Record(0, solution);
+    if (!bounds.Finish([](long long) { return std::string(); }, &report)) {
+      result.outcome.expect_missed = true;
     }
   } else {
     std::string why = FailureReason(summary);

@@ -16,6 +16,7 @@
 #include <thread>
 
 #include "analyses.h"
+#include "bounds.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
 #include "stress.h"
@@ -376,6 +377,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   const long long window_blocks = 32LL * sweep_options.jobs;
   Progress progress(slice_points, !options.quiet);
   StressRecorder stress(checks);
+  // Bounds are reduced over the whole slice (every point's margin is kept).
+  BoundRecorder bounds(loaded.design->expects, slice_points);
   const size_t stress_column = axes.size() + show.size();
   std::vector<std::string> failure_why;
   std::vector<double> largest_voltage;
@@ -401,6 +404,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       }
       FillStressColumns(checks, *solution, row.data() + stress_column);
       stress.Record(index - first_point, *solution);
+      bounds.Record(index - first_point, *solution);
       largest_voltage[r] = LargestVoltage(base, *solution);
     } else {
       failure_why[r] = FailureReason(summary);
@@ -463,6 +467,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return DescribePoint(axes, base, indices);
   };
   stress.Finish(base, derate, describe, &report);
+  if (!bounds.Finish(describe, &report)) result.outcome.expect_missed = true;
   for (const StressLine& line : report.stress) result.outcome.stress_failed |= line.exceeded;
   // The caution also covers source values swept past the limit at points that failed.
   for (const SweepAxis& axis : axes) {

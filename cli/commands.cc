@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cstdio>
 #include <limits>
 #include <nlohmann/json.hpp>
@@ -15,6 +16,7 @@
 #include "knee/sweep.h"
 #include "output.h"
 #include "pipeline.h"
+#include "spread.h"
 #include "svg_chart.h"
 
 namespace knee::cli {
@@ -84,6 +86,15 @@ void PrintMisses(const std::vector<AnalysisResult>& results, const AnalysisOptio
     for (const PointFailure& f : r.report.failures) PrintPointFailure(f);
     for (const ExpectationCheck& e : r.report.expectations) {
       if (e.met) continue;
+      if (e.relation != "=") {
+        fmt::print(
+            stderr, "knee: bound missed: {} {} {}: broken at {} of {} points, first{} ({})\n",
+            e.quantity, e.relation,
+            e.bound_text.empty() ? FormatEng(e.expected, e.unit, 6) : e.bound_text, e.failed_points,
+            e.points, e.first_where.empty() ? " at the bias point" : " at " + e.first_where,
+            FormatEng(e.first_actual, e.unit, 6));
+        continue;
+      }
       fmt::print(stderr, "knee: expectation missed: {} expected {}, exact {}\n", e.quantity,
                  FormatEng(e.expected, e.unit, 6), FormatEng(e.actual, e.unit, 6));
     }
@@ -294,9 +305,12 @@ int RunRun(const std::string& file, AnalysisOptions options) {
   const Design& design = *start->loaded.design;
   std::vector<const std::vector<SweepAxis>*> sweeps;
   for (const std::vector<SweepAxis>& axes : design.sweeps) sweeps.push_back(&axes);
+  // An expected value is checked at the bias point; bounds alone do not ask for one (they
+  // are checked at whatever points the file's analyses solve).
+  const bool hand_values = std::any_of(design.expects.begin(), design.expects.end(),
+                                       [](const Expectation& e) { return !e.is_bound(); });
   if (Streams(*start, sweeps, options)) {
-    return RunStreamed(*start, design.bias_requested || !design.expects.empty(), design.sweeps,
-                       options);
+    return RunStreamed(*start, design.bias_requested || hand_values, design.sweeps, options);
   }
   // The held reports of all the run's sweeps are kept at once: their sum is limited (each
   // sweep alone is checked again by AnalyzeSweep, which names the format).
@@ -315,7 +329,7 @@ int RunRun(const std::string& file, AnalysisOptions options) {
         design.sweeps.size(), held, kMaxHeldValues));
   }
   std::vector<AnalysisResult> results;
-  if (design.bias_requested || !design.expects.empty()) {
+  if (design.bias_requested || hand_values) {
     results.push_back(AnalyzeBias(start->loaded, start->show, options));
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
@@ -324,6 +338,59 @@ int RunRun(const std::string& file, AnalysisOptions options) {
     if (results.back().outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   }
   return Emit(results, options);
+}
+
+int RunSpread(const std::string& file, AnalysisOptions options) {
+  std::optional<Start> start;
+  if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
+  std::vector<std::vector<SweepAxis>> sweeps;
+  if (!options.sweeps.empty()) {
+    std::optional<std::vector<SweepAxis>> axes = ResolveCommandLineSweep(start->loaded, options);
+    if (!axes) return static_cast<int>(ExitStatus::kBadInput);
+    sweeps.push_back(std::move(*axes));
+  } else {
+    sweeps = start->loaded.design->sweeps;
+  }
+  SpreadOutcome spread = AnalyzeSpread(start->loaded, sweeps, start->show, options);
+  for (const std::string& w : spread.warnings) fmt::print(stderr, "{}\n", w);
+  if (!spread.error.empty()) return FailWith(spread.error);
+  if (!options.quiet) {
+    for (const std::string& n : spread.notes) fmt::print(stderr, "knee: note: {}\n", n);
+  }
+  Outcome outcome = spread.outcome;
+  if (!options.plot_path.empty()) {
+    std::string problem =
+        WriteFileAtomically(options.plot_path, DrawSpreadHistograms(spread.report));
+    if (!problem.empty()) {
+      fmt::print(stderr, "knee: error: --plot: {}\n", problem);
+      outcome.bad_input = true;
+    }
+  }
+  const std::string text = WriteSpread(spread.report, options.format);
+  std::string problem =
+      options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
+  if (!problem.empty()) {
+    fmt::print(stderr, "knee: error: {}\n", problem);
+    outcome.bad_input = true;
+  }
+  if (!options.quiet) {
+    const SpreadReport& r = spread.report;
+    for (size_t i = 0; i < r.failures.size(); ++i) {
+      if (r.failures[i].empty()) continue;
+      constexpr std::string_view kStatus = "no solution: ";
+      const std::string_view why = std::string_view(r.failures[i]).starts_with(kStatus)
+                                       ? std::string_view(r.failures[i]).substr(kStatus.size())
+                                       : std::string_view(r.failures[i]);
+      fmt::print(stderr, "knee: no solution at {} {}: {}\n", r.corners ? "corner" : "sample",
+                 r.first + static_cast<long long>(i), why);
+    }
+    for (const SpreadCheck& c : r.checks) {
+      if (c.pass) continue;
+      fmt::print(stderr, "knee: yield missed: {} {}: {} of {} samples pass\n",
+                 c.rating ? "rating" : "expect", c.name, c.passing, c.samples);
+    }
+  }
+  return static_cast<int>(outcome.Status());
 }
 
 }  // namespace knee::cli

@@ -19,5 +19,6 @@ int RunBias(const std::string& file, AnalysisOptions options);
 int RunSweep(const std::string& file, AnalysisOptions options);
 int RunRun(const std::string& file, AnalysisOptions options);
 int RunHand(const std::string& file, AnalysisOptions options);  // cli/analysis_hand.cc
+int RunSpread(const std::string& file, AnalysisOptions options);
 
 }  // namespace knee::cli

@@ -130,6 +130,10 @@ int main(int argc, char** argv) {
       {"hand",
        "Bias point by the simplified diode models of hand calculation, beside the exact one",
        knee::cli::RunHand},
+      {"spread",
+       "The file's analysis over the spread of its vary lines: Monte Carlo or corners, with "
+       "yields",
+       knee::cli::RunSpread},
   };
   for (Command& c : commands) {
     c.app = app.add_subcommand(c.name, c.help);
@@ -139,6 +143,21 @@ int main(int argc, char** argv) {
           ->add_option("TARGET=RANGE", options.sweeps,
                        "Sweep target and range, e.g. Vline=-30..30:0.1 temp=-40,25,85")
           ->required();
+    }
+    if (std::string(c.name) == "spread") {
+      c.app->add_option("TARGET=RANGE", options.sweeps,
+                        "Spread a sweep over these axes instead of the file's analysis");
+      c.app->add_option("--samples", options.spread_samples, "Monte Carlo samples (default 1000)")
+          ->type_name("N");
+      c.app->add_option("--seed", options.spread_seed, "Seed of the draws (default 1)")
+          ->type_name("S");
+      c.app->add_flag("--corners", options.spread_corners,
+                      "Every combination of the vary limits instead of sampling");
+      c.app
+          ->add_option("--yield", options.spread_yield,
+                       "Pass when the 95 % lower confidence bound of each yield reaches P "
+                       "(default: every sample must pass)")
+          ->type_name("P");
     }
     const std::string name = c.name;
     AddInputOptions(c.app, &options);

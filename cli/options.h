@@ -37,6 +37,12 @@ struct AnalysisOptions {
   std::string hand_fit_at;           // --fit-at A: piecewise-linear model tangent at this current
   SolverOptions solver;              // --voltage-tol, --current-tol, --rel-tol, ...
   std::string aids = "gmin,source";  // --aids: comma list of gmin, source; or none
+
+  // knee spread (docs/spread.md).
+  long long spread_samples = 1000;     // --samples N
+  unsigned long long spread_seed = 1;  // --seed S
+  bool spread_corners = false;         // --corners
+  std::string spread_yield;            // --yield P ("" = every sample must pass)
 };
 
 // Splits "a,b,(max(c.v,d.v))" at commas outside parentheses.

@@ -33,6 +33,17 @@ struct ExpectationCheck {
   bool relative = true;
   bool met = false;
   SourceLocation where;  // line 0 when given on the command line
+  // Bounds (expect Q <= VALUE, >= VALUE), checked at every point: `expected` is the bound
+  // (NaN when it reads quantities: `bound_text`), `actual` the worst value, the one with
+  // the least margin (most beyond the bound when it is broken).
+  std::string relation = "=";   // "=", "<=" or ">="
+  std::string bound_text;       // the bound as written when it is not a constant
+  long long points = 0;         // points checked (solved points)
+  long long failed_points = 0;  // points where the bound is broken
+  std::string first_where;      // the first such point ("" for a bias point)
+  double first_actual = 0;      // the value there
+  std::string worst_where;      // where the worst value occurs
+  double worst_limit = 0;       // the bound's value there
 };
 
 // The worst use of one rating of one diode or resistor across an analysis; or, unrated,

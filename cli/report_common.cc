@@ -77,6 +77,27 @@ nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
 }
 
 nlohmann::ordered_json JsonExpectation(const ExpectationCheck& e) {
+  if (e.relation != "=") {
+    nlohmann::ordered_json j = {
+        {"quantity", e.quantity},
+        {"unit", e.unit},
+        {"relation", e.relation},
+        {"bound",
+         e.bound_text.empty() ? JsonNumber(e.expected) : nlohmann::ordered_json(e.bound_text)},
+        {"met", e.met},
+        {"points", e.points},
+        {"failed_points", e.failed_points},
+        {"worst",
+         {{"actual", JsonNumber(e.actual)},
+          {"bound", JsonNumber(e.worst_limit)},
+          {"where", e.worst_where}}},
+        {"first_failure", nullptr},
+        {"location", JsonLocation(e.where)}};
+    if (e.failed_points > 0) {
+      j["first_failure"] = {{"actual", JsonNumber(e.first_actual)}, {"where", e.first_where}};
+    }
+    return j;
+  }
   return {{"quantity", e.quantity},
           {"unit", e.unit},
           {"expected", e.expected},

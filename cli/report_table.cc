@@ -24,9 +24,36 @@ std::string Tolerance(const ExpectationCheck& e) {
   return e.relative ? fmt::format("{:g} %", e.tolerance * 100) : FormatEng(e.tolerance, e.unit);
 }
 
+// "met    expect D1.i <= 2 mA at 601 points: worst 1.93 mA at Vline = 24 V (margin 70 µA)"
+std::string BoundLine(const ExpectationCheck& e) {
+  const std::string bound = e.bound_text.empty() ? FormatEng(e.expected, e.unit) : e.bound_text;
+  const std::string at = [&] {
+    if (e.points == 1 && e.worst_where.empty()) return std::string("at the bias point");
+    return fmt::format("at {} points", e.points);
+  }();
+  const std::string where = e.worst_where.empty() ? "" : " at " + e.worst_where;
+  const std::string limit =
+      e.bound_text.empty() ? "" : fmt::format(", bound {}", FormatEng(e.worst_limit, e.unit));
+  const double margin = e.relation == "<=" ? e.worst_limit - e.actual : e.actual - e.worst_limit;
+  std::string out =
+      fmt::format("  {} expect {} {} {} {}: worst {}{}{} (margin {})\n",
+                  e.met ? "met   " : "MISSED", e.quantity, e.relation, bound, at,
+                  FormatEng(e.actual, e.unit), where, limit, FormatEng(margin, e.unit));
+  if (!e.met) {
+    out += fmt::format("         broken at {} of {} points, first {}({})\n", e.failed_points,
+                       e.points, e.first_where.empty() ? "" : "at " + e.first_where + " ",
+                       FormatEng(e.first_actual, e.unit));
+  }
+  return out;
+}
+
 std::string Expectations(const Report& report) {
   std::string out;
   for (const ExpectationCheck& e : report.expectations) {
+    if (e.relation != "=") {
+      out += BoundLine(e);
+      continue;
+    }
     const double error = e.actual - e.expected;
     std::string rel = e.expected != 0 ? fmt::format(" ({:+.3g} %)", 100 * error / e.expected) : "";
     out += fmt::format("  {} expect {} = {} within {}: exact {}, error {}{}\n",

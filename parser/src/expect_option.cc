@@ -79,7 +79,8 @@ Result<Expectation> ParseExpectOption(std::string_view text, const Circuit& circ
 
   const std::string& unit = quantity->unit();
   const std::string place_unit = unit.empty() ? "*" : unit;
-  Expectation e{std::move(quantity).value(), 0, 0.05, true, where};
+  Expectation e{std::move(quantity).value(),   0,           0.05, true, where,
+                Expectation::Relation::kEqual, std::nullopt};
   std::string hint;
   NumberLiteral literal;
   std::string problem = Literal(value_text, ValuePlace{"the expected value", place_unit},

@@ -22,6 +22,7 @@
 #include "part_keys.h"
 #include "ranges.h"
 #include "syntax.h"
+#include "vary.h"
 
 namespace knee {
 namespace {
@@ -257,11 +258,22 @@ class Elaborator {
         continue;
       }
       const std::string unit = q->unit();
-      const ValuePlace place{"the expected value",
-                             unit.empty() ? std::string_view("*") : std::string_view(unit)};
+      const ValuePlace place{
+          e.relation == Expectation::Relation::kEqual ? "the expected value" : "a bound",
+          unit.empty() ? std::string_view("*") : std::string_view(unit)};
+      if (e.relation != Expectation::Relation::kEqual) {
+        ResolveBound(e, std::move(*q), place, design);
+        continue;
+      }
       std::optional<double> value = Evaluate(e.value, &place);
       if (!value) continue;
-      Expectation x{std::move(*q), *value, 0.05, true, ToLocation(file_, e.quantity.span)};
+      Expectation x{std::move(*q),
+                    *value,
+                    0.05,
+                    true,
+                    ToLocation(file_, e.quantity.span),
+                    Expectation::Relation::kEqual,
+                    std::nullopt};
       if (e.tolerance) {
         const Value& t = *e.tolerance;
         if (t.unit == "%") {
@@ -282,6 +294,58 @@ class Elaborator {
       }
       design->expects.push_back(std::move(x));
     }
+    for (const VaryStmt& v : d_.varies) ResolveVaryStmt(v, circuit, design);
+  }
+
+  // expect Q <= VALUE / >= VALUE: a constant bound (a literal with the quantity's unit, a
+  // param, or an expression without quantities) or one that reads quantities.
+  void ResolveBound(const ExpectStmt& e, QuantityExpr q, const ValuePlace& place, Design* design) {
+    Expectation x{std::move(q), 0.0,         0.0, false, ToLocation(file_, e.quantity.span),
+                  e.relation,   std::nullopt};
+    if (e.value.kind == Value::Kind::kExpr) {
+      Result<QuantityExpr> bound =
+          ParseQuantity(e.value.text, design->circuit, ToLocation(file_, e.value.span));
+      if (!bound.ok()) {
+        Take(std::move(bound).take_errors());
+        return;
+      }
+      if (bound->refs().empty()) {
+        x.expected = bound->Evaluate(Solution{});
+      } else {
+        x.bound = std::move(*bound);
+      }
+    } else {
+      std::optional<double> value = Evaluate(e.value, &place);
+      if (!value) return;
+      x.expected = *value;
+    }
+    design->expects.push_back(std::move(x));
+  }
+
+  void ResolveVaryStmt(const VaryStmt& v, const Circuit& circuit, Design* design) {
+    std::optional<double> param_value;
+    auto it = names_.find(v.target);
+    if (it != names_.end() && it->second.kind == DefKind::kParam) {
+      const auto i = static_cast<std::size_t>(it->second.index);
+      if (param_state_[i] == kDone) param_value = param_values_[i];
+    }
+    Result<VaryLine> line = ResolveVary(v, file_, netlist_, circuit, param_value);
+    if (!line.ok()) {
+      Take(std::move(line).take_errors());
+      return;
+    }
+    // One shared and one `each` line may meet on a PART.key (lot and device); any other
+    // second line on a target is a mistake.
+    for (const VaryLine& other : design->varies) {
+      if (other.target.name != line->target.name || other.each != line->each) continue;
+      Diagnostic& d =
+          Error(v.target_span, fmt::format("'{}' is varied twice{}; a target takes one vary line, "
+                                           "or for a part key one shared and one 'each' line",
+                                           v.target, line->each ? " with 'each'" : ""));
+      d.notes.push_back({other.where, "the first vary line of it"});
+      return;
+    }
+    design->varies.push_back(std::move(*line));
   }
 
   // Warnings about the circuit itself: nodes that one element only touches, and nodes
@@ -982,26 +1046,27 @@ Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& net
                    near.empty() ? "" : fmt::format("did you mean '{}'?", near));
 }
 
+ValuePlace TargetPlace(const SweepTarget& target, const Circuit& circuit) {
+  switch (target.kind) {
+    case SweepTarget::Kind::kTemp:
+      return kTempPlace;
+    case SweepTarget::Kind::kElement:
+      return ElementPlace(circuit.elements[static_cast<std::size_t>(target.index)].kind);
+    case SweepTarget::Kind::kPartKey:
+      return PartKeyPlace(*FindPartKey(target.key));
+    case SweepTarget::Kind::kParam:
+      break;
+  }
+  return ValuePlace{"a range", "*"};
+}
+
 Result<SweepAxis> ResolveSweepAxis(std::string_view target, std::string_view range,
                                    const Netlist& netlist, const Circuit& circuit,
                                    const SourceLocation& target_where,
                                    const SourceLocation& range_where) {
   Result<SweepTarget> t = ResolveSweepTarget(target, netlist, circuit, target_where);
   if (!t.ok()) return std::move(t).take_errors();
-  ValuePlace place{"a range", "*"};
-  switch (t->kind) {
-    case SweepTarget::Kind::kTemp:
-      place = kTempPlace;
-      break;
-    case SweepTarget::Kind::kElement:
-      place = ElementPlace(circuit.elements[static_cast<std::size_t>(t->index)].kind);
-      break;
-    case SweepTarget::Kind::kPartKey:
-      place = PartKeyPlace(*FindPartKey(t->key));
-      break;
-    case SweepTarget::Kind::kParam:
-      break;
-  }
+  const ValuePlace place = TargetPlace(*t, circuit);
   SweepAxis axis;
   Result<std::vector<double>> values = ExpandRangeIn(range, range_where, place, &axis.logarithmic);
   if (!values.ok()) return std::move(values).take_errors();

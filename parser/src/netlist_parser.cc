@@ -16,9 +16,9 @@
 namespace knee {
 namespace {
 
-constexpr std::array<const char*, 12> kKeywords = {"title",    "temp",    "param",   "part",
-                                                   "resistor", "vsource", "isource", "diode",
-                                                   "bias",     "sweep",   "show",    "expect"};
+constexpr std::array<const char*, 13> kKeywords = {
+    "title", "temp", "param", "part", "resistor", "vsource", "isource",
+    "diode", "bias", "sweep", "show", "expect",   "vary"};
 
 std::string Quote(const Token& t) {
   if (t.kind == Tok::kEnd) return "the end of the line";
@@ -139,13 +139,15 @@ class StatementParser {
       ok = ParseShow();
     } else if (keyword_ == "expect") {
       ok = ParseExpect();
+    } else if (keyword_ == "vary") {
+      ok = ParseVary();
     } else {
       std::vector<std::string> names(kKeywords.begin(), kKeywords.end());
       const std::string near = SuggestName(first.text, names);
       Error(first,
             fmt::format("unknown keyword '{}'; a statement starts with one of title, temp, "
                         "param, part, resistor, vsource, isource, diode, bias, sweep, show, "
-                        "expect",
+                        "expect, vary",
                         first.text),
             near.empty() ? "" : fmt::format("did you mean '{}'?", near));
       return;
@@ -476,11 +478,46 @@ class StatementParser {
     return true;
   }
 
+  // '=', '<=' or '>=' after the quantity of an expect statement.
+  bool TakeRelation(const QuantityText& q, ExpectStmt* e) {
+    const Token t = scanner_.NextWord();
+    if (t.kind == Tok::kEquals) {
+      e->relation_span = scanner_.SpanOf(t);
+      return true;
+    }
+    if (t.kind == Tok::kWord && (t.text == "<" || t.text == ">")) {
+      const Token eq = scanner_.PeekWord();
+      if (eq.kind == Tok::kEquals && eq.begin == t.end) {
+        scanner_.NextWord();
+        e->relation =
+            t.text == "<" ? Expectation::Relation::kAtMost : Expectation::Relation::kAtLeast;
+        e->relation_span = scanner_.SpanOf(t.begin, eq.end);
+        return true;
+      }
+    }
+    return Error(t,
+                 fmt::format("expected '=', '<=' or '>=' after the quantity '{}' but found {}",
+                             q.text, Quote(t)),
+                 fmt::format("write expect {} = VALUE, expect {} <= VALUE or expect {} >= VALUE",
+                             q.text, q.text, q.text));
+  }
+
   bool ParseExpect() {
     ExpectStmt e;
     if (!TakeQuantity(&e.quantity)) return false;
-    if (!TakeEquals(fmt::format("the quantity '{}'", e.quantity.text))) return false;
-    if (!TakeValue("the expected value", &e.value)) return false;
+    if (!TakeRelation(e.quantity, &e)) return false;
+    if (!TakeValue(e.relation == Expectation::Relation::kEqual ? "the expected value" : "a bound",
+                   &e.value)) {
+      return false;
+    }
+    if (!scanner_.AtEnd() && e.relation != Expectation::Relation::kEqual) {
+      const Token t = scanner_.NextWord();
+      if (t.kind == Tok::kWord && t.text == "within") {
+        return Error(t, "a bound (<= or >=) takes no tolerance: it holds or it does not",
+                     "write the bound with its margin, e.g. expect pin.v <= 3.6");
+      }
+      return Error(t, fmt::format("unexpected {} at the end of the expect statement", Quote(t)));
+    }
     if (!scanner_.AtEnd()) {
       const Token within = scanner_.PeekWord();
       if (within.kind != Tok::kWord || within.text != "within") {
@@ -498,6 +535,62 @@ class StatementParser {
       e.tolerance = std::move(tol);
     }
     data_->expects.push_back(std::move(e));
+    return true;
+  }
+
+  // vary TARGET SPREAD [uniform|normal] [each], the options in any order, once each.
+  bool ParseVary() {
+    VaryStmt v;
+    const Token target = scanner_.NextWord();
+    if (target.kind != Tok::kWord) {
+      return Error(target,
+                   fmt::format("expected a vary target (an element, a param, PART.key or temp) "
+                               "but found {}",
+                               Quote(target)),
+                   "write for example vary R1 ±1%");
+    }
+    v.target = std::string(target.text);
+    v.target_span = scanner_.SpanOf(target);
+    const Token spread = scanner_.NextWord();
+    if (spread.kind != Tok::kWord) {
+      return Error(spread,
+                   fmt::format("expected a spread after the vary target '{}' but found {}",
+                               target.text, Quote(spread)),
+                   fmt::format("write {} ±TOL, {} +-TOL, {} A..B or {} xF", target.text,
+                               target.text, target.text, target.text));
+    }
+    v.spread = std::string(spread.text);
+    v.spread_span = scanner_.SpanOf(spread);
+    bool have_distribution = false;
+    while (!scanner_.AtEnd()) {
+      const Token t = scanner_.NextWord();
+      const bool distribution = t.kind == Tok::kWord && (t.text == "uniform" || t.text == "normal");
+      const bool each = t.kind == Tok::kWord && t.text == "each";
+      if ((distribution && have_distribution) || (each && v.each)) {
+        return Error(t, fmt::format("'{}' is given twice; a vary line takes one distribution "
+                                    "(uniform or normal) and 'each' at most once",
+                                    t.text));
+      }
+      if (distribution) {
+        have_distribution = true;
+        v.distribution =
+            t.text == "normal" ? VaryLine::Distribution::kNormal : VaryLine::Distribution::kUniform;
+        v.distribution_span = scanner_.SpanOf(t);
+      } else if (each) {
+        v.each = true;
+        v.each_span = scanner_.SpanOf(t);
+      } else {
+        const std::vector<std::string> options = {"uniform", "normal", "each"};
+        const std::string near =
+            t.kind == Tok::kWord ? SuggestName(t.text, options) : std::string();
+        return Error(t,
+                     fmt::format("expected 'uniform', 'normal' or 'each' after the spread but "
+                                 "found {}",
+                                 Quote(t)),
+                     near.empty() ? "" : fmt::format("did you mean '{}'?", near));
+      }
+    }
+    data_->varies.push_back(std::move(v));
     return true;
   }
 

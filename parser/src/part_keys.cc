@@ -180,3 +180,5 @@ std::string PartKeyHint(std::string_view wrong, std::string_view prefix) {
 }
 
 }  // namespace knee
+
+namespace knee {}  // namespace knee

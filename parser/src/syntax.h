@@ -123,8 +123,25 @@ struct QuantityText {
 
 struct ExpectStmt {
   QuantityText quantity;
+  Expectation::Relation relation = Expectation::Relation::kEqual;
+  Span relation_span;
+  // The expected value, or for a bound (<=, >=) its right side: a literal, a param name
+  // or a parenthesised expression (which may read quantities: (rail.v + 0.5)).
   Value value;
-  std::optional<Value> tolerance;  // kLiteral only
+  std::optional<Value> tolerance;  // kLiteral only; equality only
+};
+
+// vary TARGET SPREAD [uniform|normal] [each] (netlist-format.md, "Spread: vary"). The
+// spread stays text here: its unit depends on the target, resolved during elaboration.
+struct VaryStmt {
+  std::string target;
+  Span target_span;
+  std::string spread;
+  Span spread_span;
+  VaryLine::Distribution distribution = VaryLine::Distribution::kUniform;
+  Span distribution_span;  // line 0 when not written
+  bool each = false;
+  Span each_span;
 };
 
 // Storage for the text of names in statements: appended to blocks that never move, so a
@@ -165,6 +182,7 @@ struct NetlistData {
   std::vector<SweepStmt> sweeps;
   std::vector<QuantityText> show;
   std::vector<ExpectStmt> expects;
+  std::vector<VaryStmt> varies;
 };
 
 }  // namespace knee

@@ -183,7 +183,7 @@ TEST(NetlistParserErrorTest, UnknownKeywordSuggestsTheNearOne) {
   const auto e = ParseErrors("resistr R1 a -> b 1k\n");
   EXPECT_EQ(OnlyError(e),
             "1:1: unknown keyword 'resistr'; a statement starts with one of title, temp, param, "
-            "part, resistor, vsource, isource, diode, bias, sweep, show, expect");
+            "part, resistor, vsource, isource, diode, bias, sweep, show, expect, vary");
   EXPECT_EQ(e[0].hint, "did you mean 'resistor'?");
   EXPECT_EQ(e[0].where.file, "t.knee");
   EXPECT_EQ(e[0].where.length, 7);

@@ -127,11 +127,63 @@ std::string SweepTargetUnit(const SweepTarget& target, const Circuit& circuit);
 std::string ApplySweepValue(const SweepTarget& target, double value, Circuit* circuit);
 
 struct Expectation {
+  // kEqual: a hand value checked at the bias point (`expect Q = VALUE [within TOL]`).
+  // kAtMost / kAtLeast: a bound (`expect Q <= VALUE`, `>=`) that must hold at every point
+  // of every analysis the file runs and in every sample of a spread.
+  enum class Relation { kEqual, kAtMost, kAtLeast };
   QuantityExpr quantity;
   double expected = 0;
   double tolerance = 0.05;  // absolute in the quantity's unit, or relative
   bool relative = true;
   SourceLocation where;
+  Relation relation = Relation::kEqual;
+  // A bound whose right side reads quantities ((rail.v + 0.5)): evaluated at each point.
+  // Empty for a constant bound, which is `expected`.
+  std::optional<QuantityExpr> bound;
+
+  bool is_bound() const { return relation != Relation::kEqual; }
+  // The bound's value at a solution (`expected` when it is a constant).
+  double BoundAt(const Solution& solution) const {
+    return bound ? bound->Evaluate(solution) : expected;
+  }
+  // Whether a bound holds for `actual` against `limit` (false for NaN).
+  bool BoundHolds(double actual, double limit) const {
+    return relation == Relation::kAtMost ? actual <= limit : actual >= limit;
+  }
+};
+
+// One `vary` line, resolved against the elaborated circuit (netlist-format.md, "Spread:
+// vary"; docs/spread.md). This is the public list that `knee spread` samples and
+// `knee sensitivity` weighs: Design::varies, in file order.
+//
+// Every line draws a value of its target between `low` and `high`:
+//   kTolerance (±TOL, +-TOL, TOL absolute or in % of the nominal): [nominal-tol, nominal+tol];
+//   kRange (A..B): [A, B], which need not contain the nominal (then `note` says so);
+//   kFactor (xF): [nominal/F, nominal*F], drawn on a log scale.
+// kUniform is uniform between the limits (in log for kFactor); kNormal is a normal with
+// its mean at the middle of the limits (the geometric middle for kFactor) and sigma a
+// sixth of their span (TOL/3), cut at the limits.
+// Without `each` one draw per sample is shared by every use of the target (a lot); with
+// `each` (PART.key targets only) every diode of the part draws its own (the devices).
+// Two lines on one PART.key, one shared and one `each`, multiply: the value of a diode
+// is nominal * (shared draw / nominal) * (its own draw / nominal).
+struct VaryLine {
+  enum class Form { kTolerance, kRange, kFactor };
+  enum class Distribution { kUniform, kNormal };
+  SweepTarget target;
+  Form form = Form::kTolerance;
+  Distribution distribution = Distribution::kUniform;
+  bool each = false;
+  double nominal = 0;  // the target's value in the elaborated circuit (after --set, --temp)
+  double low = 0;      // limits of the drawn value, low <= high, in the target's unit
+  double high = 0;
+  double factor = 1;        // kFactor: F
+  std::string spread_text;  // as written: "±1%", "20..28", "x3"
+  SourceLocation where;     // the target in the vary statement
+  SourceLocation spread_where;
+  // "" or why the line is valid but probably not meant (a range that excludes the
+  // nominal); printed as a warning by the commands that use vary lines.
+  std::string note;
 };
 
 struct Design {
@@ -145,6 +197,7 @@ struct Design {
   // a node touched by one element only, a node named like gnd in other capitals, a
   // tolerance that is a bare number.
   std::vector<Diagnostic> warnings;
+  std::vector<VaryLine> varies;  // ignored by every analysis but spread and sensitivity
 };
 
 Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides);

@@ -1,0 +1,124 @@
+// The arithmetic of part spread against published values and closed forms.
+#include "knee/spread_stats.h"
+
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <set>
+#include <vector>
+
+namespace knee {
+namespace {
+
+double Round4(double x) { return std::round(x * 1e4) / 1e4; }
+
+// R. G. Newcombe, "Two-sided confidence intervals for the single proportion: comparison of
+// seven methods", Stat. Med. 17, 857-872 (1998), Table II, method 3 (Wilson score, no
+// continuity correction), to four decimals.
+TEST(WilsonInterval, ReproducesNewcombe1998) {
+  struct Case {
+    long long r, n;
+    double low, high;
+  };
+  for (const Case& c : {Case{81, 263, 0.2553, 0.3662}, Case{15, 148, 0.0624, 0.1605},
+                        Case{0, 20, 0.0, 0.1611}, Case{1, 29, 0.0061, 0.1718}}) {
+    const auto [low, high] = WilsonInterval(c.r, c.n);
+    EXPECT_DOUBLE_EQ(Round4(low), c.low) << c.r << "/" << c.n;
+    EXPECT_DOUBLE_EQ(Round4(high), c.high) << c.r << "/" << c.n;
+  }
+}
+
+TEST(WilsonInterval, AllPassingReachesOneAndNoTrialsIsEverything) {
+  const auto [low, high] = WilsonInterval(20, 20);
+  EXPECT_DOUBLE_EQ(high, 1.0);
+  // Closed form for r = n: n / (n + z^2) (Wilson 1927, the interval's lower end).
+  const double z = 1.959963984540054;
+  EXPECT_NEAR(low, 20 / (20 + z * z), 1e-15);
+  const auto [l0, h0] = WilsonInterval(0, 0);
+  EXPECT_EQ(l0, 0.0);
+  EXPECT_EQ(h0, 1.0);
+}
+
+TEST(CounterUniform, DependsOnEveryCounterAndStaysInsideTheOpenInterval) {
+  std::set<double> seen;
+  for (std::uint64_t seed : {1u, 2u}) {
+    for (std::uint64_t k = 0; k < 100; ++k) {
+      for (std::uint64_t s = 0; s < 5; ++s) {
+        const double u = CounterUniform(seed, k, s);
+        EXPECT_GT(u, 0.0);
+        EXPECT_LT(u, 1.0);
+        seen.insert(u);
+      }
+    }
+  }
+  EXPECT_EQ(seen.size(), 1000u);  // no two counters give the same draw
+  EXPECT_EQ(CounterUniform(7, 3, 2), CounterUniform(7, 3, 2));
+}
+
+TEST(CounterUniform, MeanAndVarianceOfAUniform) {
+  // Uniform on (0, 1): mean 1/2, variance 1/12 (closed form); 4 standard errors.
+  const int n = 200000;
+  double sum = 0, sum2 = 0;
+  for (int k = 0; k < n; ++k) {
+    const double u = CounterUniform(1, static_cast<std::uint64_t>(k), 0);
+    sum += u;
+    sum2 += u * u;
+  }
+  const double mean = sum / n;
+  const double var = sum2 / n - mean * mean;
+  EXPECT_NEAR(mean, 0.5, 4 * std::sqrt(1.0 / 12 / n));
+  // Var of (u - 1/2)^2 is 1/80 - 1/144 for a uniform.
+  EXPECT_NEAR(var, 1.0 / 12, 4 * std::sqrt((1.0 / 80 - 1.0 / 144) / n));
+}
+
+TEST(TruncatedStandardNormal, MedianQuartilesAndCut) {
+  EXPECT_NEAR(TruncatedStandardNormal(0.5, 3), 0.0, 1e-15);
+  // The upper quartile of the normal cut at 3 is Phi^-1(Phi(-3) + 0.75 (1 - 2 Phi(-3))).
+  const double tail = 0.5 * std::erfc(3 / std::sqrt(2.0));
+  const double p = tail + 0.75 * (1 - 2 * tail);
+  // Phi(z) = p solved by bisection on erfc, independently of the inversion under test.
+  double lo = 0, hi = 3;
+  for (int i = 0; i < 200; ++i) {
+    const double mid = 0.5 * (lo + hi);
+    (0.5 * std::erfc(-mid / std::sqrt(2.0)) < p ? lo : hi) = mid;
+  }
+  EXPECT_NEAR(TruncatedStandardNormal(0.75, 3), lo, 1e-12);
+  EXPECT_LE(TruncatedStandardNormal(1 - 1e-16, 3), 3.0);
+  EXPECT_GE(TruncatedStandardNormal(1e-16, 3), -3.0);
+}
+
+TEST(SortedQuantile, LinearInterpolationOfOrderStatistics) {
+  // Hyndman & Fan type 7: h = (n - 1) p, x[floor h] + frac(h) (x[floor h + 1] - x[floor h]).
+  const std::vector<double> v = {1, 2, 4, 8, 16};
+  EXPECT_DOUBLE_EQ(SortedQuantile(v, 0.5), 4);
+  EXPECT_DOUBLE_EQ(SortedQuantile(v, 0.0), 1);
+  EXPECT_DOUBLE_EQ(SortedQuantile(v, 1.0), 16);
+  EXPECT_DOUBLE_EQ(SortedQuantile(v, 0.375), 3);  // h = 1.5
+  EXPECT_TRUE(std::isnan(SortedQuantile(std::vector<double>{}, 0.5)));
+}
+
+using V = std::vector<double>;
+
+TEST(SpearmanRho, MonotoneTiesAndTextbookCase) {
+  const V x = {1, 2, 3, 4, 5};
+  EXPECT_DOUBLE_EQ(SpearmanRho(x, V{10, 20, 30, 40, 1000}), 1.0);
+  EXPECT_DOUBLE_EQ(SpearmanRho(x, V{5, 4, 3, 2, 1}), -1.0);
+  // Without ties rho = 1 - 6 sum d^2 / (n (n^2 - 1)) (C. Spearman, Amer. J. Psychol. 15,
+  // 1904): ranks of y are 2 1 4 3 5, sum d^2 = 4, rho = 1 - 24/120 = 0.8.
+  EXPECT_NEAR(SpearmanRho(x, V{2, 1, 4, 3, 5}), 0.8, 1e-15);
+  EXPECT_TRUE(std::isnan(SpearmanRho(x, V{1, 1, 1, 1, 1})));
+  // NaN pairs are left out: the rest is monotone.
+  EXPECT_DOUBLE_EQ(SpearmanRho(V{1, 2, NAN, 4}, V{1, 2, 3, 4}), 1.0);
+}
+
+TEST(ComputeMoments, SampleMeanAndStandardDeviation) {
+  const Moments m = ComputeMoments(std::vector<double>{2, 4, 4, 4, 5, 5, 7, 9, NAN});
+  EXPECT_EQ(m.count, 8);
+  EXPECT_DOUBLE_EQ(m.mean, 5);
+  EXPECT_NEAR(m.std_dev, std::sqrt(32.0 / 7), 1e-15);  // sum of squares 32, n - 1 = 7
+  EXPECT_EQ(m.min, 2);
+  EXPECT_EQ(m.max, 9);
+}
+
+}  // namespace
+}  // namespace knee
