@@ -21,6 +21,14 @@ namespace {
 // Netlists larger than this are refused before reading them whole (docs/errors.md).
 constexpr std::streamsize kMaxFileBytes = std::streamsize{1} << 30;
 
+SourceLocation OptionLocation(const std::string& option) {
+  SourceLocation where;
+  where.file = option;
+  return where;
+}
+
+}  // namespace
+
 std::optional<std::string> ReadSource(const std::string& file, std::string* problem) {
   std::ostringstream text;
   if (file == "-") {
@@ -55,14 +63,6 @@ std::optional<std::string> ReadSource(const std::string& file, std::string* prob
   }
   return text.str();
 }
-
-SourceLocation OptionLocation(const std::string& option) {
-  SourceLocation where;
-  where.file = option;
-  return where;
-}
-
-}  // namespace
 
 void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, const std::string& source) {
   std::fputs(FormatDiagnostics(diagnostics, source).c_str(), stderr);
