@@ -9,6 +9,8 @@
 #include <algorithm>
 #include <boost/math/distributions/students_t.hpp>
 #include <cmath>
+#include <cstdlib>
+#include <map>
 #include <set>
 
 #include "fit_checks.h"
@@ -269,6 +271,9 @@ struct BreakdownCount {
   int points = 0;
   std::set<double> temps;
   int most_in_one_temp = 0;
+  // |i| of the breakdown point nearest 1 mA (in log) at the temperature nearest ref_temp:
+  // a datasheet's test current, where breakdown_i is held unless written.
+  double test_current = 0;
 };
 BreakdownCount CountBreakdown(const Setup& s) {
   fit_internal::StartInput in;
@@ -287,6 +292,16 @@ BreakdownCount CountBreakdown(const Setup& s) {
   for (const auto& [t, set] : currents) {
     c.most_in_one_temp = std::max(c.most_in_one_temp, static_cast<int>(set.size()));
   }
+  double nearest_temp = 0, best = INFINITY;
+  for (double t : c.temps) {
+    if (std::fabs(t - s.model.ref_temp) < best)
+      best = std::fabs(t - s.model.ref_temp), nearest_temp = t;
+  }
+  best = INFINITY;
+  for (double i : currents[nearest_temp]) {
+    const double distance = std::fabs(std::log(-i / 1e-3));
+    if (distance < best) best = distance, c.test_current = -i;
+  }
   return c;
 }
 
@@ -299,6 +314,12 @@ SourceLocation LastRow(const FitData& data) {
 FitResult MakeResult(const Setup& s, const Solved& solved, std::vector<UndeterminedKey> held) {
   FitResult r;
   r.model = fit_internal::FromParams(solved.x, s.model, s.breakdown);
+  // Keys not fitted keep their given values exactly (not through exp(log(value))).
+  for (int k = 0; k < kFitKeyCount; ++k) {
+    if (!s.free[k] && (k != Index(FitKey::kBreakdownV) || s.breakdown)) {
+      SetFitKey(&r.model, static_cast<FitKey>(k), GetFitKey(s.model, static_cast<FitKey>(k)));
+    }
+  }
   r.undetermined = std::move(held);
   r.converged = solved.converged;
   r.iterations = solved.iterations;
@@ -357,16 +378,16 @@ std::optional<UndeterminedKey> LooseKey(const FitResult& r) {
     std::string why;
     if (IsLogKey(k.key)) {
       ratio = std::log(*k.high / k.value) / std::log(kLogSpanLimit);
-      why = fmt::format("its 95 % interval {} .. {} {} spans more than a factor of {:g} either way",
-                        PartKeyLiteral(*k.low, FitKeyUnit(k.key)),
-                        PartKeyLiteral(*k.high, FitKeyUnit(k.key)), FitKeyUnit(k.key),
-                        kLogSpanLimit);
+      why =
+          fmt::format("its 95 % interval {} .. {} {} spans more than a factor of {:g} either way",
+                      PartKeyLiteral(*k.low, FitKeyUnit(k.key)),
+                      PartKeyLiteral(*k.high, FitKeyUnit(k.key)), FitKeyUnit(k.key), kLogSpanLimit);
     } else {
       const double scale = k.key == FitKey::kBreakdownTc  ? std::max(std::fabs(k.value), 1e-4)
                            : k.key == FitKey::kSatTempExp ? std::max(std::fabs(k.value), 1.0)
                                                           : std::fabs(k.value);
       ratio = (*k.high - k.value) / scale;
-      why = fmt::format("its 95 % interval {} .. {} reaches past its own size", 
+      why = fmt::format("its 95 % interval {} .. {} reaches past its own size",
                         PartKeyLiteral(*k.low, FitKeyUnit(k.key)),
                         PartKeyLiteral(*k.high, FitKeyUnit(k.key)));
     }
@@ -442,6 +463,11 @@ Result<FitResult> FitDiode(const FitData& given, const FitOptions& options) {
     // breakdown_v and breakdown_i enter the law only as ln(Ibr) - Vbr/(nbr*Vt): one is
     // fitted, the other held (breakdown_i, unless breakdown_v is written).
     want(options.held[Index(FitKey::kBreakdownV)] ? FitKey::kBreakdownI : FitKey::kBreakdownV);
+    if (!options.held[Index(FitKey::kBreakdownI)] && !s.free[Index(FitKey::kBreakdownI)]) {
+      // At kFitDigits digits, as the part line prints it, so that the printed line is the part.
+      s.model.breakdown_i =
+          std::strtod(fmt::format("{:.{}e}", bd.test_current, kFitDigits - 1).c_str(), nullptr);
+    }
     if (bd.most_in_one_temp >= 2) want(FitKey::kBreakdownIdeality);
     if (bd.temps.size() >= 2) want(FitKey::kBreakdownTc);
   }
@@ -465,10 +491,11 @@ Result<FitResult> FitDiode(const FitData& given, const FitOptions& options) {
                              "key out of --fit");
     }
     if (bd_asked && bd.points == 0) {
-      return DataError(data.header_where,
-                       "breakdown keys are asked for but no point is in breakdown (a reverse "
-                       "point whose current the leakage cannot carry)",
-                       "add points near v = -breakdown_v, or leave the breakdown keys out of --fit");
+      return DataError(
+          data.header_where,
+          "breakdown keys are asked for but no point is in breakdown (a reverse "
+          "point whose current the leakage cannot carry)",
+          "add points near v = -breakdown_v, or leave the breakdown keys out of --fit");
     }
   }
   std::vector<UndeterminedKey> held;

@@ -27,16 +27,18 @@ std::vector<Diagnostic> CheckPoints(const FitData& data) {
   }
   for (const FitPoint& p : data.points) {
     if (p.v > 0 && !(p.i > 0)) {
-      errors.push_back(DataError(
-          p.i_where, fmt::format("a forward point (v = {:g} V > 0) needs a positive current, not "
-                                 "{:g} A",
-                                 p.v, p.i),
-          "correct the sign of the current or remove the row"));
+      errors.push_back(
+          DataError(p.i_where,
+                    fmt::format("a forward point (v = {:g} V > 0) needs a positive current, not "
+                                "{:g} A",
+                                p.v, p.i),
+                    "correct the sign of the current or remove the row"));
     } else if (p.v < 0 && !(p.i < 0)) {
       errors.push_back(DataError(
-          p.i_where, fmt::format("a reverse point (v = {:g} V < 0) needs a negative current, not "
-                                 "{:g} A",
-                                 p.v, p.i),
+          p.i_where,
+          fmt::format("a reverse point (v = {:g} V < 0) needs a negative current, not "
+                      "{:g} A",
+                      p.v, p.i),
           "reverse points have negative v and negative i; correct the sign or remove the row"));
     } else if (p.v == 0) {
       errors.push_back(DataError(p.v_where,
@@ -50,10 +52,10 @@ std::vector<Diagnostic> CheckPoints(const FitData& data) {
                                  "give each point a weight > 0, or leave the weight column out"));
     }
     if (!(p.temp > -kZeroCelsius)) {
-      errors.push_back(DataError(p.temp_where,
-                                 fmt::format("temperature {:g} C is not above absolute zero "
-                                             "(-273.15 C)",
-                                             p.temp)));
+      errors.push_back(
+          DataError(p.temp_where, fmt::format("temperature {:g} C is not above absolute zero "
+                                              "(-273.15 C)",
+                                              p.temp)));
     }
   }
   if (!errors.empty()) return errors;

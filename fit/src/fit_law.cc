@@ -77,13 +77,15 @@ double BracketedNewton(F f, double lo, double hi, double x0) {
     if (fx == 0) return x;
     if (fx < 0) lo = x;
     if (fx > 0) hi = x;
-    double next = x - fx / slope;
+    const double tolerance =
+        4 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::fabs(x));
+    const double step = fx / slope;
+    // A Newton step below the resolution of x: x is the root to double precision (the step
+    // may not even leave x, so it must be judged before the bracket test).
+    if (std::isfinite(step) && std::fabs(step) <= tolerance) return x - step;
+    double next = x - step;
     if (!std::isfinite(next) || !(next > lo && next < hi)) next = 0.5 * (lo + hi);
-    if (std::fabs(next - x) <= 4 * std::numeric_limits<double>::epsilon() *
-                                     std::max(1.0, std::fabs(x)) ||
-        hi - lo <= 4 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::fabs(x))) {
-      return next;
-    }
+    if (hi - lo <= tolerance) return next;
     x = next;
   }
   return x;

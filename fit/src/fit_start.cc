@@ -17,8 +17,9 @@ std::map<double, Group> ByTemperature(const std::vector<const FitPoint*>& points
   std::map<double, Group> groups;
   for (const FitPoint* p : points) groups[p->temp].push_back(p);
   for (auto& [t, g] : groups) {
-    std::sort(g.begin(), g.end(),
-              [](const FitPoint* a, const FitPoint* b) { return std::fabs(a->i) < std::fabs(b->i); });
+    std::sort(g.begin(), g.end(), [](const FitPoint* a, const FitPoint* b) {
+      return std::fabs(a->i) < std::fabs(b->i);
+    });
   }
   return groups;
 }
@@ -51,11 +52,12 @@ void StartForward(const StartInput& in, const std::map<double, Group>& forward, 
       const FitPoint& p2 = *(*ref)[1];
       n = (p2.v - p1.v) / (vt * std::log(p2.i / p1.i));
     } else if (!Free(in, FitKey::kSatCurrent)) {
-      const double is_t = std::exp((*x)[Index(FitKey::kSatCurrent)] +
-                                   PointLaw(*x, false, p1.temp, t0).ln_is_shift);
+      const double is_t =
+          std::exp((*x)[Index(FitKey::kSatCurrent)] + PointLaw(*x, false, p1.temp, t0).ln_is_shift);
       n = p1.v / (vt * std::log1p(p1.i / is_t));
     }
-    if (!std::isfinite(n) || n < 0.3 || n > 20) n = std::clamp(std::isfinite(n) ? n : 1.0, 0.3, 20.0);
+    if (!std::isfinite(n) || n < 0.3 || n > 20)
+      n = std::clamp(std::isfinite(n) ? n : 1.0, 0.3, 20.0);
   }
   if (Free(in, FitKey::kSatCurrent)) {
     const double is_t = p1.i / std::expm1(p1.v / (n * vt));
@@ -152,8 +154,7 @@ void StartBreakdown(const StartInput& in, const std::vector<const FitPoint*>& re
   if (Free(in, FitKey::kBreakdownI)) {
     const FitPoint& p = *nearest(*ref);
     const PointLaw law(*x, true, p.temp, t0);
-    (*x)[Index(FitKey::kBreakdownI)] =
-        std::log(-p.i) + (junction(p) + law.vbr_t) / (nbr * law.vt);
+    (*x)[Index(FitKey::kBreakdownI)] = std::log(-p.i) + (junction(p) + law.vbr_t) / (nbr * law.vt);
     return;
   }
   std::vector<std::pair<double, double>> vbr;  // (T - T0, Vbr(T))

@@ -15,9 +15,9 @@ inline constexpr double kLeakageFactor = 10.0;
 
 struct StartInput {
   const std::vector<FitPoint>* points = nullptr;
-  DiodeModel model;                      // held and default values
+  DiodeModel model;                       // held and default values
   std::array<bool, kFitKeyCount> free{};  // the keys the fit moves
-  bool breakdown = false;                // the breakdown term is in play
+  bool breakdown = false;                 // the breakdown term is in play
 };
 
 // Start values: held keys as given, free keys from the points.

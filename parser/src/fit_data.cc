@@ -37,8 +37,8 @@ std::vector<Cell> SplitCells(std::string_view line) {
   std::size_t begin = 0;
   while (true) {
     const std::size_t comma = line.find(',', begin);
-    const std::string_view raw =
-        line.substr(begin, comma == std::string_view::npos ? std::string_view::npos : comma - begin);
+    const std::string_view raw = line.substr(
+        begin, comma == std::string_view::npos ? std::string_view::npos : comma - begin);
     std::size_t lead = 0;
     while (lead < raw.size() && (raw[lead] == ' ' || raw[lead] == '\t')) ++lead;
     Cell c;
@@ -114,9 +114,9 @@ std::optional<ColumnSpec> ReadHeaderCell(const FileName& file, int line, const C
   spec.unit_text = std::string(unit);
   const std::string_view want = kColumnUnits[kind];
   auto bad_unit = [&](std::string expected) {
-    errors->push_back(Error(At(file, line, c),
-                            fmt::format("unit '{}' does not fit column '{}'; expected {}", unit,
-                                        name, expected)));
+    errors->push_back(Error(
+        At(file, line, c),
+        fmt::format("unit '{}' does not fit column '{}'; expected {}", unit, name, expected)));
     return std::nullopt;
   };
   if (spec.kind == Column::kTemp) {
@@ -152,10 +152,10 @@ bool ReadHeader(const FileName& file, int line, std::string_view text, Header* h
     if (!spec) continue;
     int& slot = header->index[static_cast<int>(spec->kind)];
     if (slot >= 0) {
-      errors->push_back(Error(At(file, line, c),
-                              fmt::format("column '{}' is given twice",
-                                          kColumnNames[static_cast<int>(spec->kind)]),
-                              "keep one of the two"));
+      errors->push_back(Error(
+          At(file, line, c),
+          fmt::format("column '{}' is given twice", kColumnNames[static_cast<int>(spec->kind)]),
+          "keep one of the two"));
       continue;
     }
     slot = static_cast<int>(header->columns.size());
@@ -191,11 +191,9 @@ std::optional<double> ReadCell(const FileName& file, int line, const Cell& c,
     SourceLocation where = At(file, line, c);
     where.column += CountChars(c.text.substr(0, error.offset));
     where.length = std::max(1, static_cast<int>(error.length));
-    errors->push_back(Error(where,
-                            fmt::format("'{}' in column '{}' is not a number: {}", c.text, name,
-                                        error.message),
-                            error.hint.empty() ? "write a number such as 0.652, 10m or 4k7"
-                                               : error.hint));
+    errors->push_back(Error(
+        where, fmt::format("'{}' in column '{}' is not a number: {}", c.text, name, error.message),
+        error.hint.empty() ? "write a number such as 0.652, 10m or 4k7" : error.hint));
     return std::nullopt;
   }
   if (spec.has_unit && !literal.unit.empty()) {
@@ -206,7 +204,8 @@ std::optional<double> ReadCell(const FileName& file, int line, const Cell& c,
                             "write the number alone"));
     return std::nullopt;
   }
-  const ValuePlace place{fmt::format("column '{}'", name), kColumnUnits[static_cast<int>(spec.kind)]};
+  const ValuePlace place{fmt::format("column '{}'", name),
+                         kColumnUnits[static_cast<int>(spec.kind)]};
   double value = 0;
   std::string message, hint;
   if (!ApplyPlace(literal, c.text, place, &value, &message, &hint)) {
@@ -258,11 +257,11 @@ Result<FitData> ReadFitData(std::string_view text, const std::string& file_name)
       const Cell& at = few ? cells.back() : cells[header.columns.size()];
       SourceLocation where = At(file, line_number, at);
       if (few) where.column += at.length, where.length = 1;
-      errors.push_back(Error(where,
-                             fmt::format("the row has {} cell{} but the header has {} columns",
-                                         cells.size(), cells.size() == 1 ? "" : "s",
-                                         header.columns.size()),
-                             few ? "add the missing cells" : "remove the extra cells"));
+      errors.push_back(
+          Error(where,
+                fmt::format("the row has {} cell{} but the header has {} columns", cells.size(),
+                            cells.size() == 1 ? "" : "s", header.columns.size()),
+                few ? "add the missing cells" : "remove the extra cells"));
       continue;
     }
     FitPoint p;
@@ -275,10 +274,18 @@ Result<FitData> ReadFitData(std::string_view text, const std::string& file_name)
       }
       const SourceLocation where = At(file, line_number, cells[k]);
       switch (header.columns[k].kind) {
-        case Column::kV: p.v = *v, p.v_where = where; break;
-        case Column::kI: p.i = *v, p.i_where = where; break;
-        case Column::kTemp: p.temp = *v, p.temp_where = where; break;
-        case Column::kWeight: p.weight = *v, p.weight_where = where; break;
+        case Column::kV:
+          p.v = *v, p.v_where = where;
+          break;
+        case Column::kI:
+          p.i = *v, p.i_where = where;
+          break;
+        case Column::kTemp:
+          p.temp = *v, p.temp_where = where;
+          break;
+        case Column::kWeight:
+          p.weight = *v, p.weight_where = where;
+          break;
       }
     }
     if (ok) data.points.push_back(p);
@@ -286,9 +293,9 @@ Result<FitData> ReadFitData(std::string_view text, const std::string& file_name)
   }
   if (!errors.empty()) return errors;
   if (!have_header) {
-    return Error(SourceLocation{file, 1, 1, 1}, "the file is empty; expected a header row",
-                 fmt::format("start with a header such as {}, then one row per point",
-                             kHeaderExample));
+    return Error(
+        SourceLocation{file, 1, 1, 1}, "the file is empty; expected a header row",
+        fmt::format("start with a header such as {}, then one row per point", kHeaderExample));
   }
   return data;
 }

@@ -53,8 +53,8 @@ Result<FitOptions> MakeFitOptions(const std::string& fit_keys,
     double value = 0;
     std::string message, hint;
     if (!ParseNumber(text, &literal, &error)) {
-      errors.push_back(OptionError("--set", fmt::format("{}={}: {}", key, text, error.message),
-                                   error.hint));
+      errors.push_back(
+          OptionError("--set", fmt::format("{}={}: {}", key, text, error.message), error.hint));
       continue;
     }
     if (!ApplyPlace(literal, text, PartKeyPlace(*info), &value, &message, &hint)) {
@@ -62,8 +62,8 @@ Result<FitOptions> MakeFitOptions(const std::string& fit_keys,
       continue;
     }
     if (!PartKeyValueOk(*info, value)) {
-      errors.push_back(OptionError("--set", fmt::format("{} = {} is out of range; it must be {}",
-                                                        key, text, info->rule)));
+      errors.push_back(OptionError(
+          "--set", fmt::format("{} = {} is out of range; it must be {}", key, text, info->rule)));
       continue;
     }
     SetPartKey(&options.model, key, value);
@@ -81,16 +81,17 @@ Result<FitOptions> MakeFitOptions(const std::string& fit_keys,
           "--fit",
           part_key ? fmt::format("'{}' is a part key that no fit determines", name)
                    : fmt::format("'{}' is not a part key", name),
-          part_key ? fmt::format("give it with --set {}=VALUE; the keys a fit determines are "
-                                 "sat_current, ideality, series_res, breakdown_v, breakdown_i, "
-                                 "breakdown_ideality, breakdown_tc, bandgap and sat_temp_exp",
-                                 name)
+          part_key       ? fmt::format("give it with --set {}=VALUE; the keys a fit determines are "
+                                             "sat_current, ideality, series_res, breakdown_v, breakdown_i, "
+                                             "breakdown_ideality, breakdown_tc, bandgap and sat_temp_exp",
+                                       name)
           : near.empty() ? std::string()
                          : fmt::format("did you mean '{}'?", near)));
     } else if (options.held[static_cast<int>(*key)]) {
-      errors.push_back(OptionError("--fit", fmt::format("'{}' is held by --set and cannot also be "
-                                                        "fitted",
-                                                        name),
+      errors.push_back(OptionError("--fit",
+                                   fmt::format("'{}' is held by --set and cannot also be "
+                                               "fitted",
+                                               name),
                                    "leave it out of --fit or drop its --set"));
     } else if (std::find(options.keys.begin(), options.keys.end(), *key) != options.keys.end()) {
       errors.push_back(OptionError("--fit", fmt::format("'{}' is named twice", name)));
@@ -111,8 +112,8 @@ double ReadFitLiteral(const std::string& literal) {
   return parsed.value;
 }
 
-std::string FitPartLine(const std::string& name, const FitResult& result,
-                        const FitOptions& options, bool several_temperatures) {
+std::string FitPartLine(const std::string& name, const FitResult& result, const FitOptions& options,
+                        bool several_temperatures) {
   const DiodeModel& m = result.model;
   const DiodeModel defaults;
   std::string line = fmt::format("part {} diode", name);
@@ -134,8 +135,8 @@ std::string FitPartLine(const std::string& name, const FitResult& result,
       show |= *fk == FitKey::kBreakdownTc && m.breakdown_v && (several_temperatures || value != 0);
       show |= (*fk == FitKey::kBandgap || *fk == FitKey::kSatTempExp) && several_temperatures;
     } else {
-      if (key == "ref_temp") maybe = m.ref_temp != defaults.ref_temp ? std::optional(m.ref_temp)
-                                                                    : std::nullopt;
+      if (key == "ref_temp")
+        maybe = m.ref_temp != defaults.ref_temp ? std::optional(m.ref_temp) : std::nullopt;
       if (key == "max_current") maybe = m.max_current;
       if (key == "max_reverse_v") maybe = m.max_reverse_v;
       if (key == "max_power") maybe = m.max_power;

@@ -40,7 +40,8 @@ std::map<std::string, Outcome>& Cache() {
 std::string CacheKey(const std::string& path, const std::string& text, const FitOptions& o) {
   std::string key = path + '\n' + text + '\n';
   for (int k = 0; k < kFitKeyCount; ++k) {
-    key += fmt::format("{}:{}:{};", k, o.held[k] ? 1 : 0, GetFitKey(o.model, static_cast<FitKey>(k)));
+    key +=
+        fmt::format("{}:{}:{};", k, o.held[k] ? 1 : 0, GetFitKey(o.model, static_cast<FitKey>(k)));
   }
   key += fmt::format("{};{};{}", o.model.ref_temp, o.model.breakdown_v.has_value(),
                      o.model.breakdown_v.value_or(0));
@@ -100,10 +101,10 @@ std::vector<Diagnostic> FitPartKeys(const std::string& netlist_file, const std::
   }
   std::ifstream in(path, std::ios::binary);
   if (!in) {
-    return {At(fit_where,
-               fmt::format("part '{}': cannot read \"{}\": {}", part_name, shown,
-                           std::strerror(errno)),
-               "fit= takes a path relative to the netlist's own folder")};
+    return {
+        At(fit_where,
+           fmt::format("part '{}': cannot read \"{}\": {}", part_name, shown, std::strerror(errno)),
+           "fit= takes a path relative to the netlist's own folder")};
   }
   std::ostringstream text;
   text << in.rdbuf();

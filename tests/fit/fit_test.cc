@@ -3,8 +3,8 @@
 
 #include <gtest/gtest.h>
 
-#include <array>
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdio>
 
@@ -21,15 +21,24 @@ using testing::Truth;
 
 double TruthOf(const Truth& t, FitKey key) {
   switch (key) {
-    case FitKey::kSatCurrent: return t.is;
-    case FitKey::kIdeality: return t.n;
-    case FitKey::kSeriesRes: return t.rs;
-    case FitKey::kBreakdownV: return t.bv;
-    case FitKey::kBreakdownI: return t.ibr;
-    case FitKey::kBreakdownIdeality: return t.nbr;
-    case FitKey::kBreakdownTc: return t.tc;
-    case FitKey::kBandgap: return t.eg;
-    case FitKey::kSatTempExp: return t.xti;
+    case FitKey::kSatCurrent:
+      return t.is;
+    case FitKey::kIdeality:
+      return t.n;
+    case FitKey::kSeriesRes:
+      return t.rs;
+    case FitKey::kBreakdownV:
+      return t.bv;
+    case FitKey::kBreakdownI:
+      return t.ibr;
+    case FitKey::kBreakdownIdeality:
+      return t.nbr;
+    case FitKey::kBreakdownTc:
+      return t.tc;
+    case FitKey::kBandgap:
+      return t.eg;
+    case FitKey::kSatTempExp:
+      return t.xti;
   }
   return 0;
 }
@@ -85,12 +94,10 @@ TEST_P(NoiseFree, RecoversTheTruth) {
 }
 
 const std::vector<FitKey> kForward = {FitKey::kSatCurrent, FitKey::kIdeality, FitKey::kSeriesRes};
-const std::vector<FitKey> kBreakdown = {FitKey::kSatCurrent, FitKey::kIdeality,
-                                        FitKey::kSeriesRes, FitKey::kBreakdownV,
-                                        FitKey::kBreakdownIdeality};
-const std::vector<FitKey> kForwardT = {FitKey::kSatCurrent, FitKey::kIdeality,
-                                       FitKey::kSeriesRes, FitKey::kBandgap,
-                                       FitKey::kSatTempExp};
+const std::vector<FitKey> kBreakdown = {FitKey::kSatCurrent, FitKey::kIdeality, FitKey::kSeriesRes,
+                                        FitKey::kBreakdownV, FitKey::kBreakdownIdeality};
+const std::vector<FitKey> kForwardT = {FitKey::kSatCurrent, FitKey::kIdeality, FitKey::kSeriesRes,
+                                       FitKey::kBandgap, FitKey::kSatTempExp};
 const std::vector<FitKey> kBreakdownT = {
     FitKey::kSatCurrent,        FitKey::kIdeality,    FitKey::kSeriesRes, FitKey::kBreakdownV,
     FitKey::kBreakdownIdeality, FitKey::kBreakdownTc, FitKey::kBandgap,   FitKey::kSatTempExp};

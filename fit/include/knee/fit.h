@@ -30,8 +30,8 @@ enum class FitKey : std::uint8_t {
 };
 inline constexpr int kFitKeyCount = 9;
 
-const char* FitKeyName(FitKey key);              // "sat_current", ...
-const char* FitKeyUnit(FitKey key);              // "A", "Ohm", "V", "1/K", "eV" or ""
+const char* FitKeyName(FitKey key);  // "sat_current", ...
+const char* FitKeyUnit(FitKey key);  // "A", "Ohm", "V", "1/K", "eV" or ""
 std::optional<FitKey> FindFitKey(std::string_view name);
 std::vector<std::string> FitKeyNames();
 double GetFitKey(const DiodeModel& model, FitKey key);  // breakdown_v: 0 when unset
@@ -91,16 +91,16 @@ struct FittedPoint {
 };
 
 struct FitResult {
-  DiodeModel model;                         // the fitted part (held keys as given)
-  std::vector<FittedKey> keys;              // the fitted keys, in FitKey order
+  DiodeModel model;             // the fitted part (held keys as given)
+  std::vector<FittedKey> keys;  // the fitted keys, in FitKey order
   std::vector<UndeterminedKey> undetermined;
-  std::vector<FittedPoint> points;          // in file order
-  bool converged = false;                   // false: the numbers are not a fit (exit 1)
-  bool exact = false;                       // as many points as fitted keys
-  int degrees_of_freedom = 0;               // points - fitted keys
-  double residual_rms = 0;                  // root mean square of ln(I_model / I) (weighted)
-  int iterations = 0;                       // Levenberg-Marquardt iterations of the last fit
-  std::string termination;                  // Ceres' account of how the last fit ended
+  std::vector<FittedPoint> points;  // in file order
+  bool converged = false;           // false: the numbers are not a fit (exit 1)
+  bool exact = false;               // as many points as fitted keys
+  int degrees_of_freedom = 0;       // points - fitted keys
+  double residual_rms = 0;          // root mean square of ln(I_model / I) (weighted)
+  int iterations = 0;               // Levenberg-Marquardt iterations of the last fit
+  std::string termination;          // Ceres' account of how the last fit ended
 };
 
 // Checks the points (docs/fit.md, "Data the fit refuses") and fits. Bad data, and keys the

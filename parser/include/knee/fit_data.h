@@ -20,13 +20,14 @@ Result<FitData> ReadFitData(std::string_view text, const std::string& file_name)
 // `--fit KEY,...` and `--set KEY=VALUE` of knee fit: every KEY a part key (netlist-format.md),
 // fitted keys among those a fit can determine, values as in a part statement. Errors are
 // located at the option (`where.file` names it).
-Result<FitOptions> MakeFitOptions(const std::string& fit_keys, const std::vector<std::string>& sets);
+Result<FitOptions> MakeFitOptions(const std::string& fit_keys,
+                                  const std::vector<std::string>& sets);
 
 // The keys of `model` a printed part line carries after a fit: every fitted and every held
 // key, the breakdown keys when the part has breakdown, the temperature keys when the points
 // span temperatures, the ratings and ref_temp when given. In part-key table order.
-std::string FitPartLine(const std::string& name, const FitResult& result,
-                        const FitOptions& options, bool several_temperatures);
+std::string FitPartLine(const std::string& name, const FitResult& result, const FitOptions& options,
+                        bool several_temperatures);
 
 // Reads a literal of FitValueLiteral back as the netlist does.
 double ReadFitLiteral(const std::string& literal);
