@@ -31,7 +31,7 @@ PointLaw::PointLaw(const Params& x, bool breakdown, double temp_celsius, double 
   vt = ThermalVoltage(temp_k);
   vt0 = ThermalVoltage(t0_k);
   n = x[Index(FitKey::kIdeality)];
-  // Is(T) = Is(T0) * (T/T0)^(xti/n) * exp((Eg/(n*Vt0)) * (1 - T0/T))   (netlist-format.md)
+  // Is(T) = Is(T0) * (T/T0)^(temp_exp/n) * exp((Eg/(n*Vt0)) * (1 - T0/T))   (netlist-format.md)
   ln_is_shift = (x[Index(FitKey::kSatTempExp)] / n) * std::log(temp_k / t0_k) +
                 (x[Index(FitKey::kBandgap)] / (n * vt0)) * (1 - t0_k / temp_k);
   is_t = std::exp(x[Index(FitKey::kSatCurrent)] + ln_is_shift);

@@ -78,18 +78,18 @@ void StartForward(const StartInput& in, const std::map<double, Group>& forward, 
 
 // bandgap and sat_temp_exp (and sat_current when no group sits at the reference
 // temperature) from the saturation current each temperature's lowest point implies, by
-// linear least squares of n*ln Is(T) = n*ln Is(T0) + xti*ln(T/T0) + (Eg/Vt0)*(1 - T0/T).
+// linear least squares of n*ln Is(T) = n*ln Is(T0) + temp_exp*ln(T/T0) + (Eg/Vt0)*(1 - T0/T).
 void StartTemperature(const StartInput& in, const std::map<double, Group>& forward, Params* x) {
-  const bool eg = Free(in, FitKey::kBandgap), xti = Free(in, FitKey::kSatTempExp);
-  if ((!eg && !xti) || forward.size() < 2) return;
+  const bool eg = Free(in, FitKey::kBandgap), temp_exp = Free(in, FitKey::kSatTempExp);
+  if ((!eg && !temp_exp) || forward.size() < 2) return;
   const double n = (*x)[Index(FitKey::kIdeality)];
   const double t0k = ToKelvin(in.model.ref_temp);
   const double vt0 = ThermalVoltage(t0k);
   std::vector<int> unknowns = {Index(FitKey::kSatCurrent)};
   if (eg) unknowns.push_back(Index(FitKey::kBandgap));
-  if (xti) unknowns.push_back(Index(FitKey::kSatTempExp));
+  if (temp_exp) unknowns.push_back(Index(FitKey::kSatTempExp));
   if (forward.size() < unknowns.size()) unknowns.pop_back();  // sat_temp_exp stays
-  const bool xti_in = unknowns.back() == Index(FitKey::kSatTempExp);
+  const bool temp_exp_in = unknowns.back() == Index(FitKey::kSatTempExp);
   Eigen::MatrixXd a(static_cast<Eigen::Index>(forward.size()),
                     static_cast<Eigen::Index>(unknowns.size()));
   Eigen::VectorXd y(a.rows());
@@ -107,7 +107,7 @@ void StartTemperature(const StartInput& in, const std::map<double, Group>& forwa
                                                   : std::log(tk / t0k);
     }
     if (!eg) rhs -= (*x)[Index(FitKey::kBandgap)] * (1 - t0k / tk) / vt0;
-    if (!xti_in) rhs -= (*x)[Index(FitKey::kSatTempExp)] * std::log(tk / t0k);
+    if (!temp_exp_in) rhs -= (*x)[Index(FitKey::kSatTempExp)] * std::log(tk / t0k);
     y(row++) = rhs;
   }
   const Eigen::VectorXd s = a.colPivHouseholderQr().solve(y);

@@ -15,7 +15,7 @@ struct Truth {
   double is = 2e-9, n = 1.8, rs = 0.05;
   bool breakdown = false;
   double bv = 100, ibr = 1e-3, nbr = 1.5, tc = 8e-4;
-  double eg = 1.12, xti = 3, t0 = 25;
+  double eg = 1.12, temp_exp = 3, t0 = 25;
 };
 
 // CODATA 2018 exact constants (SI 2019).
@@ -23,7 +23,7 @@ inline double Vt(double celsius) { return 1.380649e-23 * (celsius + 273.15) / 1.
 
 inline double IsAt(const Truth& t, double celsius) {
   const double tk = celsius + 273.15, t0k = t.t0 + 273.15;
-  return t.is * std::pow(tk / t0k, t.xti / t.n) *
+  return t.is * std::pow(tk / t0k, t.temp_exp / t.n) *
          std::exp(t.eg / (t.n * Vt(t.t0)) * (1 - t0k / tk));
 }
 

@@ -38,7 +38,7 @@ double TruthOf(const Truth& t, FitKey key) {
     case FitKey::kBandgap:
       return t.eg;
     case FitKey::kSatTempExp:
-      return t.xti;
+      return t.temp_exp;
   }
   return 0;
 }
@@ -48,7 +48,7 @@ double TruthOf(const Truth& t, FitKey key) {
 FitOptions OptionsFor(const Truth& t) {
   FitOptions o;
   o.model.bandgap = t.eg;
-  o.model.sat_temp_exp = t.xti;
+  o.model.sat_temp_exp = t.temp_exp;
   o.model.breakdown_i = t.ibr;
   o.model.ref_temp = t.t0;
   if (t.breakdown) o.held[static_cast<int>(FitKey::kBreakdownI)] = true;
