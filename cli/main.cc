@@ -156,13 +156,13 @@ int main(int argc, char** argv) {
   std::string fit_format = "table";
   CLI::App* fit = app.add_subcommand(
       "fit", "Diode part parameters from measured or datasheet points (docs/fit.md)");
-  fit->add_option("DATA", file, "Points: CSV with columns v, i [, temp, weight], or - for "
-                                "standard input")
+  fit->add_option("DATA", file,
+                  "Points: CSV with columns v, i [, temp, weight], or - for "
+                  "standard input")
       ->required();
   fit->add_option("--name", fit_options.name, "The part's name (default: the file's stem)")
       ->type_name("NAME");
-  fit->add_option("--fit", fit_options.fit,
-                  "The keys to fit (default: those the points determine)")
+  fit->add_option("--fit", fit_options.fit, "The keys to fit (default: those the points determine)")
       ->type_name("KEY,...");
   fit->add_option("--set", fit_options.sets, "Hold a part key at a value; repeatable")
       ->type_name("KEY=VALUE")

@@ -402,9 +402,11 @@ std::optional<UndeterminedKey> LooseKey(const FitResult& r) {
   return worst;
 }
 
-double HeldValue(FitKey key, const Params& start) {
+// Where an undetermined key is held: the value the caller's model gives it (the default,
+// for keys nobody wrote), or for breakdown_v, which has no default, its starting value.
+double HeldValue(FitKey key, const Params& start, const DiodeModel& given) {
   if (key == FitKey::kBreakdownV) return start[Index(key)];
-  return GetFitKey(DiodeModel{}, key);
+  return GetFitKey(given, key);
 }
 
 Diagnostic Undetermined(const FitData& data, FitKey key, const std::string& why) {
@@ -539,7 +541,7 @@ Result<FitResult> FitDiode(const FitData& given, const FitOptions& options) {
     std::string why;
     auto hold = [&](FitKey key, const std::string& reason) {
       s.free[Index(key)] = false;
-      const double value = HeldValue(key, start);
+      const double value = HeldValue(key, start, options.model);
       SetFitKey(&s.model, key, value);
       held.push_back({key, value, reason});
     };

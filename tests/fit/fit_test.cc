@@ -142,6 +142,35 @@ void CountCoverage(const Truth& truth, const Spec& spec, double low, double high
   }
 }
 
+// A fit stopped before it converges says so (the command's exit status 1), and the same
+// points fit when the iterations are allowed.
+TEST(Fit, StoppedEarlyIsNotConverged) {
+  const FitData data = MakeData(Truth{}, Spec{});
+  FitOptions o = OptionsFor(Truth{});
+  o.max_iterations = 1;
+  Result<FitResult> r = FitDiode(data, o);
+  ASSERT_TRUE(r.ok());
+  EXPECT_FALSE(r->converged);
+  o.max_iterations = 500;
+  r = FitDiode(data, o);
+  ASSERT_TRUE(r.ok());
+  EXPECT_TRUE(r->converged) << r->termination;
+}
+
+// Two temperatures fix one temperature key: sat_temp_exp is named and held, bandgap fitted.
+TEST(Fit, TwoTemperaturesDetermineOneTemperatureKey) {
+  Spec spec;
+  spec.temps = {25, 100};
+  Result<FitResult> r = FitDiode(MakeData(Truth{}, spec), OptionsFor(Truth{}));
+  ASSERT_TRUE(r.ok());
+  ASSERT_EQ(r->undetermined.size(), 1u);
+  EXPECT_EQ(r->undetermined[0].key, FitKey::kSatTempExp);
+  EXPECT_NE(r->undetermined[0].why.find("only together"), std::string::npos);
+  for (const FittedKey& k : r->keys) {
+    EXPECT_CLOSE(k.value, TruthOf(Truth{}, k.key), 1e-6, 0) << FitKeyName(k.key);
+  }
+}
+
 TEST(Coverage, ForwardOneTemperature) {
   Spec spec;
   spec.forward_per_temp = 30;
