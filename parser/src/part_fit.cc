@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 
 #include <cerrno>
+#include <cstdint>
 #include <cstring>
 #include <filesystem>
 #include <fstream>
@@ -15,6 +16,8 @@
 
 namespace knee {
 namespace {
+
+constexpr std::uintmax_t kMaxDataBytes = std::uintmax_t{64} << 20;
 
 Diagnostic At(const SourceLocation& where, std::string message, std::string hint = "") {
   Diagnostic d;
@@ -98,6 +101,17 @@ std::vector<Diagnostic> FitPartKeys(const std::string& netlist_file, const std::
     return {At(fit_where, fmt::format("part '{}': cannot read \"{}\": it is a folder, not a data "
                                       "file",
                                       part_name, shown))};
+  }
+  // Only a regular file of bounded size: a device or a pipe named here could block the read
+  // or never end it.
+  if (fs::exists(path, ec) && !fs::is_regular_file(path, ec)) {
+    return {At(fit_where, fmt::format("part '{}': cannot read \"{}\": it is not a regular file",
+                                      part_name, shown))};
+  }
+  if (fs::exists(path, ec) && fs::file_size(path, ec) > kMaxDataBytes) {
+    return {At(fit_where, fmt::format("part '{}': \"{}\" is larger than {} bytes; a data file "
+                                      "holds points, not a recording",
+                                      part_name, shown, kMaxDataBytes))};
   }
   std::ifstream in(path, std::ios::binary);
   if (!in) {

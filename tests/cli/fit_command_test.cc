@@ -219,5 +219,39 @@ TEST(FitCommand, BadDataInNetlistPointsAtTheFitAndTheDataFile) {
   std::remove(net.c_str());
 }
 
+TEST(FitCommand, FitSyntaxInNetlist) {
+  for (const auto& [text, message] :
+       {std::pair{"part P diode fit=data.csv\n", "expected a quoted file name after fit="},
+        std::pair{"part P diode fit=\"a.csv\" fit=\"b.csv\"\n", "fit= is given twice"},
+        std::pair{"part P diode fit=\"/dev/null\"\n", "it is not a regular file"}}) {
+    const KneeRun run =
+        RunKnee("check -", std::string(text) + "vsource V a -> gnd 1\n" + "diode D a -> gnd P\n");
+    EXPECT_EQ(run.status, 2) << text;
+    EXPECT_NE(run.err.find(message), std::string::npos) << run.err;
+  }
+}
+
+TEST(FitCommand, StandardInputAndChart) {
+  const std::string svg = TempPath("fit.svg");
+  const KneeRun run = RunKnee("fit - --name D9 --plot " + svg, ReadWhole(Netlist("rx1a60-iv.csv")));
+  ASSERT_EQ(run.status, 0) << run.err;
+  EXPECT_EQ(run.out.rfind("part D9 diode ", 0), 0u);
+  const std::string chart = ReadWhole(svg);
+  EXPECT_NE(chart.find("forward: v against |i|"), std::string::npos);
+  EXPECT_NE(chart.find("reverse: |v| against |i|"), std::string::npos);
+  EXPECT_NE(chart.find("error of the model's current"), std::string::npos);
+  EXPECT_NE(chart.find("class=\"curve\""), std::string::npos);
+  std::size_t circles = 0;
+  for (std::size_t at = chart.find("class=\"point\""); at != std::string::npos;
+       at = chart.find("class=\"point\"", at + 1)) {
+    ++circles;
+  }
+  EXPECT_EQ(circles, 12u);  // every point drawn
+  std::remove(svg.c_str());
+  const KneeRun bad_name = RunKnee("fit - --name 9x", ReadWhole(Netlist("rx1a60-iv.csv")));
+  EXPECT_EQ(bad_name.status, 2);
+  EXPECT_NE(bad_name.err.find("--name: '9x' is not a part name"), std::string::npos);
+}
+
 }  // namespace
 }  // namespace knee::testing
