@@ -35,6 +35,7 @@ constexpr FitKey kHoldOrder[] = {
 // Singular values of the column-scaled Jacobian below this share of the largest mean a
 // direction of the keys that moves no point: those keys are not determined separately.
 constexpr double kRankTolerance = 1e-9;
+constexpr double kLooseRankTolerance = 1e-6;
 // A log-space key whose 95 % interval spans more than this factor either way is not
 // determined by the points.
 constexpr double kLogSpanLimit = 10.0;
@@ -122,7 +123,8 @@ bool Jacobian(const Setup& s, const Params& x, Eigen::MatrixXd* j) {
 }
 
 // A free key that moves no point independently of the others, or nullopt. `why` says how.
-std::optional<FitKey> DependentKey(const Setup& s, const Params& x, std::string* why) {
+std::optional<FitKey> DependentKey(const Setup& s, const Params& x, std::string* why,
+                                   double tolerance = kRankTolerance) {
   const std::vector<FitKey> keys = FreeKeys(s);
   if (keys.empty()) return std::nullopt;
   Eigen::MatrixXd j;
@@ -139,7 +141,7 @@ std::optional<FitKey> DependentKey(const Setup& s, const Params& x, std::string*
   const Eigen::VectorXd sv = svd.singularValues();
   const Eigen::Index last = static_cast<Eigen::Index>(keys.size()) - 1;
   const bool short_rows = j.rows() < j.cols();
-  if (!short_rows && sv(last) > kRankTolerance * sv(0)) return std::nullopt;
+  if (!short_rows && sv(last) > tolerance * sv(0)) return std::nullopt;
   const Eigen::VectorXd null = svd.matrixV().col(last);
   const double biggest = null.cwiseAbs().maxCoeff();
   std::vector<FitKey> involved;
@@ -556,6 +558,19 @@ Result<FitResult> FitDiode(const FitData& given, const FitOptions& options) {
     if (std::optional<FitKey> key = DependentKey(s, solved.x, &why)) {
       if (s.explicit_keys) return Undetermined(data, *key, why);
       hold(*key, why);
+      continue;
+    }
+    // Ceres refuses the covariance of a nearly dependent set of keys that the test above let
+    // pass: the most dependent key is then held as well, under a looser test.
+    if (!solved.covariance_ok && n_points > static_cast<int>(FreeKeys(s).size())) {
+      std::optional<FitKey> key = DependentKey(s, solved.x, &why, kLooseRankTolerance);
+      for (FitKey k : kHoldOrder) {
+        if (!key && s.free[Index(k)]) key = k;
+      }
+      why = "the points fix it only together with other keys (no covariance)";
+      if (s.explicit_keys) return Undetermined(data, *key, why);
+      hold(*key, why);
+      if (FreeKeys(s).empty()) break;
       continue;
     }
     FitResult result = MakeResult(s, solved, held);
