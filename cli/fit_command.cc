@@ -231,7 +231,7 @@ int RunFit(const std::string& file, const FitCommandOptions& options) {
   for (const FittedPoint& p : fitted->points) temps.insert(p.measured.temp);
   report.temperatures.assign(temps.begin(), temps.end());
   const std::string name = options.name.empty() ? PartNameFromFile(file) : options.name;
-  report.part_line = FitPartLine(name, *fitted, *fit_options, temps.size() > 1);
+  report.part_line = FitPartLine(name, *fitted, *fit_options, temps.size() > 1, options.sets);
   for (const FittedKey& k : fitted->keys) {
     report.line_values.push_back(ReadFitLiteral(FitValueLiteral(k.key, k.value)));
   }

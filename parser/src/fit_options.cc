@@ -113,37 +113,35 @@ double ReadFitLiteral(const std::string& literal) {
 }
 
 std::string FitPartLine(const std::string& name, const FitResult& result, const FitOptions& options,
-                        bool several_temperatures) {
+                        bool several_temperatures, const std::vector<std::string>& sets) {
   const DiodeModel& m = result.model;
-  const DiodeModel defaults;
   std::string line = fmt::format("part {} diode", name);
   for (const std::string& key : PartKeyNames()) {
     const std::optional<FitKey> fk = FindFitKey(key);
-    bool fitted = false;
-    for (const FittedKey& k : result.keys) fitted |= fk && k.key == *fk;
-    const bool held = fk && options.held[static_cast<int>(*fk)];
-    double value = 0;
-    std::optional<double> maybe;
-    bool show = fitted || held;
-    if (fk) {
-      value = GetFitKey(m, *fk);
-      const bool breakdown_key = *fk == FitKey::kBreakdownV || *fk == FitKey::kBreakdownI ||
-                                 *fk == FitKey::kBreakdownIdeality;
-      show |= *fk == FitKey::kSatCurrent || *fk == FitKey::kIdeality;
-      show |= *fk == FitKey::kSeriesRes && m.series_res != 0;
-      show |= breakdown_key && m.breakdown_v.has_value();
-      show |= *fk == FitKey::kBreakdownTc && m.breakdown_v && (several_temperatures || value != 0);
-      show |= (*fk == FitKey::kBandgap || *fk == FitKey::kSatTempExp) && several_temperatures;
-    } else {
-      if (key == "ref_temp")
-        maybe = m.ref_temp != defaults.ref_temp ? std::optional(m.ref_temp) : std::nullopt;
-      if (key == "max_current") maybe = m.max_current;
-      if (key == "max_reverse_v") maybe = m.max_reverse_v;
-      if (key == "max_power") maybe = m.max_power;
-      if (!maybe) continue;
-      value = *maybe;
-      show = true;
+    if (!fk) {
+      // Keys no fit touches (ratings, ref_temp, any later key) as the user wrote them.
+      std::string written;
+      for (const std::string& set : sets) {
+        const std::size_t eq = set.find('=');
+        if (eq != std::string::npos && Trim(std::string_view(set).substr(0, eq)) == key) {
+          written = std::string(Trim(std::string_view(set).substr(eq + 1)));
+        }
+      }
+      if (!written.empty()) line += fmt::format(" {}={}", key, written);
+      continue;
     }
+    bool fitted = false;
+    for (const FittedKey& k : result.keys) fitted |= k.key == *fk;
+    const bool held = options.held[static_cast<int>(*fk)];
+    const double value = GetFitKey(m, *fk);
+    const bool breakdown_key = *fk == FitKey::kBreakdownV || *fk == FitKey::kBreakdownI ||
+                               *fk == FitKey::kBreakdownIdeality;
+    bool show = fitted || held;
+    show |= *fk == FitKey::kSatCurrent || *fk == FitKey::kIdeality;
+    show |= *fk == FitKey::kSeriesRes && m.series_res != 0;
+    show |= breakdown_key && m.breakdown_v.has_value();
+    show |= *fk == FitKey::kBreakdownTc && m.breakdown_v && (several_temperatures || value != 0);
+    show |= (*fk == FitKey::kBandgap || *fk == FitKey::kSatTempExp) && several_temperatures;
     if (!show) continue;
     // Fitted keys at kFitDigits significant digits (fit= reads the same text); every other
     // key exactly as held (shortest text that reads back to the same number).

@@ -183,11 +183,13 @@ TEST(FitCommand, WrittenKeysBesideFitAreHeld) {
   const std::string held =
       WriteTemp("held.knee", "part rx1a60 diode fit=\"" + Netlist("rx1a60-iv.csv") +
                                  "\" series_res=0.1\n" + Circuit());
-  const KneeRun fit = RunKnee("fit " + Netlist("rx1a60-iv.csv") +
-                              " --name rx1a60 --set series_res=0.1 --format json");
+  const KneeRun fit =
+      RunKnee("fit " + Netlist("rx1a60-iv.csv") +
+              " --name rx1a60 --set series_res=0.1 --set max_current=1.5 --format json");
   ASSERT_EQ(fit.status, 0) << fit.err;
   const std::string line = nlohmann::json::parse(fit.out)["part"];
-  EXPECT_NE(line.find("series_res=0.1"), std::string::npos) << line;
+  EXPECT_NE(line.find("series_res=0.1 "), std::string::npos) << line;
+  EXPECT_NE(line.find(" max_current=1.5"), std::string::npos) << line;  // as written
   const std::string pasted = WriteTemp("pasted2.knee", line + "\n" + Circuit());
   const KneeRun a = RunKnee("bias " + pasted + " --format json");
   const KneeRun b = RunKnee("bias " + held + " --format json");

@@ -23,11 +23,12 @@ Result<FitData> ReadFitData(std::string_view text, const std::string& file_name)
 Result<FitOptions> MakeFitOptions(const std::string& fit_keys,
                                   const std::vector<std::string>& sets);
 
-// The keys of `model` a printed part line carries after a fit: every fitted and every held
-// key, the breakdown keys when the part has breakdown, the temperature keys when the points
-// span temperatures, the ratings and ref_temp when given. In part-key table order.
+// The part line printed after a fit: every fitted and every held key, the breakdown keys
+// when the part has breakdown, the temperature keys when the points span temperatures, and
+// the keys no fit touches (ratings, ref_temp) as written in `sets` (KEY=VALUE). In
+// part-key table order.
 std::string FitPartLine(const std::string& name, const FitResult& result, const FitOptions& options,
-                        bool several_temperatures);
+                        bool several_temperatures, const std::vector<std::string>& sets);
 
 // Reads a literal of FitValueLiteral back as the netlist does.
 double ReadFitLiteral(const std::string& literal);
