@@ -263,6 +263,9 @@ void DefaultKeys(const FitData& data, const FitOptions& options, Setup* s) {
     if (!options.held[Index(key)]) s->free[Index(key)] = true;
   };
   if (forward >= 2) want(FitKey::kSatCurrent), want(FitKey::kIdeality);
+  // One forward point fixes one of the two when the other is held.
+  if (forward == 1 && options.held[Index(FitKey::kIdeality)]) want(FitKey::kSatCurrent);
+  if (forward == 1 && options.held[Index(FitKey::kSatCurrent)]) want(FitKey::kIdeality);
   if (forward >= 3) want(FitKey::kSeriesRes);
   if (forward_temps.size() >= 2) want(FitKey::kBandgap), want(FitKey::kSatTempExp);
   (void)reverse;

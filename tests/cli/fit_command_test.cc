@@ -150,6 +150,20 @@ TEST(FitCommand, ExactlyDeterminedIsSaidSo) {
   std::remove(path.c_str());
 }
 
+// One forward point and a held ideality fix sat_current: I = Is*(exp(V/(n*Vt)) - 1).
+TEST(FitCommand, OnePointWithIdealityHeld) {
+  const std::string path = WriteTemp("one.csv", "v,i\n0.65,10m\n");
+  const KneeRun run = RunKnee("fit " + path + " --set ideality=1.5 --format json");
+  ASSERT_EQ(run.status, 0) << run.err;
+  const auto j = nlohmann::json::parse(run.out);
+  const double vt = 1.380649e-23 * 298.15 / 1.602176634e-19;
+  EXPECT_NEAR(
+      j["keys"]["sat_current"]["value"].get<double>() / (10e-3 / std::expm1(0.65 / (1.5 * vt))),
+      1.0, 1e-7);
+  EXPECT_TRUE(j["exact"].get<bool>());
+  std::remove(path.c_str());
+}
+
 std::string Circuit() {
   return "vsource V1 in -> gnd 5\n"
          "resistor R1 in -> a 4R7\n"
