@@ -165,6 +165,11 @@ bool PointResidual(const Params& x, bool breakdown, double ref_temp, const FitPo
   const double damp = 1 + law.rs * at.slope;
   for (int k = 0; k < kFitKeyCount; ++k) (*gradient)[k] = sw * partial[k] / damp / i;
   (*gradient)[Index(FitKey::kSeriesRes)] = sw * (-at.slope * i / damp) / i;
+  // An overflowing exponential far from the data (a trial step of the solver) is a failed
+  // evaluation, which the solver answers with a shorter step, not a value to use.
+  for (double d : *gradient) {
+    if (!std::isfinite(d)) return false;
+  }
   return std::isfinite(*residual);
 }
 
