@@ -94,9 +94,11 @@ std::string WriteFitTable(const FitReport& r) {
   out += fmt::format("fit of {}: {} points at {}, {} key{} fitted", r.file, f.points.size(),
                      TemperatureList(r.temperatures), f.keys.size(), f.keys.size() == 1 ? "" : "s");
   if (f.exact) {
-    out +=
-        "; exactly determined (as many points as keys): the part passes through every point "
-        "and the data leave no degree of freedom for an uncertainty\n";
+    out += f.uncertainty_from_digits
+               ? "; exactly determined (as many points as keys): the part passes through every "
+                 "point, and the uncertainty shown is that of the voltages' written digits alone\n"
+               : "; exactly determined (as many points as keys): the part passes through every "
+                 "point and the data leave no degree of freedom for an uncertainty\n";
   } else {
     out += fmt::format(", {} degrees of freedom; rms of ln(I_model/I) {:.3g} ({:.3g} %)\n",
                        f.degrees_of_freedom, f.residual_rms, 100 * f.residual_rms);
@@ -140,6 +142,9 @@ std::string WriteFitJson(const FitReport& r) {
   j["part"] = r.part_line;
   j["exact"] = f.exact;
   j["degrees_of_freedom"] = f.degrees_of_freedom;
+  j["uncertainty_from"] = !f.exact                    ? "scatter"
+                          : f.uncertainty_from_digits ? "written_digits"
+                                                      : "none";
   j["residual_rms"] = f.residual_rms;
   j["temperatures"] = r.temperatures;
   j["keys"] = nlohmann::ordered_json::object();

@@ -7,6 +7,7 @@
 
 #include <Eigen/Dense>
 #include <algorithm>
+#include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/students_t.hpp>
 #include <cmath>
 #include <cstdlib>
@@ -316,6 +317,23 @@ SourceLocation LastRow(const FitData& data) {
   return where;
 }
 
+// The mean variance of the residuals that rounding the voltages to their written digits
+// gives: a uniform error of half-width d has variance d^2/3, and moves ln I by d times the
+// law's slope dlnI/dV = G / (I * (1 + rs*G)) at the point. 0 when no cell has digits.
+double DigitsVariance(const Setup& s, const Params& x) {
+  double sum = 0;
+  for (const FitPoint& p : s.data->points) {
+    if (!(p.v_resolution > 0)) return 0;
+    const fit_internal::PointLaw law(x, s.breakdown, p.temp, s.model.ref_temp);
+    const fit_internal::PointLaw::At at = law.Evaluate(law.JunctionAt(p.v));
+    const double slope = std::fabs(at.slope / (at.current * (1 + law.rs * at.slope)));
+    const double var = p.weight * (p.v_resolution * slope) * (p.v_resolution * slope) / 3;
+    if (!std::isfinite(var)) return 0;
+    sum += var;
+  }
+  return sum / static_cast<double>(s.data->points.size());
+}
+
 FitResult MakeResult(const Setup& s, const Solved& solved, std::vector<UndeterminedKey> held) {
   FitResult r;
   r.model = fit_internal::FromParams(solved.x, s.model, s.breakdown);
@@ -341,13 +359,20 @@ FitResult MakeResult(const Setup& s, const Solved& solved, std::vector<Undetermi
     const boost::math::students_t dist(r.degrees_of_freedom);
     t = boost::math::quantile(boost::math::complement(dist, (1 - kConfidence) / 2));
     s2 = solved.ssr / r.degrees_of_freedom;
+  } else if (const double digits = DigitsVariance(s, solved.x); digits > 0) {
+    // An exact fit leaves no scatter to measure, but the voltages were written to some
+    // digits: that rounding, a known scale, is the uncertainty (normal quantile).
+    s2 = digits;
+    t = boost::math::quantile(
+        boost::math::complement(boost::math::normal(), (1 - kConfidence) / 2));
+    r.uncertainty_from_digits = true;
   }
   for (size_t c = 0; c < keys.size(); ++c) {
     FittedKey k;
     k.key = keys[c];
     const double theta = solved.x[Index(k.key)];
     k.value = IsLogKey(k.key) ? std::exp(theta) : theta;
-    if (r.degrees_of_freedom > 0 && solved.covariance_ok) {
+    if (s2 > 0 && solved.covariance_ok) {
       const auto i = static_cast<Eigen::Index>(c);
       const double se = std::sqrt(std::max(0.0, s2 * solved.covariance(i, i)));
       if (IsLogKey(k.key)) {

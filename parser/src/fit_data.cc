@@ -216,6 +216,34 @@ std::optional<double> ReadCell(const FileName& file, int line, const Cell& c,
   return value * spec.scale;
 }
 
+// Half a unit of the last digit written in a number cell ("0.652" -> 0.0005, "652m" ->
+// 0.0005, "1.5e-1" -> 0.005), in the cell's own units: the text with its last mantissa digit
+// moved by one, read again.
+double HalfLastDigit(std::string_view text, double value) {
+  std::size_t end = text.size();
+  for (std::size_t k = 1; k + 1 < text.size(); ++k) {
+    const bool mark = text[k] == 'e' || text[k] == 'E';
+    const bool before = (text[k - 1] >= '0' && text[k - 1] <= '9') || text[k - 1] == '.';
+    const char next = text[k + 1];
+    const bool after = (next >= '0' && next <= '9') || next == '-' || next == '+';
+    if (mark && before && after) {
+      end = k;
+      break;
+    }
+  }
+  std::size_t last = std::string::npos;
+  for (std::size_t k = 0; k < end; ++k) {
+    if (text[k] >= '0' && text[k] <= '9') last = k;
+  }
+  if (last == std::string::npos) return 0;
+  std::string moved(text);
+  moved[last] = moved[last] == '9' ? '8' : static_cast<char>(moved[last] + 1);
+  NumberLiteral literal;
+  NumberError error;
+  if (!ParseNumber(moved, &literal, &error)) return 0;
+  return 0.5 * std::fabs(literal.value - value);
+}
+
 }  // namespace
 
 Result<FitData> ReadFitData(std::string_view text, const std::string& file_name) {
@@ -274,9 +302,15 @@ Result<FitData> ReadFitData(std::string_view text, const std::string& file_name)
       }
       const SourceLocation where = At(file, line_number, cells[k]);
       switch (header.columns[k].kind) {
-        case Column::kV:
+        case Column::kV: {
           p.v = *v, p.v_where = where;
+          NumberLiteral literal;
+          NumberError error;
+          if (ParseNumber(cells[k].text, &literal, &error)) {
+            p.v_resolution = HalfLastDigit(cells[k].text, literal.value) * header.columns[k].scale;
+          }
           break;
+        }
         case Column::kI:
           p.i = *v, p.i_where = where;
           break;

@@ -143,7 +143,12 @@ TEST(FitCommand, ExactlyDeterminedIsSaidSo) {
   const KneeRun json = RunKnee("fit " + path + " --format json");
   const auto j = nlohmann::json::parse(json.out);
   EXPECT_TRUE(j["exact"].get<bool>());
-  EXPECT_TRUE(j["keys"]["ideality"]["std_error"].is_null());
+  // No scatter to measure: the uncertainty is that of the voltages' two decimals (+-5 mV,
+  // uniform): se(n) = sqrt(2) * 5 mV / sqrt(3) / (Vt ln 10) by the two-point rule.
+  EXPECT_EQ(j["uncertainty_from"], "written_digits");
+  const double vt0 = 1.380649e-23 * 298.15 / 1.602176634e-19;
+  EXPECT_NEAR(j["keys"]["ideality"]["std_error"].get<double>(),
+              std::sqrt(2.0) * 5e-3 / std::sqrt(3.0) / (vt0 * std::log(10.0)), 2e-3);
   // Two points 100 mV apart over a decade: n = 0.1 / (Vt ln 10) (the two-point rule).
   const double vt = 1.380649e-23 * 298.15 / 1.602176634e-19;
   EXPECT_NEAR(j["keys"]["ideality"]["value"].get<double>(), 0.1 / (vt * std::log(10.0)), 1e-6);

@@ -43,6 +43,9 @@ struct FitPoint {
   double i = 0;       // A
   double temp = 25;   // degC
   double weight = 1;  // relative weight of the point's residual (> 0)
+  // Half a unit of the last digit written in the v cell (0: unknown, e.g. computed points):
+  // the precision of a datasheet or meter reading, the uncertainty of an exact fit.
+  double v_resolution = 0;                                    // V
   SourceLocation v_where, i_where, temp_where, weight_where;  // the cells
 };
 
@@ -99,8 +102,10 @@ struct FitResult {
   bool exact = false;               // as many points as fitted keys
   int degrees_of_freedom = 0;       // points - fitted keys
   double residual_rms = 0;          // root mean square of ln(I_model / I) (weighted)
-  int iterations = 0;               // Levenberg-Marquardt iterations of the last fit
-  std::string termination;          // Ceres' account of how the last fit ended
+  // An exact fit's uncertainty is that of the voltages' written digits (none when unknown).
+  bool uncertainty_from_digits = false;
+  int iterations = 0;       // Levenberg-Marquardt iterations of the last fit
+  std::string termination;  // Ceres' account of how the last fit ended
 };
 
 // Checks the points (docs/fit.md, "Data the fit refuses") and fits. Bad data, and keys the
