@@ -8,6 +8,7 @@
 #include <string>
 
 #include "commands.h"
+#include "fit_command.h"
 #include "options.h"
 #include "output.h"
 #include "version.h"
@@ -193,6 +194,30 @@ int main(int argc, char** argv) {
     }
   }
 
+  // knee fit DATA.csv (cli.md, "knee fit"): its own options, no netlist.
+  knee::cli::FitCommandOptions fit_options;
+  std::string fit_format = "table";
+  CLI::App* fit = app.add_subcommand(
+      "fit", "Diode part parameters from measured or datasheet points (docs/fit.md)");
+  fit->add_option("DATA", file,
+                  "Points: CSV with columns v, i [, temp, weight], or - for "
+                  "standard input")
+      ->required();
+  fit->add_option("--name", fit_options.name, "The part's name (default: the file's stem)")
+      ->type_name("NAME");
+  fit->add_option("--fit", fit_options.fit, "The keys to fit (default: those the points determine)")
+      ->type_name("KEY,...");
+  fit->add_option("--set", fit_options.sets, "Hold a part key at a value; repeatable")
+      ->type_name("KEY=VALUE")
+      ->allow_extra_args(false);
+  fit->add_option("--format", fit_format, "Report format")
+      ->check(CLI::IsMember({"table", "csv", "json"}))
+      ->type_name("table|csv|json");
+  fit->add_option("--out", fit_options.out_path, "Write the report to PATH")->type_name("PATH");
+  fit->add_option("--plot", fit_options.plot_path, "Also draw the points, curve and errors")
+      ->type_name("PATH.svg");
+  fit->add_flag("--quiet", fit_options.quiet, "No notes on standard error");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -204,6 +229,10 @@ int main(int argc, char** argv) {
                "--help lists a command's options\n",
                UsageMessage(e.what()));
     return 2;
+  }
+  if (fit->parsed()) {
+    fit_options.format = ParseFormat(fit_format);
+    return knee::cli::RunFit(file, fit_options);
   }
   options.format = ParseFormat(format);
   for (const Command& c : commands) {

@@ -45,6 +45,8 @@ std::string TooLarge(const std::string& file, const std::string& size) {
                      file == "-" ? "<stdin>" : file, size, kMaxFileBytes);
 }
 
+}  // namespace
+
 std::optional<std::string> ReadSource(const std::string& file, std::string* problem) {
   std::string text;
   if (file == "-") {
@@ -90,8 +92,6 @@ std::optional<std::string> ReadSource(const std::string& file, std::string* prob
   }
   return text;
 }
-
-}  // namespace
 
 SourceLocation OptionLocation(const std::string& option) {
   SourceLocation where;

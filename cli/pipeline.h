@@ -28,6 +28,9 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
 std::optional<std::vector<QuantityExpr>> ResolveShow(const LoadedDesign& loaded,
                                                      const AnalysisOptions& options);
 
+// The whole text of `file` ("-" = standard input); nothing and *problem on failure.
+std::optional<std::string> ReadSource(const std::string& file, std::string* problem);
+
 // Prints diagnostics with the source lines quoted.
 void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, const std::string& source);
 // Diagnostics of command-line text located at OptionLocation: printed with the program's

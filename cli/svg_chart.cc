@@ -15,55 +15,15 @@ namespace {
 // Our palette: strong, distinguishable hues that survive grey-scale printing in order.
 constexpr const char* kColours[] = {"#1f5fa6", "#c8452c", "#2a8c5a", "#8a4fb0",
                                     "#d08a12", "#2394a8", "#7a5230", "#b8336a"};
+}  // namespace
+
+const char* ChartColour(std::size_t index) { return kColours[index % std::size(kColours)]; }
+
+namespace {
 constexpr int kLeft = 86;
 constexpr int kRight = 220;  // room for the legend
 constexpr int kTop = 62;
 constexpr int kGap = 46;
-
-struct Axis {
-  double lo = 0, hi = 1;
-  bool log = false;
-  double Map(double v, double pixel_lo, double pixel_hi) const {
-    double a = log ? std::log10(v) : v;
-    double l = log ? std::log10(lo) : lo;
-    double h = log ? std::log10(hi) : hi;
-    return pixel_lo + (a - l) / (h - l) * (pixel_hi - pixel_lo);
-  }
-  std::vector<double> Ticks() const {
-    if (!log) return LinearTicks(lo, hi, 6);
-    std::vector<double> ticks;
-    int first = static_cast<int>(std::ceil(std::log10(lo) - 1e-9));
-    int last = static_cast<int>(std::floor(std::log10(hi) + 1e-9));
-    int stride = std::max(1, (last - first + 1) / 8);
-    for (int e = first; e <= last; e += stride) ticks.push_back(std::pow(10.0, e));
-    return ticks;
-  }
-};
-
-Axis FitAxis(double lo, double hi, bool log) {
-  Axis axis;
-  axis.log = log;
-  if (!(lo <= hi)) {  // no finite data
-    lo = log ? 1e-12 : 0;
-    hi = log ? 1 : 1;
-  }
-  if (log) {
-    axis.lo = std::pow(10.0, std::floor(std::log10(lo)));
-    axis.hi = std::pow(10.0, std::ceil(std::log10(hi)));
-    if (axis.hi <= axis.lo) axis.hi = axis.lo * 10;
-    return axis;
-  }
-  if (hi == lo) {
-    const double pad = lo == 0 ? 1 : std::fabs(lo) * 0.1;
-    lo -= pad;
-    hi += pad;
-  }
-  std::vector<double> ticks = LinearTicks(lo, hi, 6);
-  const double step = ticks.size() > 1 ? ticks[1] - ticks[0] : (hi - lo);
-  axis.lo = std::floor(lo / step + 1e-9) * step;
-  axis.hi = std::ceil(hi / step - 1e-9) * step;
-  return axis;
-}
 
 // The shared x axis over the inner values [lo, hi] (the finite ones; > 0 on a log axis).
 Axis XAxis(double lo, double hi, bool log) {
@@ -184,6 +144,48 @@ class ThinPath {
 };
 
 }  // namespace
+
+double Axis::Map(double v, double pixel_lo, double pixel_hi) const {
+  double a = log ? std::log10(v) : v;
+  double l = log ? std::log10(lo) : lo;
+  double h = log ? std::log10(hi) : hi;
+  return pixel_lo + (a - l) / (h - l) * (pixel_hi - pixel_lo);
+}
+
+std::vector<double> Axis::Ticks() const {
+  if (!log) return LinearTicks(lo, hi, 6);
+  std::vector<double> ticks;
+  int first = static_cast<int>(std::ceil(std::log10(lo) - 1e-9));
+  int last = static_cast<int>(std::floor(std::log10(hi) + 1e-9));
+  int stride = std::max(1, (last - first + 1) / 8);
+  for (int e = first; e <= last; e += stride) ticks.push_back(std::pow(10.0, e));
+  return ticks;
+}
+
+Axis FitAxis(double lo, double hi, bool log) {
+  Axis axis;
+  axis.log = log;
+  if (!(lo <= hi)) {  // no finite data
+    lo = log ? 1e-12 : 0;
+    hi = log ? 1 : 1;
+  }
+  if (log) {
+    axis.lo = std::pow(10.0, std::floor(std::log10(lo)));
+    axis.hi = std::pow(10.0, std::ceil(std::log10(hi)));
+    if (axis.hi <= axis.lo) axis.hi = axis.lo * 10;
+    return axis;
+  }
+  if (hi == lo) {
+    const double pad = lo == 0 ? 1 : std::fabs(lo) * 0.1;
+    lo -= pad;
+    hi += pad;
+  }
+  std::vector<double> ticks = LinearTicks(lo, hi, 6);
+  const double step = ticks.size() > 1 ? ticks[1] - ticks[0] : (hi - lo);
+  axis.lo = std::floor(lo / step + 1e-9) * step;
+  axis.hi = std::ceil(hi / step - 1e-9) * step;
+  return axis;
+}
 
 std::vector<double> LinearTicks(double lo, double hi, int target) {
   std::vector<double> ticks;

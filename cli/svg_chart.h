@@ -2,6 +2,7 @@
 // of outer sweep values, engineering tick labels, log axes where asked for.
 #pragma once
 
+#include <cstddef>
 #include <string>
 #include <vector>
 
@@ -63,6 +64,19 @@ class ChartSample {
   std::vector<std::vector<double>> rows_;
   std::vector<char> over_;
 };
+
+// One axis of a chart: a range, linear or logarithmic (base 10).
+struct Axis {
+  double lo = 0, hi = 1;
+  bool log = false;
+  // The pixel of value v when lo..hi spans pixel_lo..pixel_hi.
+  double Map(double v, double pixel_lo, double pixel_hi) const;
+  std::vector<double> Ticks() const;  // nice linear steps, or the decades of a log axis
+};
+// An axis over [lo, hi] widened to nice ticks (whole decades when logarithmic).
+Axis FitAxis(double lo, double hi, bool log);
+// The charts' palette, in order (repeats after eight).
+const char* ChartColour(std::size_t index);
 
 // "Nice" tick positions for a linear axis over [lo, hi] (about `target` ticks, steps of
 // 1, 2 or 5 times a power of ten).

@@ -19,6 +19,7 @@
 #include "knee/netlist.h"
 #include "lexer.h"
 #include "numbers.h"
+#include "part_fit.h"
 #include "part_keys.h"
 #include "ranges.h"
 #include "syntax.h"
@@ -803,10 +804,17 @@ class Elaborator {
         auto over = part_overrides_.find({static_cast<int>(i), k.key});
         if (over == part_overrides_.end()) SetKey(&part, *info, k.value, "");
       }
+      std::vector<std::string> written;
       for (const auto& [key, value] : part_overrides_) {
         if (key.first != static_cast<int>(i)) continue;
         SetKey(&part, *FindPartKey(key.second), *value,
                fmt::format("--set {}.{}={}", s.name, key.second, value->text));
+        written.push_back(key.second);
+      }
+      if (s.fit_file) {
+        for (const auto& [key, stmt] : given) written.push_back(key);
+        Take(FitPartKeys(file_, *s.fit_file, ToLocation(file_, s.fit_span), s.name, written,
+                         &part.model));
       }
       circuit->parts.push_back(std::move(part));
     }

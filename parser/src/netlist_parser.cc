@@ -301,10 +301,33 @@ class StatementParser {
       PartKeyStmt key;
       if (!TakeName("a part key", &key.key, &key.key_span)) return false;
       if (!TakeEquals(fmt::format("the part key '{}'", key.key))) return false;
+      if (key.key == "fit") {
+        if (!TakeFitFile(key.key_span, &part)) return false;
+        continue;
+      }
       if (!TakeValue(fmt::format("a value for {}", key.key), &key.value)) return false;
       part.keys.push_back(std::move(key));
     }
     data_->parts.push_back(std::move(part));
+    return true;
+  }
+
+  // fit="FILE": a quoted file name, once per part.
+  bool TakeFitFile(const Span& key_span, PartStmt* part) {
+    const Token t = scanner_.NextWord();
+    if (t.kind != Tok::kString) {
+      return Error(t, fmt::format("expected a quoted file name after fit= but found {}", Quote(t)),
+                   "write for example fit=\"rect-iv.csv\"");
+    }
+    if (part->fit_file) {
+      Error(key_span, fmt::format("fit= is given twice in part '{}'", part->name));
+      errors_->back().notes.push_back(
+          {ToLocation(data_->file_name, part->fit_span), "the first fit= is here"});
+      return false;
+    }
+    if (t.text.empty()) return Error(t, "fit= names no file", "write fit=\"FILE.csv\"");
+    part->fit_file = std::string(t.text);
+    part->fit_span = key_span;
     return true;
   }
 

@@ -71,6 +71,10 @@ struct PartStmt {
   std::string name;
   Span name_span;
   std::vector<PartKeyStmt> keys;
+  // fit="FILE" (netlist-format.md, "Parts from data"): the data file as written, and the
+  // place of the word 'fit' (a failed fit is reported there).
+  std::optional<std::string> fit_file;
+  Span fit_span;
 };
 
 // An element statement. What only some kinds have lives in side arrays of NetlistData (a
