@@ -9,8 +9,10 @@
 #include <string>
 #include <vector>
 
+#include "adjoint.h"
 #include "check.h"
 #include "klu_solver.h"
+#include "knee/sensitivity.h"
 #include "knee/solver.h"
 #include "linear_refine.h"
 #include "mna.h"
@@ -197,6 +199,10 @@ struct BiasSolver::Impl {
   double junction_span = 0.0;  // V, JunctionSpan(circuit)
   bool trace_on = false;
   std::vector<NewtonStepRecord> trace;
+  // Whether the last Solve() converged (Sensitivity() differentiates only that point),
+  // and the adjoint method's buffers, made on first use.
+  bool last_converged = false;
+  std::unique_ptr<internal::AdjointWorkspace> adjoint;
 
   Impl(const Circuit& c, const SolverOptions& o)
       : circuit(&c),
@@ -265,6 +271,7 @@ struct BiasSolver::Impl {
     Verify(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
+    last_converged = s->status == SolveStatus::kConverged;
   }
   void Fill(Solution* solution) const;
   // The MNA system (and everything that holds its pattern) built anew: with each island
@@ -676,6 +683,7 @@ BiasSolver::~BiasSolver() = default;
 
 void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
+  m.last_converged = false;  // the last solution is not one of these values
   // Neither classification depends on the value of a voltage source, except through its
   // finiteness: a sweep of a supply skips both (a max-flow over the network per point).
   // The first update has nothing to compare with and classifies again.
@@ -704,6 +712,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
 SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start, bool allow_aids) {
   Impl& m = *impl_;
   m.trace.clear();
+  m.last_converged = false;
   if (m.rerooted) {
     m.Rebuild({});
     m.rerooted = false;
@@ -797,6 +806,19 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
   m.factors_exact = m.newton.exact_factors();
   m.Conclude(&s, solution);
   return s;
+}
+
+Status BiasSolver::Sensitivity(std::span<const WeightedQuantity> quantity,
+                               CircuitGradient* gradient) {
+  Impl& m = *impl_;
+  if (!m.last_converged || m.converged.size() != m.x.size()) {
+    return MessageOnly("no converged solution to differentiate");
+  }
+  if (!m.adjoint) m.adjoint = std::make_unique<internal::AdjointWorkspace>();
+  std::string problem = internal::ComputeSensitivity(*m.circuit, m.mna, m.klu, m.factors_exact,
+                                                     m.converged, quantity, *m.adjoint, gradient);
+  if (!problem.empty()) return MessageOnly(std::move(problem));
+  return Done{};
 }
 
 std::span<const double> BiasSolver::unknowns() const { return impl_->converged; }

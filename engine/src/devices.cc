@@ -10,6 +10,7 @@
 #include <utility>
 
 #include "check.h"
+#include "diode_sensitivity.h"
 #include "knee/co_content.h"
 
 namespace knee::internal {
@@ -141,6 +142,20 @@ class Conductance {
       ctx.AddPlainBranch(i, terms, a_, b_);
     }
   }
+  // w . v for v in the solver's coordinates of rows (an adjoint vector; x itself holds
+  // plain node voltages, whose difference is At(x, a) - At(x, b)).
+  double Dot(std::span<const double> v) const {
+    if (island_) {
+      const Incidence& w = island_->w;
+      double s = 0.0;
+      for (int k = 0; k < w.count; ++k) {
+        s += w.coef[static_cast<size_t>(k)] *
+             v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
+      }
+      return s;
+    }
+    return At(v, a_) - At(v, b_);
+  }
   // out += g w (w . v).
   void MultiplyAdd(double g, std::span<const double> v, std::span<double> out) const {
     if (island_) {
@@ -232,6 +247,13 @@ class Resistor final : public Device {
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
     pair_.MultiplyAdd(g_, v, out);
   }
+  // F carries I = (v(a) - v(b))/R on its incidence w: dI/dR = -I/R = -I g, and
+  // -lambda^T dF/dR = (w . lambda) I g.
+  void AddSensitivity(std::span<const double> x, std::span<const double> lambda,
+                      CircuitGradient* gradient) const {
+    const double i = g_ * (At(x, pair_.a()) - At(x, pair_.b()));
+    gradient->value[static_cast<size_t>(element())] += pair_.Dot(lambda) * i * g_;
+  }
 
  private:
   double g_ = 0;
@@ -294,6 +316,11 @@ class VoltageSource final : public Device {
     }
     out[static_cast<size_t>(k_)] += across;
   }
+  // Row k is v(p) - v(n) - V: dF_k/dV = -1.
+  void AddSensitivity(std::span<const double>, std::span<const double> lambda,
+                      CircuitGradient* gradient) const {
+    gradient->value[static_cast<size_t>(element())] += At(lambda, k_);
+  }
 
  private:
   int p_ = -1, n_ = -1, k_ = -1;
@@ -333,6 +360,15 @@ class CurrentSource final : public Device {
     return r;
   }
   void MultiplyAdd(std::span<const double>, std::span<double>) const {}
+  // F carries the source's current on its incidence w: dF/dI = w.
+  void AddSensitivity(std::span<const double>, std::span<const double> lambda,
+                      CircuitGradient* gradient) const {
+    double across = 0.0;
+    for (int t = 0; t < w_.count; ++t) {
+      across += w_.coef[static_cast<size_t>(t)] * At(lambda, w_.index[static_cast<size_t>(t)]);
+    }
+    gradient->value[static_cast<size_t>(element())] -= across;
+  }
 
  private:
   int a_ = -1, b_ = -1;
@@ -486,6 +522,19 @@ class Diode final : public Device {
   }
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
     pair_.MultiplyAdd(stamped_g_, v, out);
+  }
+  // F carries the diode's current I(v; c) on its incidence w; dI/dc at fixed v is
+  // LocalSlopes', chained to the part keys, area and temperature by `jacobian`.
+  void AddSensitivity(const Circuit& circuit, std::span<const double> x,
+                      std::span<const double> lambda, const DiodeBasis& basis,
+                      const ConstantJacobian& jacobian, CircuitGradient* gradient) const {
+    const DiodeLocalSlopes local =
+        LocalSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
+    const double across = pair_.Dot(lambda);
+    ConstantSlopes s{};
+    for (size_t c = 0; c < s.size(); ++c) s[c] = -across * local.di[c];
+    AddConstantSlopes(circuit, element(), jacobian, ConstantsAreaSlopes(basis.d, basis.area), s,
+                      gradient);
   }
   bool limited() const { return limited_; }
 
@@ -723,6 +772,33 @@ bool DeviceStore::Matches(const Circuit& circuit) const {
     ++k;
   });
   return same;
+}
+
+void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double> x,
+                                 std::span<const double> lambda,
+                                 CircuitGradient* gradient) const {
+  const Arrays& a = *arrays_;
+  // One chain from constants to keys per basis (its logs and exps), not per diode.
+  std::vector<ConstantJacobian> jacobians;
+  std::vector<char> known;
+  Arrays::ForEach(a, [&](const auto& device) {
+    if constexpr (kIsDiode<decltype(device)>) {
+      const auto k = static_cast<size_t>(device.basis());
+      if (k >= jacobians.size()) {
+        jacobians.resize(k + 1);
+        known.resize(k + 1, 0);
+      }
+      const DiodeBasis& basis = a.diode_bases[device.basis()];
+      if (known[k] == 0) {
+        jacobians[k] = ComputeConstantJacobian(circuit.parts[static_cast<size_t>(basis.part)].model,
+                                               basis.area, basis.temp);
+        known[k] = 1;
+      }
+      device.AddSensitivity(circuit, x, lambda, basis, jacobians[k], gradient);
+    } else {
+      device.AddSensitivity(x, lambda, gradient);
+    }
+  });
 }
 
 std::vector<int> DeviceStore::LimitedElements() const {
