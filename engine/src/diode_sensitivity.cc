@@ -52,7 +52,8 @@ DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
     pj[kNbrVt] = g_b * y;
     pj[kVbr] = g_b;
   }
-  // The conductance's partials at fixed vj, and its slope g' = dg/dvj.
+  // The conductance's partials at fixed vj, and its slope g' = dg/dvj:
+  //   g_f = is e^x / nVt, g_b = ibr e^y / nbrVt.
   ConstantSlopes gj{};
   gj[kIs] = g_f / d.is;
   gj[kNVt] = -g_f * (s.vj / d.n_vt + 1.0) / d.n_vt;
@@ -61,7 +62,7 @@ DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
     gj[kIbr] = d.ibr > 0.0 ? g_b / d.ibr : 0.0;
     gj[kNbrVt] = -g_b * (y + 1.0) / d.nbr_vt;
     gj[kVbr] = -g_b / d.nbr_vt;
-    g_slope += g_b / d.nbr_vt;
+    g_slope -= g_b / d.nbr_vt;  // the breakdown term falls as vj rises
   }
   // At fixed terminal voltage v = vj + rs I: dI (1 + rs g) = dI_j|vj - g I drs, and
   // dvj = -rs dI - I drs.

@@ -181,6 +181,60 @@ std::string TargetUnit(const Circuit& circuit, const SensitivityTarget& t) {
   return "";
 }
 
+void SetTargetValue(Circuit* circuit, const SensitivityTarget& t, double v) {
+  using Kind = SensitivityTarget::Kind;
+  const auto i = static_cast<size_t>(t.index);
+  switch (t.kind) {
+    case Kind::kElementValue:
+      circuit->elements.at(i).value = v;
+      return;
+    case Kind::kArea:
+      circuit->elements.at(i).area = v;
+      return;
+    case Kind::kElementTemp:
+      circuit->elements.at(i).temp = v;
+      return;
+    case Kind::kCircuitTemp:
+      circuit->temp = v;
+      return;
+    case Kind::kPartKey:
+      break;
+  }
+  DiodeModel& m = circuit->parts.at(i).model;
+  switch (t.key) {
+    case ModelKey::kSatCurrent:
+      m.sat_current = v;
+      return;
+    case ModelKey::kIdeality:
+      m.ideality = v;
+      return;
+    case ModelKey::kSeriesRes:
+      m.series_res = v;
+      return;
+    case ModelKey::kBreakdownV:
+      m.breakdown_v = v;
+      return;
+    case ModelKey::kBreakdownI:
+      m.breakdown_i = v;
+      return;
+    case ModelKey::kBreakdownIdeality:
+      m.breakdown_ideality = v;
+      return;
+    case ModelKey::kBreakdownTc:
+      m.breakdown_tc = v;
+      return;
+    case ModelKey::kBandgap:
+      m.bandgap = v;
+      return;
+    case ModelKey::kSatTempExp:
+      m.sat_temp_exp = v;
+      return;
+    case ModelKey::kRefTemp:
+      m.ref_temp = v;
+      return;
+  }
+}
+
 void CircuitGradient::Reset(const Circuit& circuit) {
   value.assign(circuit.elements.size(), 0.0);
   area.assign(circuit.elements.size(), 0.0);

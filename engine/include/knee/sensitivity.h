@@ -63,6 +63,9 @@ std::string TargetName(const Circuit& circuit, const SensitivityTarget& target);
 double TargetValue(const Circuit& circuit, const SensitivityTarget& target);
 // "Ohm", "V", "A", "", "C", or the part key's unit.
 std::string TargetUnit(const Circuit& circuit, const SensitivityTarget& target);
+// Sets the target's number in *circuit (finite differences, tolerance corners). The
+// caller keeps the value within the netlist's rules (a resistance > 0, ...).
+void SetTargetValue(Circuit* circuit, const SensitivityTarget& target, double value);
 
 // dQ/d(every number of the circuit) of one quantity Q.
 struct CircuitGradient {
