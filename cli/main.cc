@@ -10,6 +10,7 @@
 #include "commands.h"
 #include "options.h"
 #include "output.h"
+#include "sensitivity.h"
 #include "version.h"
 
 namespace {
@@ -112,6 +113,8 @@ int main(int argc, char** argv) {
       {"hand",
        "Bias point by the simplified diode models of hand calculation, beside the exact one",
        knee::cli::RunHand},
+      {"sensitivity", "DC sensitivities of quantities to every value of the circuit",
+       knee::cli::RunSensitivity},
   };
   for (Command& c : commands) {
     c.app = app.add_subcommand(c.name, c.help);
@@ -131,6 +134,19 @@ int main(int argc, char** argv) {
                        "absolute (50m) or relative (5%), default 5 %; repeatable")
           ->type_name("Q=VALUE[~TOL]")
           ->allow_extra_args(false);
+    }
+    if (name == "sensitivity") {
+      c.app
+          ->add_option("--of", options.sensitivity_of,
+                       "Quantities to differentiate, comma separated (default: the file's show "
+                       "list)")
+          ->type_name("Q1,Q2,...");
+    }
+    if (name == "sweep") {
+      c.app
+          ->add_option("--sensitivity", options.sweep_sensitivity,
+                       "Add the sensitivity columns of quantity Q to every sweep point")
+          ->type_name("Q");
     }
     if (name == "hand") {
       c.app
