@@ -13,6 +13,7 @@
 #include <thread>
 
 #include "analyses.h"
+#include "sensitivity.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
 #include "stress.h"
@@ -137,6 +138,16 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     report.columns.push_back({axis.target.name, SweepTargetUnit(axis.target, base)});
   }
   for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
+  // --sensitivity Q: one column dQ/dTARGET per number of the circuit (docs/sensitivity.md).
+  std::optional<SweepSensitivity> sensitivity;
+  if (!options.sweep_sensitivity.empty()) {
+    sensitivity = PrepareSweepSensitivity(*loaded.design, axes, options.sweep_sensitivity);
+    if (!sensitivity) {
+      result.outcome.bad_input = true;
+      return result;
+    }
+    for (const Column& c : sensitivity->columns) report.columns.push_back(c);
+  }
   const double derate = options.derate / 100;
   const std::vector<StressCheck> checks = CollectStressChecks(base, derate);
   AddStressColumns(checks, base, &report);
@@ -196,7 +207,15 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   Progress progress(end_point - first_point, !options.quiet);
   StressRecorder stress(checks, end_point - first_point);
   std::vector<double> largest_voltage(report.rows.size(), 0.0);
-  const size_t stress_column = axes.size() + show.size();
+  const size_t sensitivity_column = axes.size() + show.size();
+  const size_t stress_column =
+      sensitivity_column + (sensitivity ? sensitivity->columns.size() : size_t{0});
+  if (sensitivity) {
+    sweep_options.at_solution = [&](long long index, BiasSolver& solver, const Solution& s) {
+      std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
+      FillSweepSensitivity(*sensitivity, *loaded.design, solver, s, row.data() + sensitivity_column);
+    };
+  }
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
     std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
     thread_local std::vector<long long> indices;  // per worker thread, reused across points

@@ -351,6 +351,38 @@ std::string DrawSensitivityChart(const SensitivityReport& report) {
   return svg;
 }
 
+std::optional<SweepSensitivity> PrepareSweepSensitivity(const Design& design,
+                                                        const std::vector<SweepAxis>& axes,
+                                                        const std::string& text) {
+  Result<QuantityExpr> q = ParseQuantity(text, design.circuit, SourceLocation{"--sensitivity", 0, 0, 1});
+  if (!q) {
+    PrintDiagnostics(q.errors(), "");
+    return std::nullopt;
+  }
+  const bool param_axis = std::any_of(axes.begin(), axes.end(), [](const SweepAxis& a) {
+    return a.target.kind == SweepTarget::Kind::kParam;
+  });
+  SweepSensitivity s{std::move(*q), {}, {}};
+  for (NamedTarget& t : NamedTargets(design)) {
+    if (t.is_param && param_axis) continue;
+    s.columns.push_back({fmt::format("d({})/d({})", s.quantity.text(), t.name),
+                         t.unit.empty() ? s.quantity.unit()
+                                        : fmt::format("{}/{}", s.quantity.unit().empty() ? "1" : s.quantity.unit(), t.unit)});
+    s.targets.push_back(std::move(t));
+  }
+  return s;
+}
+
+void FillSweepSensitivity(const SweepSensitivity& s, const Design& design, BiasSolver& solver,
+                          const Solution& solution, double* out) {
+  thread_local CircuitGradient gradient;
+  const std::vector<WeightedQuantity> weights = WeightsOf(s.quantity, solution);
+  const bool ok = solver.Sensitivity(weights, &gradient).ok();
+  for (size_t k = 0; k < s.targets.size(); ++k) {
+    out[k] = ok ? DerivativeOf(s.targets[k], design, gradient) : kNaN;
+  }
+}
+
 int RunSensitivity(const std::string& file, AnalysisOptions options) {
   std::string problem = PrepareOptions(&options);
   if (!problem.empty()) return FailWith(problem);

@@ -82,6 +82,22 @@ std::string WriteSensitivityReport(const SensitivityReport& report, ReportFormat
 // A bar chart of the normalized sensitivities, one panel per quantity (complete SVG).
 std::string DrawSensitivityChart(const SensitivityReport& report);
 
+// knee sweep --sensitivity Q: the quantity and one column per target.
+struct SweepSensitivity {
+  QuantityExpr quantity;
+  std::vector<NamedTarget> targets;
+  std::vector<Column> columns;  // "d(Q)/d(TARGET)", unit "V/Ohm", ...
+};
+// Parses Q (errors printed, nothing returned). Params are left out when an axis sweeps a
+// param: their reach is differentiated at the file's values only.
+std::optional<SweepSensitivity> PrepareSweepSensitivity(const Design& design,
+                                                        const std::vector<SweepAxis>& axes,
+                                                        const std::string& text);
+// One point's derivatives into out[0 .. columns.size()) (NaN when the adjoint solve fails).
+// Thread-safe for distinct solvers.
+void FillSweepSensitivity(const SweepSensitivity& s, const Design& design, BiasSolver& solver,
+                          const Solution& solution, double* out);
+
 // knee sensitivity FILE [options].
 int RunSensitivity(const std::string& file, AnalysisOptions options);
 

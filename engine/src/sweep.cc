@@ -130,6 +130,7 @@ class Worker {
         x1_.assign(x.begin(), x.end());
         p1_ = values_[0];
         have_prev = true;
+        if (options_.at_solution) options_.at_solution(index, *solver_, solution_);
         sink_(index, summary, &solution_);
       } else {
         ++stats.failed;

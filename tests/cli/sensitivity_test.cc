@@ -231,5 +231,33 @@ TEST(Sensitivity, CommandFormatsAndErrors) {
   std::remove(svg.c_str());
 }
 
+// knee sweep --sensitivity Q: at each point the columns equal knee sensitivity's
+// derivatives at that point (the file's Vraw is 12 V, the sweep's middle point).
+TEST(Sensitivity, SweepColumnsMatchTheBiasPointCommand) {
+  using knee::testing::RunKnee;
+  const std::string file = SourcePath("netlists/reference-regulator.knee");
+  auto sweep = RunKnee("sweep " + file + " Vraw=9..15:3 --sensitivity ref.v --format json --quiet");
+  ASSERT_EQ(sweep.status, 0) << sweep.err;
+  const auto s = nlohmann::json::parse(sweep.out);
+  auto bias = RunKnee("sensitivity " + file + " --of ref.v --format json");
+  ASSERT_EQ(bias.status, 0) << bias.err;
+  const auto b = nlohmann::json::parse(bias.out);
+  int matched = 0;
+  for (const auto& line : b["quantities"][0]["sensitivities"]) {
+    const std::string name = "d(ref.v)/d(" + line["target"].get<std::string>() + ")";
+    for (size_t c = 0; c < s["columns"].size(); ++c) {
+      if (s["columns"][c]["name"] != name) continue;
+      EXPECT_TRUE(IsClose(s["rows"][1][c].get<double>(), line["derivative"].get<double>(), 1e-9,
+                          1e-300))
+          << name;
+      ++matched;
+    }
+  }
+  EXPECT_GT(matched, 10);
+  auto bad = RunKnee("sweep " + file + " Vraw=9..15:3 --sensitivity ref.x --quiet");
+  EXPECT_EQ(bad.status, 2);
+  EXPECT_NE(bad.err.find("--sensitivity"), std::string::npos) << bad.err;
+}
+
 }  // namespace
 }  // namespace knee::cli
