@@ -14,6 +14,9 @@ namespace {
 constexpr double kEps = std::numeric_limits<double>::epsilon();
 // A refined lambda is accepted when its last correction is at most this fraction of it.
 constexpr double kAcceptCorrection = 1e-10;
+// A correction this small (relative to lambda) leaves an error of about its square: the
+// factors' contraction is the correction's own relative size, so refinement stops there.
+constexpr double kQuadraticCorrection = 1e-8;
 
 double MaxAbs(std::span<const double> v) {
   double m = 0.0;
@@ -158,6 +161,7 @@ Refined Refine(const MnaSystem& mna, KluSolver& factors, std::span<const double>
     const double scale = MaxAbs(ws.lambda);
     if (!std::isfinite(size) || !std::isfinite(scale)) return Refined::kFailed;
     if (size <= 4.0 * kEps * scale) return Refined::kConverged;
+    if (k == 0 && size <= kQuadraticCorrection * scale) return Refined::kConverged;
     // Rounding stops the corrections somewhere; when they stop shrinking there, lambda is
     // as good as these factors make it.
     if (size > 0.5 * previous) {

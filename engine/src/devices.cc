@@ -523,18 +523,31 @@ class Diode final : public Device {
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
     pair_.MultiplyAdd(stamped_g_, v, out);
   }
-  // F carries the diode's current I(v; c) on its incidence w; dI/dc at fixed v is
-  // LocalSlopes', chained to the part keys, area and temperature by `jacobian`.
+  // F carries the diode's current I(v; c) on its incidence w: -lambda^T dF/dc =
+  // -(w . lambda) dI/dc at fixed v (LocalSlopes). The area and temperature take their
+  // share here; the part keys, common to the basis, are added to *basis_sum.
   void AddSensitivity(const Circuit& circuit, std::span<const double> x,
                       std::span<const double> lambda, const DiodeBasis& basis,
-                      const ConstantJacobian& jacobian, CircuitGradient* gradient) const {
+                      const ConstantJacobian& jacobian, ConstantSlopes* basis_sum,
+                      CircuitGradient* gradient) const {
     const DiodeLocalSlopes local =
         LocalSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
     const double across = pair_.Dot(lambda);
-    ConstantSlopes s{};
-    for (size_t c = 0; c < s.size(); ++c) s[c] = -across * local.di[c];
-    AddConstantSlopes(circuit, element(), jacobian, ConstantsAreaSlopes(basis.d, basis.area), s,
-                      gradient);
+    const ConstantSlopes area = ConstantsAreaSlopes(basis.d, basis.area);
+    double d_area = 0.0, d_temp = 0.0;
+    for (size_t c = 0; c < local.di.size(); ++c) {
+      const double s = -across * local.di[c];
+      (*basis_sum)[c] += s;
+      d_area += s * area[c];
+      d_temp += s * jacobian.temp[c];
+    }
+    const auto e = static_cast<size_t>(element());
+    gradient->area[e] += d_area;
+    if (circuit.elements[e].temp) {
+      gradient->temp[e] += d_temp;
+    } else {
+      gradient->circuit_temp += d_temp;
+    }
   }
   bool limited() const { return limited_; }
 
@@ -778,14 +791,17 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
                                  std::span<const double> lambda,
                                  CircuitGradient* gradient) const {
   const Arrays& a = *arrays_;
-  // One chain from constants to keys per basis (its logs and exps), not per diode.
+  // One chain from constants to keys per basis (its logs and exps), not per diode, and
+  // the part keys' sums per basis, multiplied out once at the end.
   std::vector<ConstantJacobian> jacobians;
+  std::vector<ConstantSlopes> sums;
   std::vector<char> known;
   Arrays::ForEach(a, [&](const auto& device) {
     if constexpr (kIsDiode<decltype(device)>) {
       const auto k = static_cast<size_t>(device.basis());
       if (k >= jacobians.size()) {
         jacobians.resize(k + 1);
+        sums.resize(k + 1, ConstantSlopes{});
         known.resize(k + 1, 0);
       }
       const DiodeBasis& basis = a.diode_bases[device.basis()];
@@ -794,11 +810,18 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
                                                basis.area, basis.temp);
         known[k] = 1;
       }
-      device.AddSensitivity(circuit, x, lambda, basis, jacobians[k], gradient);
+      device.AddSensitivity(circuit, x, lambda, basis, jacobians[k], &sums[k], gradient);
     } else {
       device.AddSensitivity(x, lambda, gradient);
     }
   });
+  for (size_t k = 0; k < sums.size(); ++k) {
+    if (known[k] == 0) continue;
+    auto& part = gradient->part[static_cast<size_t>(a.diode_bases[static_cast<int>(k)].part)];
+    for (size_t key = 0; key < part.size(); ++key) {
+      for (size_t c = 0; c < sums[k].size(); ++c) part[key] += sums[k][c] * jacobians[k].key[key][c];
+    }
+  }
 }
 
 std::vector<int> DeviceStore::LimitedElements() const {

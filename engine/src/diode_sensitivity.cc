@@ -8,8 +8,11 @@
 namespace knee::internal {
 namespace {
 
-// The forward (Shockley) and breakdown terms of the junction law at vj, apart: each is
-// EvaluateJunction of the constants with the other term switched off.
+// The forward (Shockley) and breakdown terms of the junction law at vj, apart, with one
+// evaluation each: the forward term is EvaluateJunction without the breakdown term; the
+// breakdown term I_b = -ibr e^y, y = -(vj + vbr)/nbrVt, is the forward law of the
+// mirrored junction (is = ibr, nVt = nbrVt) at y, whose conductance ibr e^y / nbrVt is
+// g_b itself, and I_b = -g_b nbrVt.
 struct SplitPoint {
   JunctionPoint forward, breakdown;
 };
@@ -19,9 +22,11 @@ SplitPoint Split(const DiodeConstants& d, double vj) {
   SplitPoint s;
   s.forward = EvaluateJunction(forward, vj);
   if (d.has_breakdown) {
-    DiodeConstants reverse = d;
-    reverse.is = 0.0;
-    s.breakdown = EvaluateJunction(reverse, vj);
+    DiodeConstants mirrored;
+    mirrored.is = d.ibr;
+    mirrored.n_vt = d.nbr_vt;
+    const double g = EvaluateJunction(mirrored, -(vj + d.vbr)).conductance;
+    s.breakdown = {-g * d.nbr_vt, g};
   }
   return s;
 }
@@ -30,8 +35,7 @@ SplitPoint Split(const DiodeConstants& d, double vj) {
 
 DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
   DiodeLocalSlopes s;
-  JunctionPoint p;
-  s.vj = JunctionVoltageAt(d, v, guess, &p);
+  s.vj = JunctionVoltageAt(d, v, guess);
   const SplitPoint split = Split(d, s.vj);
   const double i_f = split.forward.current, g_f = split.forward.conductance;
   const double i_b = split.breakdown.current, g_b = split.breakdown.conductance;
