@@ -138,7 +138,24 @@ int main(int argc, char** argv) {
         if (!assembled.finite || update.index < -1 || residual.index < -1) Die("?");
       },
       seconds);
-  std::printf("unknowns=%d targets=%zu step_s=%.6e sensitivity_s=%.6e ratio=%.3f\n", mna.size(),
-              targets, step_s, sensitivity_s, sensitivity_s / step_s);
+  // The adjoint's parts on the same objects: a transposed solve, the Jacobian product of
+  // a refinement, the devices' dF/dp pass.
+  x = x_star;
+  mna.Assemble(x, AssemblyAids{});
+  if (klu.Refactor(mna.values()) != knee::internal::LinearStatus::kOk) Die("refactor");
+  std::vector<double> lambda(x.size(), 1e-3), product(x.size());
+  const double tsolve_s = BestTime([&] { klu.SolveTransposed(lambda); }, seconds / 4);
+  const double product_s = BestTime([&] { mna.MultiplyJacobian(lambda, product); }, seconds / 4);
+  const double pass_s = BestTime(
+      [&] {
+        gradient.Reset(circuit);
+        mna.devices().AddSensitivity(circuit, x, lambda, &gradient);
+      },
+      seconds / 4);
+  std::printf(
+      "unknowns=%d targets=%zu step_s=%.6e sensitivity_s=%.6e ratio=%.3f tsolve_s=%.6e "
+      "product_s=%.6e pass_s=%.6e\n",
+      mna.size(), targets, step_s, sensitivity_s, sensitivity_s / step_s, tsolve_s, product_s,
+      pass_s);
   return 0;
 }

@@ -455,9 +455,13 @@ class DiodeBases {
 class Diode final : public Device {
  public:
   Diode(const Circuit& c, int element, int basis)
-      : Device(element), pair_(Conductance::Of(c, element)), basis_(basis) {}
+      : Device(element),
+        pair_(Conductance::Of(c, element)),
+        basis_(basis),
+        own_temp_(c.elements[static_cast<size_t>(element)].temp.has_value()) {}
   int basis() const { return basis_; }
   void set_basis(int basis) { basis_ = basis; }
+  void set_own_temp(bool own) { own_temp_ = own; }
   bool Joins(const Element& e) const { return pair_.Joins(e); }
   void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
   void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
@@ -526,24 +530,23 @@ class Diode final : public Device {
   // F carries the diode's current I(v; c) on its incidence w: -lambda^T dF/dc =
   // -(w . lambda) dI/dc at fixed v (LocalSlopes). The area and temperature take their
   // share here; the part keys, common to the basis, are added to *basis_sum.
-  void AddSensitivity(const Circuit& circuit, std::span<const double> x,
-                      std::span<const double> lambda, const DiodeBasis& basis,
+  void AddSensitivity(std::span<const double> x, std::span<const double> lambda,
+                      const DiodeBasis& basis,
                       const ConstantJacobian& jacobian, ConstantSlopes* basis_sum,
                       CircuitGradient* gradient) const {
-    const DiodeLocalSlopes local =
-        LocalSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
+    const ConstantSlopes di = CurrentSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
     const double across = pair_.Dot(lambda);
     const ConstantSlopes area = ConstantsAreaSlopes(basis.d, basis.area);
     double d_area = 0.0, d_temp = 0.0;
-    for (size_t c = 0; c < local.di.size(); ++c) {
-      const double s = -across * local.di[c];
+    for (size_t c = 0; c < di.size(); ++c) {
+      const double s = -across * di[c];
       (*basis_sum)[c] += s;
       d_area += s * area[c];
       d_temp += s * jacobian.temp[c];
     }
     const auto e = static_cast<size_t>(element());
     gradient->area[e] += d_area;
-    if (circuit.elements[e].temp) {
+    if (own_temp_) {
       gradient->temp[e] += d_temp;
     } else {
       gradient->circuit_temp += d_temp;
@@ -555,6 +558,7 @@ class Diode final : public Device {
   Conductance pair_;
   int basis_;  // index into DiodeBases
   bool limited_ = false;
+  bool own_temp_ = false;  // the element has its own temp= (sensitivities only)
   double last_vj_ = 0;
   double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
 };
@@ -731,7 +735,9 @@ void DeviceStore::UpdateValues(const Circuit& circuit, std::span<const char> par
   if (std::all_of(a.diodes.begin(), a.diodes.end(), holds)) return;
   a.diode_bases.Clear();
   for (Diode& d : a.diodes) {
-    d.set_basis(a.diode_bases.Find(circuit, circuit.elements[static_cast<size_t>(d.element())]));
+    const Element& e = circuit.elements[static_cast<size_t>(d.element())];
+    d.set_basis(a.diode_bases.Find(circuit, e));
+    d.set_own_temp(e.temp.has_value());
   }
 }
 
@@ -810,7 +816,7 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
                                                basis.area, basis.temp);
         known[k] = 1;
       }
-      device.AddSensitivity(circuit, x, lambda, basis, jacobians[k], &sums[k], gradient);
+      device.AddSensitivity(x, lambda, basis, jacobians[k], &sums[k], gradient);
     } else {
       device.AddSensitivity(x, lambda, gradient);
     }

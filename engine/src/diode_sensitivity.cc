@@ -91,6 +91,26 @@ DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
   return s;
 }
 
+ConstantSlopes CurrentSlopes(const DiodeConstants& d, double v, double guess) {
+  const double vj = JunctionVoltageAt(d, v, guess);
+  const SplitPoint split = Split(d, vj);
+  const double g = split.forward.conductance + split.breakdown.conductance;
+  const double i = split.forward.current + split.breakdown.current;
+  // As LocalSlopes: the partials at fixed vj over 1 + rs g, and -g I/(1 + rs g) for rs.
+  const double scale = 1.0 / (1.0 + d.rs * g);
+  ConstantSlopes di{};
+  di[kIs] = split.forward.current / d.is * scale;
+  di[kNVt] = -split.forward.conductance * vj / d.n_vt * scale;
+  di[kRs] = -g * i * scale;
+  if (d.has_breakdown) {
+    const double g_b = split.breakdown.conductance;
+    di[kIbr] = d.ibr > 0.0 ? split.breakdown.current / d.ibr * scale : 0.0;
+    di[kNbrVt] = g_b * (-(vj + d.vbr) / d.nbr_vt) * scale;
+    di[kVbr] = g_b * scale;
+  }
+  return di;
+}
+
 ConstantJacobian ComputeConstantJacobian(const DiodeModel& model, double area,
                                          double temp_celsius) {
   const DiodeConstants d = ComputeDiodeConstants(model, area, temp_celsius);

@@ -25,6 +25,8 @@ struct DiodeLocalSlopes {
 };
 // `guess` starts the junction-voltage search (as JunctionVoltageAt).
 DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess);
+// LocalSlopes' di alone: what the devices' pass needs for every diode.
+ConstantSlopes CurrentSlopes(const DiodeConstants& d, double v, double guess);
 
 // d(constant)/d(part key) and d(constant)/d(temperature, degC) of one diode (part model,
 // area, temperature); the area's column is ConstantsAreaSlopes (it needs only d).

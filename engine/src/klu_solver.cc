@@ -123,6 +123,8 @@ LinearStatus KluSolver::Solve(std::span<double> rhs) {
   return LinearStatus::kOk;
 }
 
+bool KluSolver::has_factors() const { return handles_->numeric != nullptr; }
+
 LinearStatus KluSolver::SolveTransposed(std::span<double> rhs) {
   Handles& h = *handles_;
   KNEE_CHECK(h.numeric != nullptr && rhs.size() + 1 == col_ptr_.size());

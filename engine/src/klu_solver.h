@@ -32,6 +32,8 @@ class KluSolver {
   LinearStatus Refactor(std::span<const double> values);
   // Solves A x = b in place.
   LinearStatus Solve(std::span<double> rhs);
+  // Whether factors are held (a Factor or Refactor succeeded since the last Analyze).
+  bool has_factors() const;
   // Solves A^T x = b in place with the same factors (klu_tsolve): the adjoint system.
   LinearStatus SolveTransposed(std::span<double> rhs);
 
