@@ -13,9 +13,9 @@
 #include <thread>
 
 #include "analyses.h"
-#include "sensitivity.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
+#include "sensitivity.h"
 #include "stress.h"
 
 namespace knee::cli {
@@ -213,7 +213,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   if (sensitivity) {
     sweep_options.at_solution = [&](long long index, BiasSolver& solver, const Solution& s) {
       std::vector<double>& row = report.rows[static_cast<size_t>(index - first_point)];
-      FillSweepSensitivity(*sensitivity, *loaded.design, solver, s, row.data() + sensitivity_column);
+      FillSweepSensitivity(*sensitivity, *loaded.design, solver, s,
+                           row.data() + sensitivity_column);
     };
   }
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {

@@ -188,12 +188,10 @@ std::string WriteSensitivityTable(const SensitivityReport& report) {
     out += fmt::format("  {}  {}  {}  {}\n", PadRight("target", width), PadLeft("value", 12),
                        PadLeft("derivative", 22), PadLeft("normalized", 11));
     for (const SensitivityLine& l : q.lines) {
-      out += fmt::format("  {}  {}  {}  {}\n", PadRight(l.target, width),
-                         PadLeft(FormatEng(l.value, l.unit), 12),
-                         PadLeft(fmt::format("{:.6g} {}", l.derivative,
-                                             DerivativeUnit(q.unit, l.unit)),
-                                 22),
-                         PadLeft(Signed(l.normalized), 11));
+      out += fmt::format(
+          "  {}  {}  {}  {}\n", PadRight(l.target, width), PadLeft(FormatEng(l.value, l.unit), 12),
+          PadLeft(fmt::format("{:.6g} {}", l.derivative, DerivativeUnit(q.unit, l.unit)), 22),
+          PadLeft(Signed(l.normalized), 11));
     }
     if (report.has_budget) {
       out += "  tolerance budget (linear):\n";
@@ -202,18 +200,18 @@ std::string WriteSensitivityTable(const SensitivityReport& report) {
                            c.spread, FormatEng(c.contribution, q.unit));
       }
       out += fmt::format("    worst case ±{}, root-sum-square ±{}\n",
-                         FormatEng(q.budget.worst_case, q.unit),
-                         FormatEng(q.budget.rss, q.unit));
+                         FormatEng(q.budget.worst_case, q.unit), FormatEng(q.budget.rss, q.unit));
     }
   }
   for (const PointFailure& f : report.failures) {
     out += fmt::format("\nno result{}: {}\n", f.where.empty() ? "" : " for " + f.where, f.why);
   }
   const SolverAccount& a = report.account;
-  out += fmt::format("\nsolver: {}, {} Newton steps{}; adjoint method (one transposed solve per "
-                     "quantity)",
-                     a.method, a.newton_steps,
-                     a.aids.empty() ? "" : fmt::format(", aids: {}", fmt::join(a.aids, ", ")));
+  out += fmt::format(
+      "\nsolver: {}, {} Newton steps{}; adjoint method (one transposed solve per "
+      "quantity)",
+      a.method, a.newton_steps,
+      a.aids.empty() ? "" : fmt::format(", aids: {}", fmt::join(a.aids, ", ")));
   if (report.failures.empty() || !report.quantities.empty()) {
     out += fmt::format("; largest KCL residual {:.2e} A{}", a.max_kcl_residual,
                        a.worst_node.empty() ? "" : " at " + a.worst_node);
@@ -317,20 +315,22 @@ std::string DrawSensitivityChart(const SensitivityReport& report) {
       }
     }
     const std::vector<double> ticks = LinearTicks(-largest, largest, 6);
-    const double span = largest > 0.0 ? std::max(largest, ticks.empty() ? largest : ticks.back())
-                                      : 1.0;
+    const double span =
+        largest > 0.0 ? std::max(largest, ticks.empty() ? largest : ticks.back()) : 1.0;
     const double mid = 0.5 * (plot_left + plot_right), half = 0.5 * (plot_right - plot_left);
-    svg += fmt::format("<text x=\"{}\" y=\"{}\" font-weight=\"bold\">{} = {}: normalized "
-                       "sensitivity (x/Q)·dQ/dx</text>\n",
-                       10, y + 18, XmlEscape(q.quantity), XmlEscape(FormatEng(q.value, q.unit)));
+    svg += fmt::format(
+        "<text x=\"{}\" y=\"{}\" font-weight=\"bold\">{} = {}: normalized "
+        "sensitivity (x/Q)·dQ/dx</text>\n",
+        10, y + 18, XmlEscape(q.quantity), XmlEscape(FormatEng(q.value, q.unit)));
     y += kTitle;
     const int top = y, bottom = y + static_cast<int>(bars) * kBarHeight;
     for (double t : ticks) {
       const double x = mid + t / span * half;
-      svg += fmt::format("<line x1=\"{:.1f}\" y1=\"{}\" x2=\"{:.1f}\" y2=\"{}\" stroke=\"#ddd\"/>\n"
-                         "<text x=\"{:.1f}\" y=\"{}\" text-anchor=\"middle\" fill=\"#555\">{:g}"
-                         "</text>\n",
-                         x, top, x, bottom, x, bottom + 14, t);
+      svg += fmt::format(
+          "<line x1=\"{:.1f}\" y1=\"{}\" x2=\"{:.1f}\" y2=\"{}\" stroke=\"#ddd\"/>\n"
+          "<text x=\"{:.1f}\" y=\"{}\" text-anchor=\"middle\" fill=\"#555\">{:g}"
+          "</text>\n",
+          x, top, x, bottom, x, bottom + 14, t);
     }
     for (size_t k = 0; k < bars; ++k) {
       const SensitivityLine& l = q.lines[k];
@@ -354,7 +354,8 @@ std::string DrawSensitivityChart(const SensitivityReport& report) {
 std::optional<SweepSensitivity> PrepareSweepSensitivity(const Design& design,
                                                         const std::vector<SweepAxis>& axes,
                                                         const std::string& text) {
-  Result<QuantityExpr> q = ParseQuantity(text, design.circuit, SourceLocation{"--sensitivity", 0, 0, 1});
+  Result<QuantityExpr> q =
+      ParseQuantity(text, design.circuit, SourceLocation{"--sensitivity", 0, 0, 1});
   if (!q) {
     PrintDiagnostics(q.errors(), "");
     return std::nullopt;
@@ -365,9 +366,11 @@ std::optional<SweepSensitivity> PrepareSweepSensitivity(const Design& design,
   SweepSensitivity s{std::move(*q), {}, {}};
   for (NamedTarget& t : NamedTargets(design)) {
     if (t.is_param && param_axis) continue;
-    s.columns.push_back({fmt::format("d({})/d({})", s.quantity.text(), t.name),
-                         t.unit.empty() ? s.quantity.unit()
-                                        : fmt::format("{}/{}", s.quantity.unit().empty() ? "1" : s.quantity.unit(), t.unit)});
+    s.columns.push_back(
+        {fmt::format("d({})/d({})", s.quantity.text(), t.name),
+         t.unit.empty()
+             ? s.quantity.unit()
+             : fmt::format("{}/{}", s.quantity.unit().empty() ? "1" : s.quantity.unit(), t.unit)});
     s.targets.push_back(std::move(t));
   }
   return s;

@@ -4,8 +4,9 @@
 
 namespace knee::cli {
 
-Budget ComputeBudget(std::span<const SpreadEntry> entries,
-                     const std::function<std::optional<double>(const std::string&)>& derivative_of) {
+Budget ComputeBudget(
+    std::span<const SpreadEntry> entries,
+    const std::function<std::optional<double>(const std::string&)>& derivative_of) {
   Budget b;
   double squares = 0.0;
   for (const SpreadEntry& e : entries) {

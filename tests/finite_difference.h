@@ -35,8 +35,8 @@ FiniteDifference RiddersDerivative(const F& f, double x, double h0) {
       const auto ji = static_cast<size_t>(j), ii = static_cast<size_t>(i);
       a[ji][ii] = (a[ji - 1][ii] * factor - a[ji - 1][ii - 1]) / (factor - 1.0);
       factor *= kShrink2;
-      const double e = std::max(std::fabs(a[ji][ii] - a[ji - 1][ii]),
-                                std::fabs(a[ji][ii] - a[ji - 1][ii - 1]));
+      const double e =
+          std::max(std::fabs(a[ji][ii] - a[ji - 1][ii]), std::fabs(a[ji][ii] - a[ji - 1][ii - 1]));
       if (e <= best.error) best = {a[ji][ii], e};
     }
     const auto ii = static_cast<size_t>(i);

@@ -57,8 +57,7 @@ struct DiodeAt {
 DiodeAt DiodeOf(const Circuit& c, int element, double v) {
   const Element& e = c.elements[static_cast<size_t>(element)];
   DiodeAt at;
-  at.d = ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area,
-                               c.DeviceTemp(e));
+  at.d = ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
   at.local = LocalSlopes(at.d, v, v);
   return at;
 }
@@ -227,8 +226,8 @@ class FlushSubnormals {
 
 std::string ComputeSensitivity(const Circuit& circuit, MnaSystem& mna, KluSolver& klu,
                                bool factors_exact, std::span<const double> x,
-                               std::span<const WeightedQuantity> quantity,
-                               AdjointWorkspace& ws, CircuitGradient* gradient) {
+                               std::span<const WeightedQuantity> quantity, AdjointWorkspace& ws,
+                               CircuitGradient* gradient) {
   KNEE_CHECK(static_cast<int>(x.size()) == mna.size());
   gradient->Reset(circuit);
   const FlushSubnormals flush;

@@ -531,9 +531,8 @@ class Diode final : public Device {
   // -(w . lambda) dI/dc at fixed v (LocalSlopes). The area and temperature take their
   // share here; the part keys, common to the basis, are added to *basis_sum.
   void AddSensitivity(std::span<const double> x, std::span<const double> lambda,
-                      const DiodeBasis& basis,
-                      const ConstantJacobian& jacobian, ConstantSlopes* basis_sum,
-                      CircuitGradient* gradient) const {
+                      const DiodeBasis& basis, const ConstantJacobian& jacobian,
+                      ConstantSlopes* basis_sum, CircuitGradient* gradient) const {
     const ConstantSlopes di = CurrentSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
     const double across = pair_.Dot(lambda);
     const ConstantSlopes area = ConstantsAreaSlopes(basis.d, basis.area);
@@ -794,8 +793,7 @@ bool DeviceStore::Matches(const Circuit& circuit) const {
 }
 
 void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double> x,
-                                 std::span<const double> lambda,
-                                 CircuitGradient* gradient) const {
+                                 std::span<const double> lambda, CircuitGradient* gradient) const {
   const Arrays& a = *arrays_;
   // One chain from constants to keys per basis (its logs and exps), not per diode, and
   // the part keys' sums per basis, multiplied out once at the end.
@@ -825,7 +823,8 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
     if (known[k] == 0) continue;
     auto& part = gradient->part[static_cast<size_t>(a.diode_bases[static_cast<int>(k)].part)];
     for (size_t key = 0; key < part.size(); ++key) {
-      for (size_t c = 0; c < sums[k].size(); ++c) part[key] += sums[k][c] * jacobians[k].key[key][c];
+      for (size_t c = 0; c < sums[k].size(); ++c)
+        part[key] += sums[k][c] * jacobians[k].key[key][c];
     }
   }
 }

@@ -119,10 +119,10 @@ ConstantJacobian ComputeConstantJacobian(const DiodeModel& model, double area,
   const double n = model.ideality;
   const double vt = ThermalVoltage(t);
   const double vt0 = ThermalVoltage(t0);
-  const double xti = model.sat_temp_exp;
+  const double temp_exp = model.sat_temp_exp;
   const double eg_term = model.bandgap / (n * vt0);  // eV over V: a plain number
-  // is = area Is0 exp(L), L = (xti/n) ln(T/T0) + (Eg/(n Vt0)) (1 - T0/T).
-  const double log_ratio = (xti / n) * std::log(t / t0) + eg_term * (1.0 - t0 / t);
+  // is = area Is0 exp(L), L = (temp_exp/n) ln(T/T0) + (Eg/(n Vt0)) (1 - T0/T).
+  const double log_ratio = (temp_exp / n) * std::log(t / t0) + eg_term * (1.0 - t0 / t);
   ConstantJacobian j;
   const auto key = [&](ModelKey k) -> ConstantSlopes& { return j.key[static_cast<size_t>(k)]; };
   key(ModelKey::kSatCurrent)[kIs] = d.is / model.sat_current;
@@ -130,9 +130,9 @@ ConstantJacobian ComputeConstantJacobian(const DiodeModel& model, double area,
   key(ModelKey::kIdeality)[kNVt] = vt;
   key(ModelKey::kBandgap)[kIs] = d.is * (1.0 - t0 / t) / (n * vt0);
   key(ModelKey::kSatTempExp)[kIs] = d.is * std::log(t / t0) / n;
-  key(ModelKey::kRefTemp)[kIs] = d.is * (-xti / (n * t0) - eg_term / t0);
+  key(ModelKey::kRefTemp)[kIs] = d.is * (-temp_exp / (n * t0) - eg_term / t0);
   key(ModelKey::kSeriesRes)[kRs] = 1.0 / area;
-  j.temp[kIs] = d.is * (xti / (n * t) + eg_term * t0 / (t * t));
+  j.temp[kIs] = d.is * (temp_exp / (n * t) + eg_term * t0 / (t * t));
   j.temp[kNVt] = d.n_vt / t;
   if (d.has_breakdown) {
     const double bv = *model.breakdown_v;

@@ -34,8 +34,7 @@ struct ConstantJacobian {
   std::array<ConstantSlopes, kModelKeyCount> key{};  // key[k][c] = dc / d key k
   ConstantSlopes temp{};                             // dc / d temperature
 };
-ConstantJacobian ComputeConstantJacobian(const DiodeModel& model, double area,
-                                         double temp_celsius);
+ConstantJacobian ComputeConstantJacobian(const DiodeModel& model, double area, double temp_celsius);
 // dc / d area.
 ConstantSlopes ConstantsAreaSlopes(const DiodeConstants& d, double area);
 

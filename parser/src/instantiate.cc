@@ -243,7 +243,8 @@ class Elaborator {
     }
     const auto place = [&](const Value& v, SensitivityTarget target) {
       for (const auto& [param, slope] : Through(v, total)) {
-        if (slope != 0.0) design->params[static_cast<std::size_t>(param)].reach.push_back({target, slope});
+        if (slope != 0.0)
+          design->params[static_cast<std::size_t>(param)].reach.push_back({target, slope});
       }
     };
     if (!overrides_.temp) {

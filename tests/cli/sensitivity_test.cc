@@ -115,7 +115,8 @@ TEST(Sensitivity, EveryDemoAgainstFiniteDifferences) {
         const double scale = t.value != 0.0 ? std::fabs(t.value) : 1.0;
         const auto at = [&](double v) { return QuantityAt(*l.netlist, design, q, t, v); };
         auto fd = RiddersDerivative(at, t.value, 1e-2 * scale);
-        if (const auto longer = RiddersDerivative(at, t.value, 0.1 * scale); longer.error < fd.error) {
+        if (const auto longer = RiddersDerivative(at, t.value, 0.1 * scale);
+            longer.error < fd.error) {
           fd = longer;
         }
         // "Vanishing" in normalized terms: (x/Q) dQ/dx below 1e-9 (1e-9 A per A of a
@@ -138,18 +139,20 @@ TEST(Sensitivity, EveryDemoAgainstFiniteDifferences) {
       }
     }
   }
-  std::printf("sensitivity pairs checked: %d; worst relative disagreement %.3g; %d pairs "
-              "within 1e-12 absolute only, %d within the differences' own error estimate "
-              "only\n",
-              pairs, worst_relative, by_absolute, by_estimate);
+  std::printf(
+      "sensitivity pairs checked: %d; worst relative disagreement %.3g; %d pairs "
+      "within 1e-12 absolute only, %d within the differences' own error estimate "
+      "only\n",
+      pairs, worst_relative, by_absolute, by_estimate);
   EXPECT_GT(pairs, 100);
 }
 
 // Closed form of a divider V1 - R1 - out - R2 - gnd: Vout = V R2/(R1 + R2), so
 // dVout/dR1 = -V R2/(R1 + R2)^2 and dVout/dR2 = V R1/(R1 + R2)^2.
 TEST(Sensitivity, DividerClosedForm) {
-  Loaded l = Load("vsource V1 in -> gnd 10\nresistor R1 in -> out 1k\n"
-                  "resistor R2 out -> gnd 3k3\nshow out.v\n");
+  Loaded l = Load(
+      "vsource V1 in -> gnd 10\nresistor R1 in -> out 1k\n"
+      "resistor R2 out -> gnd 3k3\nshow out.v\n");
   ASSERT_TRUE(l.design.has_value());
   auto solver = BiasSolver::Create(l.design->circuit, SolverOptions{});
   Solution s;
@@ -247,8 +250,8 @@ TEST(Sensitivity, SweepColumnsMatchTheBiasPointCommand) {
     const std::string name = "d(ref.v)/d(" + line["target"].get<std::string>() + ")";
     for (size_t c = 0; c < s["columns"].size(); ++c) {
       if (s["columns"][c]["name"] != name) continue;
-      EXPECT_TRUE(IsClose(s["rows"][1][c].get<double>(), line["derivative"].get<double>(), 1e-9,
-                          1e-300))
+      EXPECT_TRUE(
+          IsClose(s["rows"][1][c].get<double>(), line["derivative"].get<double>(), 1e-9, 1e-300))
           << name;
       ++matched;
     }

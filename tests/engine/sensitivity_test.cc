@@ -4,6 +4,8 @@
 // device derivative: resistors and both sources, diodes with series resistance,
 // breakdown, their own temperature, an area, and an island (nodes tied to gnd only
 // through junctions).
+#include "knee/sensitivity.h"
+
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -14,7 +16,6 @@
 #include "circuit_builder.h"
 #include "finite_difference.h"
 #include "knee/quantity.h"
-#include "knee/sensitivity.h"
 #include "knee/solver.h"
 #include "test_util.h"
 
@@ -106,8 +107,8 @@ TEST(Sensitivity, DiodesWithEveryKeyAgainstFiniteDifferences) {
   const int part = b.Part("Z", m);
   b.V("V1", "in", "gnd", 12.0);
   b.R("R1", "in", "z", 470.0);
-  b.D("DZ", "gnd", "z", part, 1.5);           // in breakdown
-  b.D("DF", "z", "f", part);                  // forward
+  b.D("DZ", "gnd", "z", part, 1.5);  // in breakdown
+  b.D("DF", "z", "f", part);         // forward
   b.R("R2", "f", "gnd", 2.2e3);
   Circuit c = b.circuit();
   c.elements[static_cast<size_t>(c.FindElement("DF"))].temp = 60.0;  // its own temperature
