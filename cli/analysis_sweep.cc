@@ -19,6 +19,7 @@
 #include "bounds.h"
 #include "eng_format.h"
 #include "knee/sweep.h"
+#include "sensitivity.h"
 #include "stress.h"
 #include "svg_chart.h"
 
@@ -271,6 +272,16 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     report.temp_swept |= axis.target.kind == SweepTarget::Kind::kTemp;
   }
   for (const QuantityExpr& q : show) report.columns.push_back({q.text(), q.unit()});
+  // --sensitivity Q: one column dQ/dTARGET per number of the circuit (docs/sensitivity.md).
+  std::optional<SweepSensitivity> sensitivity;
+  if (!options.sweep_sensitivity.empty()) {
+    sensitivity = PrepareSweepSensitivity(*loaded.design, axes, options.sweep_sensitivity);
+    if (!sensitivity) {
+      result.outcome.bad_input = true;
+      return result;
+    }
+    for (const Column& c : sensitivity->columns) report.columns.push_back(c);
+  }
   const double derate = options.derate / 100;
   const std::vector<StressCheck> checks = CollectStressChecks(base, derate);
   AddStressColumns(checks, base, &report);
@@ -379,12 +390,21 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   StressRecorder stress(checks);
   // Bounds are reduced over the whole slice (every point's margin is kept).
   BoundRecorder bounds(loaded.design->expects, slice_points);
-  const size_t stress_column = axes.size() + show.size();
+  const size_t sensitivity_column = axes.size() + show.size();
+  const size_t stress_column =
+      sensitivity_column + (sensitivity ? sensitivity->columns.size() : size_t{0});
   std::vector<std::string> failure_why;
   std::vector<double> largest_voltage;
   double largest = 0;
   SweepStats stats;
   long long window_first = first_point;  // sweep point of report.rows[0]
+  if (sensitivity) {
+    sweep_options.at_solution = [&](long long index, BiasSolver& solver, const Solution& s) {
+      std::vector<double>& row = report.rows[static_cast<size_t>(index - window_first)];
+      FillSweepSensitivity(*sensitivity, *loaded.design, solver, s,
+                           row.data() + sensitivity_column);
+    };
+  }
   PointSink sink = [&](long long index, const SolveSummary& summary, const Solution* solution) {
     const auto r = static_cast<size_t>(index - window_first);
     std::vector<double>& row = report.rows[r];

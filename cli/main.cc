@@ -11,6 +11,7 @@
 #include "fit_command.h"
 #include "options.h"
 #include "output.h"
+#include "sensitivity.h"
 #include "version.h"
 
 namespace {
@@ -135,6 +136,8 @@ int main(int argc, char** argv) {
        "The file's analysis over the spread of its vary lines: Monte Carlo or corners, with "
        "yields",
        knee::cli::RunSpread},
+      {"sensitivity", "DC sensitivities of quantities to every value of the circuit",
+       knee::cli::RunSensitivity},
   };
   for (Command& c : commands) {
     c.app = app.add_subcommand(c.name, c.help);
@@ -175,6 +178,19 @@ int main(int argc, char** argv) {
                        "absolute (50m) or relative (5%), default 5 %; repeatable")
           ->type_name("Q=VALUE[~TOL]")
           ->allow_extra_args(false);
+    }
+    if (name == "sensitivity") {
+      c.app
+          ->add_option("--of", options.sensitivity_of,
+                       "Quantities to differentiate, comma separated (default: the file's show "
+                       "list)")
+          ->type_name("Q1,Q2,...");
+    }
+    if (name == "sweep") {
+      c.app
+          ->add_option("--sensitivity", options.sweep_sensitivity,
+                       "Add the sensitivity columns of quantity Q to every sweep point")
+          ->type_name("Q");
     }
     if (name == "hand") {
       c.app

@@ -31,6 +31,8 @@ struct AnalysisOptions {
   bool trace = false;                          // --trace: Newton step records on standard error
   std::vector<std::string> sweeps;             // knee sweep: TARGET=RANGE, first = inner loop
   std::vector<std::string> expects;            // --expect QUANTITY=VALUE[~TOL] (bias, hand, run)
+  std::string sensitivity_of;     // knee sensitivity --of Q1,Q2,... ("" = the file's show list)
+  std::string sweep_sensitivity;  // knee sweep --sensitivity Q ("" = none)
   // knee hand (docs/hand-models.md): number texts in the netlist's forms ("" = default).
   std::string hand_drop;             // --drop V: on-voltage of the drop models (default 0.7 V)
   std::string hand_on_res;           // --on-res Ohm: on-resistance of the piecewise-linear model

@@ -9,9 +9,11 @@
 #include <string>
 #include <vector>
 
+#include "adjoint.h"
 #include "check.h"
 #include "forced_junctions.h"
 #include "klu_solver.h"
+#include "knee/sensitivity.h"
 #include "knee/solver.h"
 #include "linear_refine.h"
 #include "mna.h"
@@ -208,6 +210,10 @@ struct BiasSolver::Impl {
   double junction_span = 0.0;  // V, JunctionSpan(circuit)
   bool trace_on = false;
   std::vector<NewtonStepRecord> trace;
+  // Whether the last Solve() converged (Sensitivity() differentiates only that point),
+  // and the adjoint method's buffers, made on first use.
+  bool last_converged = false;
+  std::unique_ptr<internal::AdjointWorkspace> adjoint;
 
   Impl(const Circuit& c, const SolverOptions& o)
       : circuit(&c),
@@ -280,6 +286,7 @@ struct BiasSolver::Impl {
     CheckLoopJunctions(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
+    last_converged = s->status == SolveStatus::kConverged;
   }
   void Fill(Solution* solution) const;
   // A verified answer in which a junction that only sources and junctions limit carries
@@ -705,6 +712,7 @@ BiasSolver::~BiasSolver() = default;
 
 void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
+  m.last_converged = false;  // the last solution is not one of these values
   // Neither classification depends on the value of a voltage source, except through its
   // finiteness: a sweep of a supply skips both (a max-flow over the network per point).
   // The first update has nothing to compare with and classifies again.
@@ -733,6 +741,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
 SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start, bool allow_aids) {
   Impl& m = *impl_;
   m.trace.clear();
+  m.last_converged = false;
   if (m.rerooted) {
     m.Rebuild({});
     m.rerooted = false;
@@ -838,6 +847,19 @@ SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start
   m.factors_exact = m.newton.exact_factors();
   m.Conclude(&s, solution);
   return s;
+}
+
+Status BiasSolver::Sensitivity(std::span<const WeightedQuantity> quantity,
+                               CircuitGradient* gradient) {
+  Impl& m = *impl_;
+  if (!m.last_converged || m.converged.size() != m.x.size()) {
+    return MessageOnly("no converged solution to differentiate");
+  }
+  if (!m.adjoint) m.adjoint = std::make_unique<internal::AdjointWorkspace>();
+  std::string problem = internal::ComputeSensitivity(*m.circuit, m.mna, m.klu, m.factors_exact,
+                                                     m.converged, quantity, *m.adjoint, gradient);
+  if (!problem.empty()) return MessageOnly(std::move(problem));
+  return Done{};
 }
 
 std::span<const double> BiasSolver::unknowns() const { return impl_->converged; }

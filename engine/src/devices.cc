@@ -11,6 +11,7 @@
 #include <utility>
 
 #include "check.h"
+#include "diode_sensitivity.h"
 #include "knee/co_content.h"
 
 namespace knee::internal {
@@ -142,6 +143,20 @@ class Conductance {
       ctx.AddPlainBranch(i, terms, a_, b_);
     }
   }
+  // w . v for v in the solver's coordinates of rows (an adjoint vector; x itself holds
+  // plain node voltages, whose difference is At(x, a) - At(x, b)).
+  double Dot(std::span<const double> v) const {
+    if (island_) {
+      const Incidence& w = island_->w;
+      double s = 0.0;
+      for (int k = 0; k < w.count; ++k) {
+        s += w.coef[static_cast<size_t>(k)] *
+             v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
+      }
+      return s;
+    }
+    return At(v, a_) - At(v, b_);
+  }
   // out += g w (w . v).
   void MultiplyAdd(double g, std::span<const double> v, std::span<double> out) const {
     if (island_) {
@@ -233,6 +248,13 @@ class Resistor final : public Device {
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
     pair_.MultiplyAdd(g_, v, out);
   }
+  // F carries I = (v(a) - v(b))/R on its incidence w: dI/dR = -I/R = -I g, and
+  // -lambda^T dF/dR = (w . lambda) I g.
+  void AddSensitivity(std::span<const double> x, std::span<const double> lambda,
+                      CircuitGradient* gradient) const {
+    const double i = g_ * (At(x, pair_.a()) - At(x, pair_.b()));
+    gradient->value[static_cast<size_t>(element())] += pair_.Dot(lambda) * i * g_;
+  }
 
  private:
   double g_ = 0;
@@ -295,6 +317,11 @@ class VoltageSource final : public Device {
     }
     out[static_cast<size_t>(k_)] += across;
   }
+  // Row k is v(p) - v(n) - V: dF_k/dV = -1.
+  void AddSensitivity(std::span<const double>, std::span<const double> lambda,
+                      CircuitGradient* gradient) const {
+    gradient->value[static_cast<size_t>(element())] += At(lambda, k_);
+  }
 
  private:
   int p_ = -1, n_ = -1, k_ = -1;
@@ -334,6 +361,15 @@ class CurrentSource final : public Device {
     return r;
   }
   void MultiplyAdd(std::span<const double>, std::span<double>) const {}
+  // F carries the source's current on its incidence w: dF/dI = w.
+  void AddSensitivity(std::span<const double>, std::span<const double> lambda,
+                      CircuitGradient* gradient) const {
+    double across = 0.0;
+    for (int t = 0; t < w_.count; ++t) {
+      across += w_.coef[static_cast<size_t>(t)] * At(lambda, w_.index[static_cast<size_t>(t)]);
+    }
+    gradient->value[static_cast<size_t>(element())] -= across;
+  }
 
  private:
   int a_ = -1, b_ = -1;
@@ -420,9 +456,13 @@ class DiodeBases {
 class Diode final : public Device {
  public:
   Diode(const Circuit& c, int element, int basis)
-      : Device(element), pair_(Conductance::Of(c, element)), basis_(basis) {}
+      : Device(element),
+        pair_(Conductance::Of(c, element)),
+        basis_(basis),
+        own_temp_(c.elements[static_cast<size_t>(element)].temp.has_value()) {}
   int basis() const { return basis_; }
   void set_basis(int basis) { basis_ = basis; }
+  void set_own_temp(bool own) { own_temp_ = own; }
   bool Joins(const Element& e) const { return pair_.Joins(e); }
   void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
   void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
@@ -488,12 +528,37 @@ class Diode final : public Device {
   void MultiplyAdd(std::span<const double> v, std::span<double> out) const {
     pair_.MultiplyAdd(stamped_g_, v, out);
   }
+  // F carries the diode's current I(v; c) on its incidence w: -lambda^T dF/dc =
+  // -(w . lambda) dI/dc at fixed v (LocalSlopes). The area and temperature take their
+  // share here; the part keys, common to the basis, are added to *basis_sum.
+  void AddSensitivity(std::span<const double> x, std::span<const double> lambda,
+                      const DiodeBasis& basis, const ConstantJacobian& jacobian,
+                      ConstantSlopes* basis_sum, CircuitGradient* gradient) const {
+    const ConstantSlopes di = CurrentSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
+    const double across = pair_.Dot(lambda);
+    const ConstantSlopes area = ConstantsAreaSlopes(basis.d, basis.area);
+    double d_area = 0.0, d_temp = 0.0;
+    for (size_t c = 0; c < di.size(); ++c) {
+      const double s = -across * di[c];
+      (*basis_sum)[c] += s;
+      d_area += s * area[c];
+      d_temp += s * jacobian.temp[c];
+    }
+    const auto e = static_cast<size_t>(element());
+    gradient->area[e] += d_area;
+    if (own_temp_) {
+      gradient->temp[e] += d_temp;
+    } else {
+      gradient->circuit_temp += d_temp;
+    }
+  }
   bool limited() const { return limited_; }
 
  private:
   Conductance pair_;
   int basis_;  // index into DiodeBases
   bool limited_ = false;
+  bool own_temp_ = false;  // the element has its own temp= (sensitivities only)
   double last_vj_ = 0;
   double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
 };
@@ -686,7 +751,9 @@ void DeviceStore::UpdateValues(const Circuit& circuit, std::span<const char> par
   if (std::all_of(a.diodes.begin(), a.diodes.end(), holds)) return;
   a.diode_bases.Clear();
   for (Diode& d : a.diodes) {
-    d.set_basis(a.diode_bases.Find(circuit, circuit.elements[static_cast<size_t>(d.element())]));
+    const Element& e = circuit.elements[static_cast<size_t>(d.element())];
+    d.set_basis(a.diode_bases.Find(circuit, e));
+    d.set_own_temp(e.temp.has_value());
   }
 }
 
@@ -740,6 +807,43 @@ bool DeviceStore::Matches(const Circuit& circuit) const {
     ++k;
   });
   return same;
+}
+
+void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double> x,
+                                 std::span<const double> lambda, CircuitGradient* gradient) const {
+  const Arrays& a = *arrays_;
+  // One chain from constants to keys per basis (its logs and exps), not per diode, and
+  // the part keys' sums per basis, multiplied out once at the end.
+  std::vector<ConstantJacobian> jacobians;
+  std::vector<ConstantSlopes> sums;
+  std::vector<char> known;
+  Arrays::ForEach(a, [&](const auto& device) {
+    if constexpr (kIsDiode<decltype(device)>) {
+      const auto k = static_cast<size_t>(device.basis());
+      if (k >= jacobians.size()) {
+        jacobians.resize(k + 1);
+        sums.resize(k + 1, ConstantSlopes{});
+        known.resize(k + 1, 0);
+      }
+      const DiodeBasis& basis = a.diode_bases[device.basis()];
+      if (known[k] == 0) {
+        jacobians[k] = ComputeConstantJacobian(circuit.parts[static_cast<size_t>(basis.part)].model,
+                                               basis.area, basis.temp);
+        known[k] = 1;
+      }
+      device.AddSensitivity(x, lambda, basis, jacobians[k], &sums[k], gradient);
+    } else {
+      device.AddSensitivity(x, lambda, gradient);
+    }
+  });
+  for (size_t k = 0; k < sums.size(); ++k) {
+    if (known[k] == 0) continue;
+    auto& part = gradient->part[static_cast<size_t>(a.diode_bases[static_cast<int>(k)].part)];
+    for (size_t key = 0; key < part.size(); ++key) {
+      for (size_t c = 0; c < sums[k].size(); ++c)
+        part[key] += sums[k][c] * jacobians[k].key[key][c];
+    }
+  }
 }
 
 std::vector<int> DeviceStore::LimitedElements() const {

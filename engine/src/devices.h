@@ -14,6 +14,7 @@
 
 #include "knee/circuit.h"
 #include "knee/diode_law.h"
+#include "knee/sensitivity.h"
 
 namespace knee::internal {
 
@@ -223,6 +224,11 @@ class DeviceStore {
   bool Matches(const Circuit& circuit) const;
   // The elements whose last Stamp limited their evaluation point, in element order.
   std::vector<int> LimitedElements() const;
+  // The adjoint pass (knee/sensitivity.h, docs/sensitivity.md): adds -lambda^T dF/dp of
+  // every device's own equations at x to *gradient, for every number p the device reads
+  // (lambda in the solver's coordinates, as x). Off the Newton path: it may allocate.
+  void AddSensitivity(const Circuit& circuit, std::span<const double> x,
+                      std::span<const double> lambda, CircuitGradient* gradient) const;
 
  private:
   struct Arrays;

@@ -123,4 +123,17 @@ LinearStatus KluSolver::Solve(std::span<double> rhs) {
   return LinearStatus::kOk;
 }
 
+bool KluSolver::has_factors() const { return handles_->numeric != nullptr; }
+
+LinearStatus KluSolver::SolveTransposed(std::span<double> rhs) {
+  Handles& h = *handles_;
+  KNEE_CHECK(h.numeric != nullptr && rhs.size() + 1 == col_ptr_.size());
+  if (klu_tsolve(h.symbolic, h.numeric, static_cast<int>(rhs.size()), 1, rhs.data(), &h.common) ==
+      0) {
+    const LinearStatus s = Classify(h.common.status, "klu_tsolve");
+    return s == LinearStatus::kOk ? LinearStatus::kFatal : s;
+  }
+  return LinearStatus::kOk;
+}
+
 }  // namespace knee::internal

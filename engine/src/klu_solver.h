@@ -32,6 +32,10 @@ class KluSolver {
   LinearStatus Refactor(std::span<const double> values);
   // Solves A x = b in place.
   LinearStatus Solve(std::span<double> rhs);
+  // Whether factors are held (a Factor or Refactor succeeded since the last Analyze).
+  bool has_factors() const;
+  // Solves A^T x = b in place with the same factors (klu_tsolve): the adjoint system.
+  LinearStatus SolveTransposed(std::span<double> rhs);
 
   // KLU's cheap reciprocal condition estimate of the current factors (min/max |U_ii|);
   // 0 when there are none.

@@ -225,6 +225,13 @@ std::string MnaSystem::UnknownName(int u) const {
   return e.name + ":current";
 }
 
+int MnaSystem::BranchUnknown(int element) const {
+  // element_of_extra_ is in element order (the branches are numbered as sources appear).
+  const auto it = std::lower_bound(element_of_extra_.begin(), element_of_extra_.end(), element);
+  if (it == element_of_extra_.end() || *it != element) return -1;
+  return kcl_rows_ + static_cast<int>(it - element_of_extra_.begin());
+}
+
 AssemblyOutcome MnaSystem::Assemble(std::span<const double> x, const AssemblyAids& aids) {
   KNEE_CHECK(static_cast<int>(x.size()) == size());
   std::fill(values_.begin(), values_.end(), 0.0);

@@ -55,6 +55,8 @@ class MnaSystem {
   bool IsCurrentUnknown(int u) const { return u >= kcl_rows_; }
   // "node" or "V1:current"; built on demand (messages only).
   std::string UnknownName(int u) const;
+  // The unknown of voltage source `element`'s branch current; -1 for other elements.
+  int BranchUnknown(int element) const;
 
   std::span<const int> col_ptr() const { return col_ptr_; }
   std::span<const int> row_index() const { return row_index_; }

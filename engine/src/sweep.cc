@@ -142,7 +142,10 @@ class Worker {
         x1_.assign(x.begin(), x.end());
         p1_ = values_[0];
         have_prev = true;
-        if (reported) sink_(index, summary, &solution_);
+        if (reported) {
+          if (options_.at_solution) options_.at_solution(index, *solver_, solution_);
+          sink_(index, summary, &solution_);
+        }
       } else {
         have_prev = have_prev2 = false;
         if (reported) {

@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 
 #include "knee/diagnostics.h"
@@ -419,6 +420,79 @@ void CollectNames(const Expr& expr, std::vector<const Expr*>* names) {
     return;
   }
   for (const auto& arg : expr.args) CollectNames(*arg, names);
+}
+
+Dual ApplyDual(Expr::Kind kind, std::string_view f, std::span<const Dual> a) {
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  const auto pow_dual = [&](const Dual& x, const Dual& y) {
+    const double value = std::pow(x.value, y.value);
+    // d(x^y) = y x^(y-1) dx + x^y ln(x) dy; the second term only where y moves.
+    double slope = x.slope == 0.0 ? 0.0 : y.value * std::pow(x.value, y.value - 1.0) * x.slope;
+    if (y.slope != 0.0) slope += value * std::log(x.value) * y.slope;
+    return Dual{value, slope};
+  };
+  switch (kind) {
+    case Expr::Kind::kNumber:
+    case Expr::Kind::kName:
+      return a.empty() ? Dual{nan, nan} : a[0];
+    case Expr::Kind::kNegate:
+      return {-a[0].value, -a[0].slope};
+    case Expr::Kind::kAdd:
+      return {a[0].value + a[1].value, a[0].slope + a[1].slope};
+    case Expr::Kind::kSub:
+      return {a[0].value - a[1].value, a[0].slope - a[1].slope};
+    case Expr::Kind::kMul:
+      return {a[0].value * a[1].value, a[0].slope * a[1].value + a[0].value * a[1].slope};
+    case Expr::Kind::kDiv: {
+      if (a[1].value == 0.0) return {nan, nan};
+      const double q = a[0].value / a[1].value;
+      return {q, (a[0].slope - q * a[1].slope) / a[1].value};
+    }
+    case Expr::Kind::kPow:
+      return pow_dual(a[0], a[1]);
+    case Expr::Kind::kCall:
+      break;
+  }
+  if (f == "exp") {
+    const double e = std::exp(a[0].value);
+    return {e, e * a[0].slope};
+  }
+  if (f == "ln" || f == "log10") {
+    if (!(a[0].value > 0.0)) return {nan, nan};
+    const double scale = f == "ln" ? 1.0 : 1.0 / std::log(10.0);
+    return {std::log(a[0].value) * scale, a[0].slope / a[0].value * scale};
+  }
+  if (f == "sqrt") {
+    if (!(a[0].value >= 0.0)) return {nan, nan};
+    const double r = std::sqrt(a[0].value);
+    return {r, a[0].slope / (2.0 * r)};
+  }
+  if (f == "abs") return {std::fabs(a[0].value), a[0].value < 0.0 ? -a[0].slope : a[0].slope};
+  if (f == "min" || f == "max") {
+    size_t best = 0;
+    for (size_t k = 1; k < a.size(); ++k) {
+      if (f == "min" ? a[k].value < a[best].value : a[k].value > a[best].value) best = k;
+    }
+    return a[best];
+  }
+  if (f == "pow") return pow_dual(a[0], a[1]);
+  return {nan, nan};
+}
+
+Dual EvaluateDual(const Expr& expr, const std::function<Dual(const Expr& name_node)>& lookup) {
+  switch (expr.kind) {
+    case Expr::Kind::kNumber:
+      return {expr.number, 0.0};
+    case Expr::Kind::kName:
+      if (auto c = ConstantValue(expr.name)) return {*c, 0.0};
+      return lookup(expr);
+    default:
+      break;
+  }
+  std::vector<Dual> args;
+  args.reserve(expr.args.size());
+  for (const auto& arg : expr.args) args.push_back(EvaluateDual(*arg, lookup));
+  return ApplyDual(expr.kind, expr.name, args);
 }
 
 }  // namespace knee

@@ -5,7 +5,9 @@
 #include <functional>
 #include <memory>
 #include <optional>
+#include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "knee/result.h"
@@ -69,5 +71,21 @@ bool ParseValue(Scanner* scanner, const std::string& file, const std::string& wh
 
 // Every kName leaf of `expr` that is not a constant, in order of appearance.
 void CollectNames(const Expr& expr, std::vector<const Expr*>* names);
+
+// Forward-mode differentiation of expressions: a value and its slope along one
+// direction. Shared by the params' reach into the circuit (instantiate.cc) and the
+// partials of quantity expressions (quantity_parser.cc), whose trees differ.
+struct Dual {
+  double value = 0.0;
+  double slope = 0.0;
+};
+// The operator `kind` (kNegate ... kPow; kCall with `function`: exp, ln, log10, sqrt,
+// abs, min, max, pow) on `args`. Where a function has no derivative (abs at 0, min/max
+// at a tie) the slope is that of the branch its value takes (the first argument of a
+// tie); outside a function's domain both value and slope are NaN.
+Dual ApplyDual(Expr::Kind kind, std::string_view function, std::span<const Dual> args);
+// `expr` with names' values and slopes from `lookup` (constants have slope 0); NaN
+// where evaluation would fail.
+Dual EvaluateDual(const Expr& expr, const std::function<Dual(const Expr& name_node)>& lookup);
 
 }  // namespace knee

@@ -396,6 +396,68 @@ class Elaborator {
     }
   }
 
+  // Design::params: every param with the numbers of the circuit its value reaches and
+  // d(number)/d(param) (netlist.h, ParamReach), by forward-mode differentiation of the
+  // values that name params (EvaluateDual).
+  void ParamReaches(const Circuit& circuit, Design* design) {
+    using Kind = SensitivityTarget::Kind;
+    const std::size_t n = d_.params.size();
+    // total[i]: d param_i / d param_j for every j it depends on, itself included.
+    std::vector<std::vector<std::pair<int, double>>> total(n);
+    for (int p : param_order_) {
+      const auto i = static_cast<std::size_t>(p);
+      total[i] = Through(ParamValue(i), total);
+      total[i].insert(total[i].begin(), {p, 1.0});
+    }
+    design->param_info.resize(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      design->param_info[i].name = d_.params[i].name;
+      design->param_info[i].value = param_values_[i];
+      design->param_info[i].where = ToLocation(file_, d_.params[i].name_span);
+    }
+    const auto place = [&](const Value& v, SensitivityTarget target) {
+      for (const auto& [param, slope] : Through(v, total)) {
+        if (slope != 0.0)
+          design->param_info[static_cast<std::size_t>(param)].reach.push_back({target, slope});
+      }
+    };
+    if (!overrides_.temp) {
+      if (temp_override_) {
+        place(*temp_override_, {Kind::kCircuitTemp, -1});
+      } else if (d_.temp) {
+        place(*d_.temp, {Kind::kCircuitTemp, -1});
+      }
+    }
+    for (std::size_t i = 0; i < d_.parts.size() && i < circuit.parts.size(); ++i) {
+      const auto key_place = [&](const std::string& key, const Value& v) {
+        for (int k = 0; k < kModelKeyCount; ++k) {
+          if (key == ModelKeyName(static_cast<ModelKey>(k))) {
+            place(v, {Kind::kPartKey, static_cast<int>(i), static_cast<ModelKey>(k)});
+          }
+        }
+      };
+      for (const PartKeyStmt& k : d_.parts[i].keys) {
+        if (part_overrides_.count({static_cast<int>(i), k.key}) == 0) key_place(k.key, k.value);
+      }
+      for (const auto& [key, value] : part_overrides_) {
+        if (key.first == static_cast<int>(i)) key_place(key.second, *value);
+      }
+    }
+    for (std::size_t i = 0; i < d_.elements.size() && i < circuit.elements.size(); ++i) {
+      const ElementStmt& s = d_.elements[i];
+      const int index = static_cast<int>(i);
+      if (s.kind == ElementKind::kDiode) {
+        const DiodeStmt& diode = d_.DiodeOf(s);
+        if (diode.area) place(*diode.area, {Kind::kArea, index});
+        if (diode.temp) place(*diode.temp, {Kind::kElementTemp, index});
+        continue;
+      }
+      auto over = element_overrides_.find(index);
+      place(over != element_overrides_.end() ? *over->second : d_.ValueOf(s),
+            {Kind::kElementValue, index});
+    }
+  }
+
   std::vector<Diagnostic> TakeErrors() {
     if (errors_.size() > static_cast<std::size_t>(kMaxDiagnostics)) {
       errors_.resize(static_cast<std::size_t>(kMaxDiagnostics));
@@ -667,6 +729,56 @@ class Elaborator {
     return std::nullopt;
   }
 
+  // The params that value `v` names (each once), by index.
+  std::vector<int> ParamsNamed(const Value& v) {
+    std::vector<std::string_view> names;
+    if (v.kind == Value::Kind::kName) names.push_back(v.text);
+    if (v.kind == Value::Kind::kExpr) {
+      std::vector<const Expr*> used;
+      CollectNames(*v.expr, &used);
+      for (const Expr* e : used) names.push_back(e->name);
+    }
+    std::vector<int> params;
+    for (std::string_view name : names) {
+      auto it = names_.find(name);
+      if (it == names_.end() || it->second.kind != DefKind::kParam) continue;
+      if (std::find(params.begin(), params.end(), it->second.index) == params.end()) {
+        params.push_back(it->second.index);
+      }
+    }
+    return params;
+  }
+  // d v / d param `along` at the params' values, the other params held.
+  double PartialAlong(const Value& v, int along) {
+    if (v.kind == Value::Kind::kName) return 1.0;  // v is the param itself
+    if (v.kind != Value::Kind::kExpr) return 0.0;
+    const auto lookup = [&](const Expr& name) -> Dual {
+      auto it = names_.find(name.name);
+      if (it == names_.end() || it->second.kind != DefKind::kParam) return {std::nan(""), 0.0};
+      const int p = it->second.index;
+      return {param_values_[static_cast<std::size_t>(p)], p == along ? 1.0 : 0.0};
+    };
+    return EvaluateDual(*v.expr, lookup).slope;
+  }
+  // d v / d param_j for every j that v reaches through the params it names, given each
+  // named param's own total (d param_k / d param_j).
+  std::vector<std::pair<int, double>> Through(
+      const Value& v, const std::vector<std::vector<std::pair<int, double>>>& total) {
+    std::vector<std::pair<int, double>> out;
+    for (int k : ParamsNamed(v)) {
+      const double partial = PartialAlong(v, k);
+      for (const auto& [j, slope] : total[static_cast<std::size_t>(k)]) {
+        auto it = std::find_if(out.begin(), out.end(), [&](const auto& e) { return e.first == j; });
+        if (it == out.end()) {
+          out.push_back({j, partial * slope});
+        } else {
+          it->second += partial * slope;
+        }
+      }
+    }
+    return out;
+  }
+
   const Value& ParamValue(std::size_t i) const {
     auto it = param_overrides_.find(static_cast<int>(i));
     return it != param_overrides_.end() ? *it->second : d_.params[i].value;
@@ -719,6 +831,7 @@ class Elaborator {
           if (v && std::isfinite(*v)) {
             param_values_[pi] = *v;
             param_state_[pi] = kDone;
+            param_order_.push_back(p);
           } else {
             if (v && errors_.size() == before) {
               Error(ParamValue(pi).span,
@@ -963,6 +1076,7 @@ class Elaborator {
   const Value* temp_override_ = nullptr;
   std::vector<char> param_state_;
   std::vector<double> param_values_;
+  std::vector<int> param_order_;  // the params evaluated, each after those it names
 };
 
 }  // namespace
@@ -986,6 +1100,7 @@ Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides) {
   if (!e.Run(&design.circuit)) return e.TakeErrors();
   e.Requests(design.circuit, &design);
   e.NodeWarnings(design.circuit, &design.warnings);
+  e.ParamReaches(design.circuit, &design);
   std::vector<Diagnostic> errors = e.TakeErrors();
   if (!errors.empty()) return errors;
   return design;

@@ -75,6 +75,49 @@ double EvaluateNode(const Node& node, const Solution& solution,
   return std::nan("");
 }
 
+Expr::Kind ExprKindOf(Node::Kind kind) {
+  switch (kind) {
+    case Node::Kind::kNumber:
+      return Expr::Kind::kNumber;
+    case Node::Kind::kRef:
+    case Node::Kind::kVariable:
+      return Expr::Kind::kName;
+    case Node::Kind::kNegate:
+      return Expr::Kind::kNegate;
+    case Node::Kind::kAdd:
+      return Expr::Kind::kAdd;
+    case Node::Kind::kSub:
+      return Expr::Kind::kSub;
+    case Node::Kind::kMul:
+      return Expr::Kind::kMul;
+    case Node::Kind::kDiv:
+      return Expr::Kind::kDiv;
+    case Node::Kind::kPow:
+      return Expr::Kind::kPow;
+    case Node::Kind::kCall:
+      return Expr::Kind::kCall;
+  }
+  return Expr::Kind::kNumber;
+}
+
+// The node's value and its slope along the plain quantity `along`.
+// A param or temp is a constant of the solution: its nominal value, slope 0.
+Dual DualNode(const Node& node, const Solution& solution, const QuantityRef& along,
+              const std::vector<double>& variables) {
+  if (node.kind == Node::Kind::kNumber) return {node.number, 0.0};
+  if (node.kind == Node::Kind::kVariable) {
+    return {variables[static_cast<std::size_t>(node.variable)], 0.0};
+  }
+  if (node.kind == Node::Kind::kRef) {
+    const bool same = node.ref.kind == along.kind && node.ref.index == along.index;
+    return {Evaluate(solution, node.ref), same ? 1.0 : 0.0};
+  }
+  std::vector<Dual> args;
+  args.reserve(node.args.size());
+  for (const auto& arg : node.args) args.push_back(DualNode(*arg, solution, along, variables));
+  return ApplyDual(ExprKindOf(node.kind), node.function, args);
+}
+
 struct Converted {
   std::shared_ptr<const Node> node;
   std::string unit;
@@ -273,6 +316,15 @@ double QuantityExpr::Evaluate(const Solution& solution) const {
 
 double QuantityExpr::Evaluate(const Solution& solution, const std::vector<double>& values) const {
   return root_ ? EvaluateNode(*root_, solution, values) : std::nan("");
+}
+
+std::vector<double> QuantityExpr::Partials(const Solution& solution) const {
+  std::vector<double> partials;
+  partials.reserve(refs_.size());
+  for (const QuantityRef& ref : refs_) {
+    partials.push_back(root_ ? DualNode(*root_, solution, ref, nominal_).slope : std::nan(""));
+  }
+  return partials;
 }
 
 QuantityExpr PlainQuantity(const Circuit& circuit, const QuantityRef& ref) {

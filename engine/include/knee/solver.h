@@ -13,6 +13,9 @@
 
 namespace knee {
 
+struct WeightedQuantity;  // knee/sensitivity.h
+struct CircuitGradient;   // knee/sensitivity.h
+
 // Which bias solver runs (docs/solver.md, "The potential method").
 enum class SolverMethod {
   // The potential method when the network is monotone (every resistor > 0, every diode
@@ -165,6 +168,12 @@ class BiasSolver {
   // vsource currents), for warm starts.
   std::span<const double> unknowns() const;
   int unknown_count() const;
+
+  // After a Solve() that converged: *gradient = d(sum_k weight_k q_k)/dp for every number
+  // p of the circuit (knee/sensitivity.h), by the adjoint method: one transposed solve
+  // with the factors the solve left, refined against the exact Jacobian at the solution.
+  // An error when the last Solve() did not converge or the adjoint system is singular.
+  Status Sensitivity(std::span<const WeightedQuantity> quantity, CircuitGradient* gradient);
 
   // Per-step records of the last Solve() when tracing is on.
   void set_trace(bool on);

@@ -47,6 +47,9 @@ struct SweepOptions {
   int jobs = 1;                // worker threads, >= 1
   int max_halvings = 10;       // a failed step is retried in halves down to 2^-max_halvings
   bool extrapolate = true;     // predict each start linearly from the two previous points
+  // When set: called in the worker thread after each converged point, before the sink,
+  // with the solver that holds the point (for BiasSolver::Sensitivity there).
+  std::function<void(long long index, BiasSolver& solver, const Solution& solution)> at_solution;
 };
 std::optional<std::string> Validate(const SweepOptions& options);
 

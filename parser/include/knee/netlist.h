@@ -14,6 +14,7 @@
 #include "knee/circuit.h"
 #include "knee/quantity.h"
 #include "knee/result.h"
+#include "knee/sensitivity.h"
 #include "knee/solver.h"
 
 namespace knee {
@@ -68,6 +69,9 @@ class QuantityExpr {
   const std::string& unit() const { return unit_; }  // "V", "A", "W", "Ohm", "" if mixed
   // The plain quantities this expression reads.
   const std::vector<QuantityRef>& refs() const { return refs_; }
+  // d(expression)/d(refs()[k]) at `solution`, one per entry of refs() (for an adjoint
+  // right-hand side: knee/sensitivity.h, WeightedQuantity). NaN outside the domain.
+  std::vector<double> Partials(const Solution& solution) const;
 
  private:
   std::string text_;
@@ -186,8 +190,23 @@ struct VaryLine {
   std::string note;
 };
 
+// How far a param reaches into the circuit: for every number of the circuit whose value
+// uses it (directly, or through other params), d(number)/d(param), the param perturbed at
+// its own definition with every param that names it following (docs/sensitivity.md).
+struct ParamReach {
+  SensitivityTarget target;
+  double slope = 0.0;
+};
+struct ParamInfo {
+  std::string name;
+  double value = 0.0;
+  SourceLocation where;
+  std::vector<ParamReach> reach;  // empty: no number of the circuit uses the param
+};
+
 struct Design {
   Circuit circuit;
+  std::vector<ParamInfo> param_info;           // in the file's order, with where each param reaches
   bool bias_requested = false;                 // 'bias' present, or no request at all
   std::vector<std::vector<SweepAxis>> sweeps;  // one per 'sweep' statement
   std::vector<QuantityExpr> show;              // empty: every node v and element i
