@@ -14,6 +14,7 @@
 
 #include "analyses.h"
 #include "eng_format.h"
+#include "knee/design_steps.h"
 #include "knee/sweep.h"
 #include "stress.h"
 
@@ -150,12 +151,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return result;
   }
 
-  SweepGrid grid;
-  bool any_param = false;
-  for (const SweepAxis& axis : axes) {
-    grid.axes.push_back(axis.values);
-    any_param |= axis.target.kind == SweepTarget::Kind::kParam;
-  }
+  const SweepGrid grid = MakeSweepGrid(axes);
   SweepOptions sweep_options;
   sweep_options.jobs = options.jobs > 0
                            ? options.jobs
@@ -166,28 +162,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   const long long first_point = blocks.starts[first_block];
   const long long end_point = blocks.starts[last_block];
 
-  // Applies one point: param axes re-evaluate the netlist's expressions; the others set
-  // the value directly.
-  const Netlist& netlist = *loaded.netlist;
-  const Overrides& base_overrides = loaded.overrides;
-  ApplyPoint apply = [&](std::span<const double> values, Circuit* circuit) -> std::string {
-    if (any_param) {
-      Overrides overrides = base_overrides;
-      for (size_t a = 0; a < axes.size(); ++a) {
-        if (axes[a].target.kind == SweepTarget::Kind::kParam) {
-          overrides.sets.push_back({axes[a].target.name, FormatRoundTrip(values[a])});
-        }
-      }
-      Result<Circuit> fresh = ElaborateCircuit(netlist, overrides);
-      if (!fresh) return fresh.errors().front().message;
-      *circuit = std::move(fresh).value();
-    }
-    for (size_t a = 0; a < axes.size(); ++a) {
-      std::string problem_here = ApplySweepValue(axes[a].target, values[a], circuit);
-      if (!problem_here.empty()) return problem_here;
-    }
-    return "";
-  };
+  const ApplyPoint apply = MakePointApplier(*loaded.netlist, loaded.overrides, axes);
 
   const size_t width = report.columns.size();
   report.rows.assign(static_cast<size_t>(end_point - first_point),
@@ -209,8 +184,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       stress.Record(index - first_point, *solution);
       largest_voltage[static_cast<size_t>(index - first_point)] = LargestVoltage(base, *solution);
     } else {
-      failure_why[static_cast<size_t>(index - first_point)] =
-          fmt::format("{}: {}", ToString(summary.status), summary.detail);
+      failure_why[static_cast<size_t>(index - first_point)] = DescribeFailure(summary);
     }
     progress.Tick();
   };
