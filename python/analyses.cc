@@ -204,4 +204,58 @@ SweepResult SolveSweep(const StatePtr& state, const std::vector<SweepAxis>& axes
   return result;
 }
 
+size_t HandComparison::ModelIndex(const std::string& model) const {
+  for (size_t m = 0; m < models.size(); ++m) {
+    if (models[m] == model) return m;
+  }
+  throw py::key_error(fmt::format("'{}' is not a model of knee hand; the models are: {}", model,
+                                  fmt::join(models, ", ")));
+}
+
+double HandComparison::Value(const std::string& model, const std::string& quantity) const {
+  const std::optional<Solution>& solution = solutions[ModelIndex(model)];
+  for (size_t q = 0; q < show.size(); ++q) {
+    if (show[q].text() == quantity) return solution ? show[q].Evaluate(*solution) : kNaN;
+  }
+  const QuantityExpr q = ParseOne(*state, quantity);
+  return solution ? q.Evaluate(*solution) : kNaN;
+}
+
+HandComparison CompareHand(StatePtr state, std::vector<QuantityExpr> show,
+                           const HandSettings& settings, const SolverOptions& options) {
+  if (std::optional<std::string> problem = Validate(settings)) throw py::value_error(*problem);
+  HandComparison result;
+  result.state = std::move(state);
+  result.show = std::move(show);
+  const Circuit& circuit = result.state->design.circuit;
+  Result<std::vector<HandModel>> models = MakeHandModels(circuit, settings);
+  if (!models) RaiseNetlistError(models.errors(), result.state->source);
+  Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options);
+  if (!solver) RaiseNetlistError(solver.errors(), result.state->source);
+
+  py::gil_scoped_release release;
+  Solution exact;
+  result.exact = (*solver)->Solve(&exact);
+  const bool exact_ok = result.exact.status == SolveStatus::kConverged;
+  result.models.push_back("exact");
+  result.states.push_back(exact_ok ? ExactStates(circuit, exact) : std::vector<DiodeState>{});
+  if (exact_ok) result.solutions.emplace_back(std::move(exact));
+  if (!exact_ok) result.solutions.emplace_back();
+  HandSearchOptions search;
+  if (exact_ok) search.start = result.states.front();  // as knee hand starts its search
+  for (const HandModel& model : *models) {
+    result.searches.push_back(SolveHand(circuit, model, search));
+    const HandResult& r = result.searches.back();
+    result.models.push_back(ToString(model.kind));
+    if (HasAnswer(r.status)) {
+      result.solutions.emplace_back(r.solutions.front().solution);
+      result.states.push_back(r.solutions.front().states);
+    } else {
+      result.solutions.emplace_back();
+      result.states.emplace_back();
+    }
+  }
+  return result;
+}
+
 }  // namespace knee::python

@@ -5,11 +5,13 @@
 #include <pybind11/numpy.h>
 #include <pybind11/pybind11.h>
 
+#include <optional>
 #include <string>
 #include <utility>
 #include <vector>
 
 #include "design_state.h"
+#include "knee/hand.h"
 #include "knee/netlist.h"
 #include "knee/solver.h"
 #include "knee/sweep.h"
@@ -61,5 +63,27 @@ struct SweepResult {
 SweepResult SolveSweep(const StatePtr& state, const std::vector<SweepAxis>& axes,
                        const std::vector<QuantityExpr>& show, const SolverOptions& options,
                        int jobs);
+
+// knee hand: the exact bias point beside the ideal, constant-drop and piecewise-linear
+// models (docs/hand-models.md). Per model, in the order of `models`, the solution when
+// the model has an answer (the exact one: when it converged).
+struct HandComparison {
+  StatePtr state;
+  std::vector<QuantityExpr> show;
+  std::vector<std::string> models;  // "exact", "ideal", "drop", "pwl"
+  std::vector<std::optional<Solution>> solutions;
+  std::vector<std::vector<DiodeState>> states;  // per model, per element
+  SolveSummary exact;
+  std::vector<HandResult> searches;  // per hand model (models[1..])
+
+  // `quantity` evaluated on `model`'s solution; NaN when the model has no answer.
+  double Value(const std::string& model, const std::string& quantity) const;
+  size_t ModelIndex(const std::string& model) const;  // KeyError if unknown
+};
+
+// The exact bias point and the three hand models, as knee hand computes them; raises
+// ValueError for settings that break a rule of Validate(HandSettings).
+HandComparison CompareHand(StatePtr state, std::vector<QuantityExpr> show,
+                           const HandSettings& settings, const SolverOptions& options);
 
 }  // namespace knee::python

@@ -161,6 +161,22 @@ void BindCircuit(py::module_& m) {
           "to values (numbers or a range text like \"-24..24:0.25\"); the first entry is the "
           "inner loop. jobs: threads (0 = every core). Points without a solution are NaN and "
           "listed in .failures.")
+      .def(
+          "hand",
+          [](const PyCircuit& c, const py::object& show, double drop, std::optional<double> on_res,
+             std::optional<double> fit_at, const py::kwargs& solver) {
+            const SolverOptions options = SolverOptionsFrom(solver);
+            HandSettings settings;
+            settings.drop = drop;
+            settings.on_res = on_res;
+            settings.fit_at = fit_at;
+            return CompareHand(c.state, ResolveShow(*c.state, show), settings, options);
+          },
+          py::arg("show") = py::none(), py::arg("drop") = HandSettings{}.drop,
+          py::arg("on_res") = py::none(), py::arg("fit_at") = py::none(),
+          "The exact bias point beside the ideal, constant-drop and piecewise-linear models, as "
+          "knee hand computes them. drop (V), on_res (Ohm) or fit_at (A) as --drop, --on-res, "
+          "--fit-at. Solver options as keyword arguments.")
       .def("__repr__", [](const PyCircuit& c) {
         return fmt::format("<knee.Circuit '{}' ({} nodes, {} elements)>",
                            c.state->netlist.file_name(), c.state->design.circuit.nodes.size(),
@@ -210,6 +226,70 @@ void BindBias(py::module_& m) {
         }
         return fmt::format("<knee.Bias {} residual={:.3g} A>", items, b.summary.max_kcl_residual);
       });
+}
+
+py::dict StatesOf(const HandComparison& h, size_t model) {
+  py::dict states;
+  const Circuit& circuit = h.state->design.circuit;
+  if (h.states[model].empty()) return states;
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    if (circuit.elements[e].kind != ElementKind::kDiode) continue;
+    states[py::str(circuit.elements[e].name)] = ToString(h.states[model][e]);
+  }
+  return states;
+}
+
+void BindHand(py::module_& m) {
+  py::class_<HandComparison>(m, "Hand", "The exact bias point beside the hand models.")
+      .def_readonly("models", &HandComparison::models, "\"exact\", \"ideal\", \"drop\", \"pwl\"")
+      .def(
+          "__getitem__",
+          [](const HandComparison& h, const std::string& model) {
+            py::dict values;
+            for (const QuantityExpr& q : h.show)
+              values[py::str(q.text())] = h.Value(model, q.text());
+            return values;
+          },
+          py::arg("model"), "The shown quantities of one model (NaN without an answer)")
+      .def("value", &HandComparison::Value, py::arg("model"), py::arg("quantity"),
+           "Any quantity or expression on one model's solution (NaN without an answer)")
+      .def(
+          "answered",
+          [](const HandComparison& h, const std::string& model) {
+            return h.solutions[h.ModelIndex(model)].has_value();
+          },
+          py::arg("model"), "The model has an answer (the exact one: the solve converged)")
+      .def(
+          "states",
+          [](const HandComparison& h, const std::string& model) {
+            return StatesOf(h, h.ModelIndex(model));
+          },
+          py::arg("model"), "Each diode's state: \"on\", \"off\" or \"breakdown\"")
+      .def(
+          "search",
+          [](const HandComparison& h, const std::string& model) {
+            const size_t index = h.ModelIndex(model);
+            if (index == 0) throw py::key_error("the exact model has no state search");
+            const HandResult& r = h.searches[index - 1];
+            py::dict d;
+            d["status"] = ToString(r.status);
+            d["exhaustive"] = r.exhaustive;
+            d["sets_tried"] = r.sets_tried;
+            d["singular_sets"] = r.singular_sets;
+            d["consistent_sets"] = r.consistent_sets;
+            d["detail"] = r.detail;
+            return d;
+          },
+          py::arg("model"), "The state search of a hand model (docs/hand-models.md)")
+      .def_property_readonly(
+          "exact_failure",
+          [](const HandComparison& h) {
+            return h.solutions.front() ? std::string() : DescribeFailure(h.exact);
+          },
+          "Why the exact solve has no usable solution, or \"\"")
+      .def_property_readonly(
+          "residual", [](const HandComparison& h) { return h.exact.max_kcl_residual; },
+          "Largest KCL residual of the exact solution in A");
 }
 
 void BindSweep(py::module_& m) {
@@ -291,6 +371,7 @@ PYBIND11_MODULE(knee, m) {
   BindCircuit(m);
   BindBias(m);
   BindSweep(m);
+  BindHand(m);
   m.def("load", &Load, py::arg("path"), py::arg("set") = py::none(),
         "Reads, parses and checks a netlist file. set: a dict of overrides, as Circuit.set. "
         "Raises OSError when the file cannot be read, NetlistError for a bad netlist.");

@@ -145,3 +145,22 @@ def test_bias_without_solution_raises_solve_error():
     assert isinstance(caught.value, RuntimeError)
     c.set("Ipush", -1e-3)  # pulled out instead: Dblock conducts, a solution exists
     assert c.bias()["a.v"] < -0.3
+
+
+def test_hand_settings(clamp):
+    h = clamp.hand()
+    assert h.models == ["exact", "ideal", "drop", "pwl"]
+    assert h.answered("drop") and h.states("drop") == {"Dhi": "on", "Dlo": "off"}
+    assert h.search("drop")["status"] in ("unique", "found", "equivalent")
+    assert h["drop"]["pin.v"] == h.value("drop", "pin.v")
+    assert h.exact_failure == ""
+    with pytest.raises(ValueError):
+        clamp.hand(on_res=1.0, fit_at=1e-3)  # two piecewise-linear models at once
+    with pytest.raises(ValueError):
+        clamp.hand(drop=-0.1)
+    with pytest.raises(ValueError):
+        clamp.hand(fit_at=0.0)
+    with pytest.raises(KeyError):
+        h["exactly"]
+    with pytest.raises(KeyError):
+        h.search("exact")

@@ -1,6 +1,9 @@
 """The module's numbers equal the command line's CSV bit for bit, on every demo netlist:
 both call the same parser and engine functions, so any difference is a bug in one door."""
 
+import csv
+import io
+
 import numpy as np
 import pytest
 
@@ -95,3 +98,28 @@ def test_failed_points_equal_cli(tmp_path):
     assert all(np.isnan(s["a.v"][failed]))
     assert all(why.startswith("no solution") for _, why in s.failures)
     assert s.ok[0]  # pulling current out of node a forward-biases Dblock
+
+
+@pytest.mark.parametrize("demo", DEMOS)
+def test_hand_equals_cli(demo):
+    path = netlist(demo)
+    for settings, args in (({}, []), ({"drop": 0.6, "on_res": 2.0}, ["--drop", "0.6",
+                                                                       "--on-res", "2"]),
+                           ({"fit_at": 1e-3}, ["--fit-at", "1m"])):
+        text = run_cli("hand", path, "--format", "csv", "--quiet", *args,
+                       check_status=(0, 1, 3, 4))
+        rows = list(csv.reader(io.StringIO(text)))
+        header = [h.rsplit(" [", 1)[0] for h in rows[0]]
+        h = knee.load(path).hand(**settings)
+        assert h.models == [r[0] for r in rows[1:]]
+        compared = 0
+        for row in rows[1:]:
+            model = row[0]
+            for name, cell in zip(header[1:], row[1:]):
+                if name.endswith(".state"):
+                    assert h.states(model).get(name[:-len(".state")], "") == cell, (model, name)
+                elif name.endswith((".v", ".i")) and not name.endswith(("_error",)):
+                    expected = float(cell) if cell else float("nan")
+                    assert same_bits(h.value(model, name), expected), (model, name)
+                    compared += 1
+        assert compared >= 4 * len(h.states("exact") or [None])
