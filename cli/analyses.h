@@ -59,11 +59,6 @@ bool ParseShard(const std::string& text, int* shard, int* shards, std::string* p
 // One expectation checked against a solution (error within the tolerance, finite).
 ExpectationCheck CheckExpectation(const Expectation& e, const Solution& solution);
 
-// Why a point has no solution, for reports: "{status}: {detail}", except that a proven
-// absence of a solution (SolveStatus::kNoSolution) is the detail alone, without the words
-// "no solution" or "no DC solution" the report line already carries.
-std::string FailureReason(const SolveSummary& summary);
-
 // Fills the header fields every report shares.
 Report StartReport(const LoadedDesign& loaded, const char* analysis);
 

@@ -7,6 +7,7 @@
 
 #include "analyses.h"
 #include "bounds.h"
+#include "knee/design_steps.h"
 #include "stress.h"
 
 namespace knee::cli {
@@ -41,17 +42,6 @@ void PrintTrace(const BiasSolver& solver) {
 }
 
 }  // namespace
-
-std::string FailureReason(const SolveSummary& summary) {
-  if (summary.status != SolveStatus::kNoSolution) {
-    return fmt::format("{}: {}", ToString(summary.status), summary.detail);
-  }
-  std::string_view detail = summary.detail;
-  for (std::string_view lead : {"no solution: ", "no DC solution: "}) {
-    if (detail.starts_with(lead)) detail.remove_prefix(lead.size());
-  }
-  return std::string(detail);
-}
 
 const char* SolverMethodName(const SolverOptions& options) {
   return SolverMethodName(options.method, options.junction_limiting);
@@ -138,7 +128,7 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
       result.outcome.expect_missed = true;
     }
   } else {
-    std::string why = FailureReason(summary);
+    std::string why = DescribeFailure(summary);
     if (!summary.unsettled.empty()) {
       why += fmt::format("; still moving: {}", fmt::join(summary.unsettled, ", "));
     }

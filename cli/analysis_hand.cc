@@ -20,12 +20,6 @@ namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
-struct HandSettings {
-  double drop = 0.7;             // V
-  std::optional<double> on_res;  // Ohm
-  std::optional<double> fit_at;  // A
-};
-
 // Parses --drop, --on-res and --fit-at with the netlist's number forms; "" or a message.
 std::string ReadSettings(const AnalysisOptions& options, HandSettings* s) {
   auto read = [](const std::string& option, const std::string& text, std::string_view unit,
@@ -65,33 +59,14 @@ std::string ReadSettings(const AnalysisOptions& options, HandSettings* s) {
   return "";
 }
 
-// The piecewise-linear model the options ask for.
-Result<HandModel> PiecewiseModel(const Circuit& circuit, const HandSettings& s) {
-  if (s.fit_at) {
-    std::vector<double> at(circuit.elements.size(), *s.fit_at);
-    Result<HandModel> m = MakeTangentModel(circuit, at);
-    if (m)
-      m->description = fmt::format("tangent to each part's curve at {}", FormatEng(*s.fit_at, "A"));
-    return m;
-  }
+// How the report describes the piecewise-linear model of MakePiecewiseModel(settings).
+std::string PiecewiseDescription(const HandSettings& s) {
+  if (s.fit_at) return fmt::format("tangent to each part's curve at {}", FormatEng(*s.fit_at, "A"));
   if (s.on_res) {
-    HandModel m = MakeDropResistanceModel(circuit, s.drop, *s.on_res);
-    m.description =
-        fmt::format("{} plus {} on, open off", FormatEng(s.drop, "V"), FormatEng(*s.on_res, "Ohm"));
-    return m;
+    return fmt::format("{} plus {} on, open off", FormatEng(s.drop, "V"),
+                       FormatEng(*s.on_res, "Ohm"));
   }
-  // Default: the drop plus each part's own series resistance.
-  HandModel m = MakeDropResistanceModel(circuit, s.drop, 0.0);
-  for (size_t e = 0; e < circuit.elements.size(); ++e) {
-    const Element& el = circuit.elements[e];
-    if (el.kind != ElementKind::kDiode) continue;
-    const double rs = circuit.parts[static_cast<size_t>(el.part)].model.series_res / el.area;
-    m.lines[e].on_res = rs;
-    m.lines[e].breakdown_res = rs;
-  }
-  m.description =
-      fmt::format("{} plus each part's series_res on, open off", FormatEng(s.drop, "V"));
-  return m;
+  return fmt::format("{} plus each part's series_res on, open off", FormatEng(s.drop, "V"));
 }
 
 }  // namespace
@@ -109,9 +84,9 @@ int RunHand(const std::string& file, AnalysisOptions options) {
   if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
   const Circuit& circuit = loaded->design->circuit;
 
-  Result<HandModel> pwl = PiecewiseModel(circuit, settings);
-  if (!pwl) {
-    PrintDiagnostics(pwl.errors(), loaded->source);
+  Result<std::vector<HandModel>> hand_models = MakeHandModels(circuit, settings);
+  if (!hand_models) {
+    PrintDiagnostics(hand_models.errors(), loaded->source);
     return static_cast<int>(ExitStatus::kBadInput);
   }
 
@@ -138,10 +113,7 @@ int RunHand(const std::string& file, AnalysisOptions options) {
 
   std::vector<DiodeState> exact_states(circuit.elements.size(), DiodeState::kOff);
   if (exact_ok) {
-    for (size_t e = 0; e < circuit.elements.size(); ++e) {
-      if (circuit.elements[e].kind != ElementKind::kDiode) continue;
-      exact_states[e] = ExactState(circuit, static_cast<int>(e), exact.junction_voltage[e]);
-    }
+    exact_states = ExactStates(circuit, exact);
     std::string caution = HighVoltageCaution(LargestVoltage(circuit, exact));
     if (!caution.empty()) report.cautions.push_back(caution);
   }
@@ -152,8 +124,8 @@ int RunHand(const std::string& file, AnalysisOptions options) {
   exact_column.has_answer = exact_ok;
   report.models.push_back(exact_column);
 
-  const std::vector<HandModel> models = {MakeIdealModel(circuit),
-                                         MakeConstantDropModel(circuit, settings.drop), *pwl};
+  std::vector<HandModel> models = std::move(hand_models).value();
+  models.back().description = PiecewiseDescription(settings);
   HandSearchOptions search;
   if (exact_ok) search.start = exact_states;
   std::vector<const Solution*> answers{exact_ok ? &exact : nullptr};

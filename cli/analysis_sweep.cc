@@ -18,6 +18,7 @@
 #include "analyses.h"
 #include "bounds.h"
 #include "eng_format.h"
+#include "knee/design_steps.h"
 #include "knee/sweep.h"
 #include "sensitivity.h"
 #include "stress.h"
@@ -295,12 +296,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return result;
   }
 
-  SweepGrid grid;
-  bool any_param = false;
-  for (const SweepAxis& axis : axes) {
-    grid.axes.push_back(axis.values);
-    any_param |= axis.target.kind == SweepTarget::Kind::kParam;
-  }
+  const SweepGrid grid = MakeSweepGrid(axes);
   if (!grid.CheckedPointCount()) {
     fmt::print(stderr, "knee: error: {}\n", TooManyToCount(axes));
     result.outcome.bad_input = true;
@@ -322,8 +318,8 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     return result;
   }
 
-  // Applies one point: param axes re-evaluate the netlist's expressions; the others set
-  // the value directly.
+  // Applies one point (the steps every front end shares); param axes re-evaluate the
+  // netlist's expressions, which the shown expressions' params follow too.
   const Netlist& netlist = *loaded.netlist;
   const Overrides& base_overrides = loaded.overrides;
   auto param_overrides = [&](std::span<const double> values) {
@@ -335,18 +331,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
     }
     return overrides;
   };
-  ApplyPoint apply = [&](std::span<const double> values, Circuit* circuit) -> std::string {
-    if (any_param) {
-      Result<Circuit> fresh = ElaborateCircuit(netlist, param_overrides(values));
-      if (!fresh) return fresh.errors().front().message;
-      *circuit = std::move(fresh).value();
-    }
-    for (size_t a = 0; a < axes.size(); ++a) {
-      std::string problem_here = ApplySweepValue(axes[a].target, values[a], circuit);
-      if (!problem_here.empty()) return problem_here;
-    }
-    return "";
-  };
+  const ApplyPoint apply = MakePointApplier(netlist, base_overrides, axes);
 
   const ExpressionVariables variables(axes, show);
 
@@ -427,7 +412,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
       bounds.Record(index - first_point, *solution);
       largest_voltage[r] = LargestVoltage(base, *solution);
     } else {
-      failure_why[r] = FailureReason(summary);
+      failure_why[r] = DescribeFailure(summary);
     }
     progress.Tick();
   };

@@ -4,31 +4,13 @@
 
 #include <cmath>
 
+#include "knee/design_steps.h"
 #include "knee/diode_law.h"
 
 namespace knee::cli {
 
 std::vector<std::string> SplitTopLevel(const std::string& text, char separator) {
-  std::vector<std::string> parts;
-  std::string current;
-  int depth = 0;
-  for (char c : text) {
-    if (c == '(') ++depth;
-    if (c == ')' && depth > 0) --depth;
-    if (c == separator && depth == 0) {
-      parts.push_back(current);
-      current.clear();
-      continue;
-    }
-    current += c;
-  }
-  parts.push_back(current);
-  for (std::string& part : parts) {
-    const size_t first = part.find_first_not_of(" \t");
-    const size_t last = part.find_last_not_of(" \t");
-    part = first == std::string::npos ? "" : part.substr(first, last - first + 1);
-  }
-  return parts;
+  return knee::SplitTopLevel(text, separator);
 }
 
 std::string FinishOptions(AnalysisOptions* options) {

@@ -202,4 +202,56 @@ double JunctionResistance(const Circuit& circuit, int element, const Solution& e
   return (s == DiodeState::kOn ? d.n_vt : d.nbr_vt) / std::fabs(i);
 }
 
+std::optional<std::string> Validate(const HandSettings& settings) {
+  if (!(settings.drop >= 0 && settings.drop <= 100)) {
+    return fmt::format("HandSettings.drop = {} V: must be in [0, 100] V", settings.drop);
+  }
+  if (settings.on_res && !(*settings.on_res >= 0)) {
+    return fmt::format("HandSettings.on_res = {} Ohm: must be >= 0", *settings.on_res);
+  }
+  if (settings.fit_at && !(*settings.fit_at > 0)) {
+    return fmt::format("HandSettings.fit_at = {} A: must be a forward current > 0",
+                       *settings.fit_at);
+  }
+  if (settings.on_res && settings.fit_at) {
+    return "HandSettings.on_res and fit_at both set the piecewise-linear model; give one";
+  }
+  return std::nullopt;
+}
+
+Result<HandModel> MakePiecewiseModel(const Circuit& circuit, const HandSettings& settings) {
+  if (settings.fit_at) {
+    return MakeTangentModel(circuit,
+                            std::vector<double>(circuit.elements.size(), *settings.fit_at));
+  }
+  if (settings.on_res) return MakeDropResistanceModel(circuit, settings.drop, *settings.on_res);
+  HandModel m = MakeDropResistanceModel(circuit, settings.drop, 0.0);
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    const Element& el = circuit.elements[e];
+    if (el.kind != ElementKind::kDiode) continue;
+    const double rs = PartOf(circuit, el).series_res / el.area;
+    m.lines[e].on_res = rs;
+    m.lines[e].breakdown_res = rs;
+  }
+  return m;
+}
+
+Result<std::vector<HandModel>> MakeHandModels(const Circuit& circuit,
+                                              const HandSettings& settings) {
+  Result<HandModel> pwl = MakePiecewiseModel(circuit, settings);
+  if (!pwl) return pwl.errors();
+  return std::vector<HandModel>{MakeIdealModel(circuit),
+                                MakeConstantDropModel(circuit, settings.drop),
+                                std::move(pwl).value()};
+}
+
+std::vector<DiodeState> ExactStates(const Circuit& circuit, const Solution& exact) {
+  std::vector<DiodeState> states(circuit.elements.size(), DiodeState::kOff);
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    if (circuit.elements[e].kind != ElementKind::kDiode) continue;
+    states[e] = ExactState(circuit, static_cast<int>(e), exact.junction_voltage[e]);
+  }
+  return states;
+}
+
 }  // namespace knee

@@ -123,6 +123,23 @@ struct HandResult {
   std::string detail;                   // for kNoConsistent / kAmbiguous: why, in words
 };
 
+// The settings of the constant-drop and piecewise-linear models that `knee hand` sets
+// beside the ideal one (docs/hand-models.md), as --drop, --on-res and --fit-at give them.
+struct HandSettings {
+  double drop = 0.7;             // V, in [0, 100]: on-voltage of the drop models
+  std::optional<double> on_res;  // Ohm, >= 0: piecewise linear = drop plus this resistance
+  std::optional<double> fit_at;  // A, > 0: piecewise linear = each curve's tangent here
+};
+// A message naming the field, its value and the rule broken, or nothing.
+std::optional<std::string> Validate(const HandSettings& settings);
+// The piecewise-linear model of `settings` (description left empty): the tangent at
+// fit_at, else the drop plus on_res, else the drop plus each part's own series_res/area.
+Result<HandModel> MakePiecewiseModel(const Circuit& circuit, const HandSettings& settings);
+// The hand models compared, in order: ideal, constant drop, piecewise linear.
+Result<std::vector<HandModel>> MakeHandModels(const Circuit& circuit, const HandSettings& settings);
+// Per element: ExactState() of each diode at the exact solution, kOff for other elements.
+std::vector<DiodeState> ExactStates(const Circuit& circuit, const Solution& exact);
+
 // Solves `circuit` with every diode replaced by `model`'s lines. The circuit must have
 // passed CheckTopology(). Always terminates.
 HandResult SolveHand(const Circuit& circuit, const HandModel& model,
