@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 
 #include "eng_format.h"
 #include "report.h"
@@ -106,15 +107,42 @@ std::string Account(const Report& report) {
   return out;
 }
 
-// A current below the largest KCL residual of the report is zero to the solution's
-// accuracy: the table shows it as 0 (CSV and JSON keep every digit).
-bool BelowResolution(const Report& report, double value, const std::string& unit) {
-  const double resolution = report.account.max_kcl_residual;
-  return unit == "A" && resolution > 0 && std::fabs(value) < resolution;
+// What a table may show as 0: values zero to the solution's accuracy. A current below the
+// largest KCL residual of the report; a voltage within the round-off of the largest
+// voltage of the report (kRoundOffUlps units in its last place; sweep values included); a
+// power below both resolutions' product. Sweep values are shown as given; CSV and JSON
+// keep every digit.
+constexpr double kRoundOffUlps = 16;
+struct RowResolution {
+  double amps = 0, volts = 0, watts = 0;
+};
+
+RowResolution ResolutionOf(const Report& report) {
+  RowResolution r;
+  r.amps = report.account.max_kcl_residual > 0 ? report.account.max_kcl_residual : 0;
+  double largest = 0;
+  for (const std::vector<double>& row : report.rows) {
+    for (size_t i = 0; i < row.size() && i < report.columns.size(); ++i) {
+      if (report.columns[i].unit == "V" && std::isfinite(row[i])) {
+        largest = std::max(largest, std::fabs(row[i]));
+      }
+    }
+  }
+  r.volts = kRoundOffUlps * std::numeric_limits<double>::epsilon() * largest;
+  r.watts = r.amps * r.volts;
+  return r;
 }
 
-std::string Cell(const Report& report, double value, const std::string& unit, bool* zeroed) {
-  if (BelowResolution(report, value, unit)) {
+bool BelowResolution(const RowResolution& r, double value, const std::string& unit) {
+  const double limit = unit == "A" ? r.amps : unit == "V" ? r.volts : unit == "W" ? r.watts : 0;
+  return limit > 0 && std::fabs(value) < limit;
+}
+
+std::string Cell(const Report& report, const RowResolution& resolution, size_t column, double value,
+                 bool* zeroed) {
+  const std::string& unit = report.columns[column].unit;
+  if (column >= static_cast<size_t>(report.sweep_axes) && value != 0 &&
+      BelowResolution(resolution, value, unit)) {
     *zeroed = true;
     return FormatEng(0.0, unit);
   }
@@ -123,8 +151,10 @@ std::string Cell(const Report& report, double value, const std::string& unit, bo
 
 std::string ResolutionNote(const Report& report, bool zeroed) {
   if (!zeroed) return "";
-  return fmt::format("  (currents below the largest KCL residual, {:.2e} A, are shown as 0)\n",
-                     report.account.max_kcl_residual);
+  return fmt::format(
+      "  (values zero to the solution's accuracy are shown as 0: currents below the largest "
+      "KCL residual, {:.2e} A; voltages and powers within round-off)\n",
+      report.account.max_kcl_residual);
 }
 
 std::string Vertical(const Report& report) {
@@ -133,9 +163,10 @@ std::string Vertical(const Report& report) {
   std::string out;
   bool zeroed = false;
   const std::vector<double>& row = report.rows.front();
+  const RowResolution resolution = ResolutionOf(report);
   for (size_t i = 0; i < SharedColumns(report); ++i) {
     out += fmt::format("  {}  {}\n", PadRight(report.columns[i].name, name_width),
-                       PadLeft(Cell(report, row[i], report.columns[i].unit, &zeroed), 12));
+                       PadLeft(Cell(report, resolution, i, row[i], &zeroed), 12));
   }
   return out + ResolutionNote(report, zeroed);
 }
@@ -152,10 +183,11 @@ std::string Columns(const Report& report) {
   std::vector<std::vector<std::string>> cells;
   cells.reserve(report.rows.size());
   bool zeroed = false;
+  const RowResolution resolution = ResolutionOf(report);
   for (const auto& row : report.rows) {
     std::vector<std::string> line(n);
     for (size_t i = 0; i < n; ++i) {
-      line[i] = Cell(report, row[i], report.columns[i].unit, &zeroed);
+      line[i] = Cell(report, resolution, i, row[i], &zeroed);
       width[i] = std::max(width[i], DisplayWidth(line[i]));
     }
     cells.push_back(std::move(line));

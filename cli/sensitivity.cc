@@ -386,6 +386,24 @@ void FillSweepSensitivity(const SweepSensitivity& s, const Design& design, BiasS
   }
 }
 
+// The tolerance budget's entries from the file's vary lines (docs/sensitivity.md,
+// "Tolerance budget"): a shared line's half-width in the target's unit, the larger side of
+// a factor spread (nominal * (F - 1)). A per-device (`each`) line is left out: its draws
+// are independent per diode, which one part-level derivative cannot weigh.
+namespace {
+std::vector<SpreadEntry> BudgetSpreads(const std::vector<VaryLine>& varies) {
+  std::vector<SpreadEntry> spreads;
+  for (const VaryLine& v : varies) {
+    if (v.each) continue;
+    const double half = v.form == VaryLine::Form::kFactor
+                            ? std::fabs(v.nominal) * (v.factor - 1)
+                            : std::max(v.high - v.nominal, v.nominal - v.low);
+    spreads.push_back({v.target.name, half});
+  }
+  return spreads;
+}
+}  // namespace
+
 int RunSensitivity(const std::string& file, AnalysisOptions options) {
   std::string problem = PrepareOptions(&options);
   if (!problem.empty()) return FailWith(problem);
@@ -393,9 +411,7 @@ int RunSensitivity(const std::string& file, AnalysisOptions options) {
   if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
   std::optional<std::vector<QuantityExpr>> of = QuantitiesOf(*loaded, options);
   if (!of) return static_cast<int>(ExitStatus::kBadInput);
-  // The vary lines' spreads join here once the parser reads them (docs/sensitivity.md,
-  // "Tolerance budget"): one SpreadEntry per varied target, its half-width.
-  const std::vector<SpreadEntry> spreads;
+  const std::vector<SpreadEntry> spreads = BudgetSpreads(loaded->design->varies);
   SensitivityResult result = AnalyzeSensitivity(*loaded, *of, options, spreads);
   if (result.outcome.bad_input) return static_cast<int>(ExitStatus::kBadInput);
   if (!options.plot_path.empty()) {

@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <nlohmann/json.hpp>
+#include <sstream>
 #include <string>
 
 #include "run_knee.h"
@@ -169,6 +170,30 @@ TEST(FirstHour, Item7BreakdownDiodeStressReadsRightly) {
 
 // Item 8: no prefix on plain numbers, a unit cell on every CSV column, tiny currents as 0
 // in tables only.
+// Item 8, voltages and powers: at 0 V on the bridge every node sits within round-off of 0
+// (CSV keeps those digits), and the table shows 0 V / 0 W there, never a number like 8e-76 V;
+// the driven rows keep their real values (a millivolt-level drop is never zeroed).
+TEST(FirstHour, Item8VoltagesAndPowersBelowResolution) {
+  const std::string file = SourcePath("tests/cli/first_hour/mains-bridge.knee");
+  const std::string args = " Vline=-25,0,25 --show l.v,n.v,Rl.p --quiet";
+  KneeRun table = RunKnee("sweep " + file + args);
+  KneeRun csv = RunKnee("sweep " + file + args + " --format csv");
+  ASSERT_EQ(table.status, 0) << table.err;
+  ASSERT_EQ(csv.status, 0) << csv.err;
+  std::istringstream rows(csv.out);
+  std::string header, negative, zero;
+  std::getline(rows, header);
+  std::getline(rows, negative);
+  std::getline(rows, zero);
+  EXPECT_EQ(zero.rfind("0,", 0), 0u) << zero;
+  EXPECT_NE(zero.find("e-"), std::string::npos) << "CSV keeps the round-off digits: " << zero;
+  EXPECT_FALSE(Has(table.out, "e-7")) << table.out;
+  EXPECT_TRUE(Has(table.out, "0 V")) << table.out;
+  EXPECT_TRUE(Has(table.out, "0 W")) << table.out;
+  EXPECT_TRUE(Has(table.out, "-713.1 mV")) << table.out;  // a real drop stays
+  EXPECT_TRUE(Has(table.out, "voltages and powers within round-off")) << table.out;
+}
+
 TEST(FirstHour, Item8FormattingSlips) {
   const char* net =
       "param k = 1\npart P diode\nvsource V1 a -> gnd 1\n"
