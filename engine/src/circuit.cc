@@ -42,4 +42,18 @@ const char* ElementKindName(ElementKind kind) {
   return "unknown";
 }
 
+const char* ElementValueUnit(ElementKind kind) {
+  switch (kind) {
+    case ElementKind::kResistor:
+      return "Ohm";
+    case ElementKind::kVoltageSource:
+      return "V";
+    case ElementKind::kCurrentSource:
+      return "A";
+    case ElementKind::kDiode:
+      return "";
+  }
+  return "";
+}
+
 }  // namespace knee

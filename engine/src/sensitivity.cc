@@ -159,17 +159,7 @@ std::string TargetUnit(const Circuit& circuit, const SensitivityTarget& t) {
   using Kind = SensitivityTarget::Kind;
   switch (t.kind) {
     case Kind::kElementValue:
-      switch (circuit.elements.at(static_cast<size_t>(t.index)).kind) {
-        case ElementKind::kResistor:
-          return "Ohm";
-        case ElementKind::kVoltageSource:
-          return "V";
-        case ElementKind::kCurrentSource:
-          return "A";
-        case ElementKind::kDiode:
-          return "";
-      }
-      return "";
+      return ElementValueUnit(circuit.elements.at(static_cast<size_t>(t.index)).kind);
     case Kind::kArea:
       return "";
     case Kind::kElementTemp:

@@ -204,8 +204,9 @@ std::optional<double> ReadCell(const FileName& file, int line, const Cell& c,
                             "write the number alone"));
     return std::nullopt;
   }
-  const ValuePlace place{fmt::format("column '{}'", name),
-                         kColumnUnits[static_cast<int>(spec.kind)]};
+  // ValuePlace holds views: the text it names must outlive it.
+  const std::string place_name = fmt::format("column '{}'", name);
+  const ValuePlace place{place_name, kColumnUnits[static_cast<int>(spec.kind)]};
   double value = 0;
   std::string message, hint;
   if (!ApplyPlace(literal, c.text, place, &value, &message, &hint)) {

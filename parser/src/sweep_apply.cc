@@ -14,17 +14,7 @@ std::string SweepTargetUnit(const SweepTarget& target, const Circuit& circuit) {
     case SweepTarget::Kind::kTemp:
       return "C";
     case SweepTarget::Kind::kElement:
-      switch (circuit.elements[static_cast<size_t>(target.index)].kind) {
-        case ElementKind::kResistor:
-          return "Ohm";
-        case ElementKind::kVoltageSource:
-          return "V";
-        case ElementKind::kCurrentSource:
-          return "A";
-        case ElementKind::kDiode:
-          return "";
-      }
-      return "";
+      return ElementValueUnit(circuit.elements.at(static_cast<size_t>(target.index)).kind);
     case SweepTarget::Kind::kPartKey: {
       const PartKeyInfo* info = FindPartKey(target.key);
       return info ? info->unit : "";

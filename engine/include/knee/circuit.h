@@ -81,5 +81,7 @@ struct Circuit {
 };
 
 const char* ElementKindName(ElementKind kind);  // "resistor", "vsource", ...
+// The unit of an element's value: "Ohm", "V", "A", or "" for a diode (its part holds it).
+const char* ElementValueUnit(ElementKind kind);
 
 }  // namespace knee
