@@ -232,11 +232,7 @@ class SpreadWorker {
 };
 
 std::string CheckName(const CheckDef& c, const Circuit& circuit) {
-  static constexpr const char* kSuffix[] = {".i/max_current", ".v/max_reverse_v", ".p/max_power"};
-  if (c.stress) {
-    return circuit.elements[static_cast<size_t>(c.stress->element)].name +
-           kSuffix[static_cast<int>(c.stress->quantity)];
-  }
+  if (c.stress) return RatedCheckName(*c.stress, circuit);
   const Expectation& e = *c.expect;
   const std::string unit = e.quantity.unit();
   if (e.is_bound()) {
@@ -252,10 +248,7 @@ std::string CheckName(const CheckDef& c, const Circuit& circuit) {
 }
 
 std::string CheckUnit(const CheckDef& c) {
-  if (c.stress) {
-    static constexpr const char* kUnits[] = {"A", "V", "W"};
-    return kUnits[static_cast<int>(c.stress->quantity)];
-  }
+  if (c.stress) return StressUnit(c.stress->quantity);
   return c.expect->quantity.unit();
 }
 
@@ -438,7 +431,11 @@ SpreadOutcome AnalyzeSpread(const LoadedDesign& loaded,
   for (const Expectation& e : design.expects) {
     if (e.is_bound() || sweeps.empty()) checks.push_back({&e, nullptr});
   }
-  for (const StressCheck& s : stress) checks.push_back({nullptr, &s});
+  // The reverse current of a breakdown diode is reported by bias and sweep, never
+  // judged: it has no rating, so it is no check of a sample.
+  for (const StressCheck& s : stress) {
+    if (s.rated()) checks.push_back({nullptr, &s});
+  }
   auto add_quantity = [&](std::string name, const std::string& unit) {
     SpreadQuantity sq;
     sq.name = std::move(name);

@@ -149,14 +149,21 @@ void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
   }
 }
 
+std::string RatedCheckName(const StressCheck& check, const Circuit& circuit) {
+  static constexpr const char* kValue[] = {"i", "v", "p", "i"};
+  const QuantityInfo info = Info(check.quantity);
+  return fmt::format("{}.{}/{}", circuit.elements[static_cast<size_t>(check.element)].name,
+                     kValue[static_cast<int>(check.quantity)], info.key);
+}
+
+const char* StressUnit(StressQuantity quantity) { return Info(quantity).unit; }
+
 void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,
                       Report* report) {
-  static constexpr const char* kSuffix[] = {".i/max_current", ".v/max_reverse_v", ".p/max_power"};
   int added = 0;
   for (const StressCheck& check : checks) {
     if (!check.rated()) continue;
-    report->columns.push_back(
-        {circuit.elements[check.element].name + kSuffix[static_cast<int>(check.quantity)], "%"});
+    report->columns.push_back({RatedCheckName(check, circuit), "%"});
     ++added;
   }
   report->csv_only_columns = added;

@@ -61,6 +61,11 @@ class StressRecorder {
   std::vector<long long> worst_row_;  // per check, -1 until a point is solved
 };
 
+// A rated check's name in reports and CSV headers: "Dhi.i/max_current", "Rload.p/max_power".
+std::string RatedCheckName(const StressCheck& check, const Circuit& circuit);
+// The unit of a check's value: "A", "V" or "W".
+const char* StressUnit(StressQuantity quantity);
+
 // Appends the CSV-only columns "Dhi.i/max_current [%]" (use of each rating per row; the
 // unrated reverse current has none).
 void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,

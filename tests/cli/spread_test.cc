@@ -450,5 +450,26 @@ TEST(Bounds, MalformedBounds) {
   EXPECT_EQ(unit.status, 2) << unit.err;
 }
 
+// A rated part with breakdown_v has an unrated reverse-current line in bias and sweep
+// reports; a spread judges only the three ratings (the unrated line used to index past
+// the rating names and crash).
+TEST(Spread, RatedBreakdownDiodeJudgesItsRatingsOnly) {
+  const std::string net =
+      "part z diode sat_current=2n ideality=1.6 breakdown_v=5.6 max_current=0.2 "
+      "max_reverse_v=30 max_power=0.5\nvsource V1 in -> gnd 12\nresistor R1 in -> k 1k\n"
+      "diode D1 gnd -> k z\nshow k.v\nvary R1 ±5%\n";
+  KneeRun run = RunKnee("spread - --samples 50 --format csv", net);
+  ASSERT_EQ(run.status, 0) << run.err;
+  const Csv csv = ParseCsv(run.out);
+  ASSERT_EQ(csv.rows.size(), 50u);
+  for (const char* name :
+       {"pass(D1.i/max_current)", "pass(D1.v/max_reverse_v)", "pass(D1.p/max_power)"}) {
+    EXPECT_EQ(csv.rows[0][csv.Column(name)], 1) << name;
+  }
+  const auto judged = std::count_if(csv.header.begin(), csv.header.end(),
+                                    [](const std::string& h) { return h.rfind("pass(", 0) == 0; });
+  EXPECT_EQ(judged, 3);
+}
+
 }  // namespace
 }  // namespace knee::testing
