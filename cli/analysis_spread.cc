@@ -94,7 +94,22 @@ struct SpreadJob {
   const std::vector<CheckDef>* checks = nullptr;
   const AnalysisOptions* options = nullptr;
   std::vector<double> nominal_x;  // unknowns of the nominal solution (warm start)
+  // Per draw column j, the secant slopes of the unknowns from the nominal to the column's
+  // high (up) and low (down) limit, column-major (j * n); empty when not made.
+  std::vector<double> slope_up, slope_down;
+  std::vector<double> nominal_draws;
+  // Per draw column: whether its secant runs in ln(value) (limits and nominal all > 0:
+  // circuit values act by ratios, a junction voltage moves with ln Is), else in the value.
+  std::vector<char> log_coordinate;
 };
+
+// A draw's distance from the nominal along its column's secant coordinate.
+double SecantOffset(double draw, double nominal, bool log_coordinate) {
+  return log_coordinate ? std::log(draw / nominal) : draw - nominal;
+}
+
+// The most unknowns x draw columns whose secant slopes are kept (8 bytes each, twice).
+constexpr double kMaxSlopeEntries = 4e6;
 
 // One worker thread: its own circuit and (for a bias point) its own solver, kept from
 // sample to sample; only the drawn values change.
@@ -134,7 +149,7 @@ class SpreadWorker {
     std::string problem = job_.plan->Apply(draws, {}, &circuit_);
     if (!problem.empty()) return problem;
     solver_->UpdateValues(circuit_);
-    SolveSummary summary = solver_->Solve(&solution_, job_.nominal_x, /*allow_aids=*/false);
+    SolveSummary summary = solver_->Solve(&solution_, WarmStart(draws), /*allow_aids=*/false);
     if (summary.status != SolveStatus::kConverged) {
       const int warm_steps = summary.newton_steps;
       summary = solver_->Solve(&solution_);
@@ -203,6 +218,23 @@ class SpreadWorker {
     return failure;
   }
 
+  // The nominal unknowns moved by each draw along its column's secant (the high or the
+  // low side, as the draw falls): a first-order guess that depends on the draws alone, so
+  // a sample's result does not depend on which thread solved it.
+  std::span<const double> WarmStart(std::span<const double> draws) {
+    if (job_.slope_up.empty()) return job_.nominal_x;
+    const size_t n = job_.nominal_x.size();
+    start_.assign(job_.nominal_x.begin(), job_.nominal_x.end());
+    for (size_t j = 0; j < draws.size(); ++j) {
+      if (draws[j] == job_.nominal_draws[j]) continue;
+      const double offset =
+          SecantOffset(draws[j], job_.nominal_draws[j], job_.log_coordinate[j] != 0);
+      const double* slope = (offset > 0 ? job_.slope_up : job_.slope_down).data() + j * n;
+      for (size_t u = 0; u < n; ++u) start_[u] += slope[u] * offset;
+    }
+    return start_;
+  }
+
   void AddAid(const std::string& aid) {
     if (std::find(account.aids.begin(), account.aids.end(), aid) == account.aids.end()) {
       account.aids.push_back(aid);
@@ -229,7 +261,38 @@ class SpreadWorker {
   std::unique_ptr<BiasSolver> solver_;
   Solution solution_;
   bool solved_ = false;
+  std::vector<double> start_;  // WarmStart's guess
 };
+
+// The secant slopes of job->slope_up and slope_down, from solves of the nominal circuit
+// with one draw column at a time at its limit (warm from the nominal). A side whose solve
+// fails, or whose limit is the nominal, has slope zero there.
+void MakeSecantSlopes(SpreadWorker& probe, const SpreadPlan& plan, std::span<double> scratch,
+                      SpreadJob* job) {
+  const size_t n = job->nominal_x.size();
+  const size_t k = plan.columns().size();
+  if (n == 0 || static_cast<double>(n) * static_cast<double>(k) > kMaxSlopeEntries) return;
+  std::vector<double> up(n * k, 0.0), down(n * k, 0.0);
+  std::vector<char> log_coordinate(k, 0);
+  std::vector<double> draws = job->nominal_draws;
+  for (size_t j = 0; j < k; ++j) {
+    const DrawColumn& c = plan.columns()[j];
+    log_coordinate[j] = c.low > 0 && c.nominal > 0 && c.high > 0;
+    for (const auto& [limit, slopes] : {std::pair{c.high, &up}, std::pair{c.low, &down}}) {
+      const double offset = SecantOffset(limit, c.nominal, log_coordinate[j] != 0);
+      if (!(offset != 0.0) || !std::isfinite(offset)) continue;
+      draws[j] = limit;
+      if (probe.Solve(draws, scratch.data()).empty()) {
+        const std::vector<double> x = probe.Unknowns();
+        for (size_t u = 0; u < n; ++u) (*slopes)[j * n + u] = (x[u] - job->nominal_x[u]) / offset;
+      }
+    }
+    draws[j] = c.nominal;
+  }
+  job->slope_up = std::move(up);
+  job->slope_down = std::move(down);
+  job->log_coordinate = std::move(log_coordinate);
+}
 
 std::string CheckName(const CheckDef& c, const Circuit& circuit) {
   if (c.stress) return RatedCheckName(*c.stress, circuit);
@@ -495,7 +558,13 @@ SpreadOutcome AnalyzeSpread(const LoadedDesign& loaded,
   }
   for (size_t q = 0; q < r.quantities.size(); ++q) r.quantities[q].nominal = nominal_row[q];
   // Warm start: the unknowns of the nominal solution.
-  if (sweeps.empty()) job.nominal_x = nominal.Unknowns();
+  if (sweeps.empty()) {
+    job.nominal_x = nominal.Unknowns();
+    job.nominal_draws = r.nominal_draws;
+    if (end - begin > static_cast<long long>(2 * r.columns.size())) {
+      MakeSecantSlopes(nominal, plan, nominal_row, &job);
+    }
+  }
 
   const long long count = end - begin;
   r.rows.assign(static_cast<size_t>(count), std::vector<double>(width, kNaN));
