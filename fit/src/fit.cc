@@ -355,6 +355,11 @@ FitResult MakeResult(const Setup& s, const Solved& solved, std::vector<Undetermi
   for (const FitPoint& p : s.data->points) weights += p.weight;
   r.residual_rms = std::sqrt(solved.ssr / weights);
   double t = 0, s2 = 0;
+  // The linearised covariance s^2 (J'J)^-1 with s^2 estimated from the residuals, hence
+  // Student's t on N - p degrees of freedom, not the normal quantile (G. A. F. Seber and
+  // C. J. Wild, "Nonlinear Regression", Wiley 1989, chapter 5; D. M. Bates and D. G. Watts,
+  // "Nonlinear Regression Analysis and Its Applications", Wiley 1988, chapter 2 — both
+  // recalled from memory).
   if (r.degrees_of_freedom > 0) {
     const boost::math::students_t dist(r.degrees_of_freedom);
     t = boost::math::quantile(boost::math::complement(dist, (1 - kConfidence) / 2));
