@@ -100,12 +100,20 @@ IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
 MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     : circuit_(&c), islands_(FindIslands(c, node_weight)) {
   node_count_ = c.nodes.size();
-  int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
-  kcl_rows_ = next;
+  kcl_rows_ = static_cast<int>(node_count_) - 1;
   part_models_.reserve(c.parts.size());
   for (const Part& part : c.parts) part_models_.push_back(part.model);
   part_changed_.assign(c.parts.size(), 0);
+  AddDevices(c);
+  BuildPattern();
+  IndexIslands(c);
+  SizeBuffers();
+}
 
+// One device per element; a voltage source's branch current is an unknown after the
+// circuit nodes.
+void MnaSystem::AddDevices(const Circuit& c) {
+  int next = kcl_rows_;  // unknowns after the circuit nodes
   std::array<size_t, 4> counts{};
   for (const Element& element : c.elements) ++counts[static_cast<size_t>(element.kind)];
   devices_.Reserve(counts);
@@ -128,8 +136,10 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     }
   }
   size_ = next;
+}
 
-  // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
+// Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
+void MnaSystem::BuildPattern() {
   EntryCollector collector(&islands_);
   devices_.DeclareEntries(collector);
   std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
@@ -143,9 +153,21 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
         {collector.Add(r, root), collector.Add(root, r), collector.Add(root, root)});
     member_shunts_.push_back({r, root, {-1, -1, -1}});
   }
+  const std::vector<int> slot_of = OrderEntries(collector);
+  devices_.BindSlots(slot_of);
+  diagonal_slot_.reserve(diagonal_ticket.size());
+  for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
+  for (size_t k = 0; k < member_shunts_.size(); ++k) {
+    for (size_t t = 0; t < 3; ++t) {
+      member_shunts_[k].slots[t] = slot_of[static_cast<size_t>(shunt_tickets[k][t])];
+    }
+  }
+}
 
-  // CSC order (column, then row) by a counting pass over the columns and a sort of each
-  // column's few entries: linear in the entries, where one sort of all of them was not.
+// col_ptr_ and row_index_ from the collected entries; returns each entry's value slot.
+// CSC order (column, then row) by a counting pass over the columns and a sort of each
+// column's few entries: linear in the entries, where one sort of all of them was not.
+std::vector<int> MnaSystem::OrderEntries(const EntryCollector& collector) {
   const auto& entries = collector.entries();
   const int n = size();
   std::vector<int> start(static_cast<size_t>(n) + 1, 0);
@@ -175,15 +197,11 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     col_ptr_[static_cast<size_t>(col) + 1] = static_cast<int>(row_index_.size());
   }
   row_index_.shrink_to_fit();
-  devices_.BindSlots(slot_of);
-  diagonal_slot_.reserve(diagonal_ticket.size());
-  for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
-  for (size_t k = 0; k < member_shunts_.size(); ++k) {
-    for (size_t t = 0; t < 3; ++t) {
-      member_shunts_[k].slots[t] = slot_of[static_cast<size_t>(shunt_tickets[k][t])];
-    }
-  }
+  return slot_of;
+}
 
+// The islands' roots and members, and the rows a voltage source's incidence touches.
+void MnaSystem::IndexIslands(const Circuit& c) {
   {
     std::vector<int> island_of_root(static_cast<size_t>(kcl_rows_), -1);
     for (const MemberShunt& m : member_shunts_) {
@@ -203,6 +221,10 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     for (int k = 0; k < w.count; ++k)
       source_row_[static_cast<size_t>(w.index[static_cast<size_t>(k)])] = 1;
   }
+}
+
+void MnaSystem::SizeBuffers() {
+  const int n = size();
   values_.assign(row_index_.size(), 0.0);
   exact_x_.assign(static_cast<size_t>(n), 0.0);
   residual_.assign(static_cast<size_t>(n), 0.0);

@@ -16,25 +16,10 @@
 #include "knee/circuit.h"
 #include "knee/solver.h"
 #include "mna.h"
+#include "network_class.h"
 #include "newton.h"
 
 namespace knee::internal {
-
-// Why the network is outside the class the potential method handles (a resistor that
-// is not > 0, a diode constant that makes its law non-increasing, a non-finite source),
-// or nothing when every element is monotone.
-std::optional<std::string> NonMonotoneReason(const Circuit& circuit);
-
-// A monotone network has no DC solution exactly when its potential is unbounded below
-// along some direction that keeps the voltage sources satisfied. Along a direction d
-// the potential grows without bound unless d changes no resistor, voltage source or
-// breakdown-capable diode voltage and puts every other diode in reverse; then its
-// asymptotic slope is sum(I * (d_a - d_b)) over current sources plus sum(Is * reverse
-// change) over those diodes. Level sets of d reduce this to sets of node groups, and the
-// most negative slope is a maximum-weight closure (J.-C. Picard, "Maximal closure of a
-// graph and applications to combinatorial problems", Management Science 22(11), 1976),
-// found with a maximum flow. Returns the message naming the elements, or nothing.
-std::optional<std::string> FindUnboundedCut(const Circuit& circuit);
 
 // The junction conductance of the step onto the sources' constraints: kStiffFactor times
 // the largest resistor (or series resistance) conductance of the circuit, 1 S if none.
@@ -79,6 +64,13 @@ inline constexpr double kLogCurrentCap = 40.0;
 // A step shorter than this fraction of the Newton step switches the Hessian modification
 // on for the next direction (PotentialSolver::Run).
 inline constexpr double kShortStep = 1e-3;
+// The share of the Newton direction's multiplier part (the voltage sources' currents)
+// that a step of length t takes: all of it for any real step, since the multipliers do
+// not enter the potential and the direction gives them for the whole step; t itself
+// below kShortStep, where the direction came from a nearly singular Hessian and its
+// multiplier part with it (taken whole, a multiplier of 1e74 A would leave every later
+// trial at that residual); none for t = 0.
+inline double MultiplierFraction(double t) { return t >= kShortStep ? 1.0 : t; }
 // A step shorter than this, taken with the junction floor already on, also grows the
 // diagonal shift (torture seed 58780: t = 1e-13 step after step, 200 steps at the start).
 inline constexpr double kTinyStep = 1e-8;
@@ -129,6 +121,38 @@ class PotentialSolver {
     double residual_ratio = 0.0;
     double residual_merit = 0.0;  // ResidualMerit at this point
   };
+  // What one Run carries from step to step.
+  struct RunState {
+    double potential = 0.0;
+    double potential_magnitude = 0.0;
+    double base_log_current = 0.0;  // ln A, the largest junction term at x
+    ToleranceCheck update;          // the last step's update test
+    bool creeping = false;          // the last full step repeated the one before (kCreepRepeat)
+  };
+  // The step chosen along one direction (ChooseStep).
+  struct StepChoice {
+    bool ok = false;
+    double t = 1.0;
+    int trials = 0;
+    Trial accepted;
+    const char* phase = "potential";
+    double slope0 = 0.0;            // W, the slope at t = 0
+    double before = 0.0;            // W, the potential before the step
+    double before_magnitude = 0.0;  // its round-off scale
+    // The round-off of the change of the potential from the start to `tr`.
+    double RoundOff(const Trial& tr) const {
+      return MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
+    }
+  };
+  bool Start(std::span<double> x, RunState* state, NewtonOutcome* outcome);
+  bool Direction(bool feasible, int step, std::span<double> x, NewtonOutcome* outcome);
+  void BranchChange();
+  StepChoice ChooseStep(const RunState& state, const ToleranceCheck& residual, bool feasible,
+                        std::span<double> x);
+  void AdaptHessian(double t, bool residual_passed, std::span<const double> x);
+  ToleranceCheck UpdateTest(bool residual_passed, bool feasible, std::span<const double> x);
+  void Record(int step, double max_residual, const RunState& state, const StepChoice& c,
+              std::vector<NewtonStepRecord>* trace) const;
   Trial Evaluate(std::span<const double> base, double t, std::span<double> x);
   bool LineSearch(double slope0, double slope_roundoff, double before, double before_magnitude,
                   double merit0, double log_current_cap, double curvature, std::span<double> x,
