@@ -155,6 +155,34 @@ bool ResistanceFree(const Circuit& c, const Element& e) {
   return !(c.parts[static_cast<size_t>(e.part)].model.series_res / e.area > 0.0);
 }
 
+// The edges above `last` on the stack form one block (biconnected component); every
+// junction of a block that holds a voltage source is on a loop with the block's others.
+void CloseBlock(const Circuit& c, int last, std::vector<int>& edge_stack,
+                std::vector<LoopJunction>& loops) {
+  std::vector<int> block;
+  while (!edge_stack.empty()) {
+    const int k = edge_stack.back();
+    edge_stack.pop_back();
+    block.push_back(k);
+    if (k == last) break;
+  }
+  if (block.size() < 2) return;  // a bridge: on no cycle
+  const bool has_source = std::any_of(block.begin(), block.end(), [&](int k) {
+    return c.elements[static_cast<size_t>(k)].kind == ElementKind::kVoltageSource;
+  });
+  if (!has_source) return;  // junctions alone drive nothing
+  for (int k : block) {
+    if (c.elements[static_cast<size_t>(k)].kind != ElementKind::kDiode) continue;
+    LoopJunction l;
+    l.diode = k;
+    for (int j : block) {
+      if (j != k) l.others.push_back(j);
+    }
+    std::sort(l.others.begin(), l.others.end());
+    loops.push_back(std::move(l));
+  }
+}
+
 }  // namespace
 
 std::vector<LoopJunction> LoopJunctions(const Circuit& c) {
@@ -182,30 +210,7 @@ std::vector<LoopJunction> LoopJunctions(const Circuit& c) {
   };
   std::vector<Frame> stack;
   int counter = 0;
-  const auto close_block = [&](int last) {
-    std::vector<int> block;
-    while (!edge_stack.empty()) {
-      const int k = edge_stack.back();
-      edge_stack.pop_back();
-      block.push_back(k);
-      if (k == last) break;
-    }
-    if (block.size() < 2) return;  // a bridge: on no cycle
-    const bool has_source = std::any_of(block.begin(), block.end(), [&](int k) {
-      return c.elements[static_cast<size_t>(k)].kind == ElementKind::kVoltageSource;
-    });
-    if (!has_source) return;  // junctions alone drive nothing
-    for (int k : block) {
-      if (c.elements[static_cast<size_t>(k)].kind != ElementKind::kDiode) continue;
-      LoopJunction l;
-      l.diode = k;
-      for (int j : block) {
-        if (j != k) l.others.push_back(j);
-      }
-      std::sort(l.others.begin(), l.others.end());
-      loops.push_back(std::move(l));
-    }
-  };
+  const auto close_block = [&](int last) { CloseBlock(c, last, edge_stack, loops); };
   for (size_t root = 0; root < nodes; ++root) {
     if (order[root] >= 0 || edges[root].empty()) continue;
     stack.push_back({static_cast<int>(root), -1, 0});

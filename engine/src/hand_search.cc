@@ -321,48 +321,38 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
   return true;
 }
 
-HandResult SolveHand(const Circuit& circuit, const HandModel& model,
-                     const HandSearchOptions& options) {
-  HandResult result;
-  Collector collector(circuit, options, &result);
-  std::vector<int> diodes;
-  long long total = 1;
-  bool too_many = false;
-  for (size_t e = 0; e < circuit.elements.size(); ++e) {
-    if (circuit.elements[e].kind != ElementKind::kDiode) continue;
-    diodes.push_back(static_cast<int>(e));
-    total *= model.lines[e].has_breakdown ? 3 : 2;
-    if (total > options.max_enumerated_sets) too_many = true;
-    if (too_many) total = options.max_enumerated_sets + 1;  // no overflow
-  }
-  // The cost of one set, in the units of options.max_work.
-  const auto size = static_cast<long long>(circuit.nodes.size() + circuit.elements.size());
-  if (!too_many && total > options.max_work / std::max(size, 1LL)) too_many = true;
+namespace {
+
+// Every set of diode states, for a circuit with few enough of them.
+void EnumerateSets(const Circuit& circuit, const HandModel& model, const HandSearchOptions& options,
+                   const std::vector<int>& diodes, long long total, Collector& collector,
+                   HandResult& result) {
   std::vector<DiodeState> states(circuit.elements.size(), DiodeState::kOff);
   Solution solution;
-
-  if (!too_many) {
-    // Every set, counted in mixed radix: digit 0 off, 1 on, 2 breakdown.
-    for (long long code = 0; code < total; ++code) {
-      long long rest = code;
-      for (int e : diodes) {
-        const long long radix = model.lines[static_cast<size_t>(e)].has_breakdown ? 3 : 2;
-        states[static_cast<size_t>(e)] = static_cast<DiodeState>(rest % radix);
-        rest /= radix;
-      }
-      ++result.sets_tried;
-      if (!SolveStateSet(circuit, model, states, &solution)) {
-        ++result.singular_sets;
-        continue;
-      }
-      if (Check(circuit, model, states, solution, options, nullptr).diode < 0) {
-        collector.Add(states, solution);
-      }
+  // Every set, counted in mixed radix: digit 0 off, 1 on, 2 breakdown.
+  for (long long code = 0; code < total; ++code) {
+    long long rest = code;
+    for (int e : diodes) {
+      const long long radix = model.lines[static_cast<size_t>(e)].has_breakdown ? 3 : 2;
+      states[static_cast<size_t>(e)] = static_cast<DiodeState>(rest % radix);
+      rest /= radix;
     }
-    collector.Finish(true);
-    return result;
+    ++result.sets_tried;
+    if (!SolveStateSet(circuit, model, states, &solution)) {
+      ++result.singular_sets;
+      continue;
+    }
+    if (Check(circuit, model, states, solution, options, nullptr).diode < 0) {
+      collector.Add(states, solution);
+    }
   }
+}
 
+void SearchSets(const Circuit& circuit, const HandModel& model, const HandSearchOptions& options,
+                const std::vector<int>& diodes, long long size, Collector& collector,
+                HandResult& result) {
+  std::vector<DiodeState> states(circuit.elements.size(), DiodeState::kOff);
+  Solution solution;
   // Bounded iterative search: start from the given states, move every violating diode
   // to the state its violation points to; on a repeat move only the worst one; on a
   // singular set flip single diodes not yet visited. Never revisits a set.
@@ -413,6 +403,33 @@ HandResult SolveHand(const Circuit& circuit, const HandModel& model,
     }
     states = next;
   }
+}
+
+}  // namespace
+
+HandResult SolveHand(const Circuit& circuit, const HandModel& model,
+                     const HandSearchOptions& options) {
+  HandResult result;
+  Collector collector(circuit, options, &result);
+  std::vector<int> diodes;
+  long long total = 1;
+  bool too_many = false;
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    if (circuit.elements[e].kind != ElementKind::kDiode) continue;
+    diodes.push_back(static_cast<int>(e));
+    total *= model.lines[e].has_breakdown ? 3 : 2;
+    if (total > options.max_enumerated_sets) too_many = true;
+    if (too_many) total = options.max_enumerated_sets + 1;  // no overflow
+  }
+  // The cost of one set, in the units of options.max_work.
+  const auto size = static_cast<long long>(circuit.nodes.size() + circuit.elements.size());
+  if (!too_many && total > options.max_work / std::max(size, 1LL)) too_many = true;
+  if (!too_many) {
+    EnumerateSets(circuit, model, options, diodes, total, collector, result);
+    collector.Finish(true);
+    return result;
+  }
+  SearchSets(circuit, model, options, diodes, size, collector, result);
   collector.Finish(false);
   return result;
 }

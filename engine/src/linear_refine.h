@@ -33,6 +33,12 @@ class StepRefiner {
   // r = (b - J d) / tolerance; returns max |r_i|.
   double WeightedResidual(const MnaSystem& mna, std::span<const double> b,
                           std::span<const double> tolerance, std::span<const double> d);
+  void Size(size_t n);
+  void SizeBasis(size_t n);
+  bool Precondition(KluSolver& klu, std::span<const double> tolerance, std::span<const double> u);
+  size_t Arnoldi(const MnaSystem& mna, KluSolver& klu, std::span<const double> tolerance,
+                 bool* failed);
+  void Combine(size_t k);
 
   std::vector<double> basis_;  // (kKrylovSize + 1) vectors, allocated on first use
   std::vector<double> hessenberg_, givens_cos_, givens_sin_, rhs_, y_;
