@@ -97,9 +97,9 @@ void BiasSolver::Impl::ResetStart() {
 
 // From a warm start (a neighbouring sweep point's solution) Newton is already in its
 // quadratic region: auto tries plain Newton first there, since the potential method's
-// fresh factorisation at every step and its step onto the sources' constraints cost a
-// third of a sweep's time (docs/solver.md). A failed run leaves the decision to the
-// strategies after it.
+// fresh factorisation at every step and its step onto the sources' constraints are the
+// larger part of a sweep's time there (docs/solver.md). A failed run leaves the decision
+// to the strategies after it.
 std::optional<BiasSolver::Impl::Ending> BiasSolver::Impl::WarmStartNewton(SolveSummary* s) {
   if (!(options.method == SolverMethod::kAuto && warm() && !non_monotone)) return std::nullopt;
   ResetStart();

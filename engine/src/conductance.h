@@ -21,8 +21,8 @@ int SlotOf(int ticket, std::span<const int> slot_of) {
 // A conductance g between node unknowns a and b (-1 for gnd): g w w^T over the incidence
 // w of (a, b). In plain nodal coordinates w is {a: +1, b: -1}, and its four entries are
 // kept here; across an island's root w has up to four entries and sixteen, kept in a
-// block of their own. Most circuits have no islands, and in a million-device circuit
-// room for sixteen entries in every device was 200 MB.
+// block of their own. Most circuits have no islands: a device keeps room for four entries
+// (sixteen in every device of a million-device circuit would be 200 MB).
 class Conductance {
  public:
   Conductance(int a, int b) : a_(a), b_(b) {}

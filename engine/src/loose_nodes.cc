@@ -161,7 +161,7 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   tight.max_newton_steps = std::max(options.max_newton_steps, kFaintNewtonSteps);
   // The relative part of the residual test too: a node between two nearly saturated
   // junctions balances the last e^-14 of their currents, 1e-6 of them, which rel_tol's
-  // 1e-6 of its largest current does not resolve (torture seed 37532: 5.8 mV of 108 V).
+  // 1e-6 of its largest current does not resolve (millivolts of a 100 V node).
   tight.rel_tol = std::min(options.rel_tol, kFaintRelTol);
   // Which nodes are loose is still judged against the solve's own voltage tolerance.
   const auto judged = [&] {
@@ -172,8 +172,8 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   saved = x;
   bool kept = false;
   // Where plain Newton does not settle a monotone network's loose nodes (a string of
-  // junctions it left volts from their balance, torture seed 5185), the potential
-  // method from the same point gets the usual step limit.
+  // junctions it leaves volts from their balance), the potential method from the same
+  // point gets the usual step limit.
   const bool monotone = !non_monotone && !unbounded;
   // The scale is first-order: on an exponential it can fall short, and a loose node
   // whose every current is below the scaled tolerance would still be exempt from the

@@ -41,8 +41,8 @@ IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
   // island's sum), so the root is the member whose KCL carries the largest terms, as far
   // as the elements tell before solving: the most elements that can carry any current
   // (voltage sources, diodes without series resistance), then the largest sum of the
-  // other elements' largest conductances (1/R, 1/rs), then the lowest node. A nA node
-  // beside a kA one as root had its own KCL at 1e-9 A (torture seed 4725).
+  // other elements' largest conductances (1/R, 1/rs), then the lowest node: a nA node as
+  // root beside a kA member would have its own KCL only to the kA member's rounding.
   std::vector<double> unbounded(c.nodes.size(), 0.0), conductance(c.nodes.size(), 0.0);
   for (const Element& e : c.elements) {
     double g = 0.0;

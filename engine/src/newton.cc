@@ -364,9 +364,9 @@ bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span
   const double before = *previous;
   *previous = ratio;
   if (!(ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * before))) {
-    // Steps below kPolishFast of the tolerance that no longer shrink are round-off
-    // (seed 27140: 2e-12 V at one node, step after step): more of them change nothing.
-    // A step larger than the one before is no stall (seed 10099: 4e-11 then 4e-5).
+    // Steps below kPolishFast of the tolerance that no longer shrink are round-off: more
+    // of them change nothing. A step larger than the one before is no stall (the steps
+    // may grow again before they converge).
     return ratio <= kPolishFast && ratio >= kPolishStalled * before && ratio <= before;
   }
   // Each unknown to kPolishRelative of itself: the change the next step would make, at
@@ -380,8 +380,8 @@ bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span
   for (size_t i = 0; i < dx.size() && !any; ++i) any = unsettled(i, 0.0);
   if (!any) return true;
   if (!RoundingNoise(mna, klu, noise)) return true;  // the tolerance test above stands
-  // The noise estimate is a bound (seed 27140: 4e-7 V at a node the steps then settled
-  // to 3e-13 V): it ends the polishing only once the steps stop shrinking.
+  // The noise estimate is a bound, often far above what the steps settle to: it ends the
+  // polishing only once the steps stop shrinking.
   if (rate < kPolishStalled) return false;
   for (size_t i = 0; i < dx.size(); ++i) {
     if (unsettled(i, kNoiseFactor * noise[i])) return false;
@@ -406,8 +406,8 @@ void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double 
       std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
       // A step rejected because it throws faint nodes about (a group held by saturated
       // junctions beside a loose one) is tried once more without their part: the other
-      // nodes still get their polish (torture seed 4912: a node at 53 V held by
-      // 380 kOhm kept 5e-13 A of residual). Only kept if it passes the same test, and
+      // nodes still get their polish (a firm node would otherwise keep a residual the
+      // next step would remove). Only kept if it passes the same test, and
       // only in a run without aids: a rung of the ladder is a waypoint, not an answer.
       if (masked || !any_faint || !plain_run_) return;
       masked = true;

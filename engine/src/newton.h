@@ -78,13 +78,13 @@ double ResidualMerit(const MnaSystem& mna, const SolverOptions& options);
 // tolerance, or below kPolishFast times it while converging at least 10x per step (the
 // next step, the error left, is then below 1e-4 of the tolerance: 1e-10 relative), or
 // kPolishSteps were taken. Quadratic convergence makes one step enough on most networks
-// (a sweep point: the second step that 1e-6 alone asked for cost a quarter of the bridge
-// sweep's time); where convergence is linear (faint nodes, flat valleys) the steps go on
-// to 1e-6, so that the methods reach the same point to round-off.
+// (a sweep point need not pay for a second step that 1e-6 alone would ask for); where
+// convergence is linear (faint nodes, flat valleys) the steps go on to 1e-6, so that the
+// methods reach the same point to round-off.
 inline constexpr int kPolishSteps = 4;
 // Polishing goes on past kPolishSteps while the last step still broke the update
-// tolerance (ratio > 1: a run that ended on its residual with a node still creeping,
-// seed 27140: 0.04 V a step), up to kPolishStepsCreeping.
+// tolerance (ratio > 1: a run that ended on its residual with a node still creeping by
+// volts a step), up to kPolishStepsCreeping.
 inline constexpr int kPolishStepsCreeping = 50;
 inline bool PolishGoesOn(int k, double last_ratio) {
   return k < kPolishSteps || (last_ratio > 1.0 && k < kPolishStepsCreeping);

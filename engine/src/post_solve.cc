@@ -77,9 +77,8 @@ void BiasSolver::Impl::CheckLoopJunctions(SolveSummary* s) {
 
 // An island root's own KCL is known only to the round-off of its island's sum (its row),
 // so a root whose currents at the solution are far below a member's has its own balance
-// lost in that member's rounding: a node held by 7e-13 A through 73 MOhm, rooted by its
-// junctions' series resistance beside a member carrying 11.5 A (torture seed 14210),
-// kept 2e-15 A of residual, 2e-8 V. Such islands are rooted again at their member of
+// lost in that member's rounding (a node held by 1e-12 A through tens of megohms, as
+// root beside a member carrying amperes). Such islands are rooted again at their member of
 // largest current and the point taken one Newton run further. Solve() restores the
 // roots of Create(), so that no result depends on the points solved before it.
 void BiasSolver::Impl::RerootIslands(SolveSummary* s) {

@@ -125,8 +125,7 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
       std::copy(step_.begin(), step_.end(), dx_.begin());
       status = klu_->Solve(dx_);
       // Pivots KLU takes for nonzero (1e-300 S) can still overflow the direction: that
-      // matrix is singular for this purpose (torture seed 18568 lost every other step
-      // to an infinite direction and a failed line search).
+      // matrix is singular for this purpose (an infinite direction has no line search).
       if (status == LinearStatus::kOk && !AllFinite(dx_)) status = LinearStatus::kSingular;
     }
   }
@@ -395,9 +394,8 @@ void PotentialSolver::Polish(std::span<double> x, double last_ratio) {
     if (!SolveStep(&ignored)) return;
     const bool any_faint = MarkFaintNodes(*mna_, options_, faint_);
     if (!take()) {
-      // As NewtonSolver::Polish: once more without the faint nodes' part (seed 17571: a
-      // step that moved a loose string of junctions by volts left 4e-11 A at a node of
-      // 0.2 mA).
+      // As NewtonSolver::Polish: once more without the faint nodes' part (a step that
+      // throws a loose string of junctions about by volts can break KCL at a firm node).
       if (masked || !any_faint) {
         std::copy(base_.begin(), base_.end(), x.begin());
         return;

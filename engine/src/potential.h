@@ -46,7 +46,7 @@ inline constexpr double kArmijoFraction = 1e-4;
 inline constexpr double kCurvatureFraction = 0.9;
 // Creeping: a full step that repeats the one before (every node within kCreepRepeat of
 // its largest change) is Newton's step c on a tail a*v + b*exp(-v/c), the same length
-// however far the minimum lies (torture seed 22537: 1.5 V a step for 556 steps). The next
+// however far the minimum lies (hundreds of equal steps on a long tail). The next
 // search then asks the slope to flatten to kCreepCurvature of its start, which doubles
 // the step out along the tail (an exact line search, as far as the bracket goes).
 inline constexpr double kCreepRepeat = 0.05;
@@ -72,7 +72,8 @@ inline constexpr double kShortStep = 1e-3;
 // trial at that residual); none for t = 0.
 inline double MultiplierFraction(double t) { return t >= kShortStep ? 1.0 : t; }
 // A step shorter than this, taken with the junction floor already on, also grows the
-// diagonal shift (torture seed 58780: t = 1e-13 step after step, 200 steps at the start).
+// diagonal shift: a floored direction that still gives only vanishing steps is turned
+// further towards steepest descent instead of being tried again.
 inline constexpr double kTinyStep = 1e-8;
 // The diagonal shift of the Hessian (PotentialSolver::SolveStep): its first value, its
 // growth per direction that gave no step, and its largest value.
