@@ -86,26 +86,14 @@ class Conductance {
   // w . v for v in the solver's coordinates of rows (an adjoint vector; x itself holds
   // plain node voltages, whose difference is At(x, a) - At(x, b)).
   double Dot(std::span<const double> v) const {
-    if (island_) {
-      const Incidence& w = island_->w;
-      double s = 0.0;
-      for (int k = 0; k < w.count; ++k) {
-        s += w.coef[static_cast<size_t>(k)] *
-             v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
-      }
-      return s;
-    }
+    if (island_) return IslandDot(island_->w, v);
     return At(v, a_) - At(v, b_);
   }
   // out += g w (w . v).
   void MultiplyAdd(double g, std::span<const double> v, std::span<double> out) const {
     if (island_) {
       const Incidence& w = island_->w;
-      double s = 0.0;
-      for (int k = 0; k < w.count; ++k) {
-        s += w.coef[static_cast<size_t>(k)] *
-             v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
-      }
+      const double s = IslandDot(w, v);
       for (int k = 0; k < w.count; ++k) {
         out[static_cast<size_t>(w.index[static_cast<size_t>(k)])] +=
             g * w.coef[static_cast<size_t>(k)] * s;
@@ -121,6 +109,13 @@ class Conductance {
   }
 
  private:
+  static double IslandDot(const Incidence& w, std::span<const double> v) {
+    double s = 0.0;
+    for (int k = 0; k < w.count; ++k) {
+      s += w.coef[static_cast<size_t>(k)] * v[static_cast<size_t>(w.index[static_cast<size_t>(k)])];
+    }
+    return s;
+  }
   struct IslandEntries {
     Incidence w;
     std::array<int, 16> slots{-1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1, -1};

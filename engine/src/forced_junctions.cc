@@ -9,6 +9,7 @@
 #include <queue>
 #include <utility>
 
+#include "disjoint_set.h"
 #include "knee/diode_law.h"
 
 namespace knee::internal {
@@ -53,19 +54,12 @@ std::vector<ForcedJunction> FindForcedJunctions(const Circuit& c) {
   std::vector<ForcedJunction> forced;
   const size_t nodes = c.nodes.size();
   // Union-find over the voltage sources: nodes whose difference the sources fix.
-  std::vector<int> parent(nodes);
-  std::iota(parent.begin(), parent.end(), 0);
-  const auto find = [&](int n) {
-    while (parent[static_cast<size_t>(n)] != n) {
-      n = parent[static_cast<size_t>(n)] =
-          parent[static_cast<size_t>(parent[static_cast<size_t>(n)])];
-    }
-    return n;
-  };
+  DisjointSet sets(nodes);
+  const auto find = [&](int n) { return sets.Find(n); };
   bool any_source = false;
   for (const Element& e : c.elements) {
     if (e.kind != ElementKind::kVoltageSource) continue;
-    parent[static_cast<size_t>(find(e.node_a))] = find(e.node_b);
+    sets.Join(e.node_a, e.node_b);
     any_source = true;
   }
   if (!any_source) return forced;

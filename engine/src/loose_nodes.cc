@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "bias_impl.h"
+#include "disjoint_set.h"
 
 namespace knee {
 
@@ -105,14 +106,8 @@ std::vector<int> BiasSolver::Impl::UntiedNodes(const SolverOptions& o, bool roun
           std::max(largest[static_cast<size_t>(n)], std::fabs(r.current));
     }
   });
-  std::vector<int> parent(nodes);
-  for (size_t n = 0; n < nodes; ++n) parent[n] = static_cast<int>(n);
-  const auto find = [&](int n) {
-    while (parent[static_cast<size_t>(n)] != n)
-      n = parent[static_cast<size_t>(n)] =
-          parent[static_cast<size_t>(parent[static_cast<size_t>(n)])];
-    return n;
-  };
+  internal::DisjointSet tied(nodes);
+  const auto find = [&](int n) { return tied.Find(n); };
   const auto uncertainty = [&](int n) {
     const double i = largest[static_cast<size_t>(n)];
     return rounding ? MnaSystem::kRoundOffFactor * i : o.abs_current_tol + o.rel_tol * i;
@@ -140,7 +135,7 @@ std::vector<int> BiasSolver::Impl::UntiedNodes(const SolverOptions& o, bool roun
     }
     const bool ties = g * std::min(tolerance(e.node_a), tolerance(e.node_b)) >=
                       std::max(uncertainty(e.node_a), uncertainty(e.node_b));
-    if (ties) parent[static_cast<size_t>(find(e.node_a))] = find(e.node_b);
+    if (ties) tied.Join(e.node_a, e.node_b);
   });
   std::vector<int> loose;
   const int grounded = find(kGroundNode);

@@ -6,6 +6,7 @@
 #include <cmath>
 
 #include "check.h"
+#include "disjoint_set.h"
 
 namespace knee::internal {
 namespace {
@@ -21,21 +22,12 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
 // IslandMap of the circuit: components of the graph of resistors and voltage sources
 // that do not contain gnd, each rooted at its heaviest node (below).
 IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
-  std::vector<int> parent(c.nodes.size());
-  for (size_t n = 0; n < parent.size(); ++n) parent[n] = static_cast<int>(n);
-  const auto find = [&](int n) {
-    while (parent[static_cast<size_t>(n)] != n) {
-      int& p = parent[static_cast<size_t>(n)];
-      p = parent[static_cast<size_t>(p)];
-      n = p;
-    }
-    return n;
-  };
+  DisjointSet sets(c.nodes.size());
+  const auto find = [&](int n) { return sets.Find(n); };
   for (const Element& e : c.elements) {
     if (e.kind != ElementKind::kResistor && e.kind != ElementKind::kVoltageSource) continue;
-    const int a = find(e.node_a), b = find(e.node_b);
     // The lower node stays the representative: gnd (0) wins, else the island's lowest.
-    if (a != b) parent[static_cast<size_t>(std::max(a, b))] = std::min(a, b);
+    sets.Join(e.node_a, e.node_b);
   }
   // The root's own KCL is known only to its members' round-off (its row holds the
   // island's sum), so the root is the member whose KCL carries the largest terms, as far

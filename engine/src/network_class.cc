@@ -41,22 +41,7 @@ class FlowGraph {
     const size_t n = adjacent_.size();
     while (true) {
       std::vector<int> via(n, -1);  // edge used to reach each node
-      std::vector<char> seen(n, 0);
-      std::queue<int> queue;
-      queue.push(source);
-      seen[static_cast<size_t>(source)] = 1;
-      while (!queue.empty() && !seen[static_cast<size_t>(sink)]) {
-        const int u = queue.front();
-        queue.pop();
-        for (int e : adjacent_[static_cast<size_t>(u)]) {
-          const Edge& edge = edges_[static_cast<size_t>(e)];
-          if (edge.capacity > 0.0 && !seen[static_cast<size_t>(edge.to)]) {
-            seen[static_cast<size_t>(edge.to)] = 1;
-            via[static_cast<size_t>(edge.to)] = e;
-            queue.push(edge.to);
-          }
-        }
-      }
+      const std::vector<char> seen = Reach(source, sink, &via);
       if (!seen[static_cast<size_t>(sink)]) return total;
       double push = std::numeric_limits<double>::infinity();
       for (int v = sink; v != source;) {
@@ -73,30 +58,34 @@ class FlowGraph {
       total += push;
     }
   }
-  std::vector<char> SourceSide(int source) const {
-    std::vector<char> seen(adjacent_.size(), 0);
-    std::queue<int> queue;
-    queue.push(source);
-    seen[static_cast<size_t>(source)] = 1;
-    while (!queue.empty()) {
-      const int u = queue.front();
-      queue.pop();
-      for (int e : adjacent_[static_cast<size_t>(u)]) {
-        const Edge& edge = edges_[static_cast<size_t>(e)];
-        if (edge.capacity > 0.0 && !seen[static_cast<size_t>(edge.to)]) {
-          seen[static_cast<size_t>(edge.to)] = 1;
-          queue.push(edge.to);
-        }
-      }
-    }
-    return seen;
-  }
+  std::vector<char> SourceSide(int source) const { return Reach(source, -1, nullptr); }
 
  private:
   struct Edge {
     int to;
     double capacity;
   };
+  // Breadth-first search from source over the edges with capacity left, until `stop` is
+  // reached (-1: every node reachable); (*via)[v] = the edge that reached v.
+  std::vector<char> Reach(int source, int stop, std::vector<int>* via) const {
+    std::vector<char> seen(adjacent_.size(), 0);
+    std::queue<int> queue;
+    queue.push(source);
+    seen[static_cast<size_t>(source)] = 1;
+    while (!queue.empty() && !(stop >= 0 && seen[static_cast<size_t>(stop)])) {
+      const int u = queue.front();
+      queue.pop();
+      for (int e : adjacent_[static_cast<size_t>(u)]) {
+        const Edge& edge = edges_[static_cast<size_t>(e)];
+        if (edge.capacity > 0.0 && !seen[static_cast<size_t>(edge.to)]) {
+          seen[static_cast<size_t>(edge.to)] = 1;
+          if (via != nullptr) (*via)[static_cast<size_t>(edge.to)] = e;
+          queue.push(edge.to);
+        }
+      }
+    }
+    return seen;
+  }
   std::vector<std::vector<int>> adjacent_;
   std::vector<Edge> edges_;
 };

@@ -14,12 +14,6 @@
 namespace knee::internal {
 namespace {
 
-double MaxAbs(std::span<const double> v, size_t count) {
-  double m = 0.0;
-  for (size_t i = 0; i < count; ++i) m = std::max(m, std::fabs(v[i]));
-  return m;
-}
-
 bool AllFinite(std::span<const double> v) {
   return std::all_of(v.begin(), v.end(), [](double d) { return std::isfinite(d); });
 }
@@ -52,7 +46,6 @@ void PotentialSolver::SizeVectors() {
   base_.assign(size_, 0.0);
   last_step_.assign(size_, 0.0);
   noise_.assign(size_, 0.0);
-  faint_.assign(size_, 0);
   branch_dv_.assign(size_ - static_cast<size_t>(mna_->kcl_rows()), 0.0);
 }
 
@@ -375,40 +368,23 @@ void PotentialSolver::SetFloor(bool on, std::span<const double> x) {
 void PotentialSolver::Polish(std::span<double> x, double last_ratio) {
   shift_ = 0.0;
   SetFloor(false, x);
-  double merit = ResidualMerit(*mna_, options_);
   const auto kcl = static_cast<size_t>(mna_->kcl_rows());
-  // x + step_ from base_, assembled: whether the polishing test keeps it.
-  const auto take = [&] {
+  const auto solve = [&] {
+    NewtonOutcome ignored;
+    return SolveStep(&ignored);
+  };
+  // x + step_ from base_, assembled.
+  const auto apply = [&] {
     bool inside = true;
     for (size_t i = 0; i < x.size(); ++i) {
       x[i] = base_[i] + step_[i];
       if (i < kcl && !(std::fabs(x[i]) <= voltage_bound_)) inside = false;
     }
     const AssemblyOutcome assembled = mna_->Assemble(x, AssemblyAids{});
-    return PolishKept(*mna_, options_, inside && assembled.finite, step_, x, &merit);
+    return inside && assembled.finite;
   };
-  bool masked = false;
-  for (int k = 0; PolishGoesOn(k, last_ratio); ++k) {
-    std::copy(x.begin(), x.end(), base_.begin());
-    NewtonOutcome ignored;
-    if (!SolveStep(&ignored)) return;
-    const bool any_faint = MarkFaintNodes(*mna_, options_, faint_);
-    if (!take()) {
-      // As NewtonSolver::Polish: once more without the faint nodes' part (a step that
-      // throws a loose string of junctions about by volts can break KCL at a firm node).
-      if (masked || !any_faint) {
-        std::copy(base_.begin(), base_.end(), x.begin());
-        return;
-      }
-      masked = true;
-      DropFaintPart(faint_, step_);
-      if (!take()) {
-        std::copy(base_.begin(), base_.end(), x.begin());
-        return;
-      }
-    }
-    if (PolishSettled(*mna_, options_, step_, x, &last_ratio, *klu_, noise_)) return;
-  }
+  polisher_.Run(*mna_, options_, *klu_, x, base_, step_, noise_, last_ratio, /*may_mask=*/true,
+                solve, apply);
 }
 
 std::vector<std::string> PotentialSolver::Unsettled(std::span<const double> x) const {

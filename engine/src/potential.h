@@ -12,12 +12,13 @@
 #include <string>
 #include <vector>
 
+#include "convergence.h"
 #include "klu_solver.h"
 #include "knee/circuit.h"
 #include "knee/solver.h"
 #include "mna.h"
 #include "network_class.h"
-#include "newton.h"
+#include "polisher.h"
 
 namespace knee::internal {
 
@@ -180,7 +181,7 @@ class PotentialSolver {
   std::vector<double> base_;
   std::vector<double> last_step_;  // the last full step, for Repeats()
   std::vector<double> noise_;      // J^-1 times the residual's round-off allowance
-  std::vector<char> faint_;        // Polish: faint nodes at the polished point
+  Polisher polisher_;
   std::vector<double> branch_dv_;  // A^T dv: the change of every source's v(P) - v(N)
   int evaluations_ = 0;
   double stiff_ = 1.0;

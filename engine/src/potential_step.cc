@@ -10,16 +10,6 @@
 #include "potential.h"
 
 namespace knee::internal {
-namespace {
-
-double MaxAbs(std::span<const double> v, size_t count) {
-  double m = 0.0;
-  for (size_t i = 0; i < count; ++i) m = std::max(m, std::fabs(v[i]));
-  return m;
-}
-
-}  // namespace
-
 // d/dt of the potential at x along the node-voltage part dv of dx_: the gradient of the
 // potential is the devices' KCL residual without the voltage sources' currents k, so
 // slope = sum_r F_r dv_r - sum_k x_k (A^T dv)_k, with A^T dv the change of every source's
