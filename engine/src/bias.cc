@@ -68,7 +68,8 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   // the old size are ignored).
   m.mna = MnaSystem(circuit);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
-  m.potential = internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size());
+  m.potential =
+      internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size(), m.tuning.potential);
   m.Resize();
   const auto problem = m.Analyze();
   KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
@@ -118,7 +119,8 @@ std::optional<BiasSolver::Impl::Ending> BiasSolver::Impl::PotentialMethod(SolveS
   if (method == SolverMethod::kClassic || non_monotone) return std::nullopt;
   s->method = SolverMethod::kPotential;
   ResetStart();
-  potential.set_stiff_conductance(internal::StiffJunctionConductance(*circuit));
+  potential.set_stiff_conductance(
+      internal::StiffJunctionConductance(*circuit, tuning.potential.stiff_factor));
   const NewtonOutcome run = potential.Run(x, trace_on ? &trace : nullptr);
   s->newton_steps += run.steps;
   if (run.exit == NewtonExit::kConverged || method == SolverMethod::kPotential) {

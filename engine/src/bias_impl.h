@@ -16,26 +16,11 @@
 #include "mna.h"
 #include "newton.h"
 #include "potential.h"
+#include "tuning.h"
 
 namespace knee {
 
 namespace internal {
-
-inline constexpr int kMaxGminRetries = 8;  // halvings (in log scale) of a failed gmin rung
-// The smallest current tolerance ResolveFaintNodes uses (A).
-inline constexpr double kFaintCurrentFloor = 1e-40;
-inline constexpr int kFaintNewtonSteps = 1000;  // at least, for ResolveFaintNodes' run
-inline constexpr int kFaintRounds = 3;          // ResolveFaintNodes' runs at most
-inline constexpr double kFaintRelTol = 1e-12;   // ResolveFaintNodes' rel_tol, at most
-// RerootIslands: a member whose largest current exceeds its root's by this factor.
-inline constexpr double kRerootFactor = 1e3;
-inline constexpr double kLooseMargin = 10.0;  // LooseNodes: spread / voltage tolerance
-// The node-voltage clamp (SetVoltageBound): margin times the bound, plus a floor (V).
-inline constexpr double kVoltageBoundMargin = 10.0;
-inline constexpr double kVoltageBoundFloor = 1e4;
-inline constexpr double kJunctionExponents = 800.0;  // thermal scales a junction law spans
-inline constexpr int kMaxSourceRetries = 12;         // subdivisions of a failed source step
-inline constexpr int kMaxSourceRungs = 2000;         // all source-stepping runs together
 
 // The circuit's numbers without names or source locations (circuit_numbers.cc).
 Circuit NumbersOf(const Circuit& c);
@@ -44,8 +29,9 @@ Circuit NumbersOf(const Circuit& c);
 // changed, each to a finite number (what a sweep of a supply does at every point).
 bool AssignValues(const Circuit& from, Circuit* to);
 
-// The most voltage the junctions of the circuit can hold, summed (screen.cc).
-double JunctionSpan(const Circuit& c);
+// The most voltage the junctions of the circuit can hold, summed (screen.cc), each law
+// spanning `exponents` thermal scales on either side.
+double JunctionSpan(const Circuit& c, double exponents);
 
 }  // namespace internal
 
@@ -58,6 +44,7 @@ struct BiasSolver::Impl {
   // sources changed. A single bias point never needs them.
   std::optional<Circuit> last_numbers;
   SolverOptions options;
+  internal::SolveTuning tuning;  // derived from options (tuning.h)
   internal::MnaSystem mna;
   internal::KluSolver klu;
   // LooseNodes' own factors of the exact Jacobian, made on first need: fresh pivots in
@@ -102,9 +89,10 @@ struct BiasSolver::Impl {
   Impl(const Circuit& c, const SolverOptions& o)
       : circuit(&c),
         options(o),
+        tuning(internal::SolveTuning::From(o)),
         mna(c),
         newton(&mna, &klu, o, mna.size()),
-        potential(&mna, &klu, o, mna.size()) {
+        potential(&mna, &klu, o, mna.size(), tuning.potential) {
     Resize();
     Classify();
   }

@@ -10,9 +10,6 @@
 namespace knee {
 
 using internal::AssemblyAids;
-using internal::kMaxGminRetries;
-using internal::kMaxSourceRetries;
-using internal::kMaxSourceRungs;
 using internal::NewtonExit;
 using internal::NewtonOutcome;
 
@@ -49,7 +46,8 @@ bool BiasSolver::Impl::GminLadder(SolveSummary* s, std::string* log) {
       continue;
     }
     x = saved;
-    if (out.exit == NewtonExit::kFatal || last_good < 0.0 || ++retries > kMaxGminRetries) {
+    if (out.exit == NewtonExit::kFatal || last_good < 0.0 ||
+        ++retries > tuning.continuation.max_gmin_retries) {
       *log += fmt::format("; gmin stepping stopped at gmin {:.3g} S: {}", g, out.detail);
       return false;
     }
@@ -65,7 +63,7 @@ bool BiasSolver::Impl::SourceLadder(SolveSummary* s, std::string* log) {
   double step = full_step;
   int retries = 0;
   std::fill(x.begin(), x.end(), 0.0);
-  for (int rung = 0; rung < kMaxSourceRungs; ++rung) {
+  for (int rung = 0; rung < tuning.continuation.max_source_rungs; ++rung) {
     const double target = std::min(1.0, done + step);
     saved = x;
     const NewtonOutcome out =
@@ -77,14 +75,14 @@ bool BiasSolver::Impl::SourceLadder(SolveSummary* s, std::string* log) {
       continue;
     }
     x = saved;
-    if (out.exit == NewtonExit::kFatal || ++retries > kMaxSourceRetries) {
+    if (out.exit == NewtonExit::kFatal || ++retries > tuning.continuation.max_source_retries) {
       *log += fmt::format("; source stepping stopped at {:.4g}%: {}", 100.0 * target, out.detail);
       return false;
     }
     step /= 2.0;
   }
-  *log += fmt::format("; source stepping used {} runs and reached only {:.4g}%", kMaxSourceRungs,
-                      100.0 * done);
+  *log += fmt::format("; source stepping used {} runs and reached only {:.4g}%",
+                      tuning.continuation.max_source_rungs, 100.0 * done);
   return false;
 }
 

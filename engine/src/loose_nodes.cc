@@ -10,11 +10,6 @@
 namespace knee {
 
 using internal::AssemblyAids;
-using internal::kFaintCurrentFloor;
-using internal::kFaintNewtonSteps;
-using internal::kFaintRelTol;
-using internal::kFaintRounds;
-using internal::kLooseMargin;
 using internal::KluSolver;
 using internal::LinearStatus;
 using internal::MnaSystem;
@@ -28,17 +23,17 @@ using internal::NewtonOutcome;
 // test: the voltage change that currents of the size of the tolerance cause,
 // |J^-1 t| with t_r = abs_current_tol (ToleranceSpread), exceeds the voltage tolerance.
 // A loose point is taken one Newton run further with the current tolerance scaled down
-// until it would fix those nodes (down to kFaintCurrentFloor), from the point itself;
+// until it would fix those nodes (down to LooseNodeTuning::current_floor), from the point itself;
 // the nodes still loose afterwards (all of them, if that run fails or does not verify)
 // are named.
 std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool rounding,
                                               double* scale) {
   std::vector<int> loose;
   *scale = 1.0;
-  // Loose by the tolerance only beyond kLooseMargin times the voltage tolerance: a node a
-  // picoampere moves by a few microvolts (a bridge floating on 1 MOhm references) is
-  // settled by the polishing steps, not worth a run of its own at every sweep point.
-  const double margin = rounding ? 1.0 : kLooseMargin;
+  // Loose by the tolerance only beyond LooseNodeTuning::margin times the voltage tolerance: a node
+  // a picoampere moves by a few microvolts (a bridge floating on 1 MOhm references) is settled by
+  // the polishing steps, not worth a run of its own at every sweep point.
+  const double margin = rounding ? 1.0 : tuning.loose.margin;
   mna.AssembleExact(x);
   spread.resize(x.size());
   const auto solve_spread = [&](KluSolver& factors) {
@@ -150,14 +145,9 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   double scale = 1.0;
   std::vector<int> loose = LooseNodes(options, /*rounding=*/false, &scale);
   if (loose.empty()) return;
-  SolverOptions tight = options;
-  // Leakage-balanced nodes move at most about n*Vt per step (Newton on a balance of two
-  // exponential tails), so this run gets more steps than a rung of the ladder.
-  tight.max_newton_steps = std::max(options.max_newton_steps, kFaintNewtonSteps);
-  // The relative part of the residual test too: a node between two nearly saturated
-  // junctions balances the last e^-14 of their currents, 1e-6 of them, which rel_tol's
-  // 1e-6 of its largest current does not resolve (millivolts of a 100 V node).
-  tight.rel_tol = std::min(options.rel_tol, kFaintRelTol);
+  // More steps than a rung of the ladder, and the relative part of the residual test
+  // tightened too (LooseNodeTuning::RunOptions).
+  SolverOptions tight = tuning.loose.RunOptions(options);
   // Which nodes are loose is still judged against the solve's own voltage tolerance.
   const auto judged = [&] {
     SolverOptions o = tight;
@@ -173,16 +163,16 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
   // The scale is first-order: on an exponential it can fall short, and a loose node
   // whose every current is below the scaled tolerance would still be exempt from the
   // update test as faint. So the tolerance also goes below a tenth of the loose nodes'
-  // own largest currents, and the test is repeated after each run (kFaintRounds).
-  for (int round = 0; round < kFaintRounds && !loose.empty(); ++round) {
+  // own largest currents, and the test is repeated after each run (LooseNodeTuning::rounds).
+  for (int round = 0; round < tuning.loose.rounds && !loose.empty(); ++round) {
     const auto flow = mna.flow();  // at x: LooseNodes assembled it
     double weakest = HUGE_VAL;
     for (int u : loose) {
       const double f = flow[static_cast<size_t>(u)];
       if (f > 0.0) weakest = std::min(weakest, f);
     }
-    tight.abs_current_tol =
-        std::max(std::min(0.1 * scale * tight.abs_current_tol, 0.1 * weakest), kFaintCurrentFloor);
+    tight.abs_current_tol = std::max(std::min(0.1 * scale * tight.abs_current_tol, 0.1 * weakest),
+                                     tuning.loose.current_floor);
     newton.set_options(tight);
     NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
     newton.set_options(options);
@@ -192,7 +182,8 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
       SolverOptions fallback = tight;
       fallback.max_newton_steps = options.max_newton_steps;
       potential.set_options(fallback);
-      potential.set_stiff_conductance(internal::StiffJunctionConductance(*circuit));
+      potential.set_stiff_conductance(
+          internal::StiffJunctionConductance(*circuit, tuning.potential.stiff_factor));
       out = potential.Run(x, trace_on ? &trace : nullptr);
       s->newton_steps += out.steps;
       potential.set_options(options);

@@ -38,23 +38,23 @@ void DropFaintPart(std::span<const char> faint, std::span<double> dx) {
 
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
                    std::span<const double> x, double* previous, KluSolver& klu,
-                   std::span<double> noise) {
+                   std::span<double> noise, const PolishTuning& t) {
   const ToleranceCheck worst = CheckUpdate(mna, options, dx, x, {}, /*exempt_loose=*/false);
   const double ratio = worst.ratio();
   const double before = *previous;
   *previous = ratio;
-  if (!(ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * before))) {
-    // Steps below kPolishFast of the tolerance that no longer shrink are round-off: more
+  if (!(ratio <= t.factor || (ratio <= t.fast && ratio <= 0.1 * before))) {
+    // Steps below t.fast of the tolerance that no longer shrink are round-off: more
     // of them change nothing. A step larger than the one before is no stall (the steps
     // may grow again before they converge).
-    return ratio <= kPolishFast && ratio >= kPolishStalled * before && ratio <= before;
+    return ratio <= t.fast && ratio >= t.stalled * before && ratio <= before;
   }
-  // Each unknown to kPolishRelative of itself: the change the next step would make, at
+  // Each unknown to t.relative of itself: the change the next step would make, at
   // most the last step times the rate the steps shrink at, below that or below the
   // rounding of the equations (a node at 1e-11 V beside 500 V sources).
   const double rate = std::min(1.0, before > 0.0 ? ratio / before : 1.0);
   const auto unsettled = [&](size_t i, double floor) {
-    return !(rate * std::fabs(dx[i]) <= kPolishRelative * std::fabs(x[i]) + floor);
+    return !(rate * std::fabs(dx[i]) <= t.relative * std::fabs(x[i]) + floor);
   };
   bool any = false;
   for (size_t i = 0; i < dx.size() && !any; ++i) any = unsettled(i, 0.0);
@@ -62,7 +62,7 @@ bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span
   if (!RoundingNoise(mna, klu, noise)) return true;  // the tolerance test above stands
   // The noise estimate is a bound, often far above what the steps settle to: it ends the
   // polishing only once the steps stop shrinking.
-  if (rate < kPolishStalled) return false;
+  if (rate < t.stalled) return false;
   for (size_t i = 0; i < dx.size(); ++i) {
     if (unsettled(i, kNoiseFactor * noise[i])) return false;
   }

@@ -8,37 +8,24 @@
 #include <vector>
 
 #include "convergence.h"
+#include "tuning.h"
 
 namespace knee::internal {
 
 // Polishing after convergence: further full Newton steps, each kept only if the residual
-// still passes after it (PolishKept), until a step is below kPolishFactor times the update
-// tolerance, or below kPolishFast times it while converging at least 10x per step (the
-// next step, the error left, is then below 1e-4 of the tolerance: 1e-10 relative), or
-// kPolishSteps were taken. Quadratic convergence makes one step enough on most networks
-// (a sweep point need not pay for a second step that 1e-6 alone would ask for); where
-// convergence is linear (faint nodes, flat valleys) the steps go on to 1e-6, so that the
-// methods reach the same point to round-off.
-inline constexpr int kPolishSteps = 4;
-// Polishing goes on past kPolishSteps while the last step still broke the update
-// tolerance (ratio > 1: a run that ended on its residual with a node still creeping by
-// volts a step), up to kPolishStepsCreeping.
-inline constexpr int kPolishStepsCreeping = 50;
-inline bool PolishGoesOn(int k, double last_ratio) {
-  return k < kPolishSteps || (last_ratio > 1.0 && k < kPolishStepsCreeping);
+// still passes after it (PolishKept), while PolishGoesOn, until PolishSettled (the
+// constants and their meaning: PolishTuning in tuning.h).
+inline bool PolishGoesOn(int k, double last_ratio, const PolishTuning& t) {
+  return k < t.steps || (last_ratio > 1.0 && k < t.steps_creeping);
 }
-inline constexpr double kPolishFactor = 1e-6;
-inline constexpr double kPolishFast = 1e-3;
-inline constexpr double kPolishRelative = 1e-11;
-inline constexpr double kPolishStalled = 0.25;  // step ratio: steps no longer shrink
 // Whether polishing may stop after the step dx to x. *previous: the worst |dx|/tolerance
 // of the step before (the last Newton update for the first polishing step); updated.
 // Settled also needs every unknown's next change (the last step times the rate the steps
-// shrink at) below kPolishRelative of itself or below its rounding noise (RoundingNoise,
+// shrink at) below PolishTuning::relative of itself or below its rounding noise (RoundingNoise,
 // solved with `klu`'s factors into `noise`).
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
                    std::span<const double> x, double* previous, KluSolver& klu,
-                   std::span<double> noise);
+                   std::span<double> noise, const PolishTuning& t);
 // faint[u] = 1 for every KCL row u whose currents in the last assembly are all below
 // abs_current_tol (a faint node), else 0; whether there is any.
 bool MarkFaintNodes(const MnaSystem& mna, const SolverOptions& options, std::span<char> faint);
@@ -60,7 +47,8 @@ bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_
 // failed solve, leaves x at the last kept point.
 class Polisher {
  public:
-  explicit Polisher(size_t size = 0) : faint_(size, 0) {}
+  explicit Polisher(size_t size = 0, const PolishTuning& tuning = {})
+      : tuning_(tuning), faint_(size, 0) {}
   template <typename Solve, typename Apply>
   void Run(const MnaSystem& mna, const SolverOptions& options, KluSolver& klu, std::span<double> x,
            std::span<double> base, std::span<double> dx, std::span<double> noise, double last_ratio,
@@ -73,7 +61,7 @@ class Polisher {
     };
     const auto restore = [&] { std::copy(base.begin(), base.end(), x.begin()); };
     bool masked = false;
-    for (int k = 0; PolishGoesOn(k, last_ratio); ++k) {
+    for (int k = 0; PolishGoesOn(k, last_ratio, tuning_); ++k) {
       std::copy(x.begin(), x.end(), base.begin());
       if (!solve()) return;
       const bool any_faint = MarkFaintNodes(mna, options, faint_);  // at x, for the retry
@@ -93,11 +81,12 @@ class Polisher {
           return;
         }
       }
-      if (PolishSettled(mna, options, dx, x, &last_ratio, klu, noise)) return;
+      if (PolishSettled(mna, options, dx, x, &last_ratio, klu, noise, tuning_)) return;
     }
   }
 
  private:
+  PolishTuning tuning_;
   std::vector<char> faint_;  // faint nodes at the polished point
 };
 

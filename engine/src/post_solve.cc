@@ -12,7 +12,6 @@
 namespace knee {
 
 using internal::AssemblyAids;
-using internal::kRerootFactor;
 using internal::NewtonExit;
 using internal::NewtonOutcome;
 
@@ -93,7 +92,7 @@ void BiasSolver::Impl::RerootIslands(SolveSummary* s) {
   for (int u = 0; u < mna.kcl_rows() && !lopsided; ++u) {
     const int root = mna.islands().root_of(u);
     lopsided = root >= 0 && node_flow[static_cast<size_t>(u)] >
-                                kRerootFactor * node_flow[static_cast<size_t>(root)];
+                                tuning.islands.reroot_factor * node_flow[static_cast<size_t>(root)];
   }
   if (!lopsided) return;
   const std::vector<double> weight = node_flow;

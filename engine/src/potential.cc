@@ -20,7 +20,7 @@ bool AllFinite(std::span<const double> v) {
 
 }  // namespace
 
-double StiffJunctionConductance(const Circuit& c) {
+double StiffJunctionConductance(const Circuit& c, double factor) {
   double largest = 0.0;
   for (const Element& e : c.elements) {
     if (e.kind == ElementKind::kResistor && e.value > 0.0) {
@@ -30,12 +30,12 @@ double StiffJunctionConductance(const Circuit& c) {
       if (rs > 0.0) largest = std::max(largest, 1.0 / rs);
     }
   }
-  return kStiffFactor * (largest > 0.0 && std::isfinite(largest) ? largest : 1.0);
+  return factor * (largest > 0.0 && std::isfinite(largest) ? largest : 1.0);
 }
 
 PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
-                                 int size)
-    : mna_(mna), klu_(klu), options_(options), size_(static_cast<size_t>(size)) {}
+                                 int size, const PotentialTuning& tuning)
+    : mna_(mna), klu_(klu), options_(options), tuning_(tuning), size_(static_cast<size_t>(size)) {}
 
 // The working vectors are sized on the first Run, not at construction: a classic solve
 // (the default) never runs this solver, and a million unknowns make them 32 MB.
@@ -80,12 +80,12 @@ bool PotentialSolver::FeasibilityStep(std::span<double> x, NewtonOutcome* outcom
   AssemblyOutcome assembled;
   LinearStatus status = LinearStatus::kSingular;
   exact_factors_ = false;
-  for (double g = stiff_; status == LinearStatus::kSingular && g >= stiff_ * kSoftestFeasibility;
-       g *= 1e-3) {
+  for (double g = stiff_;
+       status == LinearStatus::kSingular && g >= stiff_ * tuning_.softest_feasibility; g *= 1e-3) {
     for (size_t i = 0; i < dx_.size(); ++i) dx_[i] = i < kcl ? 0.0 : -step_[i];
     AssemblyAids stiff;
     stiff.stiff_junction = g;
-    stiff.gmin = g * kFeasibilityShunt;
+    stiff.gmin = g * tuning_.feasibility_shunt;
     assembled = mna_->Assemble(x, stiff);
     ++evaluations_;
     status = assembled.finite ? klu_->Factor(mna_->values()) : LinearStatus::kFatal;
@@ -130,8 +130,8 @@ bool PotentialSolver::SolveStep(NewtonOutcome* outcome) {
   // potential (Newton's method with Hessian modification, Nocedal and Wright ch. 3.4,
   // recalled from memory). mu grows by 1e3 per try while the matrix stays singular.
   if (status == LinearStatus::kSingular && x_ != nullptr) {
-    for (double mu = std::max(shift_, kFirstShift);
-         mu <= kLastShift && status == LinearStatus::kSingular; mu *= 1e3) {
+    for (double mu = std::max(shift_, tuning_.first_shift);
+         mu <= tuning_.last_shift && status == LinearStatus::kSingular; mu *= 1e3) {
       AssemblyAids modified;
       modified.gmin = mu;
       if (!mna_->Assemble(*x_, modified).finite) break;
@@ -228,14 +228,16 @@ void PotentialSolver::BranchChange() {
 // convergence tests stay those of the exact model. A full step switches it off again,
 // so the last steps are exact Newton steps.
 void PotentialSolver::AdaptHessian(double t, bool residual_passed, std::span<const double> x) {
-  if (t < kTinyStep && !residual_passed && (t == 0.0 || floor_)) {
+  if (t < tuning_.tiny_step && !residual_passed && (t == 0.0 || floor_)) {
     // The direction gave no step (or a vanishing one, even with the junction floor)
     // although KCL does not hold: the next one is turned towards steepest descent.
-    shift_ = shift_ == 0.0 ? kFirstShift : std::min(shift_ * kShiftGrowth, kLastShift);
+    shift_ = shift_ == 0.0 ? tuning_.first_shift
+                           : std::min(shift_ * tuning_.shift_growth, tuning_.last_shift);
   } else if (t > 0.0) {
-    shift_ = shift_ / kShiftGrowth < kFirstShift ? 0.0 : shift_ / kShiftGrowth;
+    shift_ =
+        shift_ / tuning_.shift_growth < tuning_.first_shift ? 0.0 : shift_ / tuning_.shift_growth;
   }
-  SetFloor(t < kShortStep, x);
+  SetFloor(t < tuning_.short_step, x);
 }
 
 // The update test of the step just taken (step_, scaled to its length).
@@ -287,13 +289,13 @@ NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRe
     if (!Direction(feasible, step, x, &outcome)) return outcome;
     BranchChange();
     const StepChoice c = ChooseStep(state, residual, feasible, x);
-    if (!c.ok && (!floor_ || shift_ < kLastShift)) {
+    if (!c.ok && (!floor_ || shift_ < tuning_.last_shift)) {
       // No step along this direction: once more from the same point with the Hessian
       // modified, first by the junction floor, then by a growing diagonal shift (x holds
       // the last trial, so the point is restored first).
       std::copy(base_.begin(), base_.end(), x.begin());
       if (floor_) {
-        shift_ = shift_ == 0.0 ? kFirstShift : shift_ * kShiftGrowth;
+        shift_ = shift_ == 0.0 ? tuning_.first_shift : shift_ * tuning_.shift_growth;
         floor_ = false;  // SetFloor assembles the point again
       }
       SetFloor(true, x);

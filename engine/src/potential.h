@@ -19,74 +19,19 @@
 #include "mna.h"
 #include "network_class.h"
 #include "polisher.h"
+#include "tuning.h"
 
 namespace knee::internal {
 
-// The junction conductance of the step onto the sources' constraints: kStiffFactor times
-// the largest resistor (or series resistance) conductance of the circuit, 1 S if none.
-inline constexpr double kStiffFactor = 1e6;
-// Every node of that step has a shunt of this fraction of the stiffness to gnd: a group
-// of nodes joined by stiff junctions and held otherwise only by resistors that round away
-// beside them (1e9 S beside 1e-8 S) would leave the matrix singular; with the shunt it
-// stays where it is (near 0 V from a cold start) unless a stiff junction ties it to a
-// source. Where the matrix is still singular, the stiffness is lowered by 1e3 per try
-// down to kSoftestFeasibility of it.
-inline constexpr double kFeasibilityShunt = 1e-10;
-inline constexpr double kSoftestFeasibility = 1e-12;
-double StiffJunctionConductance(const Circuit& circuit);
-
-// Line-search constants. Armijo's sufficient-decrease fraction: L. Armijo, "Minimization
-// of functions having Lipschitz continuous first partial derivatives", Pacific J. Math.
-// 16(1), 1966; the value 1e-4 is the one J. Nocedal and S. J. Wright, Numerical
-// Optimization, 2nd ed., Springer 2006, ch. 3, suggest (recalled from memory).
-inline constexpr double kArmijoFraction = 1e-4;
-// The curvature condition of the weak Wolfe conditions, phi'(t) >= c2 * phi'(0): a step
-// after which the potential still falls at more than c2 of its initial rate is too short
-// and is lengthened or refined (Nocedal and Wright, ch. 3, recalled from memory: 0.9 is
-// their value for Newton-type directions).
-inline constexpr double kCurvatureFraction = 0.9;
-// Creeping: a full step that repeats the one before (every node within kCreepRepeat of
-// its largest change) is Newton's step c on a tail a*v + b*exp(-v/c), the same length
-// however far the minimum lies (hundreds of equal steps on a long tail). The next
-// search then asks the slope to flatten to kCreepCurvature of its start, which doubles
-// the step out along the tail (an exact line search, as far as the bracket goes).
-inline constexpr double kCreepRepeat = 0.05;
-inline constexpr double kCreepCurvature = 1e-3;
-inline constexpr int kMaxLineSearchTrials = 80;      // potential evaluations per line search
-inline constexpr double kMaxStepLength = 1048576.0;  // 2^20 Newton steps along one direction
-// Trial points of the line search keep every junction law's exponential term at or
-// below max(e^kLogCurrentCap A, its largest value at the start of the step): far out on
-// the exponential, conductances of 1e30 S and more leave neither the Newton direction
-// nor the potential resolvable, and further out still the law leaves the doubles. e^40 A
-// (2.4e17 A) is far above any current a diode carries, so the cap is inactive at a
-// solution; should the line search find no step under it, it searches once more
-// without it (a trial point whose law overflows is still refused: it is not finite).
-inline constexpr double kLogCurrentCap = 40.0;
-// A step shorter than this fraction of the Newton step switches the Hessian modification
-// on for the next direction (PotentialSolver::Run).
-inline constexpr double kShortStep = 1e-3;
-// The share of the Newton direction's multiplier part (the voltage sources' currents)
-// that a step of length t takes: all of it for any real step, since the multipliers do
-// not enter the potential and the direction gives them for the whole step; t itself
-// below kShortStep, where the direction came from a nearly singular Hessian and its
-// multiplier part with it (taken whole, a multiplier of 1e74 A would leave every later
-// trial at that residual); none for t = 0.
-inline double MultiplierFraction(double t) { return t >= kShortStep ? 1.0 : t; }
-// A step shorter than this, taken with the junction floor already on, also grows the
-// diagonal shift: a floored direction that still gives only vanishing steps is turned
-// further towards steepest descent instead of being tried again.
-inline constexpr double kTinyStep = 1e-8;
-// The diagonal shift of the Hessian (PotentialSolver::SolveStep): its first value, its
-// growth per direction that gave no step, and its largest value.
-inline constexpr double kFirstShift = 1e-12;  // S
-inline constexpr double kShiftGrowth = 1e3;
-inline constexpr double kLastShift = 1e6;  // S
-// Halvings of a step along a direction whose slope is below its round-off.
-inline constexpr int kMaxStationaryHalvings = 8;
+// The junction conductance of the step onto the sources' constraints: `factor`
+// (PotentialTuning::stiff_factor) times the largest resistor (or series resistance)
+// conductance of the circuit, 1 S if none.
+double StiffJunctionConductance(const Circuit& circuit, double factor);
 
 class PotentialSolver {
  public:
-  PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size);
+  PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size,
+                  const PotentialTuning& tuning = {});
 
   // Minimises the potential from x (updated in place). Appends one record per Newton
   // step to *trace when trace is not null. The exits are those of NewtonExit.
@@ -129,7 +74,7 @@ class PotentialSolver {
     double potential_magnitude = 0.0;
     double base_log_current = 0.0;  // ln A, the largest junction term at x
     ToleranceCheck update;          // the last step's update test
-    bool creeping = false;          // the last full step repeated the one before (kCreepRepeat)
+    bool creeping = false;  // the last full step repeated the one before (tuning_.creep_repeat)
   };
   // The step chosen along one direction (ChooseStep).
   struct StepChoice {
@@ -146,6 +91,13 @@ class PotentialSolver {
       return MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
     }
   };
+  // The share of the Newton direction's multiplier part (the voltage sources' currents)
+  // that a step of length t takes: all of it for any real step, since the multipliers do
+  // not enter the potential and the direction gives them for the whole step; t itself
+  // below short_step, where the direction came from a nearly singular Hessian and its
+  // multiplier part with it (taken whole, a multiplier of 1e74 A would leave every later
+  // trial at that residual); none for t = 0.
+  double MultiplierFraction(double t) const { return t >= tuning_.short_step ? 1.0 : t; }
   bool Start(std::span<double> x, RunState* state, NewtonOutcome* outcome);
   bool Direction(bool feasible, int step, std::span<double> x, NewtonOutcome* outcome);
   void BranchChange();
@@ -175,6 +127,7 @@ class PotentialSolver {
   MnaSystem* mna_;
   KluSolver* klu_;
   SolverOptions options_;
+  PotentialTuning tuning_;    // tuning.h
   size_t size_;               // unknowns
   std::vector<double> dx_;    // Newton direction in the MNA's island coordinates
   std::vector<double> step_;  // the same as node voltages (and then the step taken)

@@ -89,7 +89,7 @@ PotentialSolver::StepChoice PotentialSolver::ChooseStep(const RunState& state,
     // tests decide.
     const double before_ratio = residual.ratio();
     const double merit0 = ResidualMerit(*mna_, options_);
-    for (c.trials = 1; c.trials <= kMaxStationaryHalvings; ++c.trials, c.t *= 0.5) {
+    for (c.trials = 1; c.trials <= tuning_.max_stationary_halvings; ++c.trials, c.t *= 0.5) {
       c.accepted = Evaluate(base_, c.t, x);
       if (c.accepted.finite &&
           (c.accepted.potential - c.before <= c.RoundOff(c.accepted) ||
@@ -97,7 +97,7 @@ PotentialSolver::StepChoice PotentialSolver::ChooseStep(const RunState& state,
         break;
       }
     }
-    if (c.trials > kMaxStationaryHalvings) {
+    if (c.trials > tuning_.max_stationary_halvings) {
       c.t = 0.0;
       c.accepted = Evaluate(base_, 0.0, x);
       ++c.trials;
@@ -105,9 +105,9 @@ PotentialSolver::StepChoice PotentialSolver::ChooseStep(const RunState& state,
     c.ok = c.accepted.finite;
   } else {
     const double merit0 = ResidualMerit(*mna_, options_);
-    const double curvature = state.creeping ? kCreepCurvature : kCurvatureFraction;
+    const double curvature = state.creeping ? tuning_.creep_curvature : tuning_.curvature_fraction;
     c.ok = LineSearch(c.slope0, slope_roundoff, c.before, c.before_magnitude, merit0,
-                      std::max(kLogCurrentCap, state.base_log_current), curvature, x, &c.t,
+                      std::max(tuning_.log_current_cap, state.base_log_current), curvature, x, &c.t,
                       &c.trials, &c.accepted);
     if (!c.ok) {
       int more = 0;
@@ -125,7 +125,7 @@ bool PotentialSolver::Repeats() {
   const double largest = MaxAbs(step_, kcl);
   bool same = largest > 0.0;
   for (size_t i = 0; i < kcl; ++i) {
-    same = same && std::fabs(step_[i] - last_step_[i]) <= kCreepRepeat * largest;
+    same = same && std::fabs(step_[i] - last_step_[i]) <= tuning_.creep_repeat * largest;
     last_step_[i] = step_[i];
   }
   return same;
@@ -152,8 +152,8 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
     return MnaSystem::kRoundOffFactor * (tr.potential_magnitude + before_magnitude);
   };
   const auto decreases = [&](const Trial& tr, double t) {
-    return (tr.potential - before) + roundoff(tr) <= kArmijoFraction * t * slope0 ||
-           tr.slope + slope_roundoff <= kArmijoFraction * slope0;
+    return (tr.potential - before) + roundoff(tr) <= tuning_.armijo_fraction * t * slope0 ||
+           tr.slope + slope_roundoff <= tuning_.armijo_fraction * slope0;
   };
   // Where the change of the potential is below its own round-off, the potential cannot
   // rank the trial points (a sum of terms up to kW does not see the last nanoamperes of
@@ -162,7 +162,7 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   // does not raise the potential beyond its round-off.
   const auto resolves_residual = [&](const Trial& tr, double t) {
     return t <= 1.0 && std::fabs(tr.potential - before) <= roundoff(tr) &&
-           tr.residual_merit <= (1.0 - 2.0 * kArmijoFraction * t) * merit0;
+           tr.residual_merit <= (1.0 - 2.0 * tuning_.armijo_fraction * t) * merit0;
   };
   double lo = 0.0;  // longest step known to satisfy sufficient decrease
   double hi = std::numeric_limits<double>::infinity();  // shortest step known to fail it
@@ -172,7 +172,7 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
   if (!(t > 0.0)) t = 1.0;
   if (t < 1.0) hi = 2.0 * t;  // no doubling past the bound
   int trials = 0;
-  while (trials < kMaxLineSearchTrials) {
+  while (trials < tuning_.max_line_search_trials) {
     Trial trial = Evaluate(base_, t, x);
     ++trials;
     if (trial.finite && trial.max_log_current <= log_current_cap && resolves_residual(trial, t)) {
@@ -193,7 +193,7 @@ bool PotentialSolver::LineSearch(double slope0, double slope_roundoff, double be
       hi = t;
     }
     if (std::isinf(hi)) {
-      if (t >= kMaxStepLength) break;
+      if (t >= tuning_.max_step_length) break;
       t *= 2.0;
     } else if (lo == 0.0) {
       // Only failures so far: shorten, by quadratic interpolation of phi(0), phi'(0) and

@@ -11,21 +11,21 @@
 namespace knee {
 
 // The most voltage the junctions can hold, summed: each junction's law spans at most
-// kJunctionExponents thermal scales on either side (beyond it the exponential is 0 or
+// `exponents` thermal scales on either side (beyond it the exponential is 0 or
 // above 1e300 A), or from zero bias up to where its term leaves the doubles when that is
 // further (ln(area*Is(T)) of -3000 at 4 K), plus the breakdown voltage. With the sources' volts and
 // the current sources' amps times every resistance, it bounds |node voltage| in a network of
 // increasing laws (a node above that bound would have every current flowing out of it),
 // in the manner of the maximum principle for resistor networks (common practice, no
 // source); the clamp uses it with a wide margin.
-double internal::JunctionSpan(const Circuit& c) {
+double internal::JunctionSpan(const Circuit& c, double exponents) {
   double span = 0.0;
   for (const Element& e : c.elements) {
     if (e.kind != ElementKind::kDiode) continue;
     const DiodeConstants d =
         ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
-    span += std::max(kJunctionExponents, kLogDoubleMax - d.log_is) * d.n_vt;
-    if (d.has_breakdown) span += std::fabs(d.vbr) + kJunctionExponents * d.nbr_vt;
+    span += std::max(exponents, kLogDoubleMax - d.log_is) * d.n_vt;
+    if (d.has_breakdown) span += std::fabs(d.vbr) + exponents * d.nbr_vt;
   }
   return std::isfinite(span) ? span : 0.0;
 }
@@ -37,7 +37,7 @@ void BiasSolver::Impl::Classify() {
   forced = internal::FindForcedJunctions(*circuit);
   absurd_saturation = internal::OutOfRangeSaturation(*circuit);
   loop_junctions = internal::LoopJunctions(*circuit);
-  junction_span = internal::JunctionSpan(*circuit);
+  junction_span = internal::JunctionSpan(*circuit, tuning.bound.junction_exponents);
 }
 
 // A bound on |node voltage| for the classic loop's clamp (newton.h): the sources'
@@ -53,8 +53,8 @@ void BiasSolver::Impl::SetVoltageBound() {
       ohms += circuit->parts[static_cast<size_t>(e.part)].model.series_res / e.area;
     }
   }
-  const double bound = internal::kVoltageBoundMargin * (volts + amps * ohms + junction_span) +
-                       internal::kVoltageBoundFloor;
+  const double bound =
+      tuning.bound.margin * (volts + amps * ohms + junction_span) + tuning.bound.floor;
   newton.set_voltage_bound(bound);
   potential.set_voltage_bound(bound);
 }
@@ -62,7 +62,7 @@ void BiasSolver::Impl::SetVoltageBound() {
 void BiasSolver::Impl::Rebuild(std::span<const double> node_weight) {
   mna = internal::MnaSystem(*circuit, node_weight);
   newton = internal::NewtonSolver(&mna, &klu, options, mna.size());
-  potential = internal::PotentialSolver(&mna, &klu, options, mna.size());
+  potential = internal::PotentialSolver(&mna, &klu, options, mna.size(), tuning.potential);
   probe.reset();
   factors_exact = false;
   const auto problem = Analyze();
