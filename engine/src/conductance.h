@@ -8,13 +8,16 @@
 #include <utility>
 
 #include "devices.h"
+#include "knee/circuit.h"
 
 namespace knee::internal::device {
 
-double At(std::span<const double> x, int u) { return u < 0 ? 0.0 : x[static_cast<size_t>(u)]; }
+inline double At(std::span<const double> x, int u) {
+  return u < 0 ? 0.0 : x[static_cast<size_t>(u)];
+}
 
 // The value slot of an entry's ticket (-1, an entry at gnd, stays -1).
-int SlotOf(int ticket, std::span<const int> slot_of) {
+inline int SlotOf(int ticket, std::span<const int> slot_of) {
   return ticket < 0 ? -1 : slot_of[static_cast<size_t>(ticket)];
 }
 
@@ -144,10 +147,25 @@ class Conductance {
 
 // What every device keeps: the element it stands for. Devices are plain objects in
 // DeviceStore's arrays, called by kind (no vtable pointer in each of a million devices).
+//
+// What the stages ask of a kind before any device exists (device_kinds.h) is answered by
+// static functions of its class; Device gives the answers of a kind that has nothing to
+// say (no junction span, no conductance of its own).
 class Device {
  public:
   explicit Device(int element) : element_(element) {}
   int element() const { return element_; }
+
+  // The element's share of the node-voltage bound (screen.cc, SetVoltageBound).
+  struct BoundShare {
+    double volts = 0.0;  // V of voltage sources
+    double amps = 0.0;   // A of current sources
+    double ohms = 0.0;   // Ohm of every resistance
+  };
+  // The voltage a junction law of the element can hold, added to *span (JunctionSpan).
+  static void AddVoltageSpan(const Circuit&, const Element&, double, double*) {}
+  // The largest conductance of the element's own resistance (S), 0 if it has none.
+  static double OwnConductance(const Circuit&, const Element&) { return 0.0; }
 
  private:
   int element_;

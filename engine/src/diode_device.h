@@ -1,10 +1,15 @@
 // The diode device and the junction-law constants its instances share (DiodeBasis).
 #pragma once
 
+#include <fmt/format.h>
+
+#include <algorithm>
 #include <bit>
 #include <cmath>
 #include <cstdint>
+#include <optional>
 #include <span>
+#include <string>
 #include <unordered_map>
 #include <vector>
 
@@ -12,6 +17,7 @@
 #include "conductance.h"
 #include "diode_sensitivity.h"
 #include "knee/co_content.h"
+#include "knee/diode_law.h"
 
 namespace knee::internal::device {
 
@@ -96,6 +102,48 @@ class DiodeBases {
 // it. The two-terminal form keeps every node's equation in its own current scale.
 class Diode final : public Device {
  public:
+  // The law is strictly increasing where its constants are finite and positive at the
+  // diode's temperature. area*Is(T) may be below the smallest double (a cold junction):
+  // its logarithm decides, since the law is evaluated from it.
+  static std::optional<std::string> NonMonotone(const Circuit& c, const Element& e) {
+    if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) {
+      return fmt::format("diode '{}' has no part", e.name);
+    }
+    const DiodeConstants d =
+        ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+    const auto finite = [](double v) { return std::isfinite(v); };
+    const bool forward_ok = finite(d.is) && finite(d.log_is) && finite(d.n_vt) && d.n_vt > 0.0;
+    const bool series_ok = finite(d.rs) && d.rs >= 0.0;
+    const bool breakdown_ok =
+        !d.has_breakdown ||
+        (finite(d.ibr) && d.ibr > 0.0 && finite(d.nbr_vt) && d.nbr_vt > 0.0 && finite(d.vbr));
+    if (!(forward_ok && series_ok && breakdown_ok)) {
+      return fmt::format(
+          "diode '{}' has a law that is not strictly increasing at {:g} C (Is {:g} A, "
+          "n*Vt {:g} V, series {:g} Ohm)",
+          e.name, c.DeviceTemp(e), d.is, d.n_vt, d.rs);
+    }
+    return std::nullopt;
+  }
+  static BoundShare Bound(const Circuit& c, const Element& e) {
+    BoundShare b;
+    b.ohms = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+    return b;
+  }
+  // The law spans at most `exponents` thermal scales on either side (beyond it the
+  // exponential is 0 or above 1e300 A), or from zero bias up to where its term leaves
+  // the doubles when that is further, plus the breakdown voltage.
+  static void AddVoltageSpan(const Circuit& c, const Element& e, double exponents, double* span) {
+    const DiodeConstants d =
+        ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+    *span += std::max(exponents, kLogDoubleMax - d.log_is) * d.n_vt;
+    if (d.has_breakdown) *span += std::fabs(d.vbr) + exponents * d.nbr_vt;
+  }
+  static double OwnConductance(const Circuit& c, const Element& e) {
+    if (e.part < 0) return 0.0;
+    const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
+    return rs > 0.0 ? 1.0 / rs : 0.0;
+  }
   Diode(const Circuit& c, int element, int basis)
       : Device(element),
         pair_(Conductance::Of(c, element)),

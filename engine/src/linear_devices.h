@@ -2,9 +2,13 @@
 // with the calls DeviceStore makes by kind (devices.h).
 #pragma once
 
+#include <fmt/format.h>
+
 #include <array>
 #include <cmath>
+#include <optional>
 #include <span>
+#include <string>
 
 #include "conductance.h"
 #include "knee/sensitivity.h"
@@ -13,6 +17,21 @@ namespace knee::internal::device {
 
 class Resistor final : public Device {
  public:
+  // A resistor's law is strictly increasing for a finite value > 0.
+  static std::optional<std::string> NonMonotone(const Circuit&, const Element& e) {
+    if (!(std::isfinite(e.value) && e.value > 0.0)) {
+      return fmt::format("resistor '{}' has {:g} Ohm, not a finite value > 0", e.name, e.value);
+    }
+    return std::nullopt;
+  }
+  static BoundShare Bound(const Circuit&, const Element& e) {
+    BoundShare b;
+    b.ohms = std::fabs(e.value);
+    return b;
+  }
+  static double OwnConductance(const Circuit&, const Element& e) {
+    return e.value > 0.0 ? 1.0 / e.value : 0.0;
+  }
   Resistor(const Circuit& c, int element) : Device(element), pair_(Conductance::Of(c, element)) {
     UpdateValues(c);
   }
@@ -57,6 +76,15 @@ class Resistor final : public Device {
 // v(p) - v(n) = V; the branch current k flows from p through the source to n.
 class VoltageSource final : public Device {
  public:
+  static std::optional<std::string> NonMonotone(const Circuit&, const Element& e) {
+    if (!std::isfinite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
+    return std::nullopt;
+  }
+  static BoundShare Bound(const Circuit&, const Element& e) {
+    BoundShare b;
+    b.volts = std::fabs(e.value);
+    return b;
+  }
   VoltageSource(const Circuit& c, int element, int branch) : Device(element), k_(branch) {
     const Element& e = c.elements[static_cast<size_t>(element)];
     p_ = UnknownOfNode(e.node_a);
@@ -127,6 +155,15 @@ class VoltageSource final : public Device {
 // `value` amperes flow through the source from a to b: out of node a, into node b.
 class CurrentSource final : public Device {
  public:
+  static std::optional<std::string> NonMonotone(const Circuit&, const Element& e) {
+    if (!std::isfinite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
+    return std::nullopt;
+  }
+  static BoundShare Bound(const Circuit&, const Element& e) {
+    BoundShare b;
+    b.amps = std::fabs(e.value);
+    return b;
+  }
   CurrentSource(const Circuit& c, int element) : Device(element) {
     const Element& e = c.elements[static_cast<size_t>(element)];
     a_ = UnknownOfNode(e.node_a);

@@ -14,13 +14,12 @@
 #include <utility>
 #include <vector>
 
+#include "device_kinds.h"
 #include "disjoint_set.h"
 #include "knee/diode_law.h"
 
 namespace knee::internal {
 namespace {
-
-bool Finite(double v) { return std::isfinite(v); }
 
 using Groups = DisjointSet;
 
@@ -257,38 +256,7 @@ std::string DescribeCut(const Circuit& c, ReducedNetwork& net, const std::vector
 
 std::optional<std::string> NonMonotoneReason(const Circuit& c) {
   for (const Element& e : c.elements) {
-    switch (e.kind) {
-      case ElementKind::kResistor:
-        if (!(Finite(e.value) && e.value > 0.0)) {
-          return fmt::format("resistor '{}' has {:g} Ohm, not a finite value > 0", e.name, e.value);
-        }
-        break;
-      case ElementKind::kVoltageSource:
-      case ElementKind::kCurrentSource:
-        if (!Finite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
-        break;
-      case ElementKind::kDiode: {
-        if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) {
-          return fmt::format("diode '{}' has no part", e.name);
-        }
-        const DiodeConstants d = ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model,
-                                                       e.area, c.DeviceTemp(e));
-        // area*Is(T) may be below the smallest double (a cold junction): its logarithm
-        // decides, since the law is evaluated from it.
-        const bool forward_ok = Finite(d.is) && Finite(d.log_is) && Finite(d.n_vt) && d.n_vt > 0.0;
-        const bool series_ok = Finite(d.rs) && d.rs >= 0.0;
-        const bool breakdown_ok =
-            !d.has_breakdown ||
-            (Finite(d.ibr) && d.ibr > 0.0 && Finite(d.nbr_vt) && d.nbr_vt > 0.0 && Finite(d.vbr));
-        if (!(forward_ok && series_ok && breakdown_ok)) {
-          return fmt::format(
-              "diode '{}' has a law that is not strictly increasing at {:g} C (Is {:g} A, "
-              "n*Vt {:g} V, series {:g} Ohm)",
-              e.name, c.DeviceTemp(e), d.is, d.n_vt, d.rs);
-        }
-        break;
-      }
-    }
+    if (auto problem = NonMonotoneElement(c, e)) return problem;
   }
   return std::nullopt;
 }

@@ -9,6 +9,7 @@
 #include <cmath>
 #include <limits>
 
+#include "device_kinds.h"
 #include "knee/diode_law.h"
 
 namespace knee::internal {
@@ -22,14 +23,7 @@ bool AllFinite(std::span<const double> v) {
 
 double StiffJunctionConductance(const Circuit& c, double factor) {
   double largest = 0.0;
-  for (const Element& e : c.elements) {
-    if (e.kind == ElementKind::kResistor && e.value > 0.0) {
-      largest = std::max(largest, 1.0 / e.value);
-    } else if (e.kind == ElementKind::kDiode && e.part >= 0) {
-      const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
-      if (rs > 0.0) largest = std::max(largest, 1.0 / rs);
-    }
-  }
+  for (const Element& e : c.elements) largest = std::max(largest, OwnConductance(c, e));
   return factor * (largest > 0.0 && std::isfinite(largest) ? largest : 1.0);
 }
 

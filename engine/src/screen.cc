@@ -6,6 +6,7 @@
 
 #include "bias_impl.h"
 #include "check.h"
+#include "device_kinds.h"
 #include "knee/diode_law.h"
 
 namespace knee {
@@ -20,13 +21,7 @@ namespace knee {
 // source); the clamp uses it with a wide margin.
 double internal::JunctionSpan(const Circuit& c, double exponents) {
   double span = 0.0;
-  for (const Element& e : c.elements) {
-    if (e.kind != ElementKind::kDiode) continue;
-    const DiodeConstants d =
-        ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
-    span += std::max(exponents, kLogDoubleMax - d.log_is) * d.n_vt;
-    if (d.has_breakdown) span += std::fabs(d.vbr) + exponents * d.nbr_vt;
-  }
+  for (const Element& e : c.elements) internal::AddVoltageSpan(c, e, exponents, &span);
   return std::isfinite(span) ? span : 0.0;
 }
 
@@ -46,12 +41,10 @@ void BiasSolver::Impl::Classify() {
 void BiasSolver::Impl::SetVoltageBound() {
   double volts = 0.0, amps = 0.0, ohms = 0.0;
   for (const Element& e : circuit->elements) {
-    if (e.kind == ElementKind::kVoltageSource) volts += std::fabs(e.value);
-    if (e.kind == ElementKind::kCurrentSource) amps += std::fabs(e.value);
-    if (e.kind == ElementKind::kResistor) ohms += std::fabs(e.value);
-    if (e.kind == ElementKind::kDiode) {
-      ohms += circuit->parts[static_cast<size_t>(e.part)].model.series_res / e.area;
-    }
+    const auto share = internal::BoundShareOf(*circuit, e);
+    volts += share.volts;
+    amps += share.amps;
+    ohms += share.ohms;
   }
   const double bound =
       tuning.bound.margin * (volts + amps * ohms + junction_span) + tuning.bound.floor;
