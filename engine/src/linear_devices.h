@@ -15,6 +15,12 @@
 
 namespace knee::internal::device {
 
+// A source's law is monotone for any finite value.
+inline std::optional<std::string> NonFiniteSource(const Element& e) {
+  if (!std::isfinite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
+  return std::nullopt;
+}
+
 class Resistor final : public Device {
  public:
   // A resistor's law is strictly increasing for a finite value > 0.
@@ -77,8 +83,7 @@ class Resistor final : public Device {
 class VoltageSource final : public Device {
  public:
   static std::optional<std::string> NonMonotone(const Circuit&, const Element& e) {
-    if (!std::isfinite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
-    return std::nullopt;
+    return NonFiniteSource(e);
   }
   static BoundShare Bound(const Circuit&, const Element& e) {
     BoundShare b;
@@ -156,8 +161,7 @@ class VoltageSource final : public Device {
 class CurrentSource final : public Device {
  public:
   static std::optional<std::string> NonMonotone(const Circuit&, const Element& e) {
-    if (!std::isfinite(e.value)) return fmt::format("source '{}' has no finite value", e.name);
-    return std::nullopt;
+    return NonFiniteSource(e);
   }
   static BoundShare Bound(const Circuit&, const Element& e) {
     BoundShare b;

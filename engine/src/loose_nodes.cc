@@ -173,20 +173,18 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
     }
     tight.abs_current_tol = std::max(std::min(0.1 * scale * tight.abs_current_tol, 0.1 * weakest),
                                      tuning.loose.current_floor);
-    newton.set_options(tight);
-    NewtonOutcome out = Run(AssemblyAids{}, "newton (loose nodes)", s);
-    newton.set_options(options);
+    NewtonOutcome out =
+        newton.Run(AssemblyAids{}, "newton (loose nodes)", x, trace_on ? &trace : nullptr, tight);
+    s->newton_steps += out.steps;
     factors_exact = newton.exact_factors();
     if (out.exit != NewtonExit::kConverged && monotone) {
       x = saved;
       SolverOptions fallback = tight;
       fallback.max_newton_steps = options.max_newton_steps;
-      potential.set_options(fallback);
       potential.set_stiff_conductance(
           internal::StiffJunctionConductance(*circuit, tuning.potential.stiff_factor));
-      out = potential.Run(x, trace_on ? &trace : nullptr);
+      out = potential.Run(x, trace_on ? &trace : nullptr, fallback);
       s->newton_steps += out.steps;
-      potential.set_options(options);
       factors_exact = potential.exact_factors();
     }
     kept = false;

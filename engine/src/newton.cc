@@ -17,6 +17,7 @@ constexpr int kOverflowHalvings = 60;
 NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size)
     : mna_(mna),
       klu_(klu),
+      configured_(options),
       options_(options),
       dx_(static_cast<size_t>(size), 0.0),
       saved_x_(static_cast<size_t>(size), 0.0),
@@ -28,6 +29,13 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& 
 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                                 std::vector<NewtonStepRecord>* trace) {
+  return Run(aids, phase, x, trace, configured_);
+}
+
+NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
+                                std::vector<NewtonStepRecord>* trace,
+                                const SolverOptions& options) {
+  options_ = options;
   aids.limit_junctions = options_.junction_limiting;
   plain_run_ = aids.gmin == 0.0 && aids.source_scale == 1.0;
   NewtonOutcome outcome;

@@ -25,12 +25,15 @@ class NewtonSolver {
   // Appends one record per step to *trace when trace is not null.
   NewtonOutcome Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                     std::vector<NewtonStepRecord>* trace);
+  // The same with `options` for this run alone (the loose-node run's tolerances); the
+  // solver's own options are untouched.
+  NewtonOutcome Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
+                    std::vector<NewtonStepRecord>* trace, const SolverOptions& options);
 
   // After a failed run: unknowns whose last update exceeded its tolerance and diodes
   // whose junction was still being limited.
   std::vector<std::string> Unsettled(std::span<const double> x) const;
 
-  void set_options(const SolverOptions& options) { options_ = options; }
   // Whether the factors the KLU solver holds are those of the exact model's Jacobian
   // (no gmin, full sources, no regularising shunt) at the last point that was factored.
   bool exact_factors() const { return exact_factors_; }
@@ -53,7 +56,8 @@ class NewtonSolver {
 
   MnaSystem* mna_;
   KluSolver* klu_;
-  SolverOptions options_;
+  SolverOptions configured_;  // the solver's own options
+  SolverOptions options_;     // those of the current (or last) run
   std::vector<double> dx_;
   std::vector<double> saved_x_;
   std::vector<double> noise_;                    // J^-1 times the residual's round-off allowance

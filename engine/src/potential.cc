@@ -29,7 +29,12 @@ double StiffJunctionConductance(const Circuit& c, double factor) {
 
 PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
                                  int size, const PotentialTuning& tuning)
-    : mna_(mna), klu_(klu), options_(options), tuning_(tuning), size_(static_cast<size_t>(size)) {}
+    : mna_(mna),
+      klu_(klu),
+      configured_(options),
+      options_(options),
+      tuning_(tuning),
+      size_(static_cast<size_t>(size)) {}
 
 // The working vectors are sized on the first Run, not at construction: a classic solve
 // (the default) never runs this solver, and a million unknowns make them 32 MB.
@@ -256,6 +261,12 @@ ToleranceCheck PotentialSolver::UpdateTest(bool residual_passed, bool feasible,
 }
 
 NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRecord>* trace) {
+  return Run(x, trace, configured_);
+}
+
+NewtonOutcome PotentialSolver::Run(std::span<double> x, std::vector<NewtonStepRecord>* trace,
+                                   const SolverOptions& options) {
+  options_ = options;
   SizeVectors();
   NewtonOutcome outcome;
   RunState state;

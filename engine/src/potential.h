@@ -36,6 +36,9 @@ class PotentialSolver {
   // Minimises the potential from x (updated in place). Appends one record per Newton
   // step to *trace when trace is not null. The exits are those of NewtonExit.
   NewtonOutcome Run(std::span<double> x, std::vector<NewtonStepRecord>* trace);
+  // The same with `options` for this run alone; the solver's own are untouched.
+  NewtonOutcome Run(std::span<double> x, std::vector<NewtonStepRecord>* trace,
+                    const SolverOptions& options);
 
   // After a failed run: unknowns whose last update exceeded its tolerance (only after
   // a Run).
@@ -44,7 +47,6 @@ class PotentialSolver {
   // Line-search evaluations (assembly passes) of the last Run.
   int evaluations() const { return evaluations_; }
 
-  void set_options(const SolverOptions& options) { options_ = options; }
   // Whether the factors the KLU solver holds are those of the exact Hessian (no floor,
   // no shift) at the last point that was factored (as NewtonSolver::exact_factors).
   bool exact_factors() const { return exact_factors_; }
@@ -126,7 +128,8 @@ class PotentialSolver {
 
   MnaSystem* mna_;
   KluSolver* klu_;
-  SolverOptions options_;
+  SolverOptions configured_;  // the solver's own options
+  SolverOptions options_;     // those of the current (or last) run
   PotentialTuning tuning_;    // tuning.h
   size_t size_;               // unknowns
   std::vector<double> dx_;    // Newton direction in the MNA's island coordinates
