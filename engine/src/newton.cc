@@ -47,19 +47,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   bool last_clamped = false;
   for (int step = 1; step <= options_.max_newton_steps; ++step) {
     outcome.steps = step;
-    AssemblyOutcome assembled = mna_->Assemble(x, aids);
-    // The law is exact up to the largest double, so a step can land where a junction's
-    // current is not a double (a forced current into a junction at 0 V asks for 2.6e9 V
-    // when junction limiting is off). Such a step is halved back toward its start: a
-    // damping of Newton's step, not a change of the law, and not a settled step.
-    for (int halving = 0; !assembled.finite && step > 1 && halving < kOverflowHalvings; ++halving) {
-      for (size_t i = 0; i < x.size(); ++i) {
-        dx_[i] *= 0.5;
-        x[i] -= dx_[i];
-      }
-      assembled = mna_->Assemble(x, aids);
-      last_clamped = true;
-    }
+    const AssemblyOutcome assembled = AssembleHalving(x, aids, step > 1, &last_clamped);
     if (!assembled.finite) {
       outcome.exit = NewtonExit::kNonFinite;
       outcome.detail =
@@ -113,6 +101,24 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   outcome.exit = NewtonExit::kStepLimit;
   outcome.detail = StepLimitDetail(*mna_, options_, update);
   return outcome;
+}
+
+// The law is exact up to the largest double, so a step can land where a junction's
+// current is not a double (a forced current into a junction at 0 V asks for 2.6e9 V
+// when junction limiting is off). Such a step is halved back toward its start: a
+// damping of Newton's step, not a change of the law, and not a settled step (*halved).
+AssemblyOutcome NewtonSolver::AssembleHalving(std::span<double> x, const AssemblyAids& aids,
+                                              bool may_halve, bool* halved) {
+  AssemblyOutcome assembled = mna_->Assemble(x, aids);
+  for (int halving = 0; !assembled.finite && may_halve && halving < kOverflowHalvings; ++halving) {
+    for (size_t i = 0; i < x.size(); ++i) {
+      dx_[i] *= 0.5;
+      x[i] -= dx_[i];
+    }
+    assembled = mna_->Assemble(x, aids);
+    *halved = true;
+  }
+  return assembled;
 }
 
 bool NewtonSolver::NoiseFloor() { return RoundingNoise(*mna_, *klu_, noise_); }

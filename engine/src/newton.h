@@ -42,6 +42,8 @@ class NewtonSolver {
   void set_voltage_bound(double bound) { voltage_bound_ = bound; }
 
  private:
+  AssemblyOutcome AssembleHalving(std::span<double> x, const AssemblyAids& aids, bool may_halve,
+                                  bool* halved);
   bool SolveStep(std::span<double> dx, NewtonOutcome* outcome);
   // The converged exit after `steps` steps: the detail text with both tests' worst
   // entries, then the polishing steps.
