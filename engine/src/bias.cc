@@ -70,6 +70,7 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.potential =
       internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size(), m.tuning.potential);
+  m.probe.reset();  // its symbolic analysis is of the old pattern
   m.Resize();
   const auto problem = m.Analyze();
   KNEE_CHECK(!problem);  // the same nodes and elements were analysed at Create()
