@@ -97,7 +97,7 @@ std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
 namespace {
 
 // v = |J^-1 v| in node voltages, with the factors `klu` holds.
-bool AbsoluteResponse(const MnaSystem& mna, KluSolver& klu, std::span<double> v) {
+bool AbsoluteResponse(const MnaSystem& mna, LinearSolver& klu, std::span<double> v) {
   if (klu.Solve(v) != LinearStatus::kOk) return false;
   for (double& n : v) n = std::fabs(n);
   mna.ToNodeSpace(v);
@@ -106,12 +106,12 @@ bool AbsoluteResponse(const MnaSystem& mna, KluSolver& klu, std::span<double> v)
 
 }  // namespace
 
-bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise) {
+bool RoundingNoise(const MnaSystem& mna, LinearSolver& klu, std::span<double> noise) {
   for (int r = 0; r < mna.size(); ++r) noise[static_cast<size_t>(r)] = mna.RoundOffAllowance(r);
   return AbsoluteResponse(mna, klu, noise);
 }
 
-bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& o, KluSolver& klu,
+bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& o, LinearSolver& klu,
                      std::span<double> spread) {
   for (int r = 0; r < mna.size(); ++r) {
     spread[static_cast<size_t>(r)] = r < mna.kcl_rows() ? o.abs_current_tol : 0.0;

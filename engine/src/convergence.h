@@ -10,8 +10,8 @@
 #include <string>
 #include <vector>
 
-#include "klu_solver.h"
 #include "knee/solver.h"
+#include "linear_solver.h"
 #include "mna.h"
 
 namespace knee::internal {
@@ -60,14 +60,14 @@ std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
 // |J^-1 a| in node voltages, a the round-off allowance of every row, with the factors
 // `klu` holds: how far the residual's rounding alone moves a step. False if the solve
 // fails.
-bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise);
+bool RoundingNoise(const MnaSystem& mna, LinearSolver& klu, std::span<double> noise);
 // |J^-1 t| in node voltages, t_r = abs_current_tol on every KCL row: how far currents of
 // the size of the residual's absolute tolerance move a node (bias.cc, LooseNodes). The
 // relative part rel_tol*flow_r is left out: mapped through J^-1 it adds up the tolerances
 // of every amp-level row onto a common mode held by megohms (a bridge floating on 1 MOhm
 // references moved "0.75 V"), although those rows' errors are a balance of large
 // currents, not an uncertainty of 0.4 uA each.
-bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& options, KluSolver& klu,
+bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& options, LinearSolver& klu,
                      std::span<double> spread);
 
 ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& options,

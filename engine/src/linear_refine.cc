@@ -55,7 +55,7 @@ void StepRefiner::SizeBasis(size_t n) {
 }
 
 // z = M^-1 W^-1 u: unweight, then apply the factors.
-bool StepRefiner::Precondition(KluSolver& klu, std::span<const double> tolerance,
+bool StepRefiner::Precondition(LinearSolver& klu, std::span<const double> tolerance,
                                std::span<const double> u) {
   for (size_t i = 0; i < z_.size(); ++i) z_[i] = u[i] * tolerance[i];
   return klu.Solve(z_) == LinearStatus::kOk;
@@ -64,8 +64,8 @@ bool StepRefiner::Precondition(KluSolver& klu, std::span<const double> tolerance
 // One restart's Arnoldi process from v(0) = r / beta, with the Givens rotations that keep
 // the least-squares residual in rhs_; returns the basis size k (0 with *failed when the
 // preconditioner fails).
-size_t StepRefiner::Arnoldi(const MnaSystem& mna, KluSolver& klu, std::span<const double> tolerance,
-                            bool* failed) {
+size_t StepRefiner::Arnoldi(const MnaSystem& mna, LinearSolver& klu,
+                            std::span<const double> tolerance, bool* failed) {
   const size_t n = r_.size();
   const size_t m = kKrylovSize;
   const auto v = [&](size_t j) { return std::span<double>(basis_).subspan(j * n, n); };
@@ -127,7 +127,7 @@ void StepRefiner::Combine(size_t k) {
   }
 }
 
-double StepRefiner::Refine(const MnaSystem& mna, KluSolver& klu, std::span<const double> b,
+double StepRefiner::Refine(const MnaSystem& mna, LinearSolver& klu, std::span<const double> b,
                            std::span<const double> tolerance, std::span<double> d) {
   const size_t n = d.size();
   Size(n);

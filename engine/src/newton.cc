@@ -14,7 +14,8 @@ constexpr int kOverflowHalvings = 60;
 
 }  // namespace
 
-NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size)
+NewtonSolver::NewtonSolver(MnaSystem* mna, LinearSolver* klu, const SolverOptions& options,
+                           int size)
     : mna_(mna),
       klu_(klu),
       configured_(options),

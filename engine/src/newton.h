@@ -9,9 +9,9 @@
 #include <vector>
 
 #include "convergence.h"
-#include "klu_solver.h"
 #include "knee/solver.h"
 #include "linear_refine.h"
+#include "linear_solver.h"
 #include "mna.h"
 #include "polisher.h"
 
@@ -19,7 +19,7 @@ namespace knee::internal {
 
 class NewtonSolver {
  public:
-  NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size);
+  NewtonSolver(MnaSystem* mna, LinearSolver* klu, const SolverOptions& options, int size);
 
   // Runs from x (updated in place) with the given aids; limiting follows the options.
   // Appends one record per step to *trace when trace is not null.
@@ -57,7 +57,7 @@ class NewtonSolver {
   bool Clamp(std::span<double> x) const;
 
   MnaSystem* mna_;
-  KluSolver* klu_;
+  LinearSolver* klu_;
   SolverOptions configured_;  // the solver's own options
   SolverOptions options_;     // those of the current (or last) run
   std::vector<double> dx_;

@@ -37,7 +37,7 @@ void DropFaintPart(std::span<const char> faint, std::span<double> dx) {
 }
 
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x, double* previous, KluSolver& klu,
+                   std::span<const double> x, double* previous, LinearSolver& klu,
                    std::span<double> noise, const PolishTuning& t) {
   const ToleranceCheck worst = CheckUpdate(mna, options, dx, x, {}, /*exempt_loose=*/false);
   const double ratio = worst.ratio();

@@ -24,7 +24,7 @@ inline bool PolishGoesOn(int k, double last_ratio, const PolishTuning& t) {
 // shrink at) below PolishTuning::relative of itself or below its rounding noise (RoundingNoise,
 // solved with `klu`'s factors into `noise`).
 bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x, double* previous, KluSolver& klu,
+                   std::span<const double> x, double* previous, LinearSolver& klu,
                    std::span<double> noise, const PolishTuning& t);
 // faint[u] = 1 for every KCL row u whose currents in the last assembly are all below
 // abs_current_tol (a faint node), else 0; whether there is any.
@@ -50,9 +50,10 @@ class Polisher {
   explicit Polisher(size_t size = 0, const PolishTuning& tuning = {})
       : tuning_(tuning), faint_(size, 0) {}
   template <typename Solve, typename Apply>
-  void Run(const MnaSystem& mna, const SolverOptions& options, KluSolver& klu, std::span<double> x,
-           std::span<double> base, std::span<double> dx, std::span<double> noise, double last_ratio,
-           bool may_mask, Solve&& solve, Apply&& apply) {
+  void Run(const MnaSystem& mna, const SolverOptions& options, LinearSolver& klu,
+           std::span<double> x, std::span<double> base, std::span<double> dx,
+           std::span<double> noise, double last_ratio, bool may_mask, Solve&& solve,
+           Apply&& apply) {
     faint_.resize(x.size());
     double merit = ResidualMerit(mna, options);
     const auto kept = [&] {

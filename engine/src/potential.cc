@@ -27,7 +27,7 @@ double StiffJunctionConductance(const Circuit& c, double factor) {
   return factor * (largest > 0.0 && std::isfinite(largest) ? largest : 1.0);
 }
 
-PotentialSolver::PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options,
+PotentialSolver::PotentialSolver(MnaSystem* mna, LinearSolver* klu, const SolverOptions& options,
                                  int size, const PotentialTuning& tuning)
     : mna_(mna),
       klu_(klu),

@@ -13,9 +13,9 @@
 #include <vector>
 
 #include "convergence.h"
-#include "klu_solver.h"
 #include "knee/circuit.h"
 #include "knee/solver.h"
+#include "linear_solver.h"
 #include "mna.h"
 #include "network_class.h"
 #include "polisher.h"
@@ -30,7 +30,7 @@ double StiffJunctionConductance(const Circuit& circuit, double factor);
 
 class PotentialSolver {
  public:
-  PotentialSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size,
+  PotentialSolver(MnaSystem* mna, LinearSolver* klu, const SolverOptions& options, int size,
                   const PotentialTuning& tuning = {});
 
   // Minimises the potential from x (updated in place). Appends one record per Newton
@@ -127,7 +127,7 @@ class PotentialSolver {
   void SizeVectors();
 
   MnaSystem* mna_;
-  KluSolver* klu_;
+  LinearSolver* klu_;
   SolverOptions configured_;  // the solver's own options
   SolverOptions options_;     // those of the current (or last) run
   PotentialTuning tuning_;    // tuning.h
