@@ -27,7 +27,7 @@ ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o, std::sp
     const auto i = static_cast<size_t>(u);
     // A faint node (every current at it below abs_current_tol) is not determined by the
     // tolerance: its KCL holds across the whole range it may still move in. Its voltage
-    // is settled afterwards with a tolerance scaled to its own currents (bias.cc,
+    // is settled afterwards with a tolerance scaled to its own currents (loose_nodes.cc,
     // ResolveFaintNodes), or reported as faint.
     if (exempt_loose && !mna.IsCurrentUnknown(u) && flow[i] < o.abs_current_tol) continue;
     const double abs_tol = mna.IsCurrentUnknown(u) ? o.abs_current_tol : o.abs_voltage_tol;

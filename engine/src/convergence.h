@@ -62,7 +62,7 @@ std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
 // fails.
 bool RoundingNoise(const MnaSystem& mna, LinearSolver& klu, std::span<double> noise);
 // |J^-1 t| in node voltages, t_r = abs_current_tol on every KCL row: how far currents of
-// the size of the residual's absolute tolerance move a node (bias.cc, LooseNodes). The
+// the size of the residual's absolute tolerance move a node (loose_nodes.cc, LooseNodes). The
 // relative part rel_tol*flow_r is left out: mapped through J^-1 it adds up the tolerances
 // of every amp-level row onto a common mode held by megohms (a bridge floating on 1 MOhm
 // references moved "0.75 V"), although those rows' errors are a balance of large

@@ -168,7 +168,7 @@ class Diode final : public Device {
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
-    // such a point is never accepted as a solution (newton.cc, bias.cc Verify).
+    // such a point is never accepted as a solution (newton.cc, post_solve.cc Verify).
     if (ctx.unresolved_element < 0 &&
         kJunctionRounding * (std::fabs(va) + std::fabs(vb)) > 1e-3 * basis.resolution_scale) {
       ctx.unresolved_element = element();

@@ -350,7 +350,7 @@ void PotentialSolver::Record(int step, double max_residual, const RunState& stat
   trace->push_back(std::move(record));
 }
 
-// noise_ = |J^-1 a| with the factorisation of the last Newton direction (newton.h).
+// noise_ = |J^-1 a| with the factorisation of the last Newton direction (convergence.h).
 bool PotentialSolver::NoiseFloor() { return RoundingNoise(*mna_, *klu_, noise_); }
 
 // step_ = the direction dx_ (island coordinates) as node voltages and source currents.

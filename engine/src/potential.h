@@ -55,7 +55,7 @@ class PotentialSolver {
   // junctions (see FeasibilityStep).
   void set_stiff_conductance(double g) { stiff_ = g; }
   // Trial points with a node voltage beyond this bound (one that contains every
-  // solution, see bias.cc SetVoltageBound) are refused by the line search.
+  // solution, see screen.cc SetVoltageBound) are refused by the line search.
   void set_voltage_bound(double bound) { voltage_bound_ = bound; }
 
  private:
