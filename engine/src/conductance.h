@@ -166,6 +166,10 @@ class Device {
   static void AddVoltageSpan(const Circuit&, const Element&, double, double*) {}
   // The largest conductance of the element's own resistance (S), 0 if it has none.
   static double OwnConductance(const Circuit&, const Element&) { return 0.0; }
+  // Whether the element can carry any current at all at a given voltage across it (a
+  // voltage source, a junction without series resistance): the island roots prefer the
+  // nodes of such elements (mna.cc, FindIslands).
+  static bool CarriesAnyCurrent(const Circuit&, const Element&) { return false; }
 
  private:
   int element_;

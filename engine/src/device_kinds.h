@@ -43,6 +43,11 @@ inline void AddVoltageSpan(const Circuit& c, const Element& e, double exponents,
                   [&](auto t) { decltype(t)::type::AddVoltageSpan(c, e, exponents, span); });
 }
 
+inline bool CarriesAnyCurrent(const Circuit& c, const Element& e) {
+  return WithDeviceClass(e.kind,
+                         [&](auto t) { return decltype(t)::type::CarriesAnyCurrent(c, e); });
+}
+
 inline double OwnConductance(const Circuit& c, const Element& e) {
   return WithDeviceClass(e.kind, [&](auto t) { return decltype(t)::type::OwnConductance(c, e); });
 }

@@ -140,9 +140,15 @@ class Diode final : public Device {
     if (d.has_breakdown) *span += std::fabs(d.vbr) + exponents * d.nbr_vt;
   }
   static double OwnConductance(const Circuit& c, const Element& e) {
-    if (e.part < 0) return 0.0;
+    if (!HasPart(c, e)) return 0.0;
     const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
     return rs > 0.0 ? 1.0 / rs : 0.0;
+  }
+  static bool CarriesAnyCurrent(const Circuit& c, const Element& e) {
+    return HasPart(c, e) && !(c.parts[static_cast<size_t>(e.part)].model.series_res / e.area > 0.0);
+  }
+  static bool HasPart(const Circuit& c, const Element& e) {
+    return e.part >= 0 && e.part < static_cast<int>(c.parts.size());
   }
   Diode(const Circuit& c, int element, int basis)
       : Device(element),

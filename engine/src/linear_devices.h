@@ -90,6 +90,7 @@ class VoltageSource final : public Device {
     b.volts = std::fabs(e.value);
     return b;
   }
+  static bool CarriesAnyCurrent(const Circuit&, const Element&) { return true; }
   VoltageSource(const Circuit& c, int element, int branch) : Device(element), k_(branch) {
     const Element& e = c.elements[static_cast<size_t>(element)];
     p_ = UnknownOfNode(e.node_a);

@@ -6,6 +6,7 @@
 #include <cmath>
 
 #include "check.h"
+#include "device_kinds.h"
 #include "disjoint_set.h"
 
 namespace knee::internal {
@@ -37,18 +38,8 @@ IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
   // root beside a kA member would have its own KCL only to the kA member's rounding.
   std::vector<double> unbounded(c.nodes.size(), 0.0), conductance(c.nodes.size(), 0.0);
   for (const Element& e : c.elements) {
-    double g = 0.0;
-    bool any_current = false;
-    if (e.kind == ElementKind::kResistor) {
-      g = e.value > 0.0 ? 1.0 / e.value : 0.0;
-    } else if (e.kind == ElementKind::kVoltageSource) {
-      any_current = true;
-    } else if (e.kind == ElementKind::kDiode && e.part >= 0 &&
-               e.part < static_cast<int>(c.parts.size())) {
-      const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
-      any_current = !(rs > 0.0);
-      g = any_current ? 0.0 : 1.0 / rs;
-    }
+    const double g = OwnConductance(c, e);
+    const bool any_current = CarriesAnyCurrent(c, e);
     for (int n : {e.node_a, e.node_b}) {
       unbounded[static_cast<size_t>(n)] += any_current ? 1.0 : 0.0;
       if (std::isfinite(g)) conductance[static_cast<size_t>(n)] += g;
