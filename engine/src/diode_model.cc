@@ -122,6 +122,38 @@ double LogJunctionCurrent(const DiodeConstants& d, double vj) {
   return log_term;
 }
 
+namespace {
+
+// The voltage at which the forward (f > 0) or breakdown (f < 0) term carries |v|/rs.
+double Carried(const DiodeConstants& d, double v, double f) {
+  const double log_i = std::log(std::fabs(v) / d.rs);
+  if (f > 0.0) return d.n_vt * (log_i - d.log_is);
+  return d.has_breakdown ? -d.vbr - d.nbr_vt * (log_i - d.log_ibr) : v;
+}
+
+// The interval known to hold the root of h; infinite on a side no finite point bounds.
+struct RootBracket {
+  double lo = -HUGE_VAL, hi = HUGE_VAL;
+  bool Inside(double p) const { return p > lo && p < hi; }
+  double Middle() const {
+    if (std::isfinite(lo) && std::isfinite(hi)) return 0.5 * (lo + hi);
+    return std::isfinite(hi) ? hi - (1.0 + std::fabs(hi)) : lo + (1.0 + std::fabs(lo));
+  }
+  // Narrowed by the point x where h = f (f != 0): the root lies below x for f > 0, and
+  // on the far side of x - f.
+  void Narrow(double x, double f) {
+    if (f > 0.0) {
+      hi = std::min(hi, x);
+      if (std::isfinite(f) && !std::isfinite(lo)) lo = x - f;
+    } else {
+      lo = std::max(lo, x);
+      if (std::isfinite(f) && !std::isfinite(hi)) hi = x - f;
+    }
+  }
+};
+
+}  // namespace
+
 // The junction voltage of a diode with series resistance at terminal voltage v: the
 // root of h(vj) = vj + rs*I(vj) - v. h rises with slope 1 + rs*g >= 1, so from any point
 // p the point p - h(p) lies on the other side of the root: a bracket from one
@@ -142,12 +174,7 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
     if (at != nullptr) *at = EvaluateJunction(d, v);
     return v;
   }
-  // The voltage at which the forward (f > 0) or breakdown (f < 0) term carries |v|/rs.
-  const auto carried = [&](double f) {
-    const double log_i = std::log(std::fabs(v) / d.rs);
-    if (f > 0.0) return d.n_vt * (log_i - d.log_is);
-    return d.has_breakdown ? -d.vbr - d.nbr_vt * (log_i - d.log_ibr) : v;
-  };
+  const auto carried = [&](double f) { return Carried(d, v, f); };
   double slope = 1.0;
   const bool near = std::isfinite(guess) && std::fabs(guess) <= 2.0 * std::fabs(v) + 1.0;
   double x = near ? guess : v;
@@ -162,16 +189,11 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
   }
   // The root lies on the far side of p - h(p) from p; where h(p) is infinite, only on
   // one side of p, until a finite point gives the other end.
-  double lo = -HUGE_VAL, hi = HUGE_VAL;
+  RootBracket b;
   if (std::isfinite(f)) {
-    lo = f > 0.0 ? x - f : x;
-    hi = f > 0.0 ? x : x - f;
+    b.lo = f > 0.0 ? x - f : x;
+    b.hi = f > 0.0 ? x : x - f;
   }
-  const auto inside = [&](double p) { return p > lo && p < hi; };
-  const auto middle = [&] {
-    if (std::isfinite(lo) && std::isfinite(hi)) return 0.5 * (lo + hi);
-    return std::isfinite(hi) ? hi - (1.0 + std::fabs(hi)) : lo + (1.0 + std::fabs(lo));
-  };
   const double resolution = 4.0 * std::numeric_limits<double>::epsilon();
   // From far up the exponential Newton's step is about n*Vt whatever the distance to the
   // root; a Newton step longer than half the one before is not converging fast, and the
@@ -179,13 +201,7 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
   // al., Numerical Recipes, ch. 9.4, recalled from memory).
   double last_change = HUGE_VAL;
   for (int k = 0; k < kJunctionSolveIterations && f != 0.0; ++k) {
-    if (f > 0.0) {
-      hi = std::min(hi, x);
-      if (std::isfinite(f) && !std::isfinite(lo)) lo = x - f;
-    } else {
-      lo = std::max(lo, x);
-      if (std::isfinite(f) && !std::isfinite(hi)) hi = x - f;
-    }
+    b.Narrow(x, f);
     double next = 0.0;
     if (std::isfinite(f) && std::isfinite(slope)) {
       const double newton = f / slope;
@@ -195,12 +211,12 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
       if (std::fabs(newton) <= scale && std::fabs(f) <= scale) break;
       next = x - newton;
       if (std::fabs(newton) > 0.5 * last_change) {
-        next = inside(carried(f)) ? carried(f) : middle();
+        next = b.Inside(carried(f)) ? carried(f) : b.Middle();
       }
     } else {
       next = carried(f);
     }
-    if (!(next >= lo && next <= hi)) next = middle();
+    if (!(next >= b.lo && next <= b.hi)) next = b.Middle();
     const double change = std::fabs(next - x);
     last_change = change;
     x = next;

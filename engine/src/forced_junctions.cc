@@ -9,6 +9,7 @@
 #include <queue>
 #include <utility>
 
+#include "disjoint_set.h"
 #include "knee/diode_law.h"
 
 namespace knee::internal {
@@ -53,19 +54,12 @@ std::vector<ForcedJunction> FindForcedJunctions(const Circuit& c) {
   std::vector<ForcedJunction> forced;
   const size_t nodes = c.nodes.size();
   // Union-find over the voltage sources: nodes whose difference the sources fix.
-  std::vector<int> parent(nodes);
-  std::iota(parent.begin(), parent.end(), 0);
-  const auto find = [&](int n) {
-    while (parent[static_cast<size_t>(n)] != n) {
-      n = parent[static_cast<size_t>(n)] =
-          parent[static_cast<size_t>(parent[static_cast<size_t>(n)])];
-    }
-    return n;
-  };
+  DisjointSet sets(nodes);
+  const auto find = [&](int n) { return sets.Find(n); };
   bool any_source = false;
   for (const Element& e : c.elements) {
     if (e.kind != ElementKind::kVoltageSource) continue;
-    parent[static_cast<size_t>(find(e.node_a))] = find(e.node_b);
+    sets.Join(e.node_a, e.node_b);
     any_source = true;
   }
   if (!any_source) return forced;
@@ -155,6 +149,34 @@ bool ResistanceFree(const Circuit& c, const Element& e) {
   return !(c.parts[static_cast<size_t>(e.part)].model.series_res / e.area > 0.0);
 }
 
+// The edges above `last` on the stack form one block (biconnected component); every
+// junction of a block that holds a voltage source is on a loop with the block's others.
+void CloseBlock(const Circuit& c, int last, std::vector<int>& edge_stack,
+                std::vector<LoopJunction>& loops) {
+  std::vector<int> block;
+  while (!edge_stack.empty()) {
+    const int k = edge_stack.back();
+    edge_stack.pop_back();
+    block.push_back(k);
+    if (k == last) break;
+  }
+  if (block.size() < 2) return;  // a bridge: on no cycle
+  const bool has_source = std::any_of(block.begin(), block.end(), [&](int k) {
+    return c.elements[static_cast<size_t>(k)].kind == ElementKind::kVoltageSource;
+  });
+  if (!has_source) return;  // junctions alone drive nothing
+  for (int k : block) {
+    if (c.elements[static_cast<size_t>(k)].kind != ElementKind::kDiode) continue;
+    LoopJunction l;
+    l.diode = k;
+    for (int j : block) {
+      if (j != k) l.others.push_back(j);
+    }
+    std::sort(l.others.begin(), l.others.end());
+    loops.push_back(std::move(l));
+  }
+}
+
 }  // namespace
 
 std::vector<LoopJunction> LoopJunctions(const Circuit& c) {
@@ -182,30 +204,7 @@ std::vector<LoopJunction> LoopJunctions(const Circuit& c) {
   };
   std::vector<Frame> stack;
   int counter = 0;
-  const auto close_block = [&](int last) {
-    std::vector<int> block;
-    while (!edge_stack.empty()) {
-      const int k = edge_stack.back();
-      edge_stack.pop_back();
-      block.push_back(k);
-      if (k == last) break;
-    }
-    if (block.size() < 2) return;  // a bridge: on no cycle
-    const bool has_source = std::any_of(block.begin(), block.end(), [&](int k) {
-      return c.elements[static_cast<size_t>(k)].kind == ElementKind::kVoltageSource;
-    });
-    if (!has_source) return;  // junctions alone drive nothing
-    for (int k : block) {
-      if (c.elements[static_cast<size_t>(k)].kind != ElementKind::kDiode) continue;
-      LoopJunction l;
-      l.diode = k;
-      for (int j : block) {
-        if (j != k) l.others.push_back(j);
-      }
-      std::sort(l.others.begin(), l.others.end());
-      loops.push_back(std::move(l));
-    }
-  };
+  const auto close_block = [&](int last) { CloseBlock(c, last, edge_stack, loops); };
   for (size_t root = 0; root < nodes; ++root) {
     if (order[root] >= 0 || edges[root].empty()) continue;
     stack.push_back({static_cast<int>(root), -1, 0});

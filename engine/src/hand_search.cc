@@ -171,24 +171,13 @@ const char* ToString(HandStatus status) {
   return "?";
 }
 
-bool SolveStateSet(const Circuit& circuit, const HandModel& model,
-                   const std::vector<DiodeState>& states, Solution* out) {
-  KNEE_CHECK(states.size() == circuit.elements.size());
-  KNEE_CHECK(model.lines.size() == circuit.elements.size());
-  const int nodes = static_cast<int>(circuit.nodes.size()) - 1;  // gnd is not an unknown
-  // Branch-current unknowns: voltage sources, and diodes that conduct (a line
-  // V = e + r*I in series, current from node_a to node_b).
-  std::vector<int> branch(circuit.elements.size(), -1);
-  int unknowns = nodes;
-  for (size_t e = 0; e < circuit.elements.size(); ++e) {
-    const Element& el = circuit.elements[e];
-    if (el.kind == ElementKind::kVoltageSource ||
-        (el.kind == ElementKind::kDiode && states[e] != DiodeState::kOff)) {
-      branch[e] = unknowns++;
-    }
-  }
-  std::vector<Eigen::Triplet<double>> entries;                // duplicates are summed
-  std::vector<double> x(static_cast<size_t>(unknowns), 0.0);  // the right side, then the solution
+namespace {
+
+// The hand model's equations for one set of diode states: one row per node (KCL) and per
+// branch current (voltage sources, conducting diodes as a line V = e + r*I).
+void StampStateSet(const Circuit& circuit, const HandModel& model,
+                   const std::vector<DiodeState>& states, const std::vector<int>& branch,
+                   std::vector<Eigen::Triplet<double>>& entries, std::vector<double>& x) {
   auto add = [&entries](int r, int c, double v) { entries.emplace_back(r, c, v); };
   auto row = [](int node) { return node - 1; };  // -1 for gnd: no equation
   for (size_t e = 0; e < circuit.elements.size(); ++e) {
@@ -235,30 +224,41 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
       }
     }
   }
-  if (unknowns > 0) {
-    // Every diagonal entry present (zero where nothing stamps it), so that a structurally
-    // empty row shows as a zero pivot rather than an invalid pattern.
-    for (int i = 0; i < unknowns; ++i) add(i, i, 0.0);
-    Eigen::SparseMatrix<double, Eigen::ColMajor, int> a(unknowns, unknowns);
-    a.setFromTriplets(entries.begin(), entries.end());
-    a.makeCompressed();
-    internal::KluSolver lu;
-    const auto n_cols = static_cast<size_t>(unknowns);
-    const auto nnz = static_cast<size_t>(a.nonZeros());
-    if (lu.Analyze(unknowns, {a.outerIndexPtr(), n_cols + 1}, {a.innerIndexPtr(), nnz}) !=
-            internal::LinearStatus::kOk ||
-        lu.Factor({a.valuePtr(), nnz}) != internal::LinearStatus::kOk) {
-      return false;
-    }
-    // The rank test of a full-pivoting LU: a pivot below n * epsilon of the largest
-    // means the set leaves the circuit undetermined.
-    if (!(lu.rcond() > std::numeric_limits<double>::epsilon() * unknowns)) return false;
-    if (lu.Solve(x) != internal::LinearStatus::kOk) return false;
-    for (double v : x) {
-      if (!std::isfinite(v)) return false;
-    }
-  }
+}
 
+// x = A^-1 x for the collected entries; false where the set leaves the circuit
+// undetermined or the solve fails.
+bool SolveEntries(int unknowns, std::vector<Eigen::Triplet<double>>& entries,
+                  std::vector<double>& x) {
+  auto add = [&entries](int r, int c, double v) { entries.emplace_back(r, c, v); };
+  // Every diagonal entry present (zero where nothing stamps it), so that a structurally
+  // empty row shows as a zero pivot rather than an invalid pattern.
+  for (int i = 0; i < unknowns; ++i) add(i, i, 0.0);
+  Eigen::SparseMatrix<double, Eigen::ColMajor, int> a(unknowns, unknowns);
+  a.setFromTriplets(entries.begin(), entries.end());
+  a.makeCompressed();
+  internal::KluSolver lu;
+  const auto n_cols = static_cast<size_t>(unknowns);
+  const auto nnz = static_cast<size_t>(a.nonZeros());
+  if (lu.Analyze(unknowns, {a.outerIndexPtr(), n_cols + 1}, {a.innerIndexPtr(), nnz}) !=
+          internal::LinearStatus::kOk ||
+      lu.Factor({a.valuePtr(), nnz}) != internal::LinearStatus::kOk) {
+    return false;
+  }
+  // The rank test of a full-pivoting LU: a pivot below n * epsilon of the largest
+  // means the set leaves the circuit undetermined.
+  if (!(lu.rcond() > std::numeric_limits<double>::epsilon() * unknowns)) return false;
+  if (lu.Solve(x) != internal::LinearStatus::kOk) return false;
+  for (double v : x) {
+    if (!std::isfinite(v)) return false;
+  }
+  return true;
+}
+
+// The solution of the set's equations x as node voltages and element currents.
+void FillStateSet(const Circuit& circuit, const HandModel& model,
+                  const std::vector<DiodeState>& states, const std::vector<int>& branch,
+                  const std::vector<double>& x, int nodes, Solution* out) {
   const double nan = std::numeric_limits<double>::quiet_NaN();
   Solution& s = *out;
   s.node_voltage.assign(circuit.nodes.size(), 0.0);
@@ -293,51 +293,66 @@ bool SolveStateSet(const Circuit& circuit, const HandModel& model,
         break;
     }
   }
+}
+
+}  // namespace
+
+bool SolveStateSet(const Circuit& circuit, const HandModel& model,
+                   const std::vector<DiodeState>& states, Solution* out) {
+  KNEE_CHECK(states.size() == circuit.elements.size());
+  KNEE_CHECK(model.lines.size() == circuit.elements.size());
+  const int nodes = static_cast<int>(circuit.nodes.size()) - 1;  // gnd is not an unknown
+  // Branch-current unknowns: voltage sources, and diodes that conduct (a line
+  // V = e + r*I in series, current from node_a to node_b).
+  std::vector<int> branch(circuit.elements.size(), -1);
+  int unknowns = nodes;
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    const Element& el = circuit.elements[e];
+    if (el.kind == ElementKind::kVoltageSource ||
+        (el.kind == ElementKind::kDiode && states[e] != DiodeState::kOff)) {
+      branch[e] = unknowns++;
+    }
+  }
+  std::vector<Eigen::Triplet<double>> entries;                // duplicates are summed
+  std::vector<double> x(static_cast<size_t>(unknowns), 0.0);  // the right side, then the solution
+  StampStateSet(circuit, model, states, branch, entries, x);
+  if (unknowns > 0 && !SolveEntries(unknowns, entries, x)) return false;
+  FillStateSet(circuit, model, states, branch, x, nodes, out);
   return true;
 }
 
-HandResult SolveHand(const Circuit& circuit, const HandModel& model,
-                     const HandSearchOptions& options) {
-  HandResult result;
-  Collector collector(circuit, options, &result);
-  std::vector<int> diodes;
-  long long total = 1;
-  bool too_many = false;
-  for (size_t e = 0; e < circuit.elements.size(); ++e) {
-    if (circuit.elements[e].kind != ElementKind::kDiode) continue;
-    diodes.push_back(static_cast<int>(e));
-    total *= model.lines[e].has_breakdown ? 3 : 2;
-    if (total > options.max_enumerated_sets) too_many = true;
-    if (too_many) total = options.max_enumerated_sets + 1;  // no overflow
-  }
-  // The cost of one set, in the units of options.max_work.
-  const auto size = static_cast<long long>(circuit.nodes.size() + circuit.elements.size());
-  if (!too_many && total > options.max_work / std::max(size, 1LL)) too_many = true;
+namespace {
+
+// Every set of diode states, for a circuit with few enough of them.
+void EnumerateSets(const Circuit& circuit, const HandModel& model, const HandSearchOptions& options,
+                   const std::vector<int>& diodes, long long total, Collector& collector,
+                   HandResult& result) {
   std::vector<DiodeState> states(circuit.elements.size(), DiodeState::kOff);
   Solution solution;
-
-  if (!too_many) {
-    // Every set, counted in mixed radix: digit 0 off, 1 on, 2 breakdown.
-    for (long long code = 0; code < total; ++code) {
-      long long rest = code;
-      for (int e : diodes) {
-        const long long radix = model.lines[static_cast<size_t>(e)].has_breakdown ? 3 : 2;
-        states[static_cast<size_t>(e)] = static_cast<DiodeState>(rest % radix);
-        rest /= radix;
-      }
-      ++result.sets_tried;
-      if (!SolveStateSet(circuit, model, states, &solution)) {
-        ++result.singular_sets;
-        continue;
-      }
-      if (Check(circuit, model, states, solution, options, nullptr).diode < 0) {
-        collector.Add(states, solution);
-      }
+  // Every set, counted in mixed radix: digit 0 off, 1 on, 2 breakdown.
+  for (long long code = 0; code < total; ++code) {
+    long long rest = code;
+    for (int e : diodes) {
+      const long long radix = model.lines[static_cast<size_t>(e)].has_breakdown ? 3 : 2;
+      states[static_cast<size_t>(e)] = static_cast<DiodeState>(rest % radix);
+      rest /= radix;
     }
-    collector.Finish(true);
-    return result;
+    ++result.sets_tried;
+    if (!SolveStateSet(circuit, model, states, &solution)) {
+      ++result.singular_sets;
+      continue;
+    }
+    if (Check(circuit, model, states, solution, options, nullptr).diode < 0) {
+      collector.Add(states, solution);
+    }
   }
+}
 
+void SearchSets(const Circuit& circuit, const HandModel& model, const HandSearchOptions& options,
+                const std::vector<int>& diodes, long long size, Collector& collector,
+                HandResult& result) {
+  std::vector<DiodeState> states(circuit.elements.size(), DiodeState::kOff);
+  Solution solution;
   // Bounded iterative search: start from the given states, move every violating diode
   // to the state its violation points to; on a repeat move only the worst one; on a
   // singular set flip single diodes not yet visited. Never revisits a set.
@@ -388,6 +403,33 @@ HandResult SolveHand(const Circuit& circuit, const HandModel& model,
     }
     states = next;
   }
+}
+
+}  // namespace
+
+HandResult SolveHand(const Circuit& circuit, const HandModel& model,
+                     const HandSearchOptions& options) {
+  HandResult result;
+  Collector collector(circuit, options, &result);
+  std::vector<int> diodes;
+  long long total = 1;
+  bool too_many = false;
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    if (circuit.elements[e].kind != ElementKind::kDiode) continue;
+    diodes.push_back(static_cast<int>(e));
+    total *= model.lines[e].has_breakdown ? 3 : 2;
+    if (total > options.max_enumerated_sets) too_many = true;
+    if (too_many) total = options.max_enumerated_sets + 1;  // no overflow
+  }
+  // The cost of one set, in the units of options.max_work.
+  const auto size = static_cast<long long>(circuit.nodes.size() + circuit.elements.size());
+  if (!too_many && total > options.max_work / std::max(size, 1LL)) too_many = true;
+  if (!too_many) {
+    EnumerateSets(circuit, model, options, diodes, total, collector, result);
+    collector.Finish(true);
+    return result;
+  }
+  SearchSets(circuit, model, options, diodes, size, collector, result);
   collector.Finish(false);
   return result;
 }

@@ -7,31 +7,30 @@
 #include <string>
 #include <vector>
 
+#include "linear_solver.h"
+
 namespace knee::internal {
 
-// Recoverable: the matrix is singular for these values (an aid may help, or a node
-// floats). Fatal: out of memory or invalid input; nothing to retry.
-enum class LinearStatus { kOk, kSingular, kFatal };
-
-class KluSolver {
+class KluSolver final : public LinearSolver {
  public:
   KluSolver();
-  ~KluSolver();
+  ~KluSolver() override;
   KluSolver(KluSolver&& other) noexcept;
   KluSolver& operator=(KluSolver&& other) noexcept;
   KluSolver(const KluSolver&) = delete;
   KluSolver& operator=(const KluSolver&) = delete;
 
   // Orders the n x n CSC pattern (copied). Must precede Factor.
-  LinearStatus Analyze(int n, std::span<const int> col_ptr, std::span<const int> row_index);
+  LinearStatus Analyze(int n, std::span<const int> col_ptr,
+                       std::span<const int> row_index) override;
   // Full factorisation with fresh pivots.
-  LinearStatus Factor(std::span<const double> values);
+  LinearStatus Factor(std::span<const double> values) override;
   // Reuses the pivots of the last full factorisation; falls back to Factor when KLU
   // reports trouble, a pivot is zero, or the reciprocal pivot growth (klu_rgrowth) is
   // below kRefactorGrowthFloor.
-  LinearStatus Refactor(std::span<const double> values);
+  LinearStatus Refactor(std::span<const double> values) override;
   // Solves A x = b in place.
-  LinearStatus Solve(std::span<double> rhs);
+  LinearStatus Solve(std::span<double> rhs) override;
   // Whether factors are held (a Factor or Refactor succeeded since the last Analyze).
   bool has_factors() const;
   // Solves A^T x = b in place with the same factors (klu_tsolve): the adjoint system.
@@ -39,10 +38,10 @@ class KluSolver {
 
   // KLU's cheap reciprocal condition estimate of the current factors (min/max |U_ii|);
   // 0 when there are none.
-  double rcond();
+  double rcond() override;
 
   // Why the last call did not return kOk, with KLU's status and numbers.
-  const std::string& message() const { return message_; }
+  const std::string& message() const override { return message_; }
   int full_factorizations() const { return full_factorizations_; }
 
   static constexpr double kRefactorGrowthFloor = 1e-10;

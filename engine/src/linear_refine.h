@@ -5,7 +5,7 @@
 #include <span>
 #include <vector>
 
-#include "klu_solver.h"
+#include "linear_solver.h"
 #include "mna.h"
 
 namespace knee::internal {
@@ -25,7 +25,7 @@ class StepRefiner {
   // device-by-device product) and `klu` holding factors of (an approximation of) it.
   // Rows are weighted by 1/tolerance[r]. Returns the largest weighted residual left
   // (d is never made worse than it came in).
-  double Refine(const MnaSystem& mna, KluSolver& klu, std::span<const double> b,
+  double Refine(const MnaSystem& mna, LinearSolver& klu, std::span<const double> b,
                 std::span<const double> tolerance, std::span<double> d);
   int refinements() const { return refinements_; }
 
@@ -33,6 +33,13 @@ class StepRefiner {
   // r = (b - J d) / tolerance; returns max |r_i|.
   double WeightedResidual(const MnaSystem& mna, std::span<const double> b,
                           std::span<const double> tolerance, std::span<const double> d);
+  void Size(size_t n);
+  void SizeBasis(size_t n);
+  bool Precondition(LinearSolver& klu, std::span<const double> tolerance,
+                    std::span<const double> u);
+  size_t Arnoldi(const MnaSystem& mna, LinearSolver& klu, std::span<const double> tolerance,
+                 bool* failed);
+  void Combine(size_t k);
 
   std::vector<double> basis_;  // (kKrylovSize + 1) vectors, allocated on first use
   std::vector<double> hessenberg_, givens_cos_, givens_sin_, rhs_, y_;

@@ -6,6 +6,8 @@
 #include <cmath>
 
 #include "check.h"
+#include "device_kinds.h"
+#include "disjoint_set.h"
 
 namespace knee::internal {
 namespace {
@@ -21,42 +23,23 @@ bool SameModel(const DiodeModel& p, const DiodeModel& q) {
 // IslandMap of the circuit: components of the graph of resistors and voltage sources
 // that do not contain gnd, each rooted at its heaviest node (below).
 IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
-  std::vector<int> parent(c.nodes.size());
-  for (size_t n = 0; n < parent.size(); ++n) parent[n] = static_cast<int>(n);
-  const auto find = [&](int n) {
-    while (parent[static_cast<size_t>(n)] != n) {
-      int& p = parent[static_cast<size_t>(n)];
-      p = parent[static_cast<size_t>(p)];
-      n = p;
-    }
-    return n;
-  };
+  DisjointSet sets(c.nodes.size());
+  const auto find = [&](int n) { return sets.Find(n); };
   for (const Element& e : c.elements) {
     if (e.kind != ElementKind::kResistor && e.kind != ElementKind::kVoltageSource) continue;
-    const int a = find(e.node_a), b = find(e.node_b);
     // The lower node stays the representative: gnd (0) wins, else the island's lowest.
-    if (a != b) parent[static_cast<size_t>(std::max(a, b))] = std::min(a, b);
+    sets.Join(e.node_a, e.node_b);
   }
   // The root's own KCL is known only to its members' round-off (its row holds the
   // island's sum), so the root is the member whose KCL carries the largest terms, as far
   // as the elements tell before solving: the most elements that can carry any current
   // (voltage sources, diodes without series resistance), then the largest sum of the
-  // other elements' largest conductances (1/R, 1/rs), then the lowest node. A nA node
-  // beside a kA one as root had its own KCL at 1e-9 A (torture seed 4725).
+  // other elements' largest conductances (1/R, 1/rs), then the lowest node: a nA node as
+  // root beside a kA member would have its own KCL only to the kA member's rounding.
   std::vector<double> unbounded(c.nodes.size(), 0.0), conductance(c.nodes.size(), 0.0);
   for (const Element& e : c.elements) {
-    double g = 0.0;
-    bool any_current = false;
-    if (e.kind == ElementKind::kResistor) {
-      g = e.value > 0.0 ? 1.0 / e.value : 0.0;
-    } else if (e.kind == ElementKind::kVoltageSource) {
-      any_current = true;
-    } else if (e.kind == ElementKind::kDiode && e.part >= 0 &&
-               e.part < static_cast<int>(c.parts.size())) {
-      const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;
-      any_current = !(rs > 0.0);
-      g = any_current ? 0.0 : 1.0 / rs;
-    }
+    const double g = OwnConductance(c, e);
+    const bool any_current = CarriesAnyCurrent(c, e);
     for (int n : {e.node_a, e.node_b}) {
       unbounded[static_cast<size_t>(n)] += any_current ? 1.0 : 0.0;
       if (std::isfinite(g)) conductance[static_cast<size_t>(n)] += g;
@@ -100,12 +83,20 @@ IslandMap FindIslands(const Circuit& c, std::span<const double> node_weight) {
 MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     : circuit_(&c), islands_(FindIslands(c, node_weight)) {
   node_count_ = c.nodes.size();
-  int next = static_cast<int>(node_count_) - 1;  // unknowns after the circuit nodes
-  kcl_rows_ = next;
+  kcl_rows_ = static_cast<int>(node_count_) - 1;
   part_models_.reserve(c.parts.size());
   for (const Part& part : c.parts) part_models_.push_back(part.model);
   part_changed_.assign(c.parts.size(), 0);
+  AddDevices(c);
+  BuildPattern();
+  IndexIslands(c);
+  SizeBuffers();
+}
 
+// One device per element; a voltage source's branch current is an unknown after the
+// circuit nodes.
+void MnaSystem::AddDevices(const Circuit& c) {
+  int next = kcl_rows_;  // unknowns after the circuit nodes
   std::array<size_t, 4> counts{};
   for (const Element& element : c.elements) ++counts[static_cast<size_t>(element.kind)];
   devices_.Reserve(counts);
@@ -128,8 +119,10 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     }
   }
   size_ = next;
+}
 
-  // Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
+// Pattern: every device entry plus the diagonal of every KCL row (the gmin shunt).
+void MnaSystem::BuildPattern() {
   EntryCollector collector(&islands_);
   devices_.DeclareEntries(collector);
   std::vector<int> diagonal_ticket(static_cast<size_t>(kcl_rows_));
@@ -143,9 +136,21 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
         {collector.Add(r, root), collector.Add(root, r), collector.Add(root, root)});
     member_shunts_.push_back({r, root, {-1, -1, -1}});
   }
+  const std::vector<int> slot_of = OrderEntries(collector);
+  devices_.BindSlots(slot_of);
+  diagonal_slot_.reserve(diagonal_ticket.size());
+  for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
+  for (size_t k = 0; k < member_shunts_.size(); ++k) {
+    for (size_t t = 0; t < 3; ++t) {
+      member_shunts_[k].slots[t] = slot_of[static_cast<size_t>(shunt_tickets[k][t])];
+    }
+  }
+}
 
-  // CSC order (column, then row) by a counting pass over the columns and a sort of each
-  // column's few entries: linear in the entries, where one sort of all of them was not.
+// col_ptr_ and row_index_ from the collected entries; returns each entry's value slot.
+// CSC order (column, then row) by a counting pass over the columns and a sort of each
+// column's few entries: linear in the entries, where one sort of all of them was not.
+std::vector<int> MnaSystem::OrderEntries(const EntryCollector& collector) {
   const auto& entries = collector.entries();
   const int n = size();
   std::vector<int> start(static_cast<size_t>(n) + 1, 0);
@@ -175,15 +180,11 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     col_ptr_[static_cast<size_t>(col) + 1] = static_cast<int>(row_index_.size());
   }
   row_index_.shrink_to_fit();
-  devices_.BindSlots(slot_of);
-  diagonal_slot_.reserve(diagonal_ticket.size());
-  for (int ticket : diagonal_ticket) diagonal_slot_.push_back(slot_of[static_cast<size_t>(ticket)]);
-  for (size_t k = 0; k < member_shunts_.size(); ++k) {
-    for (size_t t = 0; t < 3; ++t) {
-      member_shunts_[k].slots[t] = slot_of[static_cast<size_t>(shunt_tickets[k][t])];
-    }
-  }
+  return slot_of;
+}
 
+// The islands' roots and members, and the rows a voltage source's incidence touches.
+void MnaSystem::IndexIslands(const Circuit& c) {
   {
     std::vector<int> island_of_root(static_cast<size_t>(kcl_rows_), -1);
     for (const MemberShunt& m : member_shunts_) {
@@ -203,6 +204,10 @@ MnaSystem::MnaSystem(const Circuit& c, std::span<const double> node_weight)
     for (int k = 0; k < w.count; ++k)
       source_row_[static_cast<size_t>(w.index[static_cast<size_t>(k)])] = 1;
   }
+}
+
+void MnaSystem::SizeBuffers() {
+  const int n = size();
   values_.assign(row_index_.size(), 0.0);
   exact_x_.assign(static_cast<size_t>(n), 0.0);
   residual_.assign(static_cast<size_t>(n), 0.0);

@@ -130,6 +130,13 @@ class MnaSystem {
   }
 
  private:
+  // The constructor's steps, in order.
+  void AddDevices(const Circuit& c);
+  void BuildPattern();
+  std::vector<int> OrderEntries(const EntryCollector& collector);
+  void IndexIslands(const Circuit& c);
+  void SizeBuffers();
+
   const Circuit* circuit_ = nullptr;
   size_t node_count_ = 0;
   int size_ = 0;

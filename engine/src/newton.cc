@@ -12,95 +12,31 @@ namespace {
 // Halvings of a step that left the doubles (NewtonSolver::Run): 2^-60 of any step.
 constexpr int kOverflowHalvings = 60;
 
-void Consider(ToleranceCheck* worst, int index, double value, double bound) {
-  // Compare value/bound ratios without dividing (bounds are > 0).
-  if (worst->index < 0 || value * worst->bound > worst->value * bound) {
-    *worst = {index, value, bound};
-  }
-}
-
-double MaxAbs(std::span<const double> v, size_t count) {
-  double m = 0.0;
-  for (size_t i = 0; i < count; ++i) m = std::max(m, std::fabs(v[i]));
-  return m;
-}
-
 }  // namespace
 
-ToleranceCheck CheckUpdate(const MnaSystem& mna, const SolverOptions& o, std::span<const double> dx,
-                           std::span<const double> x, std::span<const double> noise,
-                           bool exempt_loose) {
-  ToleranceCheck worst;
-  const auto flow = mna.flow();
-  for (int u = 0; u < mna.size(); ++u) {
-    const auto i = static_cast<size_t>(u);
-    // A faint node (every current at it below abs_current_tol) is not determined by the
-    // tolerance: its KCL holds across the whole range it may still move in. Its voltage
-    // is settled afterwards with a tolerance scaled to its own currents (bias.cc,
-    // ResolveFaintNodes), or reported as faint.
-    if (exempt_loose && !mna.IsCurrentUnknown(u) && flow[i] < o.abs_current_tol) continue;
-    const double abs_tol = mna.IsCurrentUnknown(u) ? o.abs_current_tol : o.abs_voltage_tol;
-    const double floor = noise.empty() ? 0.0 : kNoiseFactor * std::fabs(noise[i]);
-    Consider(&worst, u, std::fabs(dx[i]), abs_tol + o.rel_tol * std::fabs(x[i]) + floor);
-  }
-  return worst;
-}
-
-namespace {
-
-// Calls fn(index, |residual|, bound) for every row of the residual test and for every
-// island root's own KCL.
-template <typename Fn>
-void ForEachResidualTest(const MnaSystem& mna, const SolverOptions& o, Fn&& fn) {
-  const auto f = mna.residual();
-  const auto flow = mna.flow();
-  for (int r = 0; r < mna.size(); ++r) {
-    const auto i = static_cast<size_t>(r);
-    const double bound =
-        (r < mna.kcl_rows() ? o.abs_current_tol + o.rel_tol * flow[i] : o.abs_voltage_tol) +
-        mna.RoundOffAllowance(r);
-    fn(r, std::fabs(f[i]), bound);
-  }
-  // An island root's own KCL (its row holds the island's sum): the sum less the members'
-  // rows, against the island's largest current and the rows' summed allowances.
-  mna.ForEachRootBalance([&](int root, double residual, double largest, double allowance) {
-    fn(root, std::fabs(residual), o.abs_current_tol + o.rel_tol * largest + allowance);
-  });
-}
-
-}  // namespace
-
-ToleranceCheck CheckResidual(const MnaSystem& mna, const SolverOptions& o) {
-  ToleranceCheck worst;
-  ForEachResidualTest(mna, o, [&](int index, double value, double bound) {
-    Consider(&worst, index, value, bound);
-  });
-  return worst;
-}
-
-double ResidualMerit(const MnaSystem& mna, const SolverOptions& o) {
-  double merit = 0.0;
-  ForEachResidualTest(mna, o, [&](int, double value, double bound) {
-    const double ratio = value / bound;
-    merit += ratio * ratio;
-  });
-  return merit;
-}
-
-NewtonSolver::NewtonSolver(MnaSystem* mna, KluSolver* klu, const SolverOptions& options, int size)
+NewtonSolver::NewtonSolver(MnaSystem* mna, LinearSolver* klu, const SolverOptions& options,
+                           int size)
     : mna_(mna),
       klu_(klu),
+      configured_(options),
       options_(options),
       dx_(static_cast<size_t>(size), 0.0),
       saved_x_(static_cast<size_t>(size), 0.0),
       noise_(static_cast<size_t>(size), 0.0),
       minus_f_(static_cast<size_t>(size), 0.0),
       row_tolerance_(static_cast<size_t>(size), 0.0),
-      faint_(static_cast<size_t>(size), 0),
+      polisher_(static_cast<size_t>(size)),
       regularized_(mna->values().size(), 0.0) {}
 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                                 std::vector<NewtonStepRecord>* trace) {
+  return Run(aids, phase, x, trace, configured_);
+}
+
+NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
+                                std::vector<NewtonStepRecord>* trace,
+                                const SolverOptions& options) {
+  options_ = options;
   aids.limit_junctions = options_.junction_limiting;
   plain_run_ = aids.gmin == 0.0 && aids.source_scale == 1.0;
   NewtonOutcome outcome;
@@ -112,19 +48,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   bool last_clamped = false;
   for (int step = 1; step <= options_.max_newton_steps; ++step) {
     outcome.steps = step;
-    AssemblyOutcome assembled = mna_->Assemble(x, aids);
-    // The law is exact up to the largest double, so a step can land where a junction's
-    // current is not a double (a forced current into a junction at 0 V asks for 2.6e9 V
-    // when junction limiting is off). Such a step is halved back toward its start: a
-    // damping of Newton's step, not a change of the law, and not a settled step.
-    for (int halving = 0; !assembled.finite && step > 1 && halving < kOverflowHalvings; ++halving) {
-      for (size_t i = 0; i < x.size(); ++i) {
-        dx_[i] *= 0.5;
-        x[i] -= dx_[i];
-      }
-      assembled = mna_->Assemble(x, aids);
-      last_clamped = true;
-    }
+    const AssemblyOutcome assembled = AssembleHalving(x, aids, step > 1, &last_clamped);
     if (!assembled.finite) {
       outcome.exit = NewtonExit::kNonFinite;
       outcome.detail =
@@ -180,45 +104,22 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   return outcome;
 }
 
-std::string StepLimitDetail(const MnaSystem& mna, const SolverOptions& options,
-                            const ToleranceCheck& update) {
-  const ToleranceCheck residual = CheckResidual(mna, options);
-  return fmt::format(
-      "no convergence in {} steps: last |dx| at '{}' = {:.3g} (bound {:.3g}), worst residual "
-      "at '{}' = {:.3g} (bound {:.3g})",
-      options.max_newton_steps, mna.UnknownName(update.index), update.value, update.bound,
-      mna.UnknownName(residual.index), residual.value, residual.bound);
-}
-
-// The residual of a point is known only to its round-off allowance a_r (16 eps times
-// the magnitudes of the terms of row r), so a Newton step is known only to about
-// J^-1 a: where the residual already passes, a step of that size is round-off being
-// chased, not a move toward the solution (a node held by a conductance of 1e-11 S with
-// a residual of 4e-17 A of pure rounding steps 4 uV, forever). noise_ = J^-1 a, with
-// the factorisation of the step just taken. False if the solve fails.
-namespace {
-
-// v = |J^-1 v| in node voltages, with the factors `klu` holds.
-bool AbsoluteResponse(const MnaSystem& mna, KluSolver& klu, std::span<double> v) {
-  if (klu.Solve(v) != LinearStatus::kOk) return false;
-  for (double& n : v) n = std::fabs(n);
-  mna.ToNodeSpace(v);
-  return true;
-}
-
-}  // namespace
-
-bool RoundingNoise(const MnaSystem& mna, KluSolver& klu, std::span<double> noise) {
-  for (int r = 0; r < mna.size(); ++r) noise[static_cast<size_t>(r)] = mna.RoundOffAllowance(r);
-  return AbsoluteResponse(mna, klu, noise);
-}
-
-bool ToleranceSpread(const MnaSystem& mna, const SolverOptions& o, KluSolver& klu,
-                     std::span<double> spread) {
-  for (int r = 0; r < mna.size(); ++r) {
-    spread[static_cast<size_t>(r)] = r < mna.kcl_rows() ? o.abs_current_tol : 0.0;
+// The law is exact up to the largest double, so a step can land where a junction's
+// current is not a double (a forced current into a junction at 0 V asks for 2.6e9 V
+// when junction limiting is off). Such a step is halved back toward its start: a
+// damping of Newton's step, not a change of the law, and not a settled step (*halved).
+AssemblyOutcome NewtonSolver::AssembleHalving(std::span<double> x, const AssemblyAids& aids,
+                                              bool may_halve, bool* halved) {
+  AssemblyOutcome assembled = mna_->Assemble(x, aids);
+  for (int halving = 0; !assembled.finite && may_halve && halving < kOverflowHalvings; ++halving) {
+    for (size_t i = 0; i < x.size(); ++i) {
+      dx_[i] *= 0.5;
+      x[i] -= dx_[i];
+    }
+    assembled = mna_->Assemble(x, aids);
+    *halved = true;
   }
-  return AbsoluteResponse(mna, klu, spread);
+  return assembled;
 }
 
 bool NewtonSolver::NoiseFloor() { return RoundingNoise(*mna_, *klu_, noise_); }
@@ -326,116 +227,21 @@ void NewtonSolver::RefineStep(std::span<double> dx) {
   refiner_.Refine(*mna_, *klu_, minus_f_, row_tolerance_, dx);
 }
 
-// One more Newton step after convergence: a converged Newton iteration is quadratic, so
-// this brings the answer to round-off level. Kept only if the residual stays within its
-// tolerance; otherwise the converged point stands.
-bool PolishKept(const MnaSystem& mna, const SolverOptions& options, bool finite_inside,
-                std::span<const double> dx, std::span<const double> x, double* merit) {
-  if (!finite_inside || !CheckResidual(mna, options).passed()) return false;
-  const double after = ResidualMerit(mna, options);
-  // A step within the update tolerance is kept even when the merit jitters at round-off.
-  if (!(after <= *merit) && !CheckUpdate(mna, options, dx, x).passed()) return false;
-  *merit = after;
-  return true;
-}
-
-bool MarkFaintNodes(const MnaSystem& mna, const SolverOptions& options, std::span<char> faint) {
-  const auto flow = mna.flow();
-  bool any = false;
-  for (int u = 0; u < mna.kcl_rows(); ++u) {
-    const bool below = flow[static_cast<size_t>(u)] < options.abs_current_tol;
-    faint[static_cast<size_t>(u)] = below ? 1 : 0;
-    any = any || below;
-  }
-  return any;
-}
-
-void DropFaintPart(std::span<const char> faint, std::span<double> dx) {
-  for (size_t u = 0; u < faint.size() && u < dx.size(); ++u) {
-    if (faint[u]) dx[u] = 0.0;
-  }
-}
-
-bool PolishSettled(const MnaSystem& mna, const SolverOptions& options, std::span<const double> dx,
-                   std::span<const double> x, double* previous, KluSolver& klu,
-                   std::span<double> noise) {
-  const ToleranceCheck worst = CheckUpdate(mna, options, dx, x, {}, /*exempt_loose=*/false);
-  const double ratio = worst.ratio();
-  const double before = *previous;
-  *previous = ratio;
-  if (!(ratio <= kPolishFactor || (ratio <= kPolishFast && ratio <= 0.1 * before))) {
-    // Steps below kPolishFast of the tolerance that no longer shrink are round-off
-    // (seed 27140: 2e-12 V at one node, step after step): more of them change nothing.
-    // A step larger than the one before is no stall (seed 10099: 4e-11 then 4e-5).
-    return ratio <= kPolishFast && ratio >= kPolishStalled * before && ratio <= before;
-  }
-  // Each unknown to kPolishRelative of itself: the change the next step would make, at
-  // most the last step times the rate the steps shrink at, below that or below the
-  // rounding of the equations (a node at 1e-11 V beside 500 V sources).
-  const double rate = std::min(1.0, before > 0.0 ? ratio / before : 1.0);
-  const auto unsettled = [&](size_t i, double floor) {
-    return !(rate * std::fabs(dx[i]) <= kPolishRelative * std::fabs(x[i]) + floor);
-  };
-  bool any = false;
-  for (size_t i = 0; i < dx.size() && !any; ++i) any = unsettled(i, 0.0);
-  if (!any) return true;
-  if (!RoundingNoise(mna, klu, noise)) return true;  // the tolerance test above stands
-  // The noise estimate is a bound (seed 27140: 4e-7 V at a node the steps then settled
-  // to 3e-13 V): it ends the polishing only once the steps stop shrinking.
-  if (rate < kPolishStalled) return false;
-  for (size_t i = 0; i < dx.size(); ++i) {
-    if (unsettled(i, kNoiseFactor * noise[i])) return false;
-  }
-  return true;
-}
-
 void NewtonSolver::Polish(const AssemblyAids& aids, std::span<double> x, double last_ratio) {
   AssemblyAids exact = aids;
   exact.limit_junctions = false;
-  double merit = ResidualMerit(*mna_, options_);
-  bool masked = false;
-  for (int k = 0; PolishGoesOn(k, last_ratio); ++k) {
-    std::copy(x.begin(), x.end(), saved_x_.begin());
+  const auto solve = [&] {
     NewtonOutcome ignored;
-    if (!SolveStep(dx_, &ignored)) return;
-    const bool any_faint = MarkFaintNodes(*mna_, options_, faint_);  // at x, for the retry
-    for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
-    bool inside = !Clamp(x);
-    AssemblyOutcome assembled = mna_->Assemble(x, exact);
-    if (!PolishKept(*mna_, options_, inside && assembled.finite, dx_, x, &merit)) {
-      std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
-      // A step rejected because it throws faint nodes about (a group held by saturated
-      // junctions beside a loose one) is tried once more without their part: the other
-      // nodes still get their polish (torture seed 4912: a node at 53 V held by
-      // 380 kOhm kept 5e-13 A of residual). Only kept if it passes the same test, and
-      // only in a run without aids: a rung of the ladder is a waypoint, not an answer.
-      if (masked || !any_faint || !plain_run_) return;
-      masked = true;
-      DropFaintPart(faint_, dx_);
-      for (size_t i = 0; i < x.size(); ++i) x[i] += dx_[i];
-      inside = !Clamp(x);
-      assembled = mna_->Assemble(x, exact);
-      if (!PolishKept(*mna_, options_, inside && assembled.finite, dx_, x, &merit)) {
-        std::copy(saved_x_.begin(), saved_x_.end(), x.begin());
-        return;
-      }
-    }
-    if (PolishSettled(*mna_, options_, dx_, x, &last_ratio, *klu_, noise_)) return;
-  }
-}
-
-std::vector<std::string> UnsettledUnknowns(const MnaSystem& mna, const SolverOptions& options,
-                                           std::span<const double> dx, std::span<const double> x) {
-  std::vector<std::string> names;
-  for (int u = 0; u < mna.size(); ++u) {
-    const auto i = static_cast<size_t>(u);
-    const double abs_tol =
-        mna.IsCurrentUnknown(u) ? options.abs_current_tol : options.abs_voltage_tol;
-    if (!(std::fabs(dx[i]) <= abs_tol + options.rel_tol * std::fabs(x[i]))) {
-      names.push_back(fmt::format("{} (last change {:.3g})", mna.UnknownName(u), dx[i]));
-    }
-  }
-  return names;
+    return SolveStep(dx_, &ignored);
+  };
+  const auto apply = [&] {
+    for (size_t i = 0; i < x.size(); ++i) x[i] = saved_x_[i] + dx_[i];
+    const bool inside = !Clamp(x);
+    const AssemblyOutcome assembled = mna_->Assemble(x, exact);
+    return inside && assembled.finite;
+  };
+  polisher_.Run(*mna_, options_, *klu_, x, saved_x_, dx_, noise_, last_ratio, plain_run_, solve,
+                apply);
 }
 
 std::vector<std::string> NewtonSolver::Unsettled(std::span<const double> x) const {

@@ -279,9 +279,8 @@ std::string ToNetlist(const Circuit& c) {
   std::string text = fmt::format("title \"{}\"\ntemp {:.17g}\n", c.title, c.temp);
   for (const Part& p : c.parts) {
     const DiodeModel& m = p.model;
-    text += fmt::format(
-        "part {} diode sat_current={:.17g} ideality={:.17g} series_res={:.17g} bandgap={:.17g}",
-        p.name, m.sat_current, m.ideality, m.series_res, m.bandgap);
+    text += fmt::format("part {} diode sat_current={:.17g} ideality={:.17g} series_res={:.17g}",
+                        p.name, m.sat_current, m.ideality, m.series_res);
     if (m.breakdown_v) {
       text += fmt::format(" breakdown_v={:.17g} breakdown_i={:.17g} breakdown_ideality={:.17g}",
                           *m.breakdown_v, m.breakdown_i, m.breakdown_ideality);

@@ -26,8 +26,8 @@ enum class SolverMethod {
   // Newton directions of the MNA system with a line search on the network's co-content
   // (a convex function; Millar 1951), without limiting, gmin or source stepping.
   // Monotone networks only. In theory it converges on every monotone network that has a
-  // solution; in floating point it solves all 10,000 networks of the torture suite and
-  // fails on about 1 in 30,000 more (docs/solver.md), which kAuto hands to the ladder.
+  // solution; in floating point it can end at its step limit on rare networks
+  // (docs/solver.md, "Known gaps"), which kAuto hands to the ladder.
   kPotential,
   // Plain Newton with junction limiting, then the aid ladder (gmin, source stepping).
   kClassic,
@@ -164,8 +164,8 @@ class BiasSolver {
   SolveSummary Solve(Solution* solution, std::span<const double> start = {},
                      bool allow_aids = true);
 
-  // The unknown vector of the last converged solve (node voltages, internal nodes,
-  // vsource currents), for warm starts.
+  // The unknown vector of the last converged solve (the voltage of every node but gnd,
+  // then every voltage source's current), for warm starts.
   std::span<const double> unknowns() const;
   int unknown_count() const;
 

@@ -1,0 +1,167 @@
+// The bias solver's state and its stages (docs/architecture.md): the screen before any
+// step (screen.cc), the strategies that look for a solution (bias.cc, continuation.cc),
+// and the post-solve stages that check and settle it (post_solve.cc, loose_nodes.cc).
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "adjoint.h"
+#include "forced_junctions.h"
+#include "klu_solver.h"
+#include "knee/solver.h"
+#include "mna.h"
+#include "newton.h"
+#include "potential.h"
+#include "tuning.h"
+
+namespace knee {
+
+namespace internal {
+
+// The circuit's numbers without names or source locations (circuit_numbers.cc).
+Circuit NumbersOf(const Circuit& c);
+// to = NumbersOf(from), copying only the numbers when both have as many nodes, parts and
+// elements (a sweep point). Returns true when at most the values of voltage sources
+// changed, each to a finite number (what a sweep of a supply does at every point).
+bool AssignValues(const Circuit& from, Circuit* to);
+
+// The most voltage the junctions of the circuit can hold, summed (screen.cc), each law
+// spanning `exponents` thermal scales on either side.
+double JunctionSpan(const Circuit& c, double exponents);
+
+}  // namespace internal
+
+struct BiasSolver::Impl {
+  // The caller's circuit of Create() or of the last UpdateValues(); no copy is kept (a
+  // million-element circuit would be held twice).
+  const Circuit* circuit;
+  // The numbers of that circuit (NumbersOf), kept from the first UpdateValues() on: a
+  // sweep point's circuit is compared with them to skip the classification when only
+  // sources changed. A single bias point never needs them.
+  std::optional<Circuit> last_numbers;
+  SolverOptions options;
+  internal::SolveTuning tuning;  // derived from options (tuning.h)
+  internal::MnaSystem mna;
+  internal::KluSolver klu;
+  // LooseNodes' own factors of the exact Jacobian, made on first need: fresh pivots in
+  // `klu` would make every later refactor of the run depend on where that check fell
+  // (a sweep's output would then depend on how its points are shared among threads).
+  std::optional<internal::KluSolver> probe;
+  internal::NewtonSolver newton;
+  internal::PotentialSolver potential;
+  // Per circuit values (set at Create and UpdateValues): why the network is not
+  // monotone, and why a monotone one has no solution, when so.
+  std::optional<std::string> non_monotone;
+  std::optional<std::string> unbounded;
+  // Junctions that voltage sources alone hold (their current is checked at every Solve,
+  // against the sources' values then).
+  std::vector<internal::ForcedJunction> forced;
+  // A part whose saturation current at its temperature is beyond any diode's.
+  std::optional<std::string> absurd_saturation;
+  // Resistance-free junctions on loops of sources and such junctions (their solved
+  // currents are checked in Conclude).
+  std::vector<internal::LoopJunction> loop_junctions;
+  std::vector<double> loop_current;
+  std::vector<double> x;          // working unknowns
+  std::vector<double> saved;      // x before a rung, restored when the rung fails
+  std::vector<double> converged;  // unknowns of the last converged solve
+  std::vector<double> node_residual, node_allowance, node_flow;  // Verify's, with islands
+  std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
+  // Whether klu holds the exact Jacobian's factors from the run that converged (the
+  // solver's exact_factors()), which LooseNodes may then use as they are.
+  bool factors_exact = false;
+  bool rerooted = false;       // mna's islands are rooted by a solution (RerootIslands)
+  double junction_span = 0.0;  // V, JunctionSpan(circuit)
+  bool trace_on = false;
+  std::vector<NewtonStepRecord> trace;
+  // Whether the last Solve() converged (Sensitivity() differentiates only that point),
+  // and the adjoint method's buffers, made on first use.
+  bool last_converged = false;
+  std::unique_ptr<internal::AdjointWorkspace> adjoint;
+  // The caller's starting point of the current Solve (empty or of another size: a cold
+  // start from 0 V).
+  std::span<const double> start;
+
+  Impl(const Circuit& c, const SolverOptions& o)
+      : circuit(&c),
+        options(o),
+        tuning(internal::SolveTuning::From(o)),
+        mna(c),
+        newton(&mna, &klu, o, mna.size()),
+        potential(&mna, &klu, o, mna.size(), tuning.potential) {
+    Resize();
+    Classify();
+  }
+
+  // --- set-up (screen.cc) ---
+  void Classify();
+  void SetVoltageBound();
+  void Resize() {
+    const auto n = static_cast<size_t>(mna.size());
+    x.assign(n, 0.0);
+    saved.assign(n, 0.0);
+    converged.clear();
+  }
+  std::optional<std::string> Analyze() {
+    if (mna.size() == 0) return std::string("the circuit has no unknowns to solve for");
+    if (klu.Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != internal::LinearStatus::kOk) {
+      return "cannot order the circuit matrix: " + klu.message();
+    }
+    return std::nullopt;
+  }
+  // The MNA system (and everything that holds its pattern) built anew: with each island
+  // rooted at the member of largest weight (RerootIslands), or as Create() built it.
+  void Rebuild(std::span<const double> node_weight);
+
+  // --- stage 1, the screen (screen.cc) ---
+  // Clears the last solve's state and sets the bound of the node voltages.
+  void BeginSolve(std::span<const double> start_point);
+  // Whether the network is decided before any step (no method applies, no solution, or
+  // a junction out of range): then *s says so.
+  bool Screen(SolveSummary* s) const;
+
+  // --- stage 2, the strategies (bias.cc, continuation.cc) ---
+  // How the last strategy that ran ended, and which solver ran it.
+  struct Ending {
+    internal::NewtonExit exit = internal::NewtonExit::kStepLimit;
+    bool by_potential = false;
+  };
+  bool warm() const { return start.size() == x.size(); }
+  // x = the caller's start, or 0 V.
+  void ResetStart();
+  internal::NewtonOutcome Run(const internal::AssemblyAids& aids, const std::string& phase,
+                              SolveSummary* s) {
+    internal::NewtonOutcome out = newton.Run(aids, phase, x, trace_on ? &trace : nullptr);
+    s->newton_steps += out.steps;
+    return out;
+  }
+  std::optional<Ending> WarmStartNewton(SolveSummary* s);
+  std::optional<Ending> PotentialMethod(SolveSummary* s, std::string* log);
+  Ending ClassicLadder(SolveSummary* s, bool allow_aids, std::string log);
+  bool GminLadder(SolveSummary* s, std::string* log);
+  bool SourceLadder(SolveSummary* s, std::string* log);
+
+  // --- stage 3, post-solve (post_solve.cc, loose_nodes.cc) ---
+  // The closing of every strategy: a failed one says what still moved; a converged one is
+  // settled, verified on the exact model, filled in and kept for warm starts (Conclude).
+  void Finish(const Ending& end, SolveSummary* s, Solution* solution);
+  void Conclude(SolveSummary* s, Solution* solution);
+  void RerootIslands(SolveSummary* s);
+  void ResolveFaintNodes(SolveSummary* s);
+  // The nodes that currents of the size of the tolerance (rounding = false) or of the
+  // residual's round-off allowance (rounding = true) move by more than the voltage
+  // tolerance; *scale is the factor on the current tolerance that would fix them.
+  std::vector<int> LooseNodes(const SolverOptions& o, bool rounding, double* scale);
+  std::vector<int> UntiedNodes(const SolverOptions& o, bool rounding);
+  void Verify(SolveSummary* s);
+  // A verified answer in which a junction that only sources and junctions limit carries
+  // more than any diode could is out of range (forced_junctions.h).
+  void CheckLoopJunctions(SolveSummary* s);
+  void Fill(Solution* solution) const;
+};
+
+}  // namespace knee
