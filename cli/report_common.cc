@@ -73,7 +73,7 @@ nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
           {"aids", a.aids},
           {"max_kcl_residual_a", a.max_kcl_residual},
           {"worst_node", a.worst_node},
-          {"faint_nodes", a.faint_nodes}};
+          {"undetermined_nodes", a.undetermined_nodes}};
 }
 
 nlohmann::ordered_json JsonExpectation(const ExpectationCheck& e) {

@@ -7,6 +7,7 @@
 #include <limits>
 
 #include "eng_format.h"
+#include "knee/solver.h"
 #include "report.h"
 #include "report_common.h"
 
@@ -95,14 +96,16 @@ std::string Account(const Report& report) {
   const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
   std::string out =
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
-  if (!a.faint_nodes.empty()) {
+  if (!a.undetermined_nodes.empty()) {
+    const bool one = a.undetermined_nodes.size() == 1;
     out += fmt::format(
-        "note: the voltage{} of node{} {} barely change{} any current (held only by faint "
-        "or saturated junctions, e.g. matched reverse-biased diodes in series): KCL at "
-        "{:.3g} A does not fix {}, so treat {} as undetermined\n",
-        a.faint_nodes.size() == 1 ? "" : "s", a.faint_nodes.size() == 1 ? "" : "s",
-        QuotedList(a.faint_nodes), a.faint_nodes.size() == 1 ? "s" : "", a.current_tol,
-        a.faint_nodes.size() == 1 ? "it" : "them", a.faint_nodes.size() == 1 ? "it" : "them");
+        "note: node{} {} {} undetermined: a stray current of {:.3g} A can move {} by more than "
+        "{:.3g} mV (held only by leakage or by saturated junctions, e.g. matched reverse-biased "
+        "diodes in series with no other path), so {} set by leakage the model does not "
+        "have\n",
+        one ? "" : "s", QuotedList(a.undetermined_nodes), one ? "is" : "are", a.current_tol,
+        one ? "it" : "them", 1e3 * kUndeterminedVolts,
+        one ? "its voltage is" : "their voltages are");
   }
   return out;
 }

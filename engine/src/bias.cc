@@ -19,6 +19,7 @@
 #include "mna.h"
 #include "newton.h"
 #include "potential.h"
+#include "undetermined.h"
 
 namespace knee {
 
@@ -203,6 +204,7 @@ struct BiasSolver::Impl {
   std::vector<double> converged;  // unknowns of the last converged solve
   std::vector<double> node_residual, node_allowance, node_flow;  // Verify's, with islands
   std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
+  internal::UndeterminedTest undetermined;                       // NameUndetermined's
   // Whether klu holds the exact Jacobian's factors from the run that converged (the
   // solver's exact_factors()), which LooseNodes may then use as they are.
   bool factors_exact = false;
@@ -283,12 +285,21 @@ struct BiasSolver::Impl {
     RerootIslands(s);
     ResolveFaintNodes(s);
     Verify(s);
+    NameUndetermined(s);
     CheckLoopJunctions(s);
     if (solution != nullptr) Fill(solution);
     if (s->status == SolveStatus::kConverged) converged = x;
     last_converged = s->status == SolveStatus::kConverged;
   }
   void Fill(Solution* solution) const;
+  // The nodes a verified answer leaves undetermined (undetermined.h), from the exact
+  // Jacobian that Verify assembled at x.
+  void NameUndetermined(SolveSummary* s) {
+    if (s->status != SolveStatus::kConverged) return;
+    for (int u : undetermined.Run(*circuit, mna, x, options, klu, factors_exact, probe)) {
+      s->undetermined_nodes.push_back(mna.UnknownName(u));
+    }
+  }
   // A verified answer in which a junction that only sources and junctions limit carries
   // more than any diode could is out of range (forced_junctions.h).
   void CheckLoopJunctions(SolveSummary* s) {
@@ -552,16 +563,7 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
     saved = x;
     loose = LooseNodes(judged(), /*rounding=*/false, &scale);
   }
-  s->faint_tolerance = tight.abs_current_tol;
-  std::vector<int> still = loose;
-  if (kept) {
-    // Settled, except where the rounding of the residual alone moves a node by more than
-    // the voltage tolerance (|J^-1 a|, a the round-off allowance): there the equations do
-    // not fix the voltage in double precision.
-    double ignored = 1.0;
-    still = LooseNodes(judged(), /*rounding=*/true, &ignored);
-  }
-  for (int u : still) s->faint_nodes.push_back(mna.UnknownName(u));
+  s->settling_current_tol = tight.abs_current_tol;
 }
 
 // gmin from gmin_start down by gmin_factor to gmin_stop, each rung warm-started from the

@@ -9,34 +9,13 @@
 #include <string>
 #include <vector>
 
+#include "disjoint_sets.h"
 #include "knee/solver.h"
 
 namespace knee {
 namespace {
 
-class DisjointSets {
- public:
-  explicit DisjointSets(size_t n) : parent_(n) { std::iota(parent_.begin(), parent_.end(), 0); }
-  int Find(int i) {
-    while (parent_[static_cast<size_t>(i)] != i) {
-      auto& p = parent_[static_cast<size_t>(i)];
-      p = parent_[static_cast<size_t>(p)];
-      i = p;
-    }
-    return i;
-  }
-  // Returns false when a and b were already in the same set.
-  bool Join(int a, int b) {
-    a = Find(a);
-    b = Find(b);
-    if (a == b) return false;
-    parent_[static_cast<size_t>(std::max(a, b))] = std::min(a, b);  // gnd stays a root
-    return true;
-  }
-
- private:
-  std::vector<int> parent_;
-};
+using internal::DisjointSets;
 
 std::string Quoted(const std::vector<std::string>& names) {
   std::string out;
