@@ -342,9 +342,9 @@ struct BiasSolver::Impl {
 // test: the voltage change that currents of the size of the tolerance cause,
 // |J^-1 t| with t_r = abs_current_tol (ToleranceSpread), exceeds the voltage tolerance.
 // A loose point is taken one Newton run further with the current tolerance scaled down
-// until it would fix those nodes (down to kFaintCurrentFloor), from the point itself;
-// the nodes still loose afterwards (all of them, if that run fails or does not verify)
-// are named.
+// until it would fix those nodes (down to kFaintCurrentFloor), from the point itself
+// (the settling runs of docs/solver.md). This test only steers those runs; what a report
+// names is the separate undetermined-node test (undetermined.h, NameUndetermined).
 std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool rounding,
                                               double* scale) {
   std::vector<int> loose;

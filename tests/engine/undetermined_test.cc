@@ -1,14 +1,19 @@
 // The undetermined-node test (engine/src/undetermined.h): silent where every node has a
 // resistive path of at most 1 GOhm to gnd, named where a stray current of the tolerance
 // moves a node by more than kUndeterminedVolts.
+#include "undetermined.h"
+
 #include <gtest/gtest.h>
 
 #include <string>
 #include <vector>
 
 #include "circuit_builder.h"
+#include "klu_solver.h"
 #include "knee/solver.h"
+#include "mna.h"
 #include "solve_with.h"
+#include "test_util.h"
 
 namespace knee {
 namespace {
@@ -134,6 +139,38 @@ TEST_P(Undetermined, MatchedReverseStringsAreNamed) {
   const SolveSummary summary = SolveWith(b.circuit(), GetParam(), &s);
   ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
   EXPECT_EQ(summary.undetermined_nodes, (std::vector<std::string>{"m1", "m2"}));
+}
+
+// The latitude itself on a linear chain: node c_j of forty nodes joined by 1 kOhm, the last
+// on 1 GOhm to gnd, has the driving-point resistance 1 GOhm + (39 - j) kOhm (resistors in
+// series: Ohm's law, common practice, no source), so a stray 1 pA moves it by 1e-12 A
+// times that. The screen's row sum (40 mV) does not clear any node, so every value is a
+// driving-point solve; with fresh factors (the run's are not offered) in the probe.
+TEST(UndeterminedLatitude, ChainMatchesSeriesResistance) {
+  CircuitBuilder b;
+  constexpr int kNodes = 40;
+  b.I("I1", "gnd", "c0", 1e-6);
+  for (int k = 0; k + 1 < kNodes; ++k) {
+    b.R("R" + std::to_string(k), "c" + std::to_string(k), "c" + std::to_string(k + 1), 1e3);
+  }
+  b.R("Rbleed", "c" + std::to_string(kNodes - 1), "gnd", 1e9);
+  const Circuit& c = b.circuit();
+  internal::MnaSystem mna(c);
+  std::vector<double> x(static_cast<size_t>(mna.size()), 0.0);
+  mna.AssembleExact(x);
+  internal::KluSolver unused;
+  std::optional<internal::KluSolver> probe;
+  internal::UndeterminedTest test;
+  const SolverOptions options;
+  const std::vector<int> named = test.Run(c, mna, x, options, unused, false, probe);
+  EXPECT_TRUE(named.empty());
+  ASSERT_EQ(test.latitude().size(), static_cast<size_t>(kNodes));
+  for (int j = 0; j < kNodes; ++j) {
+    const double z = 1e9 + (kNodes - 1 - j) * 1e3;
+    // 1e-7: the chain's condition (1 mS against 1 nS over forty nodes, about 1e9) costs
+    // that many ulps; consecutive nodes still differ by 1e-6 of their value.
+    EXPECT_CLOSE(test.latitude()[static_cast<size_t>(j)], 1e-12 * z, 1e-7, 0.0) << j;
+  }
 }
 
 INSTANTIATE_TEST_SUITE_P(Solvers, Undetermined,
