@@ -7,7 +7,6 @@
 #include <limits>
 
 #include "eng_format.h"
-#include "knee/solver.h"
 #include "report.h"
 #include "report_common.h"
 
@@ -65,16 +64,6 @@ std::string Expectations(const Report& report) {
   return out;
 }
 
-// 'a', 'b' and 'c'
-std::string QuotedList(const std::vector<std::string>& names) {
-  std::string out;
-  for (size_t i = 0; i < names.size(); ++i) {
-    if (i > 0) out += i + 1 == names.size() ? " and " : ", ";
-    out += "'" + names[i] + "'";
-  }
-  return out;
-}
-
 std::string Account(const Report& report) {
   const SolverAccount& a = report.account;
   std::string aids =
@@ -96,17 +85,7 @@ std::string Account(const Report& report) {
   const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
   std::string out =
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
-  if (!a.undetermined_nodes.empty()) {
-    const bool one = a.undetermined_nodes.size() == 1;
-    out += fmt::format(
-        "note: node{} {} {} undetermined: a stray current of {:.3g} A can move {} by more than "
-        "{:.3g} mV (held only by leakage or by saturated junctions, e.g. matched reverse-biased "
-        "diodes in series with no other path), so {} set by leakage the model does not "
-        "have\n",
-        one ? "" : "s", QuotedList(a.undetermined_nodes), one ? "is" : "are", a.current_tol,
-        one ? "it" : "them", 1e3 * kUndeterminedVolts,
-        one ? "its voltage is" : "their voltages are");
-  }
+  out += UndeterminedNote(a);
   return out;
 }
 

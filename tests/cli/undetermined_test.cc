@@ -29,32 +29,36 @@ std::string BleedBridge(const std::string& bleed) {
          "\nbias\n";
 }
 
-KneeRun BiasOf(const std::string& netlist) {
+KneeRun RunOn(const std::string& command, const std::string& netlist) {
   const std::string path = TempPath("bridge.knee");
   {
     std::ofstream f(path);
     f << netlist;
   }
-  KneeRun run = RunKnee("bias " + path);
+  KneeRun run = RunKnee(command + " " + path);
   std::remove(path.c_str());
   return run;
 }
 
 TEST(Undetermined, BridgeWithTenMegohmOrOneGigohmBleedsHasNoNote) {
   for (const char* bleed : {"10M", "1G"}) {
-    const KneeRun run = BiasOf(BleedBridge(bleed));
+    const KneeRun run = RunOn("bias", BleedBridge(bleed));
     ASSERT_EQ(run.status, 0) << run.err;
     EXPECT_EQ((run.out + run.err).find("undetermined"), std::string::npos) << bleed << run.out;
     EXPECT_NE(run.out.find("KCL residual"), std::string::npos) << run.out;
   }
 }
 
+// Both text reports that show the account carry the note (bias's table, hand's footer).
 TEST(Undetermined, BridgeWithHundredGigohmBleedsHasTheNote) {
-  const KneeRun run = BiasOf(BleedBridge("100G"));
-  ASSERT_EQ(run.status, 0) << run.err;
-  EXPECT_NE(run.out.find("note: nodes 'L', 'N', 'pos' and 'neg' are undetermined"),
-            std::string::npos)
-      << run.out;
+  for (const char* command : {"bias", "hand"}) {
+    const KneeRun run = RunOn(command, BleedBridge("100G"));
+    ASSERT_EQ(run.status, 0) << run.err;
+    EXPECT_NE(run.out.find("note: nodes 'L', 'N', 'pos' and 'neg' are undetermined"),
+              std::string::npos)
+        << command << "\n"
+        << run.out;
+  }
 }
 
 TEST(Undetermined, NoDemoHasTheNote) {
