@@ -9,6 +9,7 @@
 
 #include "exit_status.h"
 #include "knee/netlist.h"
+#include "knee/sweep.h"
 #include "options.h"
 #include "pipeline.h"
 #include "report.h"
@@ -68,8 +69,12 @@ const char* SolverMethodName(const SolverOptions& options);
 // The classic solver's name says whether junction limiting was on (--no-limiting).
 const char* SolverMethodName(SolverMethod method, bool junction_limiting = true);
 
-// The solver's account of one bias-point solve: the one place that turns a SolveSummary
-// into the report footer, so that every command that solves one point says the same.
+// The solver's account (the report footer, the JSON "solver" block) of every command,
+// from the stats of all its solves (AddSolveToStats, MergeSweepStats): the one place that
+// fills it, so that bias, hand, sweep, spread and sensitivity say the same of the same
+// solves. The method is every solver that produced a point, else the one asked for.
+SolverAccount AccountOf(const SweepStats& stats, const SolverOptions& options);
+// AccountOf the stats of one bias-point solve.
 SolverAccount BiasPointAccount(const SolveSummary& summary, const SolverOptions& options);
 
 }  // namespace knee::cli

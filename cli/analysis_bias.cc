@@ -60,19 +60,34 @@ const char* SolverMethodName(SolverMethod method, bool junction_limiting) {
   return "Newton-Raphson";
 }
 
-SolverAccount BiasPointAccount(const SolveSummary& summary, const SolverOptions& options) {
+SolverAccount AccountOf(const SweepStats& stats, const SolverOptions& options) {
   SolverAccount account;
-  account.points = 1;
-  account.newton_steps = summary.newton_steps;
-  account.max_newton_steps = summary.newton_steps;
-  account.aids = summary.aids;
-  account.method = SolverMethodName(summary.method, options.junction_limiting);
-  account.unique = summary.unique && summary.status == SolveStatus::kConverged;
-  account.max_kcl_residual = summary.max_kcl_residual;
-  account.worst_node = summary.worst_node;
-  account.faint_nodes = summary.faint_nodes;
+  account.points = stats.points;
+  account.newton_steps = stats.newton_steps;
+  account.max_newton_steps = stats.max_newton_steps;
+  account.aids = stats.aids;
+  account.method = SolverMethodName(options);
+  if (!stats.methods.empty()) {
+    std::string methods;
+    for (SolverMethod m : stats.methods) {
+      methods += (methods.empty() ? "" : "; ") +
+                 std::string(SolverMethodName(m, options.junction_limiting));
+    }
+    account.method = methods;
+  }
+  account.unique = stats.unique && stats.points > stats.failed;
+  account.max_kcl_residual = stats.max_kcl_residual;
+  account.worst_node = stats.worst_node;
+  account.undetermined_nodes = stats.undetermined_nodes;
   account.current_tol = options.abs_current_tol;
   return account;
+}
+
+SolverAccount BiasPointAccount(const SolveSummary& summary, const SolverOptions& options) {
+  SweepStats stats;
+  AddSolveToStats(summary, &stats);
+  if (summary.status != SolveStatus::kConverged) stats.failed = 1;
+  return AccountOf(stats, options);
 }
 
 Report StartReport(const LoadedDesign& loaded, const char* analysis) {

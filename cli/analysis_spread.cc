@@ -141,8 +141,7 @@ class SpreadWorker {
     return {x.begin(), x.end()};
   }
 
-  SolverAccount account;
-  bool unique = true;
+  SweepStats stats;  // of every solve of this worker's samples
 
  private:
   std::string SolveBias(std::span<const double> draws, double* out) {
@@ -155,7 +154,8 @@ class SpreadWorker {
       summary = solver_->Solve(&solution_);
       summary.newton_steps += warm_steps;
     }
-    Account(summary);
+    AddSolveToStats(summary, &stats);
+    if (summary.status != SolveStatus::kConverged) ++stats.failed;
     solved_ = summary.status == SolveStatus::kConverged;
     if (!solved_) {
       return fmt::format("{}: {}", ToString(summary.status), summary.detail);
@@ -202,18 +202,10 @@ class SpreadWorker {
           failure = fmt::format("{}: {}", ToString(summary.status), summary.detail);
         }
       };
-      SweepStats stats = RunSweep(circuit_, grid, blocks, 0, blocks.total, apply,
-                                  job_.options->solver, sweep_options, sink);
-      if (!stats.setup_error.empty()) return stats.setup_error;
-      account.points += stats.points;
-      account.newton_steps += stats.newton_steps;
-      account.max_newton_steps = std::max(account.max_newton_steps, stats.max_newton_steps);
-      for (const std::string& aid : stats.aids) AddAid(aid);
-      unique = unique && stats.unique;
-      if (stats.max_kcl_residual > account.max_kcl_residual) {
-        account.max_kcl_residual = stats.max_kcl_residual;
-        account.worst_node = stats.worst_node;
-      }
+      SweepStats part = RunSweep(circuit_, grid, blocks, 0, blocks.total, apply,
+                                 job_.options->solver, sweep_options, sink);
+      if (!part.setup_error.empty()) return part.setup_error;
+      MergeSweepStats(part, &stats);
     }
     return failure;
   }
@@ -233,26 +225,6 @@ class SpreadWorker {
       for (size_t u = 0; u < n; ++u) start_[u] += slope[u] * offset;
     }
     return start_;
-  }
-
-  void AddAid(const std::string& aid) {
-    if (std::find(account.aids.begin(), account.aids.end(), aid) == account.aids.end()) {
-      account.aids.push_back(aid);
-    }
-  }
-
-  void Account(const SolveSummary& s) {
-    ++account.points;
-    account.newton_steps += s.newton_steps;
-    account.max_newton_steps = std::max(account.max_newton_steps, s.newton_steps);
-    for (const std::string& aid : s.aids) AddAid(aid);
-    if (s.status == SolveStatus::kConverged) {
-      unique = unique && s.unique;
-      if (s.max_kcl_residual > account.max_kcl_residual) {
-        account.max_kcl_residual = s.max_kcl_residual;
-        account.worst_node = s.worst_node;
-      }
-    }
   }
 
   const SpreadJob& job_;
@@ -603,26 +575,9 @@ SpreadOutcome AnalyzeSpread(const LoadedDesign& loaded,
   }
   for (const std::string& f : r.failures) r.unsolved += f.empty() ? 0 : 1;
 
-  SolverAccount& a = r.account;
-  a.method = SolverMethodName(options.solver);
-  bool unique = true;
-  for (const auto& w : workers) {
-    const SolverAccount& s = w->account;
-    a.points += s.points;
-    a.newton_steps += s.newton_steps;
-    a.max_newton_steps = std::max(a.max_newton_steps, s.max_newton_steps);
-    for (const std::string& aid : s.aids) {
-      if (std::find(a.aids.begin(), a.aids.end(), aid) == a.aids.end()) a.aids.push_back(aid);
-    }
-    if (s.max_kcl_residual > a.max_kcl_residual) {
-      a.max_kcl_residual = s.max_kcl_residual;
-      a.worst_node = s.worst_node;
-    }
-    unique = unique && w->unique;
-  }
-  std::sort(a.aids.begin(), a.aids.end());
-  a.unique = unique && r.unsolved < count;
-  a.current_tol = options.solver.abs_current_tol;
+  SweepStats all;
+  for (const auto& w : workers) MergeSweepStats(w->stats, &all);
+  r.account = AccountOf(all, options.solver);
 
   Summarize(checks, options, &r);
   out.outcome.point_failed = r.unsolved > 0;

@@ -484,24 +484,7 @@ AnalysisResult AnalyzeSweep(const LoadedDesign& loaded, const std::vector<SweepA
   if (std::string caution = HighVoltageCaution(largest); !caution.empty()) {
     report.cautions.push_back(caution);
   }
-  SolverAccount& account = report.account;
-  account.points = stats.points;
-  account.newton_steps = stats.newton_steps;
-  account.max_newton_steps = stats.max_newton_steps;
-  account.aids = stats.aids;
-  if (!stats.methods.empty()) {
-    std::string methods;
-    for (SolverMethod m : stats.methods) {
-      methods += (methods.empty() ? "" : "; ") +
-                 std::string(SolverMethodName(m, options.solver.junction_limiting));
-    }
-    account.method = methods;
-  }
-  account.unique = stats.unique && stats.points > stats.failed;
-  account.max_kcl_residual = stats.max_kcl_residual;
-  account.worst_node = stats.worst_node;
-  account.faint_nodes = stats.faint_nodes;
-  account.current_tol = options.solver.abs_current_tol;
+  report.account = AccountOf(stats, options.solver);
   result.outcome.point_failed = stats.failed > 0;
   return result;
 }

@@ -76,10 +76,10 @@ struct SolverAccount {
   std::vector<std::string> aids;  // every aid needed at any point, first use order
   double max_kcl_residual = 0;    // A, largest over all reported points
   std::string worst_node;
-  // Nodes whose every current stayed below the current tolerance and whose voltages
-  // the solver could not settle more finely (SolveSummary::faint_nodes).
-  std::vector<std::string> faint_nodes;
-  double current_tol = 0;  // A, the tolerance they are below
+  // Nodes whose voltages a stray current of current_tol moves by more than
+  // kUndeterminedVolts (SolveSummary::undetermined_nodes).
+  std::vector<std::string> undetermined_nodes;
+  double current_tol = 0;  // A, the solver's abs_current_tol
 };
 
 struct Report {

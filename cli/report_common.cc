@@ -1,6 +1,10 @@
 #include "report_common.h"
 
+#include <fmt/format.h>
+
 #include <cmath>
+
+#include "knee/solver.h"
 
 namespace knee::cli {
 
@@ -64,6 +68,27 @@ nlohmann::ordered_json JsonLocation(const SourceLocation& where) {
   return {{"file", where.file}, {"line", where.line}, {"column", where.column}};
 }
 
+// 'a', 'b' and 'c'
+std::string QuotedList(const std::vector<std::string>& names) {
+  std::string out;
+  for (size_t i = 0; i < names.size(); ++i) {
+    if (i > 0) out += i + 1 == names.size() ? " and " : ", ";
+    out += "'" + names[i] + "'";
+  }
+  return out;
+}
+
+std::string UndeterminedNote(const SolverAccount& a) {
+  if (a.undetermined_nodes.empty()) return "";
+  const bool one = a.undetermined_nodes.size() == 1;
+  return fmt::format(
+      "note: node{} {} {} undetermined: a stray current of {:.3g} A can move {} by more than "
+      "{:.3g} mV (held only by leakage or by saturated junctions, e.g. matched reverse-biased "
+      "diodes in series with no other path), so {} set by leakage the model does not have\n",
+      one ? "" : "s", QuotedList(a.undetermined_nodes), one ? "is" : "are", a.current_tol,
+      one ? "it" : "them", 1e3 * kUndeterminedVolts, one ? "its voltage is" : "their voltages are");
+}
+
 nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
   return {{"method", a.method},
           {"unique", a.unique},
@@ -73,7 +98,7 @@ nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
           {"aids", a.aids},
           {"max_kcl_residual_a", a.max_kcl_residual},
           {"worst_node", a.worst_node},
-          {"faint_nodes", a.faint_nodes}};
+          {"undetermined_nodes", a.undetermined_nodes}};
 }
 
 nlohmann::ordered_json JsonExpectation(const ExpectationCheck& e) {

@@ -4,6 +4,7 @@
 
 #include <nlohmann/json.hpp>
 #include <string>
+#include <vector>
 
 #include "report.h"
 
@@ -26,6 +27,11 @@ nlohmann::ordered_json JsonNumber(double value);
 nlohmann::ordered_json JsonLocation(const SourceLocation& where);
 // The `solver` member of docs/json-schema.md.
 nlohmann::ordered_json JsonSolverAccount(const SolverAccount& account);
+
+// 'a', 'b' and 'c'
+std::string QuotedList(const std::vector<std::string>& names);
+// The note under a text report that names the account's undetermined nodes ("" if none).
+std::string UndeterminedNote(const SolverAccount& account);
 // One element of the `expectations` member of docs/json-schema.md.
 nlohmann::ordered_json JsonExpectation(const ExpectationCheck& check);
 

@@ -228,6 +228,7 @@ std::string WriteHandTable(const HandReport& r) {
   if (!a.worst_node.empty()) residual += " at " + a.worst_node;
   out += fmt::format("\nsolver (exact model): {}, {} Newton steps, {}; {}\n", a.method,
                      a.newton_steps, aids, residual);
+  out += UndeterminedNote(a);
   return out;
 }
 

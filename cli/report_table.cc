@@ -64,16 +64,6 @@ std::string Expectations(const Report& report) {
   return out;
 }
 
-// 'a', 'b' and 'c'
-std::string QuotedList(const std::vector<std::string>& names) {
-  std::string out;
-  for (size_t i = 0; i < names.size(); ++i) {
-    if (i > 0) out += i + 1 == names.size() ? " and " : ", ";
-    out += "'" + names[i] + "'";
-  }
-  return out;
-}
-
 std::string Account(const Report& report) {
   const SolverAccount& a = report.account;
   std::string aids =
@@ -95,15 +85,7 @@ std::string Account(const Report& report) {
   const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
   std::string out =
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
-  if (!a.faint_nodes.empty()) {
-    out += fmt::format(
-        "note: the voltage{} of node{} {} barely change{} any current (held only by faint "
-        "or saturated junctions, e.g. matched reverse-biased diodes in series): KCL at "
-        "{:.3g} A does not fix {}, so treat {} as undetermined\n",
-        a.faint_nodes.size() == 1 ? "" : "s", a.faint_nodes.size() == 1 ? "" : "s",
-        QuotedList(a.faint_nodes), a.faint_nodes.size() == 1 ? "s" : "", a.current_tol,
-        a.faint_nodes.size() == 1 ? "it" : "them", a.faint_nodes.size() == 1 ? "it" : "them");
-  }
+  out += UndeterminedNote(a);
   return out;
 }
 

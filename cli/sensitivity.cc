@@ -123,17 +123,7 @@ SensitivityResult AnalyzeSensitivity(const LoadedDesign& loaded,
   }
   Solution solution;
   const SolveSummary summary = (*solver)->Solve(&solution);
-  SolverAccount& account = report.account;
-  account.points = 1;
-  account.newton_steps = summary.newton_steps;
-  account.max_newton_steps = summary.newton_steps;
-  account.aids = summary.aids;
-  account.method = SolverMethodName(summary.method, options.solver.junction_limiting);
-  account.unique = summary.unique && summary.status == SolveStatus::kConverged;
-  account.max_kcl_residual = summary.max_kcl_residual;
-  account.worst_node = summary.worst_node;
-  account.faint_nodes = summary.faint_nodes;
-  account.current_tol = options.solver.abs_current_tol;
+  report.account = BiasPointAccount(summary, options.solver);
   if (summary.status != SolveStatus::kConverged) {
     report.failures.push_back(
         {0, "", fmt::format("{}: {}", ToString(summary.status), summary.detail)});

@@ -217,8 +217,8 @@ void BindBias(py::module_& m) {
       .def_property_readonly("newton_steps",
                              [](const BiasResult& b) { return b.summary.newton_steps; })
       .def_property_readonly("aids", [](const BiasResult& b) { return b.summary.aids; })
-      .def_property_readonly("faint_nodes",
-                             [](const BiasResult& b) { return b.summary.faint_nodes; })
+      .def_property_readonly("undetermined_nodes",
+                             [](const BiasResult& b) { return b.summary.undetermined_nodes; })
       .def("__repr__", [](const BiasResult& b) {
         std::string items;
         for (size_t i = 0; i < b.show.size(); ++i) {
@@ -337,8 +337,8 @@ void BindSweep(py::module_& m) {
           "residual", [](const SweepResult& s) { return s.stats.max_kcl_residual; },
           "Largest KCL residual over the solved points in A")
       .def_property_readonly("worst_node", [](const SweepResult& s) { return s.stats.worst_node; })
-      .def_property_readonly("faint_nodes",
-                             [](const SweepResult& s) { return s.stats.faint_nodes; })
+      .def_property_readonly("undetermined_nodes",
+                             [](const SweepResult& s) { return s.stats.undetermined_nodes; })
       .def_property_readonly(
           "solver", [](const SweepResult& s) { return MethodNames(s.stats.methods); },
           "The solvers that produced the points, in order of first use")

@@ -17,6 +17,7 @@
 #include "newton.h"
 #include "potential.h"
 #include "tuning.h"
+#include "undetermined.h"
 
 namespace knee {
 
@@ -71,6 +72,7 @@ struct BiasSolver::Impl {
   std::vector<double> converged;  // unknowns of the last converged solve
   std::vector<double> node_residual, node_allowance, node_flow;  // Verify's, with islands
   std::vector<double> spread;                                    // LooseNodes' |J^-1 t|
+  internal::UndeterminedTest undetermined;                       // NameUndetermined's
   // Whether klu holds the exact Jacobian's factors from the run that converged (the
   // solver's exact_factors()), which LooseNodes may then use as they are.
   bool factors_exact = false;
@@ -162,6 +164,14 @@ struct BiasSolver::Impl {
   // more than any diode could is out of range (forced_junctions.h).
   void CheckLoopJunctions(SolveSummary* s);
   void Fill(Solution* solution) const;
+  // The nodes a verified answer leaves undetermined (undetermined.h), from the exact
+  // Jacobian that Verify assembled at x.
+  void NameUndetermined(SolveSummary* s) {
+    if (s->status != SolveStatus::kConverged) return;
+    for (int u : undetermined.Run(*circuit, mna, x, options, klu, factors_exact, probe)) {
+      s->undetermined_nodes.push_back(mna.UnknownName(u));
+    }
+  }
 };
 
 }  // namespace knee

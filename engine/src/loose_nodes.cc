@@ -23,9 +23,9 @@ using internal::NewtonOutcome;
 // test: the voltage change that currents of the size of the tolerance cause,
 // |J^-1 t| with t_r = abs_current_tol (ToleranceSpread), exceeds the voltage tolerance.
 // A loose point is taken one Newton run further with the current tolerance scaled down
-// until it would fix those nodes (down to LooseNodeTuning::current_floor), from the point itself;
-// the nodes still loose afterwards (all of them, if that run fails or does not verify)
-// are named.
+// until it would fix those nodes (down to LooseNodeTuning::current_floor), from the point
+// itself (the settling runs of docs/solver.md). This test only steers those runs; what a
+// report names is the separate undetermined-node test (undetermined.h, NameUndetermined).
 std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool rounding,
                                               double* scale) {
   std::vector<int> loose;
@@ -201,16 +201,7 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
     saved = x;
     loose = LooseNodes(judged(), /*rounding=*/false, &scale);
   }
-  s->faint_tolerance = tight.abs_current_tol;
-  std::vector<int> still = loose;
-  if (kept) {
-    // Settled, except where the rounding of the residual alone moves a node by more than
-    // the voltage tolerance (|J^-1 a|, a the round-off allowance): there the equations do
-    // not fix the voltage in double precision.
-    double ignored = 1.0;
-    still = LooseNodes(judged(), /*rounding=*/true, &ignored);
-  }
-  for (int u : still) s->faint_nodes.push_back(mna.UnknownName(u));
+  s->settling_current_tol = tight.abs_current_tol;
 }
 
 }  // namespace knee

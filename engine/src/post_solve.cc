@@ -55,6 +55,7 @@ void BiasSolver::Impl::Conclude(SolveSummary* s, Solution* solution) {
   RerootIslands(s);
   ResolveFaintNodes(s);
   Verify(s);
+  NameUndetermined(s);
   CheckLoopJunctions(s);
   if (solution != nullptr) Fill(solution);
   if (s->status == SolveStatus::kConverged) converged = x;

@@ -85,13 +85,13 @@ std::pair<long long, long long> ShardPoints(const SweepGrid& grid, int shard, in
 
 namespace {
 
-// Adds names not seen yet, up to kMaxFaintNodes.
-void AddFaint(const std::vector<std::string>& names, SweepStats* stats) {
+// Adds names not seen yet, up to kMaxUndeterminedNodes.
+void AddUndetermined(const std::vector<std::string>& names, SweepStats* stats) {
   for (const std::string& n : names) {
-    if (stats->faint_nodes.size() >= kMaxFaintNodes) return;
-    if (std::find(stats->faint_nodes.begin(), stats->faint_nodes.end(), n) ==
-        stats->faint_nodes.end()) {
-      stats->faint_nodes.push_back(n);
+    if (stats->undetermined_nodes.size() >= kMaxUndeterminedNodes) return;
+    if (std::find(stats->undetermined_nodes.begin(), stats->undetermined_nodes.end(), n) ==
+        stats->undetermined_nodes.end()) {
+      stats->undetermined_nodes.push_back(n);
     }
   }
 }
@@ -222,27 +222,7 @@ class Worker {
     return summary->status == SolveStatus::kConverged;
   }
 
-  void Account(const SolveSummary& summary) {
-    ++stats.points;
-    stats.newton_steps += summary.newton_steps;
-    stats.max_newton_steps = std::max(stats.max_newton_steps, summary.newton_steps);
-    if (std::find(stats.methods.begin(), stats.methods.end(), summary.method) ==
-        stats.methods.end()) {
-      stats.methods.push_back(summary.method);
-    }
-    if (summary.status == SolveStatus::kConverged) stats.unique = stats.unique && summary.unique;
-    for (const std::string& aid : summary.aids) {
-      if (std::find(stats.aids.begin(), stats.aids.end(), aid) == stats.aids.end()) {
-        stats.aids.push_back(aid);
-      }
-    }
-    if (summary.status == SolveStatus::kConverged) AddFaint(summary.faint_nodes, &stats);
-    if (summary.status == SolveStatus::kConverged &&
-        summary.max_kcl_residual > stats.max_kcl_residual) {
-      stats.max_kcl_residual = summary.max_kcl_residual;
-      stats.worst_node = summary.worst_node;
-    }
-  }
+  void Account(const SolveSummary& summary) { AddSolveToStats(summary, &stats); }
 
   Circuit circuit_;
   const SweepGrid& grid_;
@@ -304,6 +284,28 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
   return total;
 }
 
+void AddSolveToStats(const SolveSummary& summary, SweepStats* stats) {
+  ++stats->points;
+  stats->newton_steps += summary.newton_steps;
+  stats->max_newton_steps = std::max(stats->max_newton_steps, summary.newton_steps);
+  if (std::find(stats->methods.begin(), stats->methods.end(), summary.method) ==
+      stats->methods.end()) {
+    stats->methods.push_back(summary.method);
+  }
+  for (const std::string& aid : summary.aids) {
+    if (std::find(stats->aids.begin(), stats->aids.end(), aid) == stats->aids.end()) {
+      stats->aids.push_back(aid);
+    }
+  }
+  if (summary.status != SolveStatus::kConverged) return;
+  stats->unique = stats->unique && summary.unique;
+  AddUndetermined(summary.undetermined_nodes, stats);
+  if (summary.max_kcl_residual > stats->max_kcl_residual) {
+    stats->max_kcl_residual = summary.max_kcl_residual;
+    stats->worst_node = summary.worst_node;
+  }
+}
+
 void MergeSweepStats(const SweepStats& s, SweepStats* total) {
   total->points += s.points;
   total->failed += s.failed;
@@ -320,7 +322,7 @@ void MergeSweepStats(const SweepStats& s, SweepStats* total) {
       total->aids.push_back(aid);
     }
   }
-  AddFaint(s.faint_nodes, total);
+  AddUndetermined(s.undetermined_nodes, total);
   if (s.max_kcl_residual > total->max_kcl_residual) {
     total->max_kcl_residual = s.max_kcl_residual;
     total->worst_node = s.worst_node;

@@ -358,8 +358,8 @@ TEST(LooseNodes, SingularJacobianNamesOnlyTheUntiedNode) {
     Solution s;
     const SolveSummary summary = SolveWith(b.circuit(), method, &s);
     ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
-    ASSERT_EQ(summary.faint_nodes.size(), 1u) << ToString(method);
-    EXPECT_EQ(summary.faint_nodes[0], "mid");
+    ASSERT_EQ(summary.undetermined_nodes.size(), 1u) << ToString(method);
+    EXPECT_EQ(summary.undetermined_nodes[0], "mid");
     // Each junction carries -Is (the contract's law, reverse saturation); KCL at "mid"
     // holds whatever its voltage.
     EXPECT_CLOSE(s.element_current[2], -1e-12, 1e-9, 0.0);

@@ -115,7 +115,7 @@ TEST_P(FrozenNetwork, MethodsAgreeWhereKclFixesTheNode) {
   const std::vector<char> firm_a = FirmNodes(c, a.solution, 1e-12);
   const std::vector<char> firm_b = FirmNodes(c, b.solution, 1e-12);
   const auto loose = [&](const std::string& name) {
-    for (const auto* list : {&a.summary.faint_nodes, &b.summary.faint_nodes}) {
+    for (const auto* list : {&a.summary.undetermined_nodes, &b.summary.undetermined_nodes}) {
       if (std::find(list->begin(), list->end(), name) != list->end()) return true;
     }
     return false;

@@ -105,7 +105,7 @@ int main(int argc, char** argv) {
       continue;
     }
     steps.push_back(r.newton_steps);
-    if (r.faint_nodes > 0) ++with_faint;
+    if (r.undetermined_nodes > 0) ++with_faint;
     aids[r.aids.empty() ? "none" : r.aids]++;
     worst_residual = std::max(worst_residual, r.max_kcl_residual);
     if (verbose) fmt::print("seed {}: {} steps, aids: {}\n", r.seed, r.newton_steps, r.aids);
@@ -138,8 +138,7 @@ int main(int argc, char** argv) {
     fmt::print("aids needed:\n");
     for (const auto& [name, n] : aids) fmt::print("  {}: {}\n", name, n);
     fmt::print("largest KCL residual of a verified solution: {:.3g} A\n", worst_residual);
-    fmt::print("solutions with nodes fixed only to the current tolerance (faint): {}\n",
-               with_faint);
+    fmt::print("solutions with undetermined nodes: {}\n", with_faint);
   }
   return failed == 0 ? 0 : 1;
 }

@@ -25,7 +25,7 @@ CaseResult RunCase(uint64_t seed, const GeneratorOptions& options,
   Solution solution;
   const SolveSummary summary = (*solver)->Solve(&solution);
   r.newton_steps = summary.newton_steps;
-  r.faint_nodes = static_cast<int>(summary.faint_nodes.size());
+  r.undetermined_nodes = static_cast<int>(summary.undetermined_nodes.size());
   r.aids = fmt::format("{}", fmt::join(summary.aids, ","));
   r.status = ToString(summary.status);
   r.converged = summary.status == SolveStatus::kConverged;

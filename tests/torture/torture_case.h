@@ -19,7 +19,7 @@ struct CaseResult {
   std::string aids;  // comma separated, "" for none
   double max_kcl_residual = 0;
   int elements = 0;
-  int faint_nodes = 0;  // nodes the solver reported as fixed only to the current tolerance
+  int undetermined_nodes = 0;  // nodes the solver reported undetermined
 };
 
 CaseResult RunCase(uint64_t seed, const GeneratorOptions& options,

@@ -169,7 +169,7 @@ void ExpectBothConvergeAndAgree(uint64_t seed) {
     EXPECT_EQ(summary.method, method) << "seed " << seed;
     const Verification check = VerifySolution(c, by_method[k]);
     EXPECT_TRUE(check.ok) << "seed " << seed << ": " << check.problem;
-    loose.insert(loose.end(), summary.faint_nodes.begin(), summary.faint_nodes.end());
+    loose.insert(loose.end(), summary.undetermined_nodes.begin(), summary.undetermined_nodes.end());
     ++k;
   }
   const std::vector<double> res_a = RoundOffResolution(c, by_method[0]);

@@ -96,6 +96,15 @@ struct Solution {
   std::vector<double> small_signal_res;  // Ohm, dV/dI of diodes (NaN for others)
 };
 
+// V: the most a stray current of abs_current_tol, entering the circuit at any one node,
+// may move a node whose voltage the solution determines (SolveSummary::undetermined_nodes).
+// A tenth of the thermal voltage kT/q at 300 K (25.85 mV): a junction's current changes by
+// a factor e per n thermal voltages, so a node known to better than this fixes every
+// junction current at it to within 4 %. With the default 1e-12 A it is that current's
+// drop across 2.6 GOhm, so every node with a resistive path of at most 1 GOhm to gnd is
+// determined (docs/solver.md, "Undetermined nodes", has the derivation).
+inline constexpr double kUndeterminedVolts = 2.585e-3;
+
 // The solver's account of one solve.
 struct SolveSummary {
   SolveStatus status = SolveStatus::kNoConvergence;
@@ -109,13 +118,16 @@ struct SolveSummary {
   std::string worst_node;              // node where that residual occurs
   std::string detail;                  // why it stopped, with the numbers
   std::vector<std::string> unsettled;  // nodes/devices still moving at the end, on failure
-  // Loose nodes: moving one by the voltage tolerance changes its current by less than the
-  // current tolerance, so KCL at that tolerance does not fix its voltage (nodes held only
-  // by faint or saturated junctions). The solve tries again with a current tolerance
-  // scaled to them (faint_tolerance); the names are of those still loose after that,
-  // whose voltages are not determined by the equations in double precision.
-  std::vector<std::string> faint_nodes;
-  double faint_tolerance = 0.0;  // A; 0 when no node was faint
+  // Undetermined nodes of a converged solution: a stray current of abs_current_tol
+  // entering the circuit at some node moves each of them by more than kUndeterminedVolts,
+  // so the equations do not fix their voltages (nodes held only by
+  // 1e-20 A leakage, or between matched reverse-biased junctions with no other path).
+  // A node with a resistive path of at most 1 GOhm to gnd is never one at the default
+  // tolerances. See docs/solver.md, "Undetermined nodes".
+  std::vector<std::string> undetermined_nodes;
+  // A: the current tolerance of the extra Newton runs that settled nodes the solve's own
+  // tolerance held only loosely (docs/solver.md, "Settling runs"); 0 when none ran.
+  double settling_current_tol = 0.0;
 };
 
 // One record per Newton step, for --trace.

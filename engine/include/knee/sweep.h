@@ -71,7 +71,7 @@ using ApplyPoint = std::function<std::string(std::span<const double> values, Cir
 using PointSink =
     std::function<void(long long index, const SolveSummary& summary, const Solution* solution)>;
 
-inline constexpr size_t kMaxFaintNodes = 20;
+inline constexpr size_t kMaxUndeterminedNodes = 20;
 
 struct SweepStats {
   long long points = 0;
@@ -79,9 +79,9 @@ struct SweepStats {
   long long newton_steps = 0;
   int max_newton_steps = 0;
   std::vector<std::string> aids;
-  // Nodes reported faint at any solved point (SolveSummary::faint_nodes), first seen
-  // first, at most kMaxFaintNodes of them.
-  std::vector<std::string> faint_nodes;
+  // Nodes undetermined at any solved point (SolveSummary::undetermined_nodes), first seen
+  // first, at most kMaxUndeterminedNodes of them.
+  std::vector<std::string> undetermined_nodes;
   std::vector<SolverMethod> methods;  // solvers that produced the points, first use order
   bool unique = true;                 // every solved point's solution is unique
   double max_kcl_residual = 0;
@@ -97,6 +97,11 @@ SweepStats RunSweep(const Circuit& circuit, const SweepGrid& grid, const SweepBl
                     long long first_point, long long end_point, const ApplyPoint& apply,
                     const SolverOptions& solver_options, const SweepOptions& options,
                     const PointSink& sink);
+
+// Adds one solve to *stats: a point, its steps, method and aids, and, when it converged,
+// its uniqueness, undetermined nodes and residual (failed points are counted by the
+// caller, which knows whether the point is reported).
+void AddSolveToStats(const SolveSummary& summary, SweepStats* stats);
 
 // Adds the account of `part` (a later window of the same sweep) to *total.
 void MergeSweepStats(const SweepStats& part, SweepStats* total);
