@@ -170,6 +170,9 @@ class Device {
   // voltage source, a junction without series resistance): the island roots prefer the
   // nodes of such elements (mna.cc, FindIslands).
   static bool CarriesAnyCurrent(const Circuit&, const Element&) { return false; }
+  // The conductance (S) the element offers between its nodes at a measured point, for the
+  // graph readings of which nodes a stray current can move (a current source: none).
+  static double ConductanceAt(const Element&, const DeviceReport&) { return 0.0; }
 
  private:
   int element_;

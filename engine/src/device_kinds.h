@@ -52,4 +52,8 @@ inline double OwnConductance(const Circuit& c, const Element& e) {
   return WithDeviceClass(e.kind, [&](auto t) { return decltype(t)::type::OwnConductance(c, e); });
 }
 
+inline double ConductanceAt(const Element& e, const DeviceReport& r) {
+  return WithDeviceClass(e.kind, [&](auto t) { return decltype(t)::type::ConductanceAt(e, r); });
+}
+
 }  // namespace knee::internal

@@ -139,6 +139,9 @@ class Diode final : public Device {
     *span += std::max(exponents, kLogDoubleMax - d.log_is) * d.n_vt;
     if (d.has_breakdown) *span += std::fabs(d.vbr) + exponents * d.nbr_vt;
   }
+  static double ConductanceAt(const Element&, const DeviceReport& r) {
+    return 1.0 / r.small_signal_res;
+  }
   static double OwnConductance(const Circuit& c, const Element& e) {
     if (!HasPart(c, e)) return 0.0;
     const double rs = c.parts[static_cast<size_t>(e.part)].model.series_res / e.area;

@@ -38,6 +38,9 @@ class Resistor final : public Device {
   static double OwnConductance(const Circuit&, const Element& e) {
     return e.value > 0.0 ? 1.0 / e.value : 0.0;
   }
+  static double ConductanceAt(const Element& e, const DeviceReport&) {
+    return 1.0 / std::fabs(e.value);
+  }
   Resistor(const Circuit& c, int element) : Device(element), pair_(Conductance::Of(c, element)) {
     UpdateValues(c);
   }
@@ -82,6 +85,8 @@ class Resistor final : public Device {
 // v(p) - v(n) = V; the branch current k flows from p through the source to n.
 class VoltageSource final : public Device {
  public:
+  // A voltage source fixes the difference of its nodes whatever current flows.
+  static double ConductanceAt(const Element&, const DeviceReport&) { return HUGE_VAL; }
   static std::optional<std::string> NonMonotone(const Circuit&, const Element& e) {
     return NonFiniteSource(e);
   }

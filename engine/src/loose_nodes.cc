@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "bias_impl.h"
+#include "device_kinds.h"
 #include "disjoint_set.h"
 
 namespace knee {
@@ -114,20 +115,8 @@ std::vector<int> BiasSolver::Impl::UntiedNodes(const SolverOptions& o, bool roun
                      o.rel_tol * std::fabs(x[static_cast<size_t>(internal::UnknownOfNode(n))]);
   };
   each_element([&](const Element& e, const internal::DeviceReport& r) {
-    double g = 0.0;
-    switch (e.kind) {
-      case ElementKind::kResistor:
-        g = 1.0 / std::fabs(e.value);
-        break;
-      case ElementKind::kVoltageSource:
-        g = HUGE_VAL;
-        break;
-      case ElementKind::kCurrentSource:
-        return;
-      case ElementKind::kDiode:
-        g = 1.0 / r.small_signal_res;
-        break;
-    }
+    const double g = internal::ConductanceAt(e, r);
+    if (!(g > 0.0)) return;
     const bool ties = g * std::min(tolerance(e.node_a), tolerance(e.node_b)) >=
                       std::max(uncertainty(e.node_a), uncertainty(e.node_b));
     if (ties) tied.Join(e.node_a, e.node_b);

@@ -4,6 +4,7 @@
 
 #include <cmath>
 
+#include "device_kinds.h"
 #include "devices.h"
 #include "disjoint_set.h"
 
@@ -89,20 +90,8 @@ std::vector<int> UntiedByLatitude(const Circuit& circuit, const MnaSystem& mna,
   DisjointSet sets(circuit.nodes.size());
   mna.devices().Measure(x, [&](int element, const DeviceReport& r) {
     const Element& e = circuit.elements[static_cast<size_t>(element)];
-    double g = 0.0;
-    switch (e.kind) {
-      case ElementKind::kResistor:
-        g = 1.0 / std::fabs(e.value);
-        break;
-      case ElementKind::kVoltageSource:
-        g = HUGE_VAL;
-        break;
-      case ElementKind::kCurrentSource:
-        return;
-      case ElementKind::kDiode:
-        g = 1.0 / r.small_signal_res;
-        break;
-    }
+    const double g = ConductanceAt(e, r);
+    if (!(g > 0.0)) return;
     if (g >= g_min) sets.Join(e.node_a, e.node_b);
   });
   std::vector<int> untied;
