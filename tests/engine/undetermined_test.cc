@@ -71,21 +71,27 @@ TEST_P(Undetermined, BridgeWithHundredGigohmBleedsIsNamed) {
   EXPECT_EQ(summary.undetermined_nodes, (std::vector<std::string>{"L", "N", "pos", "neg"}));
 }
 
+// kChainNodes nodes joined in a chain by 1 kOhm, the last held to gnd by `bleed` Ohm,
+// and a current `source` A into the first.
+constexpr int kChainNodes = 40;
+Circuit ChainOnBleed(double source, double bleed) {
+  CircuitBuilder b;
+  b.I("I1", "gnd", "c0", source);
+  for (int k = 0; k + 1 < kChainNodes; ++k) {
+    b.R("R" + std::to_string(k), "c" + std::to_string(k), "c" + std::to_string(k + 1), 1e3);
+  }
+  b.R("Rbleed", "c" + std::to_string(kChainNodes - 1), "gnd", bleed);
+  return b.circuit();
+}
+
 // Forty nodes joined in a chain by 1 kOhm, the last held to gnd by 1 GOhm, and a 1 uA
 // source into the first: every node's path to gnd is at most 1.00004 GOhm. The row sum
 // of the inverse Jacobian (forty picoamperes, one into every node, through the 1 GOhm)
 // moves the chain by 40 mV; a single stray picoampere, by 1 mV. The test judges by the
 // latter (the driving-point solve after the screen), so none is named.
 TEST_P(Undetermined, LongChainOnOneGigohmHasNone) {
-  CircuitBuilder b;
-  constexpr int kNodes = 40;
-  b.I("I1", "gnd", "c0", 1e-6);
-  for (int k = 0; k + 1 < kNodes; ++k) {
-    b.R("R" + std::to_string(k), "c" + std::to_string(k), "c" + std::to_string(k + 1), 1e3);
-  }
-  b.R("Rbleed", "c" + std::to_string(kNodes - 1), "gnd", 1e9);
   Solution s;
-  const SolveSummary summary = SolveWith(b.circuit(), GetParam(), &s);
+  const SolveSummary summary = SolveWith(ChainOnBleed(1e-6, 1e9), GetParam(), &s);
   ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
   EXPECT_TRUE(summary.undetermined_nodes.empty());
 }
@@ -93,17 +99,10 @@ TEST_P(Undetermined, LongChainOnOneGigohmHasNone) {
 // The same chain on 4 GOhm: 4 mV per stray picoampere, beyond kUndeterminedVolts (2.6 mV),
 // at every node.
 TEST_P(Undetermined, LongChainOnFourGigohmIsNamed) {
-  CircuitBuilder b;
-  constexpr int kNodes = 40;
-  b.I("I1", "gnd", "c0", 1e-9);
-  for (int k = 0; k + 1 < kNodes; ++k) {
-    b.R("R" + std::to_string(k), "c" + std::to_string(k), "c" + std::to_string(k + 1), 1e3);
-  }
-  b.R("Rbleed", "c" + std::to_string(kNodes - 1), "gnd", 4e9);
   Solution s;
-  const SolveSummary summary = SolveWith(b.circuit(), GetParam(), &s);
+  const SolveSummary summary = SolveWith(ChainOnBleed(1e-9, 4e9), GetParam(), &s);
   ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
-  EXPECT_EQ(summary.undetermined_nodes.size(), static_cast<size_t>(kNodes));
+  EXPECT_EQ(summary.undetermined_nodes.size(), static_cast<size_t>(kChainNodes));
 }
 
 // A node held only by the leakage of 1e-20 A junctions (one to a 1 V supply, one to gnd,
@@ -164,7 +163,7 @@ TEST(UndeterminedLatitude, ChainMatchesSeriesResistance) {
   const SolverOptions options;
   const std::vector<int> named = test.Run(c, mna, x, options, unused, false, probe);
   EXPECT_TRUE(named.empty());
-  ASSERT_EQ(test.latitude().size(), static_cast<size_t>(kNodes));
+  ASSERT_EQ(test.latitude().size(), static_cast<size_t>(kChainNodes));
   for (int j = 0; j < kNodes; ++j) {
     const double z = 1e9 + (kNodes - 1 - j) * 1e3;
     // 1e-7: the chain's condition (1 mS against 1 nS over forty nodes, about 1e9) costs

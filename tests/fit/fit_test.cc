@@ -19,30 +19,7 @@ namespace {
 using testing::MakeData;
 using testing::Spec;
 using testing::Truth;
-
-double TruthOf(const Truth& t, FitKey key) {
-  switch (key) {
-    case FitKey::kSatCurrent:
-      return t.is;
-    case FitKey::kIdeality:
-      return t.n;
-    case FitKey::kSeriesRes:
-      return t.rs;
-    case FitKey::kBreakdownV:
-      return t.bv;
-    case FitKey::kBreakdownI:
-      return t.ibr;
-    case FitKey::kBreakdownIdeality:
-      return t.nbr;
-    case FitKey::kBreakdownTc:
-      return t.tc;
-    case FitKey::kBandgap:
-      return t.eg;
-    case FitKey::kSatTempExp:
-      return t.temp_exp;
-  }
-  return 0;
-}
+using testing::TruthOf;
 
 // The part every fit starts from: the truth's held values written explicitly, so that no
 // test depends on a default (bandgap's default is not assumed anywhere here).

@@ -19,11 +19,11 @@
 
 namespace knee::testing {
 
-// The key in the coordinate the fit moves (sat_current and breakdown_i as logarithms).
-inline double Coordinate(const Truth& t, FitKey key) {
+// The truth's value of a key.
+inline double TruthOf(const Truth& t, FitKey key) {
   switch (key) {
     case FitKey::kSatCurrent:
-      return std::log(t.is);
+      return t.is;
     case FitKey::kIdeality:
       return t.n;
     case FitKey::kSeriesRes:
@@ -31,7 +31,7 @@ inline double Coordinate(const Truth& t, FitKey key) {
     case FitKey::kBreakdownV:
       return t.bv;
     case FitKey::kBreakdownI:
-      return std::log(t.ibr);
+      return t.ibr;
     case FitKey::kBreakdownIdeality:
       return t.nbr;
     case FitKey::kBreakdownTc:
@@ -42,6 +42,12 @@ inline double Coordinate(const Truth& t, FitKey key) {
       return t.temp_exp;
   }
   return 0;
+}
+
+// The key in the coordinate the fit moves (sat_current and breakdown_i as logarithms).
+inline double Coordinate(const Truth& t, FitKey key) {
+  const bool logarithmic = key == FitKey::kSatCurrent || key == FitKey::kBreakdownI;
+  return logarithmic ? std::log(TruthOf(t, key)) : TruthOf(t, key);
 }
 
 inline Truth WithCoordinate(Truth t, FitKey key, double x) {
