@@ -342,6 +342,7 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
       const CheckDef& d = checks[c];
       if (d.stress) {
         sc.worst_value = d.stress->limit - sc.worst_margin;
+        if (sc.worst_value <= 0) sc.never = StressNeverText(d.stress->quantity);
       } else if (d.expect->is_bound() && !d.expect->bound) {
         sc.worst_value = d.expect->relation == Expectation::Relation::kAtMost
                              ? d.expect->expected - sc.worst_margin

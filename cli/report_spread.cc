@@ -109,7 +109,9 @@ std::string WriteSpreadTable(const SpreadReport& r) {
       out += fmt::format(
           "         worst: {} {}{}, margin {}; {}\n", r.corners ? "corner" : "sample",
           r.first + c.worst_row,
-          std::isnan(c.worst_value) ? "" : ", value " + FormatEng(c.worst_value, c.unit, 6),
+          !c.never.empty() ? ", " + c.never + " in any " + (r.corners ? "corner" : "sample")
+          : std::isnan(c.worst_value) ? ""
+                                      : ", value " + FormatEng(c.worst_value, c.unit, 6),
           FormatEng(c.worst_margin, c.unit, 4), DrawText(r, row));
     }
     if (!c.movers.empty()) {
@@ -260,6 +262,7 @@ std::string WriteSpreadJson(const SpreadReport& r) {
       worst = {{"sample", r.first + c.worst_row},
                {"value", JsonNumber(c.worst_value)},
                {"margin", JsonNumber(c.worst_margin)},
+               {"never", c.never.empty() ? Json(nullptr) : Json(c.never)},
                {"draws", draws_at}};
     }
     checks.push_back({{"kind", c.rating ? "rating" : "expect"},

@@ -25,6 +25,9 @@ struct SpreadCheck {
   long long worst_row = -1;  // row with the least margin (solved samples)
   double worst_value = 0;    // the checked value there
   double worst_margin = 0;
+  // A rating whose value never goes the rated way in any sample ("never reverse-biased"):
+  // the signed worst value is then the least of the other way and reads as nonsense.
+  std::string never;
   struct Mover {
     std::string target;  // a draw column
     double measure = 0;  // Spearman's rho, or the main effect on the margin (corners)

@@ -158,6 +158,8 @@ std::string RatedCheckName(const StressCheck& check, const Circuit& circuit) {
 
 const char* StressUnit(StressQuantity quantity) { return Info(quantity).unit; }
 
+const char* StressNeverText(StressQuantity quantity) { return Info(quantity).never; }
+
 void AddStressColumns(const std::vector<StressCheck>& checks, const Circuit& circuit,
                       Report* report) {
   int added = 0;

@@ -65,6 +65,9 @@ class StressRecorder {
 std::string RatedCheckName(const StressCheck& check, const Circuit& circuit);
 // The unit of a check's value: "A", "V" or "W".
 const char* StressUnit(StressQuantity quantity);
+// What a value <= 0 of the quantity means, named for people ("never reverse-biased"), or
+// "" when it has no rated direction (dissipation).
+const char* StressNeverText(StressQuantity quantity);
 
 // Appends the CSV-only columns "Dhi.i/max_current [%]" (use of each rating per row; the
 // unrated reverse current has none).

@@ -493,5 +493,37 @@ TEST(Spread, FirstOrderStartSavesNewtonSteps) {
   EXPECT_LT(mean, 4.0);
 }
 
+// A rated diode that is forward-biased in every sample is never reverse-biased: the spread
+// says so for its reverse-voltage rating, as the bias report does, instead of a negative
+// "worst reverse voltage"; the diode that does take reverse voltage gets its value.
+TEST(Spread, RatingNeverTakenTheRatedWaySaysSo) {
+  const std::string net =
+      "part r diode sat_current=10n ideality=1.75 max_reverse_v=50\n"
+      "vsource V1 in -> gnd 5\nresistor R1 in -> a 1k\ndiode Dfwd a -> gnd r\n"
+      "diode Drev gnd -> in r\nshow a.v\nvary R1 ±5%\n";
+  KneeRun table = RunKnee("spread - --samples 20", net);
+  ASSERT_EQ(table.status, 0) << table.err;
+  const auto line_after = [&](const std::string& name) {
+    const size_t at = table.out.find(name);
+    EXPECT_NE(at, std::string::npos) << name;
+    const size_t begin = table.out.find('\n', at) + 1;
+    return table.out.substr(begin, table.out.find('\n', begin) - begin);
+  };
+  EXPECT_NE(line_after("Dfwd.v/max_reverse_v").find("never reverse-biased in any sample"),
+            std::string::npos);
+  const std::string rev = line_after("Drev.v/max_reverse_v");
+  EXPECT_EQ(rev.find("never"), std::string::npos) << rev;
+  EXPECT_NE(rev.find("value 5 V"), std::string::npos) << rev;
+
+  KneeRun run = RunKnee("spread - --samples 20 --format json", net);
+  ASSERT_EQ(run.status, 0) << run.err;
+  const json checks = json::parse(run.out)["checks"];
+  ASSERT_EQ(checks.size(), 2u);
+  EXPECT_EQ(checks[0]["name"], "Dfwd.v/max_reverse_v");
+  EXPECT_EQ(checks[0]["worst"]["never"], "never reverse-biased");
+  EXPECT_LT(checks[0]["worst"]["value"].get<double>(), 0);  // JSON keeps the signed value
+  EXPECT_TRUE(checks[1]["worst"]["never"].is_null());
+}
+
 }  // namespace
 }  // namespace knee::testing
