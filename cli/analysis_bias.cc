@@ -80,6 +80,9 @@ SolverAccount AccountOf(const SweepStats& stats, const SolverOptions& options) {
   account.worst_node = stats.worst_node;
   account.undetermined_nodes = stats.undetermined_nodes;
   account.current_tol = options.abs_current_tol;
+  account.heated = stats.heated;
+  account.max_thermal_residual = stats.max_thermal_residual;
+  account.thermal_worst = stats.thermal_worst;
   return account;
 }
 
