@@ -348,7 +348,7 @@ SolveSummary BiasSolver::Impl::SolveHeated(Solution* solution, std::span<const d
   s.critical_thermal_res = s_end * path;
   const bool several = h > 1 || d.sink >= 0;
   s.detail = fmt::format(
-      "thermal runaway: {} loses its thermal balance at Tj = {:.4g} C (ambient {:.4g} C); its "
+      "{} loses its thermal balance at Tj = {:.4g} C (ambient {:.4g} C); its "
       "dissipation grows faster with temperature than its thermal path removes it. The critical "
       "thermal_res is {:.6g} K/W{}; the circuit has {:.6g} K/W",
       name, s.runaway_temp, ambient, s.critical_thermal_res,
