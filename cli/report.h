@@ -85,6 +85,7 @@ struct SolverAccount {
   bool heated = false;
   double max_thermal_residual = 0;
   std::string thermal_worst;
+  std::vector<std::string> thermal_notes;  // another thermal balance (docs/thermal.md)
 };
 
 struct Report {

@@ -103,6 +103,7 @@ nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
   if (a.heated) {
     j["max_thermal_residual_k"] = a.max_thermal_residual;
     j["thermal_worst_diode"] = a.thermal_worst;
+    j["thermal_notes"] = a.thermal_notes;
   }
   return j;
 }

@@ -90,6 +90,7 @@ std::string Account(const Report& report) {
   std::string out =
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
   out += UndeterminedNote(a);
+  for (const std::string& note : a.thermal_notes) out += "note: " + note + "\n";
   return out;
 }
 

@@ -126,6 +126,8 @@ struct BiasSolver::Impl {
   // J = I - s C dP/dT at the last bias point into thermal->jacobian; false when a
   // gradient cannot be computed.
   bool ThermalJacobian(double s);
+  // The single heated diode's next balance above temp (degC) up to the scan limit, or NaN.
+  double SeekOtherBalance(double temp);
 
   // --- set-up (screen.cc) ---
   void Classify();

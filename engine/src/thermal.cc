@@ -215,6 +215,47 @@ bool BiasSolver::Impl::RunBalance(double s, bool allow_aids, Solution* solution,
   return false;
 }
 
+// g(T) = T_a + (thermal_res + R_sink) P(T) - T of the one heated diode, P at fixed T, is
+// 0 at the balance found and falls above a stable one; where it rises back above 0 the
+// dissipation overtakes the thermal path again: another balance (the first of them an
+// unstable one). The bracket is narrowed by bisection to a hundredth of the scan step.
+double BiasSolver::Impl::SeekOtherBalance(double temp) {
+  ThermalState& t = *thermal;
+  const internal::ThermalTuning& tune = t.tuning;
+  const HeatedDiode& d = t.diodes[0];
+  const double path = d.thermal_res + SinkRes(*t.user, d);
+  const double ambient = t.user->temp;
+  const auto e = static_cast<size_t>(d.element);
+  std::vector<double> from(t.unknowns.begin(), t.unknowns.end() - 1);
+  Solution at;
+  double at_temp = 0.0;
+  const auto g = [&](double temp_c, double* value) {
+    at_temp = temp_c;
+    const SolveSummary s = SolveAtTemps({&at_temp, 1}, from, true, &at);
+    if (s.status != SolveStatus::kConverged) return false;
+    from.assign(converged.begin(), converged.end());
+    *value = ambient + path * at.element_voltage[e] * at.element_current[e] - temp_c;
+    return true;
+  };
+  double lo = temp;
+  for (double hi = temp + tune.scan_step; hi <= tune.scan_limit; hi += tune.scan_step) {
+    double value = 0.0;
+    if (!g(hi, &value)) return std::numeric_limits<double>::quiet_NaN();
+    if (value > 0.0) {
+      for (int k = 0; k < 7; ++k) {
+        const double mid = 0.5 * (lo + hi);
+        if (!g(mid, &value)) break;
+        (value > 0.0 ? hi : lo) = mid;
+      }
+      last_converged = false;
+      return 0.5 * (lo + hi);
+    }
+    lo = hi;
+  }
+  last_converged = false;
+  return std::numeric_limits<double>::quiet_NaN();
+}
+
 SolveSummary BiasSolver::Impl::SolveHeated(Solution* solution, std::span<const double> from,
                                            bool allow_aids) {
   ThermalState& t = *thermal;
@@ -300,6 +341,7 @@ SolveSummary BiasSolver::Impl::SolveHeated(Solution* solution, std::span<const d
     t.unknowns.assign(converged.begin(), converged.end());
     t.unknowns.insert(t.unknowns.end(), t.temp.begin(), t.temp.end());
     t.converged = true;
+    if (options.seek_other_balance && h == 1) s.other_balance_temp = SeekOtherBalance(t.temp[0]);
     return s;
   }
   // The branch from the isothermal point ends below s = 1. At its last point, a nearly

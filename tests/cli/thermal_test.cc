@@ -176,3 +176,27 @@ TEST(Thermal, RunawayIsExitOne) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+TEST(Thermal, AnotherBalanceIsNotedWhereItExistsOnly) {
+  // Leakage heating below the critical value: a stable balance near 30 C and an unstable
+  // one above the fold (36.2 C, tests/reference/thermal_scipy_check.py).
+  KneeRun leaky = RunKnee("bias - --format json",
+                          "part leaky diode sat_current=1m ideality=1.05 bandgap=0.69 "
+                          "thermal_res=80\nvsource V1 k -> gnd 40\ndiode D1 gnd -> k leaky\n");
+  ASSERT_EQ(leaky.status, 0) << leaky.err;
+  const json notes = json::parse(leaky.out)["solver"]["thermal_notes"];
+  ASSERT_EQ(notes.size(), 1u) << leaky.out;
+  EXPECT_TRUE(Has(notes[0].get<std::string>(), "D1 has another thermal balance near Tj = "));
+  // A rectifier at a forced current: its drop falls with temperature, one balance only.
+  KneeRun forced = RunKnee("bias - --format json", Forced("thermal_res=60"));
+  ASSERT_EQ(forced.status, 0) << forced.err;
+  EXPECT_TRUE(json::parse(forced.out)["solver"]["thermal_notes"].empty()) << forced.out;
+  KneeRun table = RunKnee("bias -", Forced("thermal_res=60"));
+  EXPECT_FALSE(Has(table.out, "another thermal balance")) << table.out;
+}
+
+}  // namespace
+}  // namespace knee::testing

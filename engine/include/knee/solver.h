@@ -70,6 +70,10 @@ struct SolverOptions {
   // diodes (a part with thermal_res, or a diode on a heatsink) with the node voltages;
   // true keeps every junction at its own temp= or the ambient, as if no diode were heated.
   bool isothermal = false;
+  // With a single heated diode: after the balance is found, scan its junction temperature
+  // upward (to 400 C, docs/thermal.md) for another balance and report it in
+  // SolveSummary::other_balance_temp. Costs a bias point per 5 K; knee bias turns it on.
+  bool seek_other_balance = false;
 };
 
 // Returns a message naming the field, its value and the rule broken, or nothing.
