@@ -79,28 +79,48 @@ double SinkRes(const Circuit& c, const HeatedDiode& d) {
 
 }  // namespace
 
+// The heated diodes and their thermal resistances are read again at every new set of
+// values: a sweep or spread may change a part's thermal_res (PART.thermal_res).
+static void SetDiodes(const Circuit& c, std::vector<HeatedDiode> diodes, ThermalState* t) {
+  t->user = &c;
+  t->diodes = std::move(diodes);
+  const size_t h = t->diodes.size();
+  t->temp.assign(h, c.temp);
+  t->power.assign(h, 0.0);
+  t->balance.assign(h, 0.0);
+  t->jacobian.assign(h * h, 0.0);
+  t->sink_power.assign(c.heatsinks.size(), 0.0);
+}
+
 void BiasSolver::Impl::StartThermal(const Circuit& c) {
   std::vector<HeatedDiode> diodes = internal::HeatedDiodes(c);
   if (diodes.empty()) return;
   thermal = std::make_unique<ThermalState>();
   ThermalState& t = *thermal;
-  t.user = &c;
   t.heated = c;
-  t.diodes = std::move(diodes);
-  const size_t h = t.diodes.size();
-  t.temp.assign(h, c.temp);
-  t.power.assign(h, 0.0);
-  t.balance.assign(h, 0.0);
-  t.jacobian.assign(h * h, 0.0);
-  t.sink_power.assign(c.heatsinks.size(), 0.0);
-  for (const HeatedDiode& d : t.diodes)
+  SetDiodes(c, std::move(diodes), &t);
+  for (const HeatedDiode& d : t.diodes) {
     t.heated.elements[static_cast<size_t>(d.element)].temp = c.temp;
+  }
   Update(t.heated);
 }
 
 void BiasSolver::Impl::UpdateThermal(const Circuit& c) {
   ThermalState& t = *thermal;
-  t.user = &c;
+  std::vector<HeatedDiode> diodes = internal::HeatedDiodes(c);
+  const bool same = diodes.size() == t.diodes.size() &&
+                    std::equal(diodes.begin(), diodes.end(), t.diodes.begin(),
+                               [](const HeatedDiode& a, const HeatedDiode& b) {
+                                 return a.element == b.element && a.sink == b.sink;
+                               });
+  if (same) {
+    t.diodes = std::move(diodes);  // new thermal resistances, same unknowns
+    t.user = &c;
+  } else {
+    // Other diodes are heated now (a temp= was given or removed): the elements whose
+    // temp= the copy took over are restored from `c` by the next refresh.
+    SetDiodes(c, std::move(diodes), &t);
+  }
   t.converged = false;
   last_converged = false;
 }
@@ -108,6 +128,7 @@ void BiasSolver::Impl::UpdateThermal(const Circuit& c) {
 int BiasSolver::Impl::ThermalCount() const { return static_cast<int>(thermal->diodes.size()); }
 
 std::span<const double> BiasSolver::Impl::ThermalUnknowns() const {
+  if (thermal->diodes.empty()) return converged;
   if (!thermal->converged) return {};
   return thermal->unknowns;
 }
@@ -263,6 +284,11 @@ SolveSummary BiasSolver::Impl::SolveHeated(Solution* solution, std::span<const d
   const size_t h = t.diodes.size();
   t.converged = false;
   internal::RefreshNumbers(*t.user, &t.heated);
+  if (h == 0) {  // values under which no diode is heated any more
+    last_converged = false;
+    Update(t.heated);
+    return SolveFixed(solution, from, allow_aids);
+  }
   const double ambient = t.user->temp;
   // The electrical size as it will be at the first bias point (Update may rebuild).
   for (const HeatedDiode& d : t.diodes) {

@@ -200,3 +200,31 @@ TEST(Thermal, AnotherBalanceIsNotedWhereItExistsOnly) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+// A sweep of PART.thermal_res reaches the thermal balance at every point: the junction
+// warms with the thermal resistance, and beyond the critical value (99.8 K/W,
+// tests/reference/thermal_scipy_check.py) the points are thermal runaway.
+TEST(Thermal, ThermalResSweepTakesEachValue) {
+  KneeRun run = RunKnee("sweep - leaky.thermal_res=50..130:20 --format json --show D1.tj --jobs 1",
+                        "part leaky diode sat_current=1m ideality=1.05 bandgap=0.69 "
+                        "thermal_res=80\nvsource V1 k -> gnd 40\ndiode D1 gnd -> k leaky\n");
+  EXPECT_EQ(run.status, 1) << run.err;
+  const json doc = json::parse(run.out);
+  const json& rows = doc["rows"];
+  ASSERT_EQ(rows.size(), 5u);
+  double previous = 25.0;
+  for (size_t i = 0; i < 3; ++i) {
+    const double tj = rows[i][1].get<double>();
+    EXPECT_GT(tj, previous) << i;
+    previous = tj;
+  }
+  EXPECT_TRUE(rows[3][1].is_null());
+  EXPECT_TRUE(rows[4][1].is_null());
+  EXPECT_TRUE(Has(run.err, "the circuit has 130 K/W")) << run.err;
+}
+
+}  // namespace
+}  // namespace knee::testing
