@@ -347,6 +347,22 @@ class Elaborator {
     design->varies.push_back(std::move(*line));
   }
 
+  // A heatsink no diode is mounted on carries no heat: likely a sink= left out.
+  void HeatsinkWarnings(const Circuit& circuit, std::vector<Diagnostic>* warnings) {
+    for (std::size_t k = 0; k < circuit.heatsinks.size(); ++k) {
+      const bool used =
+          std::any_of(circuit.sink_mounts.begin(), circuit.sink_mounts.end(),
+                      [&](const SinkMount& m) { return m.sink == static_cast<int>(k); });
+      if (used) continue;
+      const Heatsink& h = circuit.heatsinks[k];
+      warnings->push_back(MakeError(
+          file_, ToSpan(h.where),
+          fmt::format("heatsink '{}' has no diode mounted on it, so it stays at the ambient",
+                      h.name),
+          fmt::format("mount diodes with sink={}", h.name)));
+    }
+  }
+
   // Warnings about the circuit itself: nodes that one element only touches, and nodes
   // named like the reference node in other capitals.
   void NodeWarnings(const Circuit& circuit, std::vector<Diagnostic>* warnings) {
@@ -1158,6 +1174,7 @@ Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides) {
   if (!e.Run(&design.circuit)) return e.TakeErrors();
   e.Requests(design.circuit, &design);
   e.NodeWarnings(design.circuit, &design.warnings);
+  e.HeatsinkWarnings(design.circuit, &design.warnings);
   e.ParamReaches(design.circuit, &design);
   std::vector<Diagnostic> errors = e.TakeErrors();
   if (!errors.empty()) return errors;

@@ -228,3 +228,22 @@ TEST(Thermal, ThermalResSweepTakesEachValue) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+TEST(Thermal, UnusedHeatsinkWarnsAndAUsedOneDoesNot) {
+  KneeRun unused = RunKnee("bias -", Forced("thermal_res=5") + "heatsink HS thermal_res=2\n");
+  EXPECT_EQ(unused.status, 0) << unused.err;
+  EXPECT_TRUE(Has(unused.err, "<stdin>:4:10: warning: heatsink 'HS' has no diode mounted on it"))
+      << unused.err;
+  KneeRun used =
+      RunKnee("bias -", "heatsink HS thermal_res=2\n" + Forced("thermal_res=5", "sink=HS"));
+  EXPECT_EQ(used.status, 0) << used.err;
+  EXPECT_FALSE(Has(used.err, "warning")) << used.err;
+  KneeRun demo = RunKnee("bias " + Netlist("bridge-module-heat.knee"));
+  EXPECT_FALSE(Has(demo.err, "warning")) << demo.err;
+}
+
+}  // namespace
+}  // namespace knee::testing
