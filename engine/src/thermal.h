@@ -39,7 +39,7 @@ bool RefreshNumbers(const Circuit& from, Circuit* to);
 struct ThermalTuning {
   int max_iterations = 60;            // thermal Newton iterations per coupling value
   double max_step = 100.0;            // K, the most one iterate moves a junction temperature
-  double balance_rel = 1e-11;         // |F_i| <= balance_rel * T_i (kelvin) ends the iteration
+  double balance_rel = 1e-13;         // |F_i| <= balance_rel * T_i (kelvin) ends the iteration
   double step_rel = 1e-12;            // or |dT_i| <= step_rel * T_i after a step
   double hottest = 1000.0;            // degC: an iterate beyond it has left the model's range
   double first_coupling_step = 0.25;  // continuation in s: the first step
