@@ -81,6 +81,7 @@ SolverAccount AccountOf(const SweepStats& stats, const SolverOptions& options) {
   account.undetermined_nodes = stats.undetermined_nodes;
   account.current_tol = options.abs_current_tol;
   account.heated = stats.heated;
+  if (stats.heated) account.method += ", junction temperatures by Newton on the thermal balance";
   account.max_thermal_residual = stats.max_thermal_residual;
   account.thermal_worst = stats.thermal_worst;
   return account;
