@@ -126,5 +126,26 @@ TEST(Thermal, RunawayReportsTheFoldItsCriticalValueSolvesBelow) {
   EXPECT_TRUE(cool.aids.empty());
 }
 
+// A forward diode driven from 1 V through 0.2 Ohm on 350 K/W: its dissipation grows
+// steeply with temperature before the resistor limits it, and plain thermal Newton from
+// the ambient overshoots; continuation in the coupling reaches the balance. (An invented
+// case for the mechanism: 460 C is beyond any real rectifier's rating.)
+TEST(Thermal, ContinuationReachesWhatPlainNewtonMisses) {
+  testing::CircuitBuilder b;
+  b.V("V1", "a", "gnd", 1.0);
+  b.R("R1", "a", "b", 0.2);
+  b.D("D1", "b", "gnd", b.Part("f", Rectifier(350.0)));
+  auto solver = BiasSolver::Create(b.circuit(), SolverOptions{});
+  Solution s;
+  const SolveSummary out = (*solver)->Solve(&s);
+  ASSERT_EQ(out.status, SolveStatus::kConverged) << out.detail;
+  ASSERT_EQ(out.aids, std::vector<std::string>{"thermal continuation"});
+  // The reported point has no aid left in it: the full coupling's balance.
+  const double p = s.element_voltage[2] * s.element_current[2];
+  EXPECT_NEAR(s.junction_temp[2], 25.0 + 350.0 * p, 1e-9 * (s.junction_temp[2] + 273.15));
+  EXPECT_GT(s.junction_temp[2], 300.0);
+  EXPECT_LT(out.max_thermal_residual, 1e-9);
+}
+
 }  // namespace
 }  // namespace knee
