@@ -604,6 +604,14 @@ class Elaborator {
         const std::string part = o.name.substr(0, dot);
         const std::string key = o.name.substr(dot + 1);
         auto it = names_.find(part);
+        if (it != names_.end() && it->second.kind == DefKind::kHeatsink) {
+          Error(Span{},
+                fmt::format("{}: '{}' is a heatsink; its thermal_res is not an "
+                            "override target in this version (docs/thermal.md)",
+                            context, part),
+                "edit the heatsink line, or give the parts' thermal_res instead");
+          continue;
+        }
         if (it == names_.end() || it->second.kind != DefKind::kPart) {
           Error(Span{}, fmt::format("{}: there is no part named '{}'", context, part),
                 Suggest(part, NamesOf({DefKind::kPart})));
@@ -1196,6 +1204,13 @@ Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& net
     const std::string part(name.substr(0, dot));
     const std::string key(name.substr(dot + 1));
     const int index = circuit.FindPart(part);
+    if (index < 0 && circuit.FindHeatsink(part) >= 0) {
+      return MakeError(file, span,
+                       fmt::format("'{}' is a heatsink; its thermal_res is not a sweep target in "
+                                   "this version (docs/thermal.md)",
+                                   part),
+                       "sweep a part's thermal_res (PART.thermal_res) instead");
+    }
     if (index < 0) {
       std::vector<std::string> parts;
       for (const Part& p : circuit.parts) parts.push_back(p.name);

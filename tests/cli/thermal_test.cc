@@ -247,3 +247,27 @@ TEST(Thermal, UnusedHeatsinkWarnsAndAUsedOneDoesNot) {
 
 }  // namespace
 }  // namespace knee::testing
+
+namespace knee::testing {
+namespace {
+
+// A heatsink's thermal_res is not a sweep, --set or vary target: each is refused with a
+// message that says so (exit 2), not as an unknown part.
+TEST(Thermal, HeatsinkValueIsNoTargetAndSaysSo) {
+  const std::string net = "heatsink HS thermal_res=2\n" + Forced("thermal_res=5", "sink=HS");
+  KneeRun sweep = RunKnee("sweep - HS.thermal_res=1..3:1", net);
+  EXPECT_EQ(sweep.status, 2);
+  EXPECT_TRUE(Has(sweep.err, "'HS' is a heatsink")) << sweep.err;
+  KneeRun set = RunKnee("bias - --set HS.thermal_res=3", net);
+  EXPECT_EQ(set.status, 2);
+  EXPECT_TRUE(Has(set.err, "'HS' is a heatsink")) << set.err;
+  KneeRun vary = RunKnee("bias -", net + "vary HS.thermal_res 1..3\n");
+  EXPECT_EQ(vary.status, 2);
+  EXPECT_TRUE(Has(vary.err, "<stdin>:5:6: error: 'HS' is a heatsink")) << vary.err;
+  // A part's thermal_res is one.
+  KneeRun part = RunKnee("sweep - rect.thermal_res=1..3:1 --format csv", net);
+  EXPECT_EQ(part.status, 0) << part.err;
+}
+
+}  // namespace
+}  // namespace knee::testing
