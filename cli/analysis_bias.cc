@@ -80,6 +80,10 @@ SolverAccount AccountOf(const SweepStats& stats, const SolverOptions& options) {
   account.worst_node = stats.worst_node;
   account.undetermined_nodes = stats.undetermined_nodes;
   account.current_tol = options.abs_current_tol;
+  account.heated = stats.heated;
+  if (stats.heated) account.method += ", junction temperatures by Newton on the thermal balance";
+  account.max_thermal_residual = stats.max_thermal_residual;
+  account.thermal_worst = stats.thermal_worst;
   return account;
 }
 
@@ -87,7 +91,15 @@ SolverAccount BiasPointAccount(const SolveSummary& summary, const SolverOptions&
   SweepStats stats;
   AddSolveToStats(summary, &stats);
   if (summary.status != SolveStatus::kConverged) stats.failed = 1;
-  return AccountOf(stats, options);
+  SolverAccount account = AccountOf(stats, options);
+  if (std::isfinite(summary.other_balance_temp)) {
+    account.thermal_notes.push_back(fmt::format(
+        "{} has another thermal balance near Tj = {:.3g} C: the solution shown is the one "
+        "reached from the ambient; above that temperature the dissipation outgrows the thermal "
+        "path (docs/thermal.md, \"Several balances\")",
+        summary.thermal_worst, summary.other_balance_temp));
+  }
+  return account;
 }
 
 Report StartReport(const LoadedDesign& loaded, const char* analysis) {
@@ -112,7 +124,9 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
   stress.BeginWindow(0, 1);
   AddStressColumns(checks, circuit, &report);
 
-  Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options.solver);
+  SolverOptions solver_options = options.solver;
+  solver_options.seek_other_balance = true;  // one bias point can afford the scan
+  Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, solver_options);
   if (!solver) {
     PrintDiagnostics(solver.errors(), loaded.source);
     result.outcome.bad_input = true;

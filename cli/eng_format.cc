@@ -84,6 +84,8 @@ std::string FormatEng(double value, std::string_view unit, int significant) {
   if (unit.starts_with("1/")) return PerUnit(value, unit, significant);
   // A plain number takes no SI prefix: "500 m" of nothing reads as metres.
   if (unit.empty()) return PlainNumber(value, significant);
+  // Nor a temperature: "-386.3 m°C" is no way to write -0.3863 °C.
+  if (unit == "C") return WithUnit(PlainNumber(value, significant), "", unit);
   if (value == 0.0) return WithUnit("0", "", unit);
   const double magnitude = std::fabs(value);
   if (magnitude < 1e-24 || magnitude >= 1e21) {

@@ -69,6 +69,9 @@ void AddShared(CLI::App* command, AnalysisOptions* o, std::string* format) {
                      "Newton steps per attempt (default 200)");
   solver->add_flag("!--no-limiting", o->solver.junction_limiting,
                    "Turn off junction-voltage limiting");
+  solver->add_flag("--isothermal", o->solver.isothermal,
+                   "Ignore self-heating: every junction at its own temp= or the ambient "
+                   "(docs/thermal.md)");
   solver->add_option("--aids", o->aids,
                      "Convergence aids to try, in order: gmin,source (default) or none");
   const std::map<std::string, knee::SolverMethod> methods{

@@ -80,6 +80,12 @@ struct SolverAccount {
   // kUndeterminedVolts (SolveSummary::undetermined_nodes).
   std::vector<std::string> undetermined_nodes;
   double current_tol = 0;  // A, the solver's abs_current_tol
+  // Self-heating (docs/thermal.md): some diode's junction temperature was solved; the
+  // largest thermal balance residual (K) over the reported points and its diode.
+  bool heated = false;
+  double max_thermal_residual = 0;
+  std::string thermal_worst;
+  std::vector<std::string> thermal_notes;  // another thermal balance (docs/thermal.md)
 };
 
 struct Report {

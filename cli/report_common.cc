@@ -90,15 +90,22 @@ std::string UndeterminedNote(const SolverAccount& a) {
 }
 
 nlohmann::ordered_json JsonSolverAccount(const SolverAccount& a) {
-  return {{"method", a.method},
-          {"unique", a.unique},
-          {"points", a.points},
-          {"newton_steps", a.newton_steps},
-          {"max_newton_steps_per_point", a.max_newton_steps},
-          {"aids", a.aids},
-          {"max_kcl_residual_a", a.max_kcl_residual},
-          {"worst_node", a.worst_node},
-          {"undetermined_nodes", a.undetermined_nodes}};
+  nlohmann::ordered_json j = {{"method", a.method},
+                              {"unique", a.unique},
+                              {"points", a.points},
+                              {"newton_steps", a.newton_steps},
+                              {"max_newton_steps_per_point", a.max_newton_steps},
+                              {"aids", a.aids},
+                              {"max_kcl_residual_a", a.max_kcl_residual},
+                              {"worst_node", a.worst_node},
+                              {"undetermined_nodes", a.undetermined_nodes}};
+  // Self-heating only, so that every existing report keeps its exact form.
+  if (a.heated) {
+    j["max_thermal_residual_k"] = a.max_thermal_residual;
+    j["thermal_worst_diode"] = a.thermal_worst;
+    j["thermal_notes"] = a.thermal_notes;
+  }
+  return j;
 }
 
 nlohmann::ordered_json JsonExpectation(const ExpectationCheck& e) {

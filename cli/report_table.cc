@@ -82,10 +82,15 @@ std::string Account(const Report& report) {
                              ? std::string("no solution to check")
                              : fmt::format("largest KCL residual {:.2e} A", a.max_kcl_residual);
   if (!none_solved && !a.worst_node.empty()) residual += " at " + a.worst_node;
+  if (!none_solved && a.heated) {
+    residual += fmt::format("; largest thermal balance residual {:.2e} K at {}",
+                            a.max_thermal_residual, a.thermal_worst);
+  }
   const char* unique = a.unique ? " (monotone network: the solution is unique)" : "";
   std::string out =
       fmt::format("solver: {}{}, {}, {}; {}\n", a.method, unique, steps, aids, residual);
   out += UndeterminedNote(a);
+  for (const std::string& note : a.thermal_notes) out += "note: " + note + "\n";
   return out;
 }
 

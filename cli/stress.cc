@@ -28,6 +28,8 @@ QuantityInfo Info(StressQuantity q) {
       return {"max_power", "dissipation", "W", "", ""};
     case StressQuantity::kReverseCurrent:
       return {"", "reverse current", "A", "cathode to anode", "never in reverse conduction"};
+    case StressQuantity::kJunctionTemp:
+      return {"max_junction_temp", "junction temperature", "C", "", ""};
   }
   return {"", "", "", "", ""};
 }
@@ -60,6 +62,10 @@ std::vector<StressCheck> CollectStressChecks(const Circuit& circuit, double dera
     }
     add(m.max_reverse_v, StressQuantity::kReverseVoltage);
     add(m.max_power, StressQuantity::kPower);
+    if (m.max_junction_temp) {
+      checks.push_back({static_cast<int>(e), StressQuantity::kJunctionTemp, *m.max_junction_temp,
+                        *m.max_junction_temp});
+    }
   }
   return checks;
 }
@@ -76,6 +82,8 @@ double StressValue(const StressCheck& check, const Solution& solution) {
       return v * i;
     case StressQuantity::kReverseCurrent:
       return -i;
+    case StressQuantity::kJunctionTemp:
+      return solution.junction_temp[check.element];
   }
   return 0;
 }
@@ -150,7 +158,7 @@ void StressRecorder::Finish(const Circuit& circuit, double derate_fraction,
 }
 
 std::string RatedCheckName(const StressCheck& check, const Circuit& circuit) {
-  static constexpr const char* kValue[] = {"i", "v", "p", "i"};
+  static constexpr const char* kValue[] = {"i", "v", "p", "i", "tj"};
   const QuantityInfo info = Info(check.quantity);
   return fmt::format("{}.{}/{}", circuit.elements[static_cast<size_t>(check.element)].name,
                      kValue[static_cast<int>(check.quantity)], info.key);

@@ -16,7 +16,15 @@ namespace knee::cli {
 
 // kReverseCurrent has no rating of its own (max_current rates the forward current; a
 // breakdown diode's reverse current is covered by max_power): it is reported, never checked.
-enum class StressQuantity { kForwardCurrent, kReverseVoltage, kPower, kReverseCurrent };
+// kJunctionTemp (max_junction_temp, docs/thermal.md) is checked as written: --derate
+// scales currents, voltages and powers, not temperatures.
+enum class StressQuantity {
+  kForwardCurrent,
+  kReverseVoltage,
+  kPower,
+  kReverseCurrent,
+  kJunctionTemp
+};
 
 struct StressCheck {
   int element = 0;  // diode or resistor element index

@@ -63,10 +63,12 @@ SolverOptions SolverOptionsFrom(const py::kwargs& kwargs) {
       options.junction_limiting = value.cast<bool>();
     } else if (name == "aids") {
       SetAids(value, &options);
+    } else if (name == "isothermal") {
+      options.isothermal = value.cast<bool>();
     } else {
       throw py::type_error(fmt::format(
           "unexpected keyword argument '{}'; the solver options are method, voltage_tol, "
-          "current_tol, rel_tol, max_steps, limiting, aids",
+          "current_tol, rel_tol, max_steps, limiting, aids, isothermal",
           name));
     }
   }

@@ -143,6 +143,9 @@ void AddQuantity(const Circuit& c, const MnaSystem& mna, std::span<const double>
       AddDiodeExplicit(c, element, at, at.local.drd, weight, g);
       break;
     }
+    case QuantityKind::kJunctionTemp:
+    case QuantityKind::kSinkTemp:
+      break;  // refused by ComputeSensitivity
   }
 }
 
@@ -236,6 +239,12 @@ std::string ComputeSensitivity(const Circuit& circuit, MnaSystem& mna, KluSolver
   ws.lambda.resize(n);  // the others are written before they are read
   ws.residual.resize(n);
   ws.correction.resize(n);
+  for (const WeightedQuantity& q : quantity) {
+    if (q.weight != 0.0 &&
+        (q.ref.kind == QuantityKind::kJunctionTemp || q.ref.kind == QuantityKind::kSinkTemp)) {
+      return "the sensitivity of a temperature (.tj, .t) is not computed (docs/thermal.md)";
+    }
+  }
   for (const WeightedQuantity& q : quantity) {
     if (q.weight != 0.0) AddQuantity(circuit, mna, x, q.ref, q.weight, ws.rhs, gradient);
   }

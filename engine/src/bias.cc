@@ -40,6 +40,7 @@ Result<std::unique_ptr<BiasSolver>> BiasSolver::Create(const Circuit& circuit,
   if (auto problem = Validate(options)) return MessageOnly(*problem);
   auto impl = std::make_unique<Impl>(circuit, options);
   if (auto problem = impl->Analyze()) return MessageOnly(*problem);
+  if (!options.isothermal) impl->StartThermal(circuit);
   return std::unique_ptr<BiasSolver>(new BiasSolver(std::move(impl)));
 }
 
@@ -48,25 +49,34 @@ BiasSolver::~BiasSolver() = default;
 
 void BiasSolver::UpdateValues(const Circuit& circuit) {
   Impl& m = *impl_;
+  if (m.thermal) {
+    m.UpdateThermal(circuit);
+    return;
+  }
+  m.Update(circuit);
+}
+
+void BiasSolver::Impl::Update(const Circuit& c) {
+  Impl& m = *this;
   m.last_converged = false;  // the last solution is not one of these values
   // Neither classification depends on the value of a voltage source, except through its
   // finiteness: a sweep of a supply skips both (a max-flow over the network per point).
   // The first update has nothing to compare with and classifies again.
   bool sources_only = false;
   if (m.last_numbers) {
-    sources_only = internal::AssignValues(circuit, &*m.last_numbers);
+    sources_only = internal::AssignValues(c, &*m.last_numbers);
   } else {
-    m.last_numbers = internal::NumbersOf(circuit);
+    m.last_numbers = internal::NumbersOf(c);
   }
-  m.circuit = &circuit;
+  m.circuit = &c;
   if (!sources_only || m.non_monotone) m.Classify();
-  if (m.mna.StructureMatches(circuit)) {
-    m.mna.UpdateValues(circuit);
+  if (m.mna.StructureMatches(c)) {
+    m.mna.UpdateValues(c);
     return;
   }
   // The structure changed: the unknowns and the pattern are rebuilt (and warm starts of
   // the old size are ignored).
-  m.mna = MnaSystem(circuit);
+  m.mna = MnaSystem(c);
   m.newton = NewtonSolver(&m.mna, &m.klu, m.options, m.mna.size());
   m.potential =
       internal::PotentialSolver(&m.mna, &m.klu, m.options, m.mna.size(), m.tuning.potential);
@@ -77,8 +87,14 @@ void BiasSolver::UpdateValues(const Circuit& circuit) {
 }
 
 SolveSummary BiasSolver::Solve(Solution* solution, std::span<const double> start, bool allow_aids) {
-  Impl& m = *impl_;
-  m.BeginSolve(start);
+  if (impl_->thermal) return impl_->SolveHeated(solution, start, allow_aids);
+  return impl_->SolveFixed(solution, start, allow_aids);
+}
+
+SolveSummary BiasSolver::Impl::SolveFixed(Solution* solution, std::span<const double> from,
+                                          bool allow_aids) {
+  Impl& m = *this;
+  m.BeginSolve(from);
   SolveSummary s;
   if (m.Screen(&s)) return s;
   std::string log;
@@ -158,7 +174,17 @@ BiasSolver::Impl::Ending BiasSolver::Impl::ClassicLadder(SolveSummary* s, bool a
 
 Status BiasSolver::Sensitivity(std::span<const WeightedQuantity> quantity,
                                CircuitGradient* gradient) {
-  Impl& m = *impl_;
+  if (impl_->thermal) {
+    return MessageOnly(
+        "sensitivities of a circuit with self-heating are not computed (docs/thermal.md); "
+        "add --isothermal for the derivatives at fixed junction temperatures");
+  }
+  return impl_->Gradient(quantity, gradient);
+}
+
+Status BiasSolver::Impl::Gradient(std::span<const WeightedQuantity> quantity,
+                                  CircuitGradient* gradient) {
+  Impl& m = *this;
   if (!m.last_converged || m.converged.size() != m.x.size()) {
     return MessageOnly("no converged solution to differentiate");
   }
@@ -169,8 +195,14 @@ Status BiasSolver::Sensitivity(std::span<const WeightedQuantity> quantity,
   return Done{};
 }
 
-std::span<const double> BiasSolver::unknowns() const { return impl_->converged; }
-int BiasSolver::unknown_count() const { return impl_->mna.size(); }
+// A heated circuit's unknowns end with the junction temperatures of its heated diodes
+// (thermal.h), so that a sweep's warm start carries them too.
+std::span<const double> BiasSolver::unknowns() const {
+  return impl_->thermal ? impl_->ThermalUnknowns() : impl_->converged;
+}
+int BiasSolver::unknown_count() const {
+  return impl_->mna.size() + (impl_->thermal ? impl_->ThermalCount() : 0);
+}
 void BiasSolver::set_trace(bool on) { impl_->trace_on = on; }
 const std::vector<NewtonStepRecord>& BiasSolver::trace() const { return impl_->trace; }
 

@@ -16,6 +16,7 @@
 #include "mna.h"
 #include "newton.h"
 #include "potential.h"
+#include "thermal.h"
 #include "tuning.h"
 #include "undetermined.h"
 
@@ -87,6 +88,10 @@ struct BiasSolver::Impl {
   // The caller's starting point of the current Solve (empty or of another size: a cold
   // start from 0 V).
   std::span<const double> start;
+  // Self-heating (thermal.cc): set when some diode is heated and options.isothermal is
+  // false; `circuit` then points at its copy with the junction temperatures of the
+  // iterate.
+  std::unique_ptr<internal::ThermalState> thermal;
 
   Impl(const Circuit& c, const SolverOptions& o)
       : circuit(&c),
@@ -98,6 +103,31 @@ struct BiasSolver::Impl {
     Resize();
     Classify();
   }
+
+  // New values (BiasSolver::UpdateValues without self-heating); a bias point at the
+  // junction temperatures `circuit` holds; the adjoint gradient of the last one.
+  void Update(const Circuit& c);
+  SolveSummary SolveFixed(Solution* solution, std::span<const double> from, bool allow_aids);
+  Status Gradient(std::span<const WeightedQuantity> quantity, CircuitGradient* gradient);
+
+  // --- self-heating (thermal.cc) ---
+  void StartThermal(const Circuit& c);
+  void UpdateThermal(const Circuit& c);
+  SolveSummary SolveHeated(Solution* solution, std::span<const double> from, bool allow_aids);
+  std::span<const double> ThermalUnknowns() const;
+  int ThermalCount() const;
+  // One bias point with every heated junction at temps[i] (degC).
+  SolveSummary SolveAtTemps(std::span<const double> temps, std::span<const double> estart,
+                            bool allow_aids, Solution* solution);
+  // Thermal Newton at coupling s from thermal->temp (and the electrical start); true when
+  // the balance converged, with *last the summary of its last bias point.
+  bool RunBalance(double s, bool allow_aids, Solution* solution, SolveSummary* last,
+                  int* iterations);
+  // J = I - s C dP/dT at the last bias point into thermal->jacobian; false when a
+  // gradient cannot be computed.
+  bool ThermalJacobian(double s);
+  // The single heated diode's next balance above temp (degC) up to the scan limit, or NaN.
+  double SeekOtherBalance(double temp);
 
   // --- set-up (screen.cc) ---
   void Classify();

@@ -28,6 +28,24 @@ int Circuit::FindPart(std::string_view name) const {
   return IndexOf(parts, name, [](const Part& part) -> std::string_view { return part.name; });
 }
 
+int Circuit::SinkOf(int element) const {
+  for (const SinkMount& m : sink_mounts) {
+    if (m.element == element) return m.sink;
+  }
+  return -1;
+}
+
+bool Circuit::SelfHeated(int element) const {
+  const Element& e = elements[static_cast<size_t>(element)];
+  if (e.kind != ElementKind::kDiode || e.temp) return false;
+  return parts[static_cast<size_t>(e.part)].model.thermal_res || SinkOf(element) >= 0;
+}
+
+int Circuit::FindHeatsink(std::string_view name) const {
+  return IndexOf(heatsinks, name,
+                 [](const Heatsink& sink) -> std::string_view { return sink.name; });
+}
+
 const char* ElementKindName(ElementKind kind) {
   switch (kind) {
     case ElementKind::kResistor:

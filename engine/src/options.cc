@@ -61,6 +61,8 @@ const char* ToString(SolveStatus status) {
       return "no solution";
     case SolveStatus::kOutOfRange:
       return "out of range";
+    case SolveStatus::kThermalRunaway:
+      return "thermal runaway";
   }
   return "unknown";
 }

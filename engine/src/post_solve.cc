@@ -167,6 +167,14 @@ void BiasSolver::Impl::Fill(Solution* solution) const {
   solution->element_current.assign(elements, 0.0);
   solution->junction_voltage.assign(elements, nan);
   solution->small_signal_res.assign(elements, nan);
+  solution->junction_temp.assign(elements, nan);
+  for (size_t e = 0; e < elements; ++e) {
+    const Element& element = circuit->elements[e];
+    if (element.kind == ElementKind::kDiode)
+      solution->junction_temp[e] = circuit->DeviceTemp(element);
+  }
+  // Without self-heating every sink is at the ambient; the thermal solve sets its own.
+  solution->sink_temp.assign(circuit->heatsinks.size(), circuit->temp);
   mna.devices().Measure(x, [&](int element, const internal::DeviceReport& r) {
     const auto e = static_cast<size_t>(element);
     solution->element_voltage[e] = r.voltage;

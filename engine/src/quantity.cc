@@ -24,6 +24,10 @@ double Evaluate(const Solution& s, const QuantityRef& ref) {
       return At(s.junction_voltage, ref.index);
     case QuantityKind::kSmallSignalRes:
       return At(s.small_signal_res, ref.index);
+    case QuantityKind::kJunctionTemp:
+      return At(s.junction_temp, ref.index);
+    case QuantityKind::kSinkTemp:
+      return At(s.sink_temp, ref.index);
   }
   return 0.0;
 }
@@ -40,6 +44,9 @@ const char* UnitSymbol(QuantityKind kind) {
       return "W";
     case QuantityKind::kSmallSignalRes:
       return "Ohm";
+    case QuantityKind::kJunctionTemp:
+    case QuantityKind::kSinkTemp:
+      return "C";
   }
   return "";
 }
@@ -61,6 +68,10 @@ std::string QuantityName(const Circuit& circuit, const QuantityRef& ref) {
       return element() + ".vj";
     case QuantityKind::kSmallSignalRes:
       return element() + ".rd";
+    case QuantityKind::kJunctionTemp:
+      return element() + ".tj";
+    case QuantityKind::kSinkTemp:
+      return circuit.heatsinks.at(static_cast<size_t>(ref.index)).name + ".t";
   }
   return "";
 }

@@ -242,7 +242,8 @@ int AidRank(const std::string& aid) {
   if (aid == "step subdivision") return 0;
   if (aid.rfind("gmin", 0) == 0) return 1;
   if (aid.rfind("source", 0) == 0) return 2;
-  return 3;
+  if (aid.rfind("thermal", 0) == 0) return 3;
+  return 4;
 }
 
 }  // namespace
@@ -304,6 +305,12 @@ void AddSolveToStats(const SolveSummary& summary, SweepStats* stats) {
     stats->max_kcl_residual = summary.max_kcl_residual;
     stats->worst_node = summary.worst_node;
   }
+  stats->heated = stats->heated || summary.heated;
+  if (summary.heated && (stats->thermal_worst.empty() ||
+                         summary.max_thermal_residual > stats->max_thermal_residual)) {
+    stats->max_thermal_residual = summary.max_thermal_residual;
+    stats->thermal_worst = summary.thermal_worst;
+  }
 }
 
 void MergeSweepStats(const SweepStats& s, SweepStats* total) {
@@ -326,6 +333,12 @@ void MergeSweepStats(const SweepStats& s, SweepStats* total) {
   if (s.max_kcl_residual > total->max_kcl_residual) {
     total->max_kcl_residual = s.max_kcl_residual;
     total->worst_node = s.worst_node;
+  }
+  total->heated = total->heated || s.heated;
+  if (s.heated &&
+      (total->thermal_worst.empty() || s.max_thermal_residual > total->max_thermal_residual)) {
+    total->max_thermal_residual = s.max_thermal_residual;
+    total->thermal_worst = s.thermal_worst;
   }
   if (total->setup_error.empty()) total->setup_error = s.setup_error;
   std::stable_sort(

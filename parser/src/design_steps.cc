@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cerrno>
 #include <cstring>
 #include <filesystem>
@@ -138,6 +139,22 @@ std::vector<QuantityExpr> DefaultShow(const Design& design) {
   }
   for (size_t e = 0; e < circuit.elements.size(); ++e) {
     show.push_back(PlainQuantity(circuit, {QuantityKind::kElementCurrent, static_cast<int>(e)}));
+  }
+  // Self-heating (docs/thermal.md): each heated diode's junction temperature and
+  // dissipation, and each heatsink's temperature.
+  if (circuit.sink_mounts.empty() &&
+      std::none_of(circuit.parts.begin(), circuit.parts.end(),
+                   [](const Part& p) { return p.model.thermal_res.has_value(); })) {
+    return show;
+  }
+  for (size_t e = 0; e < circuit.elements.size(); ++e) {
+    const int element = static_cast<int>(e);
+    if (!circuit.SelfHeated(element)) continue;
+    show.push_back(PlainQuantity(circuit, {QuantityKind::kJunctionTemp, element}));
+    show.push_back(PlainQuantity(circuit, {QuantityKind::kElementPower, element}));
+  }
+  for (size_t k = 0; k < circuit.heatsinks.size(); ++k) {
+    show.push_back(PlainQuantity(circuit, {QuantityKind::kSinkTemp, static_cast<int>(k)}));
   }
   return show;
 }

@@ -36,7 +36,7 @@ bool IsReserved(std::string_view name) {
   return false;
 }
 
-enum class DefKind { kParam, kPart, kElement, kNode };
+enum class DefKind { kParam, kPart, kElement, kNode, kHeatsink };
 
 struct Definition {
   DefKind kind = DefKind::kNode;
@@ -115,6 +115,8 @@ std::string KindWord(const NetlistData& d, const Definition& def) {
       return "part";
     case DefKind::kNode:
       return "node";
+    case DefKind::kHeatsink:
+      return "heatsink";
     case DefKind::kElement:
       return ElementKindName(d.elements[static_cast<std::size_t>(def.index)].kind);
   }
@@ -162,12 +164,8 @@ void WarnBareTolerance(const Value& tol, const Expectation& x, std::vector<Diagn
           unit.empty() ? "" : fmt::format(", or {}{} for an absolute one", tol.text, unit))));
 }
 
-// "unknown part key 'IS'", or for a key of self-heating that this version does not model,
-// a message that says so.
+// "unknown part key 'IS'".
 std::string UnknownKeyMessage(std::string_view key) {
-  if (IsPlannedPartKey(key)) {
-    return fmt::format("part key '{}' (self-heating) is not implemented in this version", key);
-  }
   return fmt::format("unknown part key '{}'", key);
 }
 
@@ -349,6 +347,22 @@ class Elaborator {
     design->varies.push_back(std::move(*line));
   }
 
+  // A heatsink no diode is mounted on carries no heat: likely a sink= left out.
+  void HeatsinkWarnings(const Circuit& circuit, std::vector<Diagnostic>* warnings) {
+    for (std::size_t k = 0; k < circuit.heatsinks.size(); ++k) {
+      const bool used =
+          std::any_of(circuit.sink_mounts.begin(), circuit.sink_mounts.end(),
+                      [&](const SinkMount& m) { return m.sink == static_cast<int>(k); });
+      if (used) continue;
+      const Heatsink& h = circuit.heatsinks[k];
+      warnings->push_back(MakeError(
+          file_, ToSpan(h.where),
+          fmt::format("heatsink '{}' has no diode mounted on it, so it stays at the ambient",
+                      h.name),
+          fmt::format("mount diodes with sink={}", h.name)));
+    }
+  }
+
   // Warnings about the circuit itself: nodes that one element only touches, and nodes
   // named like the reference node in other capitals.
   void NodeWarnings(const Circuit& circuit, std::vector<Diagnostic>* warnings) {
@@ -501,9 +515,10 @@ class Elaborator {
   void Define(std::string_view name, DefKind kind, int index, const Span& span) {
     if (IsReserved(name)) {
       Error(span, fmt::format("'{}' is a reserved name; choose another name for this {}", name,
-                              kind == DefKind::kParam  ? "param"
-                              : kind == DefKind::kPart ? "part"
-                                                       : "element"));
+                              kind == DefKind::kParam      ? "param"
+                              : kind == DefKind::kPart     ? "part"
+                              : kind == DefKind::kHeatsink ? "heatsink"
+                                                           : "element"));
       return;
     }
     auto [it, inserted] = names_.try_emplace(name, Definition{kind, index, span});
@@ -526,7 +541,7 @@ class Elaborator {
       Span span;
     };
     std::vector<Item> items;
-    items.reserve(d_.params.size() + d_.parts.size() + d_.elements.size());
+    items.reserve(d_.params.size() + d_.parts.size() + d_.elements.size() + d_.heatsinks.size());
     for (std::size_t i = 0; i < d_.params.size(); ++i) {
       items.push_back(
           {d_.params[i].name, DefKind::kParam, static_cast<int>(i), d_.params[i].name_span});
@@ -538,6 +553,10 @@ class Elaborator {
     for (std::size_t i = 0; i < d_.elements.size(); ++i) {
       items.push_back(
           {d_.elements[i].name, DefKind::kElement, static_cast<int>(i), d_.elements[i].name_span});
+    }
+    for (std::size_t i = 0; i < d_.heatsinks.size(); ++i) {
+      items.push_back({d_.heatsinks[i].name, DefKind::kHeatsink, static_cast<int>(i),
+                       d_.heatsinks[i].name_span});
     }
     // In file order, so that the later of two definitions is the one reported.
     std::stable_sort(items.begin(), items.end(), [](const Item& a, const Item& b) {
@@ -585,6 +604,14 @@ class Elaborator {
         const std::string part = o.name.substr(0, dot);
         const std::string key = o.name.substr(dot + 1);
         auto it = names_.find(part);
+        if (it != names_.end() && it->second.kind == DefKind::kHeatsink) {
+          Error(Span{},
+                fmt::format("{}: '{}' is a heatsink; its thermal_res is not an "
+                            "override target in this version (docs/thermal.md)",
+                            context, part),
+                "edit the heatsink line, or give the parts' thermal_res instead");
+          continue;
+        }
         if (it == names_.end() || it->second.kind != DefKind::kPart) {
           Error(Span{}, fmt::format("{}: there is no part named '{}'", context, part),
                 Suggest(part, NamesOf({DefKind::kPart})));
@@ -903,7 +930,7 @@ class Elaborator {
         const PartKeyInfo* info = FindPartKey(k.key);
         if (!info) {
           Error(k.key_span, fmt::format("{} in part '{}'", UnknownKeyMessage(k.key), s.name),
-                IsPlannedPartKey(k.key) ? "" : PartKeyHint(k.key));
+                PartKeyHint(k.key));
           continue;
         }
         auto [it, inserted] = given.try_emplace(k.key, &k);
@@ -999,6 +1026,61 @@ class Elaborator {
       circuit->elements.push_back(std::move(e));
     }
     BuildResistorRatings(circuit);
+    BuildHeatsinks(circuit);
+  }
+
+  void BuildHeatsinks(Circuit* circuit) {
+    static constexpr ValuePlace kPlace{"thermal_res", "K/W"};
+    for (const HeatsinkStmt& h : d_.heatsinks) {
+      Heatsink sink;
+      sink.name = h.name;
+      sink.where = ToLocation(file_, h.name_span);
+      if (std::optional<double> v = Evaluate(h.thermal_res, &kPlace)) {
+        if (!(std::isfinite(*v) && *v >= 0)) {
+          Error(h.thermal_res.span,
+                fmt::format("heatsink '{}': thermal_res = {} is out of range; it must be >= 0",
+                            h.name, Number(*v)));
+        }
+        sink.thermal_res = *v;
+      }
+      circuit->heatsinks.push_back(std::move(sink));
+    }
+    for (const SinkMountStmt& m : d_.sink_mounts) {
+      if (static_cast<std::size_t>(m.element) >= circuit->elements.size()) break;  // Full()
+      const Element& e = circuit->elements[static_cast<std::size_t>(m.element)];
+      auto it = names_.find(m.sink);
+      if (it == names_.end() || it->second.kind != DefKind::kHeatsink) {
+        if (it != names_.end()) {
+          Diagnostic& d = Error(m.sink_span, fmt::format("'{}' is a {}, not a heatsink; sink= "
+                                                         "names a 'heatsink' statement",
+                                                         m.sink, KindWord(d_, it->second)));
+          Note(&d, it->second.span, fmt::format("'{}' is defined here", m.sink));
+          continue;
+        }
+        const std::string near = SuggestName(m.sink, NamesOf({DefKind::kHeatsink}));
+        Diagnostic& d = Error(
+            m.sink_span,
+            fmt::format("unknown heatsink '{}' on diode '{}'; sink= names a 'heatsink' statement",
+                        m.sink, e.name),
+            near.empty() ? fmt::format("add a line: heatsink {} thermal_res=VALUE", m.sink)
+                         : fmt::format("did you mean '{}'?", near));
+        if (!near.empty()) {
+          Note(&d, names_.find(near)->second.span, fmt::format("'{}' is defined here", near));
+        }
+        continue;
+      }
+      if (e.temp) {
+        const DiodeStmt& diode = d_.DiodeOf(d_.elements[static_cast<std::size_t>(m.element)]);
+        Diagnostic& d = Error(m.key_span,
+                              fmt::format("diode '{}' has both temp= and sink=: temp= fixes its "
+                                          "junction temperature, sink= lets its dissipation set it",
+                                          e.name),
+                              "keep one of the two");
+        if (diode.temp) Note(&d, diode.temp->span, "its temp= is here");
+        continue;
+      }
+      circuit->sink_mounts.push_back({m.element, it->second.index});
+    }
   }
 
   void BuildResistorRatings(Circuit* circuit) {
@@ -1100,6 +1182,7 @@ Result<Design> Elaborate(const Netlist& netlist, const Overrides& overrides) {
   if (!e.Run(&design.circuit)) return e.TakeErrors();
   e.Requests(design.circuit, &design);
   e.NodeWarnings(design.circuit, &design.warnings);
+  e.HeatsinkWarnings(design.circuit, &design.warnings);
   e.ParamReaches(design.circuit, &design);
   std::vector<Diagnostic> errors = e.TakeErrors();
   if (!errors.empty()) return errors;
@@ -1121,6 +1204,13 @@ Result<SweepTarget> ResolveSweepTarget(std::string_view name, const Netlist& net
     const std::string part(name.substr(0, dot));
     const std::string key(name.substr(dot + 1));
     const int index = circuit.FindPart(part);
+    if (index < 0 && circuit.FindHeatsink(part) >= 0) {
+      return MakeError(file, span,
+                       fmt::format("'{}' is a heatsink; its thermal_res is not a sweep target in "
+                                   "this version (docs/thermal.md)",
+                                   part),
+                       "sweep a part's thermal_res (PART.thermal_res) instead");
+    }
     if (index < 0) {
       std::vector<std::string> parts;
       for (const Part& p : circuit.parts) parts.push_back(p.name);

@@ -16,9 +16,9 @@
 namespace knee {
 namespace {
 
-constexpr std::array<const char*, 13> kKeywords = {
+constexpr std::array<const char*, 14> kKeywords = {
     "title", "temp", "param", "part", "resistor", "vsource", "isource",
-    "diode", "bias", "sweep", "show", "expect",   "vary"};
+    "diode", "bias", "sweep", "show", "expect",   "vary",    "heatsink"};
 
 std::string Quote(const Token& t) {
   if (t.kind == Tok::kEnd) return "the end of the line";
@@ -141,13 +141,15 @@ class StatementParser {
       ok = ParseExpect();
     } else if (keyword_ == "vary") {
       ok = ParseVary();
+    } else if (keyword_ == "heatsink") {
+      ok = ParseHeatsink();
     } else {
       std::vector<std::string> names(kKeywords.begin(), kKeywords.end());
       const std::string near = SuggestName(first.text, names);
       Error(first,
             fmt::format("unknown keyword '{}'; a statement starts with one of title, temp, "
                         "param, part, resistor, vsource, isource, diode, bias, sweep, show, "
-                        "expect, vary",
+                        "expect, vary, heatsink",
                         first.text),
             near.empty() ? "" : fmt::format("did you mean '{}'?", near));
       return;
@@ -353,22 +355,28 @@ class StatementParser {
     if (!TakeName("the second node", &e.node_b, &e.b_span, true)) return false;
     if (kind == ElementKind::kDiode) {
       DiodeStmt diode;
+      bool sink_given = false;
       if (!TakeName("the name of a part", &diode.part, &diode.part_span)) return false;
       while (!scanner_.AtEnd()) {
         const Token option = scanner_.NextWord();
         const bool known =
-            option.kind == Tok::kWord && (option.text == "area" || option.text == "temp");
+            option.kind == Tok::kWord &&
+            (option.text == "area" || option.text == "temp" || option.text == "sink");
         if (!known) {
           std::string hint;
           if (option.kind == Tok::kWord) {
-            const std::string near = SuggestName(option.text, {"area", "temp"});
+            const std::string near = SuggestName(option.text, {"area", "temp", "sink"});
             if (!near.empty()) hint = fmt::format("did you mean '{}'?", near);
           }
           return Error(option,
-                       fmt::format("expected a diode option (area=VALUE or temp=VALUE) but "
-                                   "found {}",
+                       fmt::format("expected a diode option (area=VALUE, temp=VALUE or "
+                                   "sink=HEATSINK) but found {}",
                                    Quote(option)),
                        hint);
+        }
+        if (option.text == "sink") {
+          if (!TakeSink(option, e, &sink_given)) return false;
+          continue;
         }
         std::unique_ptr<Value>& slot = option.text == "area" ? diode.area : diode.temp;
         if (slot) {
@@ -395,6 +403,47 @@ class StatementParser {
       data_->element_values.push_back(std::move(value));
     }
     data_->elements.push_back(e);
+    return true;
+  }
+
+  // `sink=NAME` on a diode, at most once; the name is resolved by Elaborate.
+  bool TakeSink(const Token& option, const ElementStmt& e, bool* given) {
+    if (*given) {
+      return Error(option, fmt::format("option 'sink' given twice for diode '{}'", e.name));
+    }
+    *given = true;
+    SinkMountStmt mount;
+    mount.element = static_cast<int>(data_->elements.size());
+    mount.key_span = scanner_.SpanOf(option);
+    if (!TakeEquals("'sink'")) return false;
+    if (!TakeName("the name of a heatsink", &mount.sink, &mount.sink_span)) return false;
+    data_->sink_mounts.push_back(std::move(mount));
+    return true;
+  }
+
+  // heatsink NAME thermal_res=VALUE
+  bool ParseHeatsink() {
+    HeatsinkStmt sink;
+    if (!TakeName("a heatsink name", &sink.name, &sink.name_span)) return false;
+    const Token key = scanner_.NextWord();
+    if (key.kind != Tok::kWord || key.text != "thermal_res") {
+      std::string hint =
+          fmt::format("write heatsink {} thermal_res=VALUE (K/W, sink to ambient)", sink.name);
+      if (key.kind == Tok::kEnd) {
+        return Error(
+            key, fmt::format("heatsink '{}' needs thermal_res=VALUE but the line ends", sink.name),
+            hint);
+      }
+      return Error(key,
+                   fmt::format("expected thermal_res=VALUE after the heatsink name but "
+                               "found {}",
+                               Quote(key)),
+                   hint);
+    }
+    sink.key_span = scanner_.SpanOf(key);
+    if (!TakeEquals("'thermal_res'")) return false;
+    if (!TakeValue("a thermal resistance in K/W", &sink.thermal_res)) return false;
+    data_->heatsinks.push_back(std::move(sink));
     return true;
   }
 

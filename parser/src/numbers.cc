@@ -213,6 +213,7 @@ std::string DescribeUnit(std::string_view place_unit) {
   if (place_unit == "C") return "degrees Celsius (C), kelvin (K) or no unit";
   if (place_unit == "1/K") return "a plain number (per kelvin) or %";
   if (place_unit == "eV") return "a plain number (in eV)";
+  if (place_unit == "K/W") return "a plain number (in kelvin per watt)";
   return "a plain number or %";
 }
 

@@ -13,16 +13,22 @@ namespace knee {
 namespace {
 
 constexpr PartKeyInfo kKeys[] = {
-    {"sat_current", "A", "> 0"},       {"ideality", "", "> 0"},
-    {"series_res", "Ohm", ">= 0"},     {"breakdown_v", "V", "> 0"},
-    {"breakdown_i", "A", "> 0"},       {"breakdown_ideality", "", "> 0"},
-    {"breakdown_tc", "1/K", "finite"}, {"bandgap", "eV", "> 0"},
-    {"sat_temp_exp", "", "finite"},    {"ref_temp", "C", "above absolute zero (-273.15 C)"},
-    {"max_current", "A", "> 0"},       {"max_reverse_v", "V", "> 0"},
+    {"sat_current", "A", "> 0"},
+    {"ideality", "", "> 0"},
+    {"series_res", "Ohm", ">= 0"},
+    {"breakdown_v", "V", "> 0"},
+    {"breakdown_i", "A", "> 0"},
+    {"breakdown_ideality", "", "> 0"},
+    {"breakdown_tc", "1/K", "finite"},
+    {"bandgap", "eV", "> 0"},
+    {"sat_temp_exp", "", "finite"},
+    {"ref_temp", "C", "above absolute zero (-273.15 C)"},
+    {"max_current", "A", "> 0"},
+    {"max_reverse_v", "V", "> 0"},
     {"max_power", "W", "> 0"},
+    {"thermal_res", "K/W", ">= 0"},
+    {"max_junction_temp", "C", "above absolute zero (-273.15 C)"},
 };
-
-constexpr const char* kPlannedKeys[] = {"thermal_res", "max_junction_temp"};
 
 // Common abbreviations and spelled-out variants of the keys (lower case), mapped to the key
 // they most likely mean. Our own table: short forms engineers write in notes and data
@@ -87,7 +93,7 @@ std::string Lower(std::string_view text) {
 // The key `wrong` most likely means by the alias table or by case alone; "" if none.
 std::string LikelyKey(std::string_view wrong) {
   const std::string lower = Lower(wrong);
-  if (FindPartKey(lower) || IsPlannedPartKey(lower)) return lower;
+  if (FindPartKey(lower)) return lower;
   for (const Alias& a : kAliases) {
     if (lower == a.written) return a.key;
   }
@@ -101,11 +107,6 @@ const PartKeyInfo* FindPartKey(std::string_view key) {
     if (key == info.key) return &info;
   }
   return nullptr;
-}
-
-bool IsPlannedPartKey(std::string_view key) {
-  return std::any_of(std::begin(kPlannedKeys), std::end(kPlannedKeys),
-                     [&](const char* k) { return key == k; });
 }
 
 std::vector<std::string> PartKeyNames() {
@@ -148,6 +149,8 @@ void SetPartKey(DiodeModel* m, std::string_view key, double v) {
   if (key == "max_current") m->max_current = v;
   if (key == "max_reverse_v") m->max_reverse_v = v;
   if (key == "max_power") m->max_power = v;
+  if (key == "thermal_res") m->thermal_res = v;
+  if (key == "max_junction_temp") m->max_junction_temp = v;
 }
 
 std::optional<double> GetPartKey(const DiodeModel& m, std::string_view key) {
@@ -164,6 +167,8 @@ std::optional<double> GetPartKey(const DiodeModel& m, std::string_view key) {
   if (key == "max_current") return m.max_current;
   if (key == "max_reverse_v") return m.max_reverse_v;
   if (key == "max_power") return m.max_power;
+  if (key == "thermal_res") return m.thermal_res;
+  if (key == "max_junction_temp") return m.max_junction_temp;
   return std::nullopt;
 }
 

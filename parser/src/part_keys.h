@@ -14,7 +14,7 @@ namespace knee {
 
 struct PartKeyInfo {
   const char* key;
-  const char* unit;  // a ValuePlace unit: "A" "V" "W" "Ohm" "C" "" "1/K" "eV"
+  const char* unit;  // a ValuePlace unit: "A" "V" "W" "Ohm" "C" "" "1/K" "eV" "K/W"
   const char* rule;  // "> 0", ">= 0", "finite", "above absolute zero"
 };
 
@@ -29,10 +29,6 @@ std::string PartKeyRule(const PartKeyInfo& info, double value);
 void SetPartKey(DiodeModel* model, std::string_view key, double value);
 // The model's value for the key; nullopt for a rating or breakdown_v that is not set.
 std::optional<double> GetPartKey(const DiodeModel& model, std::string_view key);
-
-// Keys of the netlist format that this version reads but does not model yet (self-heating:
-// thermal_res, max_junction_temp); a part that gives one is an error that says so.
-bool IsPlannedPartKey(std::string_view key);
 
 // The hint for a key that is not a part key: the spelled-out key that `wrong` most likely
 // means (a key written in capitals, or a common abbreviation such as IS, N or RS), else the

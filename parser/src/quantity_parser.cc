@@ -250,7 +250,8 @@ class QuantityResolver {
     if (dot == std::string::npos) {
       return MakeError(file_, e.span,
                        fmt::format("'{}' is not a quantity, a param or temp; expected NODE.v, "
-                                   "ELEMENT.v, ELEMENT.i, ELEMENT.p, DIODE.vj or DIODE.rd",
+                                   "ELEMENT.v, ELEMENT.i, ELEMENT.p, DIODE.vj, DIODE.rd, "
+                                   "DIODE.tj or HEATSINK.t",
                                    text),
                        BareNameHint(text));
     }
@@ -263,10 +264,19 @@ class QuantityResolver {
                        fmt::format("'{}' is a node; a node has only .v (its voltage)", name),
                        fmt::format("did you mean '{}.v'?", name));
     }
+    const int sink = circuit_.FindHeatsink(name);
+    if (sink >= 0) {
+      if (field == "t") return QuantityRef{QuantityKind::kSinkTemp, sink};
+      return MakeError(
+          file_, e.span,
+          fmt::format("'{}' is a heatsink; a heatsink has only .t (its temperature)", name),
+          fmt::format("did you mean '{}.t'?", name));
+    }
     const int element = circuit_.FindElement(name);
     if (element < 0) {
       std::vector<std::string> names = circuit_.nodes;
       for (const Element& el : circuit_.elements) names.push_back(el.name);
+      for (const Heatsink& h : circuit_.heatsinks) names.push_back(h.name);
       const std::string near = SuggestName(name, names);
       return MakeError(file_, e.span,
                        fmt::format("unknown node or element '{}' in the quantity '{}'", name, text),
@@ -279,17 +289,18 @@ class QuantityResolver {
     if (field == "p") return QuantityRef{QuantityKind::kElementPower, element};
     if (diode && field == "vj") return QuantityRef{QuantityKind::kJunctionVoltage, element};
     if (diode && field == "rd") return QuantityRef{QuantityKind::kSmallSignalRes, element};
-    if (field == "vj" || field == "rd") {
+    if (diode && field == "tj") return QuantityRef{QuantityKind::kJunctionTemp, element};
+    if (field == "vj" || field == "rd" || field == "tj") {
       return MakeError(file_, e.span,
-                       fmt::format("'{}' is a {}; .vj and .rd exist for diodes only", name,
+                       fmt::format("'{}' is a {}; .vj, .rd and .tj exist for diodes only", name,
                                    ElementKindName(el.kind)));
     }
     std::vector<std::string> fields = {"v", "i", "p"};
-    if (diode) fields.insert(fields.end(), {"vj", "rd"});
+    if (diode) fields.insert(fields.end(), {"vj", "rd", "tj"});
     const std::string near = SuggestName(field, fields);
     return MakeError(file_, e.span,
                      fmt::format("unknown quantity '.{}' of {} '{}'; expected .v, .i, .p{}", field,
-                                 ElementKindName(el.kind), name, diode ? ", .vj or .rd" : ""),
+                                 ElementKindName(el.kind), name, diode ? ", .vj, .rd or .tj" : ""),
                      near.empty() ? "" : fmt::format("did you mean '{}.{}'?", name, near));
   }
 

@@ -108,6 +108,22 @@ struct ResistorRatingStmt {
   Value value;
 };
 
+// `heatsink NAME thermal_res=VALUE` (netlist-format.md, "Self-heating").
+struct HeatsinkStmt {
+  std::string name;
+  Span name_span;
+  Span key_span;  // the word thermal_res
+  Value thermal_res;
+};
+
+// `sink=NAME` on a diode: the diode is mounted on that heatsink.
+struct SinkMountStmt {
+  int element = -1;  // index into NetlistData::elements, a diode
+  std::string sink;
+  Span sink_span;
+  Span key_span;  // the word sink
+};
+
 struct SweepPairStmt {
   std::string target;
   Span target_span;
@@ -174,6 +190,8 @@ struct NetlistData {
   std::vector<Value> element_values;  // of resistors and sources, by ElementStmt::detail
   std::vector<DiodeStmt> diodes;      // by ElementStmt::detail
   std::vector<ResistorRatingStmt> resistor_ratings;  // in file order
+  std::vector<HeatsinkStmt> heatsinks;               // in file order
+  std::vector<SinkMountStmt> sink_mounts;            // in file order
 
   const Value& ValueOf(const ElementStmt& e) const {
     return element_values[static_cast<std::size_t>(e.detail)];

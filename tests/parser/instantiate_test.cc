@@ -101,3 +101,37 @@ TEST(OverridesTest, ElaborateCircuitMatchesElaborate) {
 
 }  // namespace
 }  // namespace knee
+
+namespace knee {
+namespace {
+
+// Self-heating statements elaborate into the circuit (netlist-format.md, "Self-heating").
+TEST(SelfHeatingTest, HeatsinksMountsAndKeys) {
+  const Design d = testing::MustBuild(
+      "part R diode thermal_res=60 max_junction_temp=423.15K\n"
+      "heatsink HS1 thermal_res=8\nheatsink HS2 thermal_res=0\n"
+      "vsource V a -> 0 1\nresistor R1 a -> b 10\n"
+      "diode D1 b -> 0 R sink=HS2\ndiode D2 b -> 0 R temp=40\ndiode D3 b -> 0 R\n",
+      Overrides{});
+  const Circuit& c = d.circuit;
+  EXPECT_EQ(c.parts[0].model.thermal_res, 60.0);
+  EXPECT_NEAR(*c.parts[0].model.max_junction_temp, 150.0, 1e-12);  // kelvin converted
+  ASSERT_EQ(c.heatsinks.size(), 2u);
+  EXPECT_EQ(c.heatsinks[0].name, "HS1");
+  EXPECT_EQ(c.heatsinks[0].thermal_res, 8.0);
+  EXPECT_EQ(c.heatsinks[1].thermal_res, 0.0);  // 0 K/W is allowed
+  ASSERT_EQ(c.sink_mounts.size(), 1u);
+  EXPECT_EQ(c.sink_mounts[0].element, c.FindElement("D1"));
+  EXPECT_EQ(c.sink_mounts[0].sink, 1);
+  EXPECT_EQ(c.FindHeatsink("HS2"), 1);
+  EXPECT_TRUE(c.SelfHeated(c.FindElement("D1")));
+  EXPECT_FALSE(c.SelfHeated(c.FindElement("D2")));  // temp= holds it
+  EXPECT_TRUE(c.SelfHeated(c.FindElement("D3")));
+  // Without any of it, nothing is heated and no sink exists.
+  const Design plain = testing::MustBuild("vsource V a -> 0 1\nresistor R1 a -> 0 1k\n", {});
+  EXPECT_TRUE(plain.circuit.heatsinks.empty());
+  EXPECT_TRUE(plain.circuit.sink_mounts.empty());
+}
+
+}  // namespace
+}  // namespace knee

@@ -183,7 +183,7 @@ TEST(NetlistParserErrorTest, UnknownKeywordSuggestsTheNearOne) {
   const auto e = ParseErrors("resistr R1 a -> b 1k\n");
   EXPECT_EQ(OnlyError(e),
             "1:1: unknown keyword 'resistr'; a statement starts with one of title, temp, param, "
-            "part, resistor, vsource, isource, diode, bias, sweep, show, expect, vary");
+            "part, resistor, vsource, isource, diode, bias, sweep, show, expect, vary, heatsink");
   EXPECT_EQ(e[0].hint, "did you mean 'resistor'?");
   EXPECT_EQ(e[0].where.file, "t.knee");
   EXPECT_EQ(e[0].where.length, 7);
@@ -313,7 +313,8 @@ TEST(NetlistParserErrorTest, BadNodeName) {
 TEST(NetlistParserErrorTest, UnknownDiodeOption) {
   const auto e = ParseErrors("diode D1 a -> 0 P are=2\n");
   EXPECT_EQ(OnlyError(e),
-            "1:19: expected a diode option (area=VALUE or temp=VALUE) but found 'are'");
+            "1:19: expected a diode option (area=VALUE, temp=VALUE or sink=HEATSINK) but found "
+            "'are'");
   EXPECT_EQ(e[0].hint, "did you mean 'area'?");
 }
 

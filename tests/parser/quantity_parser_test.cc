@@ -94,11 +94,11 @@ TEST_F(QuantityTest, Errors) {
   EXPECT_EQ(Error("b.v"), "2:5: unknown node or element 'b' in the quantity 'b.v'");
   EXPECT_EQ(Parse("R1.i").errors()[0].hint, "did you mean 'R'?");
   EXPECT_EQ(Error("a.i"), "2:5: 'a' is a node; a node has only .v (its voltage)");
-  EXPECT_EQ(Error("R.vj"), "2:5: 'R' is a resistor; .vj and .rd exist for diodes only");
+  EXPECT_EQ(Error("R.vj"), "2:5: 'R' is a resistor; .vj, .rd and .tj exist for diodes only");
   EXPECT_EQ(Error("R.x"), "2:5: unknown quantity '.x' of resistor 'R'; expected .v, .i, .p");
   EXPECT_EQ(Error("a"),
             "2:5: 'a' is not a quantity, a param or temp; expected NODE.v, ELEMENT.v, "
-            "ELEMENT.i, ELEMENT.p, DIODE.vj or DIODE.rd");
+            "ELEMENT.i, ELEMENT.p, DIODE.vj, DIODE.rd, DIODE.tj or HEATSINK.t");
   EXPECT_EQ(Parse("a").errors()[0].hint, "did you mean 'a.v'?");  // 'a' is a node
   EXPECT_EQ(Error("(a.v - b.v)"), "2:12: unknown node or element 'b' in the quantity 'b.v'");
   EXPECT_EQ(Error("a.v - k.v"), "2:5: an expression of quantities must be written in parentheses");

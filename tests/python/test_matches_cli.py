@@ -129,3 +129,17 @@ def test_hand_equals_cli(demo):
                     assert same_bits(h.value(model, name), expected), (model, name)
                     compared += 1
         assert compared >= 4 * len(h.states("exact") or [None])
+
+
+def test_isothermal_keyword_equals_cli():
+    """isothermal=True is --isothermal; without it the heated demo's junctions are solved."""
+    demo = netlist("bridge-module-heat.knee")
+    c = knee.load(demo)
+    show = ["D1.tj", "PKG.t", "D1.p", "out.v"]
+    for extra, kwargs in (([], {}), (["--isothermal"], {"isothermal": True})):
+        cli = read_csv(run_cli("bias", demo, "--format", "csv", "--quiet", "--show",
+                               ",".join(show), *extra, check_status=(0, 3, 4)))
+        b = c.bias(show=show, **kwargs)
+        assert_columns_equal(cli, show, lambda q: [b[q]])
+    assert c.bias(show=show, isothermal=True)["D1.tj"] == 25.0
+    assert c.bias(show=show)["D1.tj"] > 50.0

@@ -31,6 +31,11 @@ struct DiodeModel {
   std::optional<double> max_current;    // A, rated forward current
   std::optional<double> max_reverse_v;  // V, rated reverse voltage
   std::optional<double> max_power;      // W, rated dissipation
+  // Self-heating (docs/thermal.md): K/W, >= 0, junction to ambient, or to the sink of a
+  // diode mounted with sink=; unset = the diode stays at the ambient (or its sink's)
+  // temperature.
+  std::optional<double> thermal_res;
+  std::optional<double> max_junction_temp;  // degC, rated junction temperature
 };
 
 struct Part {
@@ -62,6 +67,20 @@ struct ResistorRating {
   double max_power = 0;  // W, > 0
 };
 
+// A heatsink (netlist-format.md, "Self-heating"): a thermal node that carries the
+// dissipation of every diode mounted on it to the ambient through thermal_res.
+struct Heatsink {
+  std::string name;
+  double thermal_res = 0;  // K/W, >= 0, sink to ambient
+  SourceLocation where;
+};
+
+// A diode mounted on a heatsink with sink=NAME.
+struct SinkMount {
+  int element = -1;  // index into Circuit::elements, a diode without temp=
+  int sink = -1;     // index into Circuit::heatsinks
+};
+
 struct Circuit {
   std::string title;
   double temp = 25.0;              // degC
@@ -69,6 +88,8 @@ struct Circuit {
   std::vector<Part> parts;
   std::vector<Element> elements;
   std::vector<ResistorRating> resistor_ratings;  // in file order; not used by the solver
+  std::vector<Heatsink> heatsinks;               // in file order
+  std::vector<SinkMount> sink_mounts;            // in file order of the diodes
 
   Circuit() : nodes{"gnd"} {}
 
@@ -76,8 +97,14 @@ struct Circuit {
   int FindNode(std::string_view name) const;
   int FindElement(std::string_view name) const;
   int FindPart(std::string_view name) const;
+  int FindHeatsink(std::string_view name) const;
   // Temperature of a diode element in degC: its own temp= or the circuit's.
   double DeviceTemp(const Element& element) const { return element.temp ? *element.temp : temp; }
+  // The heatsink a diode is mounted on (sink=), or -1.
+  int SinkOf(int element) const;
+  // Whether a diode's junction temperature is solved with the circuit (docs/thermal.md): a
+  // diode without temp= whose part has thermal_res or that is mounted on a heatsink.
+  bool SelfHeated(int element) const;
 };
 
 const char* ElementKindName(ElementKind kind);  // "resistor", "vsource", ...

@@ -15,6 +15,8 @@ enum class QuantityKind {
   kElementPower,     // ELEMENT.p (absorbed, v*i)
   kJunctionVoltage,  // DIODE.vj
   kSmallSignalRes,   // DIODE.rd
+  kJunctionTemp,     // DIODE.tj (degC), index = element
+  kSinkTemp,         // HEATSINK.t (degC), index = Circuit::heatsinks
 };
 
 struct QuantityRef {
@@ -23,7 +25,7 @@ struct QuantityRef {
 };
 
 double Evaluate(const Solution& solution, const QuantityRef& ref);
-const char* UnitSymbol(QuantityKind kind);                                 // "V", "A", "W", "Ohm"
+const char* UnitSymbol(QuantityKind kind);  // "V", "A", "W", "Ohm", "C"
 std::string QuantityName(const Circuit& circuit, const QuantityRef& ref);  // "pin.v"
 
 }  // namespace knee

@@ -2,6 +2,7 @@
 // and a bounded ladder of convergence aids. See docs/solver.md.
 #pragma once
 
+#include <limits>
 #include <memory>
 #include <optional>
 #include <span>
@@ -64,6 +65,15 @@ struct SolverOptions {
   // Verification of a reported solution: the largest KCL residual (A) must be at most
   // verify_current_tol + rel_tol * (largest branch current magnitude at that node).
   double verify_current_tol = 1e-9;  // A, > 0
+
+  // Self-heating (docs/thermal.md): false solves the junction temperatures of heated
+  // diodes (a part with thermal_res, or a diode on a heatsink) with the node voltages;
+  // true keeps every junction at its own temp= or the ambient, as if no diode were heated.
+  bool isothermal = false;
+  // With a single heated diode: after the balance is found, scan its junction temperature
+  // upward (to 400 C, docs/thermal.md) for another balance and report it in
+  // SolveSummary::other_balance_temp. Costs a bias point per 5 K; knee bias turns it on.
+  bool seek_other_balance = false;
 };
 
 // Returns a message naming the field, its value and the rule broken, or nothing.
@@ -84,6 +94,11 @@ enum class SolveStatus {
   // hold carries more than any diode can (or more than a double holds); the detail says
   // which junction, across which sources, and the current it would carry.
   kOutOfRange,
+  // Not usable: no thermal balance exists (docs/thermal.md, "Thermal runaway"): the
+  // dissipation of heated diodes grows with their temperature faster than their thermal
+  // path removes it; the detail names the diode, the temperature where the balance is
+  // lost and the critical thermal_res.
+  kThermalRunaway,
 };
 const char* ToString(SolveStatus status);
 
@@ -94,6 +109,10 @@ struct Solution {
   std::vector<double> element_current;   // A, from node_a through the element to node_b
   std::vector<double> junction_voltage;  // V, diodes only (NaN for other elements)
   std::vector<double> small_signal_res;  // Ohm, dV/dI of diodes (NaN for others)
+  // degC, per element: each diode's junction temperature (its own temp=, the ambient, or
+  // for a heated diode the solved Tj); NaN for other elements.
+  std::vector<double> junction_temp;
+  std::vector<double> sink_temp;  // degC, per Circuit::heatsinks
 };
 
 // V: the most a stray current of abs_current_tol, entering the circuit at any one node,
@@ -128,6 +147,20 @@ struct SolveSummary {
   // A: the current tolerance of the extra Newton runs that settled nodes the solve's own
   // tolerance held only loosely (docs/solver.md, "Settling runs"); 0 when none ran.
   double settling_current_tol = 0.0;
+  // Self-heating (docs/thermal.md), when some diode is heated: the largest |Tj - T_sink -
+  // thermal_res * P| of the reported solution (K) and its diode, and the thermal Newton
+  // iterations (each one a bias point at fixed junction temperatures).
+  bool heated = false;
+  double max_thermal_residual = 0.0;
+  std::string thermal_worst;
+  int thermal_iterations = 0;
+  // Heated circuits only: for thermal runaway, the critical thermal_res of `thermal_worst`
+  // (K/W) and its junction temperature where the balance is lost (degC); NaN otherwise.
+  double critical_thermal_res = std::numeric_limits<double>::quiet_NaN();
+  double runaway_temp = std::numeric_limits<double>::quiet_NaN();
+  // Another thermal balance than the reported one (a single heated diode, searched up to
+  // the scan limit of docs/thermal.md): its junction temperature (degC), else NaN.
+  double other_balance_temp = std::numeric_limits<double>::quiet_NaN();
 };
 
 // One record per Newton step, for --trace.

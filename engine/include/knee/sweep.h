@@ -86,6 +86,11 @@ struct SweepStats {
   bool unique = true;                 // every solved point's solution is unique
   double max_kcl_residual = 0;
   std::string worst_node;
+  // Self-heating: some point had heated diodes; the largest thermal balance residual (K)
+  // over the solved points and its diode.
+  bool heated = false;
+  double max_thermal_residual = 0;
+  std::string thermal_worst;
   std::string setup_error;  // BiasSolver::Create failed; nothing was solved
 };
 
