@@ -124,6 +124,8 @@ class SpreadWorker {
     Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit_, job_.options->solver);
     if (!solver) return solver.errors().front().message;
     solver_ = std::move(solver).value();
+    // A sample's report shows the detail of failed solves only.
+    solver_->set_describe_converged(false);
     return "";
   }
 

@@ -4,7 +4,9 @@
 
 #include <algorithm>
 #include <array>
+#include <charconv>
 #include <cmath>
+#include <cstdlib>
 
 namespace knee::cli {
 namespace {
@@ -110,8 +112,56 @@ std::string FormatEng(double value, std::string_view unit, int significant) {
 }
 
 std::string FormatRoundTrip(double value) {
-  if (std::isnan(value)) return "nan";
-  return fmt::format("{}", value);
+  char text[kRoundTripChars];
+  return std::string(text, WriteRoundTrip(value, text));
+}
+
+// The shortest digits come from {fmt}'s Dragonbox (fmt::detail::dragonbox::to_decimal,
+// the routine behind its "{}"), which is several times cheaper here than std::to_chars
+// of libstdc++ 12 plus the reading back of its exponent; the layout is written here.
+// tests/cli/eng_format_test.cc holds every layout against fmt::format("{}").
+char* WriteRoundTrip(double value, char* out) {
+  if (std::isnan(value)) return std::copy_n("nan", 3, out);
+  if (std::signbit(value)) {
+    *out++ = '-';
+    value = -value;
+  }
+  if (std::isinf(value)) return std::copy_n("inf", 3, out);
+  if (value == 0.0) {
+    *out++ = '0';
+    return out;
+  }
+  const auto decimal = fmt::detail::dragonbox::to_decimal(value);
+  char digits[24];
+  const auto n = static_cast<size_t>(
+      std::to_chars(digits, digits + sizeof digits, decimal.significand).ptr - digits);
+  // Decimal exponent of the first digit: value = d.ddd * 10^exponent.
+  const int exponent = decimal.exponent + static_cast<int>(n) - 1;
+  if (exponent < -4 || exponent >= 16) {
+    *out++ = digits[0];
+    if (n > 1) {
+      *out++ = '.';
+      out = std::copy(digits + 1, digits + n, out);
+    }
+    *out++ = 'e';
+    *out++ = exponent < 0 ? '-' : '+';
+    const int magnitude = std::abs(exponent);
+    if (magnitude < 10) *out++ = '0';  // at least two exponent digits
+    return std::to_chars(out, out + 3, magnitude).ptr;
+  }
+  if (exponent < 0) {
+    out = std::copy_n("0.", 2, out);
+    out = std::fill_n(out, -exponent - 1, '0');
+    return std::copy_n(digits, n, out);
+  }
+  const auto whole = static_cast<size_t>(exponent) + 1;  // digits before the point
+  if (n <= whole) {
+    out = std::copy_n(digits, n, out);
+    return std::fill_n(out, whole - n, '0');
+  }
+  out = std::copy_n(digits, whole, out);
+  *out++ = '.';
+  return std::copy(digits + whole, digits + n, out);
 }
 
 }  // namespace knee::cli

@@ -15,8 +15,18 @@ namespace knee::cli {
 // in %/K from 1e-2 up. NaN as "—", infinities as "inf".
 std::string FormatEng(double value, std::string_view unit, int significant = 4);
 
-// Shortest decimal text that reads back to exactly `value` ("nan" for NaN).
+// Shortest decimal text that reads back to exactly `value` ("nan" for NaN, "inf",
+// "-inf"): the shortest digits that round-trip (Dragonbox), in fixed notation when the decimal
+// exponent of the first digit is in [-4, 16) ("0.00012", "1500", "-0"), else as
+// "1.5e-05" / "2e+16" (the layout of {fmt}'s "{}", which scripts have read since v1).
 std::string FormatRoundTrip(double value);
+
+// Room WriteRoundTrip needs: "-" + 17 digits + "." + "e-308", or "0." + 3 zeros + 17
+// digits, with margin.
+inline constexpr size_t kRoundTripChars = 32;
+// Writes FormatRoundTrip(value)'s text at `out` (kRoundTripChars of room) and returns the
+// end: no string per number, for the CSV rows of a sweep.
+char* WriteRoundTrip(double value, char* out);
 
 // Unit as people read it: "Ohm" -> "Ω", others unchanged.
 std::string DisplayUnit(std::string_view unit);

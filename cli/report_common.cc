@@ -2,8 +2,10 @@
 
 #include <fmt/format.h>
 
+#include <charconv>
 #include <cmath>
 
+#include "eng_format.h"
 #include "knee/solver.h"
 
 namespace knee::cli {
@@ -46,6 +48,21 @@ std::string XmlEscape(const std::string& text) {
     }
   }
   return out;
+}
+
+void AppendRoundTrip(double value, fmt::memory_buffer& out) {
+  const size_t at = out.size();
+  out.resize(at + kRoundTripChars);
+  const char* end = WriteRoundTrip(value, out.data() + at);
+  out.resize(static_cast<size_t>(end - out.data()));
+}
+
+void AppendInteger(long long value, fmt::memory_buffer& out) {
+  constexpr size_t kDigits = 24;  // a long long has at most 19 digits and a sign
+  const size_t at = out.size();
+  out.resize(at + kDigits);
+  const char* end = std::to_chars(out.data() + at, out.data() + at + kDigits, value).ptr;
+  out.resize(static_cast<size_t>(end - out.data()));
 }
 
 std::string CsvField(const std::string& text) {

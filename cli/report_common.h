@@ -2,6 +2,8 @@
 // members that several report kinds carry.
 #pragma once
 
+#include <fmt/format.h>
+
 #include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
@@ -20,6 +22,12 @@ std::string XmlEscape(const std::string& text);
 
 // RFC 4180 quoting for a field that contains a comma, a quote or a line break.
 std::string CsvField(const std::string& text);
+
+// Appends FormatRoundTrip(value) to `out`, written in place (WriteRoundTrip): the CSV rows
+// of a sweep or a spread make no string per number.
+void AppendRoundTrip(double value, fmt::memory_buffer& out);
+// Appends the decimal digits of `value` (std::to_chars).
+void AppendInteger(long long value, fmt::memory_buffer& out);
 
 // JSON has no NaN or infinity: such a number is written as null.
 nlohmann::ordered_json JsonNumber(double value);

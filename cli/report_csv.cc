@@ -1,6 +1,5 @@
 // Scripts' CSV: one header row of quantity names with units, one row per point, numbers
 // that round-trip a double, nothing else in the stream (cli.md, "Output").
-#include <fmt/compile.h>
 #include <fmt/format.h>
 
 #include <cmath>
@@ -14,19 +13,14 @@
 namespace knee::cli {
 namespace {
 
-// The rows, formatted straight into `out` (the same text as FormatRoundTrip, without a
-// string per cell).
+// The rows, formatted straight into `out` (FormatRoundTrip's text, without a string per
+// cell).
 void AppendCsvRows(const Report& report, fmt::memory_buffer& out) {
   out.reserve(out.size() + report.rows.size() * report.columns.size() * 24);
-  const auto append = fmt::appender(out);
   for (const auto& row : report.rows) {
     for (size_t i = 0; i < row.size(); ++i) {
       if (i) out.push_back(',');
-      if (std::isnan(row[i])) {
-        out.append(std::string_view("nan"));
-      } else {
-        fmt::format_to(append, FMT_COMPILE("{}"), row[i]);
-      }
+      AppendRoundTrip(row[i], out);
     }
     out.push_back('\n');
   }

@@ -2,7 +2,6 @@
 // (docs/json-schema.md, "knee-spread/1") and the histograms.
 #include "report_spread.h"
 
-#include <fmt/compile.h>
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -159,7 +158,6 @@ std::string WriteSpreadTable(const SpreadReport& r) {
 
 std::string WriteSpreadCsv(const SpreadReport& r) {
   fmt::memory_buffer out;
-  const auto append = fmt::appender(out);
   if (r.csv_header) {
     std::vector<std::string> names = {r.corners ? "corner" : "sample"};
     for (const DrawColumn& c : r.columns) {
@@ -179,14 +177,10 @@ std::string WriteSpreadCsv(const SpreadReport& r) {
   const size_t values = r.columns.size() + r.quantities.size();
   for (size_t i = 0; i < r.rows.size(); ++i) {
     const auto& row = r.rows[i];
-    fmt::format_to(append, FMT_COMPILE("{}"), r.first + static_cast<long long>(i));
+    AppendInteger(r.first + static_cast<long long>(i), out);
     for (size_t c = 0; c < values; ++c) {
       out.push_back(',');
-      if (std::isnan(row[c])) {
-        out.append(std::string_view("nan"));
-      } else {
-        fmt::format_to(append, FMT_COMPILE("{}"), row[c]);
-      }
+      AppendRoundTrip(row[c], out);
     }
     for (size_t c = values; c < row.size(); ++c) {
       out.push_back(',');

@@ -70,7 +70,9 @@ void BiasSolver::Impl::Update(const Circuit& c) {
   }
   m.circuit = &c;
   if (!sources_only || m.non_monotone) m.Classify();
-  if (m.mna.StructureMatches(c)) {
+  // sources_only: every element kept its kind, nodes and part since the last update,
+  // whose structure the MNA system matched (or was rebuilt for), so it still matches.
+  if (sources_only || m.mna.StructureMatches(c)) {
     m.mna.UpdateValues(c);
     return;
   }
@@ -121,10 +123,18 @@ void BiasSolver::Impl::ResetStart() {
 std::optional<BiasSolver::Impl::Ending> BiasSolver::Impl::WarmStartNewton(SolveSummary* s) {
   if (!(options.method == SolverMethod::kAuto && warm() && !non_monotone)) return std::nullopt;
   ResetStart();
+  // A failed run's detail is never shown (the strategies after it report), so only a
+  // converged one's text is ever deferred.
+  newton.set_describe_converged(describe_converged);
   const NewtonOutcome out = Run(AssemblyAids{}, "newton (warm start)", s);
+  newton.set_describe_converged(true);
   if (out.exit != NewtonExit::kConverged) return std::nullopt;
   s->method = SolverMethod::kClassic;
-  s->detail = "newton from the warm start: " + out.detail;
+  if (describe_converged) {
+    s->detail = "newton from the warm start: " + out.detail;
+  } else {
+    deferred_note = out.note;
+  }
   return Ending{out.exit, false};
 }
 
@@ -204,6 +214,7 @@ int BiasSolver::unknown_count() const {
   return impl_->mna.size() + (impl_->thermal ? impl_->ThermalCount() : 0);
 }
 void BiasSolver::set_trace(bool on) { impl_->trace_on = on; }
+void BiasSolver::set_describe_converged(bool on) { impl_->describe_converged = on; }
 const std::vector<NewtonStepRecord>& BiasSolver::trace() const { return impl_->trace; }
 
 }  // namespace knee

@@ -7,6 +7,7 @@
 #include <optional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "adjoint.h"
@@ -80,6 +81,11 @@ struct BiasSolver::Impl {
   bool rerooted = false;       // mna's islands are rooted by a solution (RerootIslands)
   double junction_span = 0.0;  // V, JunctionSpan(circuit)
   bool trace_on = false;
+  // BiasSolver::set_describe_converged; when off, a converged warm-start run leaves its
+  // numbers in deferred_note and the detail empty until a later stage needs the text
+  // (DescribeDeferred).
+  bool describe_converged = true;
+  std::optional<internal::ConvergedNote> deferred_note;
   std::vector<NewtonStepRecord> trace;
   // Whether the last Solve() converged (Sensitivity() differentiates only that point),
   // and the adjoint method's buffers, made on first use.
@@ -165,7 +171,7 @@ struct BiasSolver::Impl {
   bool warm() const { return start.size() == x.size(); }
   // x = the caller's start, or 0 V.
   void ResetStart();
-  internal::NewtonOutcome Run(const internal::AssemblyAids& aids, const std::string& phase,
+  internal::NewtonOutcome Run(const internal::AssemblyAids& aids, std::string_view phase,
                               SolveSummary* s) {
     internal::NewtonOutcome out = newton.Run(aids, phase, x, trace_on ? &trace : nullptr);
     s->newton_steps += out.steps;
@@ -190,6 +196,9 @@ struct BiasSolver::Impl {
   std::vector<int> LooseNodes(const SolverOptions& o, bool rounding, double* scale);
   std::vector<int> UntiedNodes(const SolverOptions& o, bool rounding);
   void Verify(SolveSummary* s);
+  // Puts the deferred warm-start detail in front of s->detail (a verification failure
+  // appends to it); the text is then what it is with describe_converged on.
+  void DescribeDeferred(SolveSummary* s);
   // A verified answer in which a junction that only sources and junctions limit carries
   // more than any diode could is out of range (forced_junctions.h).
   void CheckLoopJunctions(SolveSummary* s);

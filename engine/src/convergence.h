@@ -31,12 +31,6 @@ enum class NewtonExit {
   kFatal,      // the linear solver failed for good (memory, invalid input)
 };
 
-struct NewtonOutcome {
-  NewtonExit exit = NewtonExit::kStepLimit;
-  int steps = 0;
-  std::string detail;  // why it stopped, with the numbers
-};
-
 // The worst entry of a tolerance test: the index where |value| / bound is largest.
 struct ToleranceCheck {
   int index = -1;
@@ -45,6 +39,24 @@ struct ToleranceCheck {
   bool passed() const { return index < 0 || value <= bound; }
   // |value| / bound, 0 when nothing was tested.
   double ratio() const { return index < 0 ? 0.0 : value / bound; }
+};
+
+// The numbers behind a converged run's detail ("converged in N steps: worst |dx| ...").
+// Kept as numbers so that the text is made only where it is read
+// (NewtonSolver::Describe): a sweep shows no detail for its converged points.
+struct ConvergedNote {
+  int steps = 0;  // Newton steps before the accepted point
+  ToleranceCheck update, residual;
+  bool step_taken = true;  // false: the last step was computed but not applied
+};
+
+struct NewtonOutcome {
+  NewtonExit exit = NewtonExit::kStepLimit;
+  int steps = 0;
+  // Why it stopped, with the numbers; empty for a converged run whose solver was told
+  // not to describe converged runs (then `note` holds the numbers).
+  std::string detail;
+  ConvergedNote note;  // set when exit == kConverged
 };
 
 // |dx_u| <= abs_voltage_tol + rel_tol*|x_u| (abs_current_tol for current unknowns), plus

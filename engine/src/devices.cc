@@ -134,6 +134,8 @@ void DeviceStore::AddDiode(const Circuit& circuit, int element) {
   arrays_->order.push_back(ElementKind::kDiode);
 }
 
+size_t DeviceStore::size() const { return arrays_->order.size(); }
+
 void DeviceStore::DeclareEntries(EntryCollector& collector) {
   Arrays::ForEach(*arrays_, [&](auto& device) { device.DeclareEntries(collector); });
 }

@@ -200,6 +200,8 @@ class DeviceStore {
   void AddVoltageSource(const Circuit& circuit, int element, int branch);
   void AddCurrentSource(const Circuit& circuit, int element);
   void AddDiode(const Circuit& circuit, int element);
+  // How many devices (one per element of the circuit).
+  size_t size() const;
 
   // Setup: every device declares its entries; then each receives slot_of[ticket] for
   // every ticket it was handed.

@@ -351,7 +351,10 @@ bool MnaSystem::StructureMatches(const Circuit& c) const {
 }
 
 void MnaSystem::UpdateValues(const Circuit& c) {
-  KNEE_CHECK(StructureMatches(c) && c.parts.size() == part_models_.size());
+  // The caller has matched the structure (BiasSolver::UpdateValues); the devices' walk of
+  // it is not repeated here.
+  KNEE_CHECK(c.nodes.size() == node_count_ && c.parts.size() == part_models_.size() &&
+             c.elements.size() == devices_.size());
   circuit_ = &c;
   for (size_t p = 0; p < c.parts.size(); ++p) {
     part_changed_[p] = SameModel(c.parts[p].model, part_models_[p]) ? 0 : 1;

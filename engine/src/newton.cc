@@ -143,14 +143,19 @@ NewtonOutcome NewtonSolver::Converged(int steps, const ToleranceCheck& update,
   NewtonOutcome outcome;
   outcome.exit = NewtonExit::kConverged;
   outcome.steps = steps + 1;
-  outcome.detail = fmt::format(
-      "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g}{}, worst residual at "
-      "'{}' = {:.3g} <= {:.3g}",
-      steps, mna_->UnknownName(update.index), update.value, update.bound,
-      step_taken ? "" : " (step not taken)", mna_->UnknownName(residual.index), residual.value,
-      residual.bound);
+  outcome.note = {steps, update, residual, step_taken};
+  if (describe_converged_) outcome.detail = Describe(outcome.note);
   Polish(aids, x, update.ratio());
   return outcome;
+}
+
+std::string NewtonSolver::Describe(const ConvergedNote& note) const {
+  return fmt::format(
+      "converged in {} steps: worst |dx| at '{}' = {:.3g} <= {:.3g}{}, worst residual at "
+      "'{}' = {:.3g} <= {:.3g}",
+      note.steps, mna_->UnknownName(note.update.index), note.update.value, note.update.bound,
+      note.step_taken ? "" : " (step not taken)", mna_->UnknownName(note.residual.index),
+      note.residual.value, note.residual.bound);
 }
 
 // Solves J dx = -F with the values and residual of the last assembly.

@@ -40,6 +40,11 @@ class NewtonSolver {
   // Node voltages are clamped to [-bound, bound] after each step (a safeguard against
   // steps that a nearly singular Jacobian blows up; the bound contains every solution).
   void set_voltage_bound(double bound) { voltage_bound_ = bound; }
+  // Whether a converged run's outcome carries its detail text (on by default); off, the
+  // outcome's note alone holds the numbers, for Describe() when the text is wanted.
+  void set_describe_converged(bool on) { describe_converged_ = on; }
+  // The detail text of a converged run ("converged in N steps: ...").
+  std::string Describe(const ConvergedNote& note) const;
 
  private:
   AssemblyOutcome AssembleHalving(std::span<double> x, const AssemblyAids& aids, bool may_halve,
@@ -70,6 +75,7 @@ class NewtonSolver {
   std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
   bool plain_run_ = false;           // the current Run has no aid (gmin, source scale)
   bool exact_factors_ = false;       // see exact_factors()
+  bool describe_converged_ = true;   // see set_describe_converged()
 };
 
 }  // namespace knee::internal

@@ -138,6 +138,7 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
   }
   s->max_kcl_residual = worst >= 0 ? std::fabs(f[static_cast<size_t>(worst)]) : 0.0;
   s->worst_node = worst >= 0 ? mna.UnknownName(worst) : "";
+  if (!exact.finite || exact.unresolved_element >= 0 || failed >= 0) DescribeDeferred(s);
   if (!exact.finite) {
     s->status = SolveStatus::kVerificationFailed;
     s->detail += "; verification: the exact model is not finite at the solution";
@@ -155,6 +156,12 @@ void BiasSolver::Impl::Verify(SolveSummary* s) {
   } else {
     s->status = SolveStatus::kConverged;
   }
+}
+
+void BiasSolver::Impl::DescribeDeferred(SolveSummary* s) {
+  if (!deferred_note) return;
+  s->detail = "newton from the warm start: " + newton.Describe(*deferred_note) + s->detail;
+  deferred_note.reset();
 }
 
 void BiasSolver::Impl::Fill(Solution* solution) const {

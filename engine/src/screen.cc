@@ -68,6 +68,7 @@ void BiasSolver::Impl::Rebuild(std::span<const double> node_weight) {
 void BiasSolver::Impl::BeginSolve(std::span<const double> start_point) {
   trace.clear();
   last_converged = false;
+  deferred_note.reset();
   if (rerooted) {
     Rebuild({});
     rerooted = false;

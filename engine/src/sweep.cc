@@ -111,6 +111,8 @@ class Worker {
     Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit_, solver_options);
     if (!solver) return solver.errors().front().message;
     solver_ = std::move(solver).value();
+    // A sweep shows the detail of failed points only (PointSink callers: CLI, Python).
+    solver_->set_describe_converged(false);
     return "";
   }
 

@@ -401,3 +401,50 @@ TEST(BiasDiode, SmallSignalResistance) {
 
 }  // namespace
 }  // namespace knee
+
+namespace knee {
+namespace {
+
+// The same warm-started solve with and without the converged detail: the numbers are the
+// same bits, and only the converged text is left out.
+struct WarmPair {
+  SolveSummary summary;
+  std::vector<double> x;
+};
+
+WarmPair SolveWarmOnce(const SolverOptions& o, bool describe) {
+  DiodeModel model;
+  model.series_res = 2.0;
+  Circuit c = Bridge(model, 10.0, 1e3);
+  auto solver = BiasSolver::Create(c, o);
+  EXPECT_TRUE(solver.ok());
+  (*solver)->set_describe_converged(describe);
+  Solution s;
+  (*solver)->Solve(&s);
+  std::vector<double> start((*solver)->unknowns().begin(), (*solver)->unknowns().end());
+  if (start.empty()) start.assign(static_cast<size_t>((*solver)->unknown_count()), 0.1);
+  c.elements[static_cast<size_t>(c.FindElement("V1"))].value = 10.5;
+  (*solver)->UpdateValues(c);
+  WarmPair r;
+  r.summary = (*solver)->Solve(&s, start);
+  r.x.assign((*solver)->unknowns().begin(), (*solver)->unknowns().end());
+  return r;
+}
+
+TEST(BiasSolverApi, ConvergedDetailLeftOutOnRequestOnly) {
+  const WarmPair on = SolveWarmOnce({}, true);
+  const WarmPair off = SolveWarmOnce({}, false);
+  ASSERT_EQ(on.summary.status, SolveStatus::kConverged) << on.summary.detail;
+  ASSERT_EQ(off.summary.status, SolveStatus::kConverged);
+  EXPECT_EQ(on.summary.detail.rfind("newton from the warm start: converged in ", 0), 0u)
+      << on.summary.detail;
+  EXPECT_TRUE(off.summary.detail.empty()) << off.summary.detail;
+  EXPECT_EQ(on.summary.newton_steps, off.summary.newton_steps);
+  EXPECT_EQ(on.summary.max_kcl_residual, off.summary.max_kcl_residual);
+  EXPECT_EQ(on.summary.worst_node, off.summary.worst_node);
+  ASSERT_EQ(on.x.size(), off.x.size());
+  for (size_t i = 0; i < on.x.size(); ++i) EXPECT_EQ(on.x[i], off.x[i]) << i;
+}
+
+}  // namespace
+}  // namespace knee

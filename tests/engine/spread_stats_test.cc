@@ -3,7 +3,10 @@
 
 #include <gtest/gtest.h>
 
+#include <bit>
 #include <cmath>
+#include <cstdint>
+#include <random>
 #include <set>
 #include <vector>
 
@@ -118,6 +121,49 @@ TEST(ComputeMoments, SampleMeanAndStandardDeviation) {
   EXPECT_NEAR(m.std_dev, std::sqrt(32.0 / 7), 1e-15);  // sum of squares 32, n - 1 = 7
   EXPECT_EQ(m.min, 2);
   EXPECT_EQ(m.max, 9);
+}
+
+}  // namespace
+}  // namespace knee
+
+namespace knee {
+namespace {
+
+// Mean ranks by their definition (common practice, no source): 1 + the count of smaller
+// values + half the count of other equal ones. Large enough for the radix path, with runs
+// of ties, both zeros, negatives, tiny and huge magnitudes and infinities.
+TEST(MeanRanks, MatchTheDefinitionOnALargeSetWithTies) {
+  std::mt19937_64 bits(17);
+  std::vector<double> v;
+  for (int k = 0; k < 5000; ++k) {
+    const std::uint64_t b = bits();
+    switch (b % 6) {
+      case 0:
+        v.push_back(static_cast<double>(static_cast<int>(b % 41) - 20));  // many ties
+        break;
+      case 1:
+        v.push_back((b & 8) != 0 ? 0.0 : -0.0);
+        break;
+      case 2:
+        v.push_back((b & 8) != 0 ? HUGE_VAL : -HUGE_VAL);
+        break;
+      default: {
+        const double x = std::bit_cast<double>(b);
+        v.push_back(std::isnan(x) ? 1.5 : x);
+      }
+    }
+  }
+  const std::vector<double> rank = MeanRanks(v);
+  ASSERT_EQ(rank.size(), v.size());
+  for (size_t i = 0; i < v.size(); ++i) {
+    size_t below = 0, equal = 0;
+    for (double w : v) {
+      below += w < v[i] ? 1 : 0;
+      equal += w == v[i] ? 1 : 0;
+    }
+    ASSERT_EQ(rank[i], 1.0 + static_cast<double>(below) + 0.5 * static_cast<double>(equal - 1))
+        << i << " " << v[i];
+  }
 }
 
 }  // namespace

@@ -222,6 +222,12 @@ class BiasSolver {
 
   // Per-step records of the last Solve() when tracing is on.
   void set_trace(bool on);
+  // Whether SolveSummary::detail of a converged, verified solve says how Newton
+  // converged (on by default). Off, that detail is left empty when plain Newton from a
+  // warm start found the point; a point that then fails verification still gets the whole
+  // text. Sweeps and spreads, which show no detail for their converged points, turn it
+  // off: formatting it was a tenth of a small circuit's point.
+  void set_describe_converged(bool on);
   const std::vector<NewtonStepRecord>& trace() const;
 
  private:

@@ -67,7 +67,8 @@ std::pair<long long, long long> ShardPoints(const SweepGrid& grid, int shard, in
 using ApplyPoint = std::function<std::string(std::span<const double> values, Circuit* circuit)>;
 
 // Receives each point as it is solved: `solution` is null when the point failed. Called
-// from worker threads, never twice for one index.
+// from worker threads, never twice for one index. The summary's detail says why a failed
+// point failed; for a converged point it may be empty (BiasSolver::set_describe_converged).
 using PointSink =
     std::function<void(long long index, const SolveSummary& summary, const Solution* solution)>;
 
