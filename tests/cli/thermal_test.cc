@@ -174,18 +174,16 @@ TEST(Thermal, RunawayIsExitOne) {
   EXPECT_FALSE(Has(fine.err + fine.out, "runaway"));
 }
 
-}  // namespace
-}  // namespace knee::testing
-
-namespace knee::testing {
-namespace {
+// A reverse-biased diode heated by its own leakage, below its critical thermal_res
+// (99.8 K/W, tests/reference/thermal_scipy_check.py).
+constexpr const char* kLeakyAt80 =
+    "part leaky diode sat_current=1m ideality=1.05 bandgap=0.69 thermal_res=80\n"
+    "vsource V1 k -> gnd 40\ndiode D1 gnd -> k leaky\n";
 
 TEST(Thermal, AnotherBalanceIsNotedWhereItExistsOnly) {
   // Leakage heating below the critical value: a stable balance near 30 C and an unstable
   // one above the fold (36.2 C, tests/reference/thermal_scipy_check.py).
-  KneeRun leaky = RunKnee("bias - --format json",
-                          "part leaky diode sat_current=1m ideality=1.05 bandgap=0.69 "
-                          "thermal_res=80\nvsource V1 k -> gnd 40\ndiode D1 gnd -> k leaky\n");
+  KneeRun leaky = RunKnee("bias - --format json", kLeakyAt80);
   ASSERT_EQ(leaky.status, 0) << leaky.err;
   const json notes = json::parse(leaky.out)["solver"]["thermal_notes"];
   ASSERT_EQ(notes.size(), 1u) << leaky.out;
@@ -198,19 +196,12 @@ TEST(Thermal, AnotherBalanceIsNotedWhereItExistsOnly) {
   EXPECT_FALSE(Has(table.out, "another thermal balance")) << table.out;
 }
 
-}  // namespace
-}  // namespace knee::testing
-
-namespace knee::testing {
-namespace {
-
 // A sweep of PART.thermal_res reaches the thermal balance at every point: the junction
 // warms with the thermal resistance, and beyond the critical value (99.8 K/W,
 // tests/reference/thermal_scipy_check.py) the points are thermal runaway.
 TEST(Thermal, ThermalResSweepTakesEachValue) {
   KneeRun run = RunKnee("sweep - leaky.thermal_res=50..130:20 --format json --show D1.tj --jobs 1",
-                        "part leaky diode sat_current=1m ideality=1.05 bandgap=0.69 "
-                        "thermal_res=80\nvsource V1 k -> gnd 40\ndiode D1 gnd -> k leaky\n");
+                        kLeakyAt80);
   EXPECT_EQ(run.status, 1) << run.err;
   const json doc = json::parse(run.out);
   const json& rows = doc["rows"];
@@ -226,12 +217,6 @@ TEST(Thermal, ThermalResSweepTakesEachValue) {
   EXPECT_TRUE(Has(run.err, "the circuit has 130 K/W")) << run.err;
 }
 
-}  // namespace
-}  // namespace knee::testing
-
-namespace knee::testing {
-namespace {
-
 TEST(Thermal, UnusedHeatsinkWarnsAndAUsedOneDoesNot) {
   KneeRun unused = RunKnee("bias -", Forced("thermal_res=5") + "heatsink HS thermal_res=2\n");
   EXPECT_EQ(unused.status, 0) << unused.err;
@@ -244,12 +229,6 @@ TEST(Thermal, UnusedHeatsinkWarnsAndAUsedOneDoesNot) {
   KneeRun demo = RunKnee("bias " + Netlist("bridge-module-heat.knee"));
   EXPECT_FALSE(Has(demo.err, "warning")) << demo.err;
 }
-
-}  // namespace
-}  // namespace knee::testing
-
-namespace knee::testing {
-namespace {
 
 // A heatsink's thermal_res is not a sweep, --set or vary target: each is refused with a
 // message that says so (exit 2), not as an unknown part.

@@ -80,6 +80,16 @@ def values(result):
     return {c["name"]: v for c, v in zip(doc["columns"], doc["rows"][0])}, doc
 
 
+def solved(knee, text, label):
+    """The shown values of a bias point knee must solve, or None with the failure recorded."""
+    r = run(knee, text)
+    if r.returncode != 0:
+        FAILURES.append(f"{label}: exit {r.returncode}")
+        print(r.stdout, r.stderr)
+        return None
+    return values(r)[0]
+
+
 # Acceptance 1 ----------------------------------------------------------------------------
 def forced_current(knee):
     isat, n, rs, rth = 10e-9, 1.75, 0.05, 60.0  # an invented rectifier part
@@ -99,12 +109,9 @@ def forced_current(knee):
                     f"temp {ambient!r}\n"
                     f"isource I1 gnd -> a {current!r}\n"
                     f"diode D1 a -> gnd rect\nshow D1.tj a.v\nbias\n")
-            r = run(knee, text)
-            if r.returncode != 0:
-                FAILURES.append(f"forced current {current} A at {ambient} C: exit {r.returncode}")
-                print(r.stdout, r.stderr)
+            got = solved(knee, text, f"forced current {current} A at {ambient} C")
+            if got is None:
                 continue
-            got, _ = values(r)
             label = f"tj at {current} A, ambient {ambient} C"
             check(label + " (C)", got["D1.tj"], tj, 1e-9)
             check(label + " (K)", got["D1.tj"] + ZERO_CELSIUS, tj + ZERO_CELSIUS, 1e-9)
@@ -125,12 +132,9 @@ def bridge(knee):
             "resistor Rload pos -> neg 4.7\n"
             "vsource Vref neg -> gnd 0\n"
             "show HS.t D1.tj D2.tj D3.tj D4.tj D1.p D2.p D3.p D4.p\nbias\n")
-    r = run(knee, text)
-    if r.returncode != 0:
-        FAILURES.append(f"bridge: exit {r.returncode}")
-        print(r.stdout, r.stderr)
+    got = solved(knee, text, "bridge")
+    if got is None:
         return
-    got, _ = values(r)
     powers = [got[f"D{k}.p"] for k in range(1, 5)]
     # Energy balance of the sink (the contract's T_sink = T_ambient + R_sink sum P).
     sink = ambient + rsink * sum(powers)
@@ -170,12 +174,8 @@ def runaway(knee):
                 "diode D1 gnd -> k leaky\nshow D1.tj D1.p\nbias\n")
 
     below = 0.9 * r_crit
-    r = run(knee, netlist(below))
-    if r.returncode != 0:
-        FAILURES.append(f"runaway: below the critical value exit {r.returncode}")
-        print(r.stdout, r.stderr)
-    else:
-        got, _ = values(r)
+    got = solved(knee, netlist(below), "runaway: below the critical value")
+    if got is not None:
         lower = optimize.brentq(lambda t: t - ambient - below * power(t), ambient, t_fold,
                                 xtol=1e-13, rtol=1e-15, maxiter=500)
         check("runaway: the balance below the critical value", got["D1.tj"], lower, 1e-9)
