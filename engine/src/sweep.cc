@@ -189,6 +189,7 @@ class Worker {
     start_ = x1_;
     double t = 0.0;
     double h = 1.0;
+    bool subdivided = false;  // an aid only when a step was actually cut
     const double min_h = std::ldexp(1.0, -options_.max_halvings);
     while (t < 1.0 && h >= min_h) {
       const bool last = t + h >= 1.0;
@@ -206,11 +207,12 @@ class Worker {
         if (last) {
           *summary = attempt;
           summary->newton_steps = steps;
-          if (h < 1.0) summary->aids.push_back("step subdivision");
+          if (subdivided) summary->aids.push_back("step subdivision");
           return true;
         }
       } else {
         h /= 2;
+        subdivided = true;
       }
     }
     SolveSummary dummy;

@@ -97,5 +97,29 @@ TEST(Sweep, BridgeDemoConvergesEverywhere) {
   // bench/run reports the mean Newton steps per point of this sweep.
 }
 
+// "step subdivision" is reported only when a sweep step was actually cut: an ordinary demo
+// sweep names no aid, and a 0 -> 10 V step into a bare junction that plain Newton cannot
+// take whole (no junction limiting, 10 steps per attempt) names it. The answer of the cut
+// step is still the closed form (Banwell & Jayakumar, as above).
+TEST(Sweep, StepSubdivisionIsNamedOnlyWhenAStepWasCut) {
+  KneeRun plain = RunKnee("sweep " + Netlist("bridge-rectifier.knee") +
+                          " Vin=-20..20:1 --format json --quiet");
+  ASSERT_EQ(plain.status, 0) << plain.err;
+  EXPECT_TRUE(json::parse(plain.out)["solver"]["aids"].empty()) << plain.out;
+
+  const std::string net =
+      "part tiny diode sat_current=1e-14\n"
+      "vsource V1 a -> gnd 0\nresistor R1 a -> k 1\ndiode D1 k -> gnd tiny\n";
+  KneeRun cut = RunKnee(
+      "sweep - V1=0,10 --method classic --no-limiting --max-steps 10 --format json --show D1.i",
+      net);
+  ASSERT_EQ(cut.status, 0) << cut.err;
+  const json j = json::parse(cut.out);
+  ASSERT_EQ(j["solver"]["aids"].size(), 1u) << cut.out;
+  EXPECT_EQ(j["solver"]["aids"][0], "step subdivision");
+  const double n_vt = kBoltzmann * 298.15 / kCharge;
+  EXPECT_CLOSE(j["rows"][1][1].get<double>(), LambertCurrent(10.0, 1.0, 1e-14, n_vt), 1e-9, 0);
+}
+
 }  // namespace
 }  // namespace knee::testing
