@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <array>
 #include <cctype>
 #include <cstdlib>
 #include <limits>
@@ -88,27 +89,48 @@ std::string Place(const SourceLocation& where) {
   return fmt::format("{}:{}:{}: ", file, where.line, where.column);
 }
 
-// Optimal string alignment distance (Levenshtein with adjacent transpositions).
-int EditDistance(std::string_view a, std::string_view b, bool fold_case) {
-  auto eq = [fold_case](char x, char y) {
-    if (!fold_case) return x == y;
-    return std::tolower(static_cast<unsigned char>(x)) ==
-           std::tolower(static_cast<unsigned char>(y));
+// Optimal string alignment distance (Levenshtein with adjacent transpositions), or any
+// number above `cap` once the distance is known to exceed it. Both names are at most
+// kMaxSuggestLength characters (SuggestName's bound), so three rows on the stack suffice
+// and a call allocates nothing: SuggestName runs it once per candidate name.
+constexpr std::size_t kMaxSuggestLength = 64;
+
+int EditDistance(std::string_view a, std::string_view b, bool fold_case, int cap) {
+  // ASCII case folding, as std::tolower in the "C" locale, without its per-call lookup.
+  auto fold = [](char x) { return x >= 'A' && x <= 'Z' ? static_cast<char>(x - 'A' + 'a') : x; };
+  auto eq = [fold_case, fold](char x, char y) {
+    return x == y || (fold_case && fold(x) == fold(y));
   };
   const std::size_t n = a.size(), m = b.size();
-  std::vector<std::vector<int>> d(n + 1, std::vector<int>(m + 1, 0));
-  for (std::size_t i = 0; i <= n; ++i) d[i][0] = static_cast<int>(i);
-  for (std::size_t j = 0; j <= m; ++j) d[0][j] = static_cast<int>(j);
+  std::array<int, kMaxSuggestLength + 1> rows[3];
+  int* before = rows[0].data();  // row i - 2
+  int* prev = rows[1].data();    // row i - 1
+  int* cur = rows[2].data();     // row i
+  for (std::size_t j = 0; j <= m; ++j) prev[j] = static_cast<int>(j);
+  int prev_min = 0;
   for (std::size_t i = 1; i <= n; ++i) {
+    cur[0] = static_cast<int>(i);
+    int row_min = cur[0];
     for (std::size_t j = 1; j <= m; ++j) {
       const int cost = eq(a[i - 1], b[j - 1]) ? 0 : 1;
-      d[i][j] = std::min({d[i - 1][j] + 1, d[i][j - 1] + 1, d[i - 1][j - 1] + cost});
+      int d = std::min({prev[j] + 1, cur[j - 1] + 1, prev[j - 1] + cost});
       if (i > 1 && j > 1 && eq(a[i - 1], b[j - 2]) && eq(a[i - 2], b[j - 1])) {
-        d[i][j] = std::min(d[i][j], d[i - 2][j - 2] + 1);
+        d = std::min(d, before[j - 2] + 1);
       }
+      cur[j] = d;
+      row_min = std::min(row_min, d);
     }
+    // A row's minimum is at least the smaller of the previous row's minimum and the one two
+    // rows back plus one (a transposition reaches two rows back), so once two consecutive
+    // rows are above the cap, every later row is.
+    if (row_min > cap && prev_min > cap) return cap + 1;
+    prev_min = row_min;
+    int* const spare = before;
+    before = prev;
+    prev = cur;
+    cur = spare;
   }
-  return d[n][m];
+  return prev[m];
 }
 
 }  // namespace
@@ -180,32 +202,28 @@ std::string FormatDiagnostics(const std::vector<Diagnostic>& diagnostics,
 }
 
 std::string SuggestName(std::string_view wrong, const std::vector<std::string>& candidates) {
-  if (wrong.empty() || wrong.size() > 64) return "";
+  if (wrong.empty() || wrong.size() > kMaxSuggestLength) return "";
   const std::string* best = nullptr;
   int best_folded = 0, best_exact = 0;
   for (const std::string& c : candidates) {
-    if (c.empty() || c.size() > 64 || c == wrong) continue;
+    if (c.empty() || c.size() > kMaxSuggestLength || c == wrong) continue;
+    // Close enough to be a typo: a case-only difference, or about one edit in three
+    // characters (common practice, no source); nothing farther can be suggested.
     const int longest = static_cast<int>(std::max(wrong.size(), c.size()));
+    const int allowed = std::min(std::max(1, longest / 3), static_cast<int>(wrong.size()) - 1);
     const int gap = std::abs(static_cast<int>(wrong.size()) - static_cast<int>(c.size()));
-    if (gap > std::max(1, longest / 3)) continue;  // cannot be close enough
-    const int folded = EditDistance(wrong, c, true);
-    const int exact = EditDistance(wrong, c, false);
+    if (gap > allowed) continue;
+    const int cap = best ? std::min(allowed, best_folded) : allowed;
+    const int folded = EditDistance(wrong, c, true, cap);
+    if (folded > cap) continue;
+    const int exact = EditDistance(wrong, c, false, static_cast<int>(kMaxSuggestLength));
     if (!best || folded < best_folded || (folded == best_folded && exact < best_exact)) {
       best = &c;
       best_folded = folded;
       best_exact = exact;
     }
   }
-  if (!best) return "";
-  // Close enough to be a typo: a case-only difference, or about one edit in three
-  // characters (common practice, no source).
-  const int longest = static_cast<int>(std::max(wrong.size(), best->size()));
-  const int allowed = std::max(1, longest / 3);
-  if (best_folded == 0 ||
-      (best_folded <= allowed && best_folded < static_cast<int>(wrong.size()))) {
-    return *best;
-  }
-  return "";
+  return best ? *best : "";
 }
 
 }  // namespace knee

@@ -377,6 +377,7 @@ class Elaborator {
         ++touches[n];
       }
     }
+    std::vector<std::string> others;  // the names a dangling node may be a typo of
     for (std::size_t n = 1; n < circuit.nodes.size(); ++n) {
       const std::string& name = circuit.nodes[n];
       const bool like_gnd = name.size() == 3 && std::tolower(name[0]) == 'g' &&
@@ -394,9 +395,10 @@ class Elaborator {
       }
       if (touches[n] == 1) {
         const Element& e = circuit.elements[static_cast<std::size_t>(toucher[n])];
-        std::vector<std::string> others = {"gnd"};
-        for (std::size_t m = 1; m < circuit.nodes.size(); ++m) {
-          if (m != n) others.push_back(circuit.nodes[m]);
+        if (others.empty()) {  // built once: SuggestName skips the node's own name
+          others.reserve(circuit.nodes.size());
+          others.push_back("gnd");
+          others.insert(others.end(), circuit.nodes.begin() + 1, circuit.nodes.end());
         }
         const std::string near = like_gnd ? "" : SuggestName(name, others);
         warnings->push_back(MakeError(

@@ -102,8 +102,8 @@ TEST(Sweep, BridgeDemoConvergesEverywhere) {
 // take whole (no junction limiting, 10 steps per attempt) names it. The answer of the cut
 // step is still the closed form (Banwell & Jayakumar, as above).
 TEST(Sweep, StepSubdivisionIsNamedOnlyWhenAStepWasCut) {
-  KneeRun plain = RunKnee("sweep " + Netlist("bridge-rectifier.knee") +
-                          " Vin=-20..20:1 --format json --quiet");
+  KneeRun plain =
+      RunKnee("sweep " + Netlist("bridge-rectifier.knee") + " Vin=-20..20:1 --format json --quiet");
   ASSERT_EQ(plain.status, 0) << plain.err;
   EXPECT_TRUE(json::parse(plain.out)["solver"]["aids"].empty()) << plain.out;
 

@@ -87,6 +87,24 @@ TEST(DiagnosticsTest, SuggestName) {
   EXPECT_EQ(SuggestName("Q", names), "");
   EXPECT_EQ(SuggestName("rpin", {"Rpin", "rpix"}), "Rpin");  // case-insensitive first
   EXPECT_EQ(SuggestName("anything", {}), "");
+  // The distance is cut off once it exceeds the best so far: a nearer name after a farther
+  // one still wins, ties go to the first listed, and ties on the folded distance go to the
+  // smaller exact one.
+  EXPECT_EQ(SuggestName("output", {"outpts", "outpat", "outpux"}), "outpat");
+  EXPECT_EQ(SuggestName("outpu", {"outpa", "outpb"}), "outpa");
+  EXPECT_EQ(SuggestName("vOUT", {"vout", "VOUT"}), "VOUT");
+  EXPECT_EQ(SuggestName("abcdefghi", {"abcxyzghi", "abcdefgh"}), "abcdefgh");
+}
+
+// A netlist of thousands of dangling nodes: one hint each, from names compared without
+// allocating (the check is that it finishes and hints at a neighbour, not its time).
+TEST(DiagnosticsTest, SuggestNameAmongManyNames) {
+  std::vector<std::string> names;
+  for (int i = 0; i < 3000; ++i) names.push_back("n" + std::to_string(i));
+  int hinted = 0;
+  for (const std::string& n : names) hinted += !SuggestName(n, names).empty();
+  EXPECT_EQ(hinted, 3000);
+  EXPECT_EQ(SuggestName("n2999", names), "n299");  // one deletion, listed first
 }
 
 }  // namespace
