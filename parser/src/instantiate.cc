@@ -377,7 +377,6 @@ class Elaborator {
         ++touches[n];
       }
     }
-    std::vector<std::string> others;  // the names a dangling node may be a typo of
     for (std::size_t n = 1; n < circuit.nodes.size(); ++n) {
       const std::string& name = circuit.nodes[n];
       const bool like_gnd = name.size() == 3 && std::tolower(name[0]) == 'g' &&
@@ -395,12 +394,9 @@ class Elaborator {
       }
       if (touches[n] == 1) {
         const Element& e = circuit.elements[static_cast<std::size_t>(toucher[n])];
-        if (others.empty()) {  // built once: SuggestName skips the node's own name
-          others.reserve(circuit.nodes.size());
-          others.push_back("gnd");
-          others.insert(others.end(), circuit.nodes.begin() + 1, circuit.nodes.end());
-        }
-        const std::string near = like_gnd ? "" : SuggestName(name, others);
+        // Any other node may be the intended one, gnd included (nodes[0]); SuggestName
+        // skips the node's own name.
+        const std::string near = like_gnd ? "" : SuggestName(name, circuit.nodes);
         warnings->push_back(MakeError(
             file_, span,
             fmt::format("node '{}' is touched by one element only ({} '{}'), so no current can "
