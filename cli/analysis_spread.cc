@@ -307,18 +307,17 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
     sq.std_dev = m.std_dev;
     sq.min = m.min;
     sq.max = m.max;
-    std::sort(column.begin(), column.end());
-    sq.q_low = SortedQuantile(column, 0.00135);
-    sq.q_median = SortedQuantile(column, 0.5);
-    sq.q_high = SortedQuantile(column, 0.99865);
+    sq.q_low = SelectedQuantile(column, 0.00135);
+    sq.q_median = SelectedQuantile(column, 0.5);
+    sq.q_high = SelectedQuantile(column, 0.99865);
   }
-  // Ranks of each draw column, once (draws are never NaN).
-  std::vector<std::vector<double>> draw_ranks;
+  // Ranks of each draw column, centred once (draws are never NaN).
+  std::vector<CentredValues> draw_ranks;
   if (!r->corners) {
+    std::vector<double> x(r->rows.size());
     for (size_t j = 0; j < draws; ++j) {
-      std::vector<double> x(r->rows.size());
-      for (size_t i = 0; i < r->rows.size(); ++i) x[i] = r->rows[i][j];
-      draw_ranks.push_back(MeanRanks(x));
+      for (size_t i = 0; i < r->rows.size(); ++i) x[i] = r->rows.at(i, j);
+      draw_ranks.push_back(Centre(MeanRanks(x)));
     }
   }
   for (size_t c = 0; c < checks.size(); ++c) {
@@ -327,7 +326,7 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
     sc.samples = static_cast<long long>(r->rows.size());
     std::vector<double> margin(r->rows.size());
     for (size_t i = 0; i < r->rows.size(); ++i) {
-      const double m = r->rows[i][col];
+      const double m = r->rows.at(i, col);
       margin[i] = m;
       if (m >= 0) ++sc.passing;
       if (!std::isnan(m) && (sc.worst_row < 0 || m < sc.worst_margin)) {
@@ -356,8 +355,8 @@ void Summarize(const std::vector<CheckDef>& checks, const AnalysisOptions& optio
     // Which draws move the margin most: rank correlation, or main effects of corners.
     const bool complete =
         std::none_of(margin.begin(), margin.end(), [](double m) { return std::isnan(m); });
-    const std::vector<double> margin_ranks =
-        complete && !r->corners ? MeanRanks(margin) : std::vector<double>();
+    const CentredValues margin_ranks =
+        complete && !r->corners ? Centre(MeanRanks(margin)) : CentredValues();
     for (size_t j = 0; j < draws; ++j) {
       double measure = kNaN;
       if (r->corners) {
@@ -542,7 +541,7 @@ SpreadOutcome AnalyzeSpread(const LoadedDesign& loaded,
   }
 
   const long long count = end - begin;
-  r.rows.assign(static_cast<size_t>(count), std::vector<double>(width, kNaN));
+  r.rows.Assign(static_cast<size_t>(count), width, kNaN);
   r.failures.assign(static_cast<size_t>(count), "");
   const int jobs = static_cast<int>(std::max<long long>(
       1, std::min<long long>(
@@ -558,7 +557,7 @@ SpreadOutcome AnalyzeSpread(const LoadedDesign& loaded,
     for (long long chunk = next++; chunk * kChunk < count; chunk = next++) {
       const long long stop = std::min(count, (chunk + 1) * kChunk);
       for (long long i = chunk * kChunk; i < stop; ++i) {
-        std::vector<double>& row = r.rows[static_cast<size_t>(i)];
+        const std::span<double> row = r.rows[static_cast<size_t>(i)];
         const std::span<double> draws(row.data(), r.columns.size());
         if (r.corners) {
           plan.Corner(begin + i, draws);

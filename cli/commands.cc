@@ -340,6 +340,26 @@ int RunRun(const std::string& file, AnalysisOptions options) {
   return Emit(results, options);
 }
 
+// The report to --out (replaced whole or not at all) or standard output; CSV in pieces
+// as it is formatted, the other formats whole.
+std::string WriteSpreadOut(const SpreadReport& report, const AnalysisOptions& options) {
+  if (options.format != ReportFormat::kCsv) {
+    const std::string text = WriteSpread(report, options.format);
+    return options.out_path.empty() ? WriteStdout(text)
+                                    : WriteFileAtomically(options.out_path, text);
+  }
+  if (options.out_path.empty()) {
+    return WriteSpreadCsv(report, [](std::string_view piece) { return WriteStdout(piece); });
+  }
+  OutputStream out;
+  std::string problem = out.Open(options.out_path);
+  if (problem.empty()) {
+    problem = WriteSpreadCsv(report, [&out](std::string_view piece) { return out.Write(piece); });
+  }
+  if (problem.empty()) problem = out.Commit();
+  return problem;
+}
+
 int RunSpread(const std::string& file, AnalysisOptions options) {
   std::optional<Start> start;
   if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
@@ -366,9 +386,7 @@ int RunSpread(const std::string& file, AnalysisOptions options) {
       outcome.bad_input = true;
     }
   }
-  const std::string text = WriteSpread(spread.report, options.format);
-  std::string problem =
-      options.out_path.empty() ? WriteStdout(text) : WriteFileAtomically(options.out_path, text);
+  std::string problem = WriteSpreadOut(spread.report, options);
   if (!problem.empty()) {
     fmt::print(stderr, "knee: error: {}\n", problem);
     outcome.bad_input = true;

@@ -183,7 +183,7 @@ void InstallInterruptHandler() {
   }
 }
 
-std::string WriteStdout(const std::string& content) {
+std::string WriteStdout(std::string_view content) {
   std::fflush(stdout);
   int err = WriteAll(STDOUT_FILENO, content);
   if (err != 0) return fmt::format("cannot write to standard output: {}", std::strerror(err));

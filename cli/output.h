@@ -47,6 +47,6 @@ std::string WriteFileAtomically(const std::string& path, const std::string& cont
 void InstallInterruptHandler();
 
 // Writes to standard output; "" on success, else a message (e.g. a closed pipe).
-std::string WriteStdout(const std::string& content);
+std::string WriteStdout(std::string_view content);
 
 }  // namespace knee::cli

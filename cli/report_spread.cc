@@ -45,7 +45,7 @@ std::string Header(const SpreadReport& r) {
                      what);
 }
 
-std::string DrawText(const SpreadReport& r, const std::vector<double>& row) {
+std::string DrawText(const SpreadReport& r, std::span<const double> row) {
   std::string out;
   for (size_t j = 0; j < r.columns.size(); ++j) {
     if (j) out += ", ";
@@ -156,8 +156,12 @@ std::string WriteSpreadTable(const SpreadReport& r) {
   return out;
 }
 
-std::string WriteSpreadCsv(const SpreadReport& r) {
+std::string WriteSpreadCsv(const SpreadReport& r, const SpreadTextSink& emit) {
+  // Pieces of about this size go to `emit`: the text of a million samples is never held
+  // whole (a write per piece costs nothing beside formatting it).
+  constexpr size_t kPiece = size_t{1} << 16;
   fmt::memory_buffer out;
+  out.reserve(2 * kPiece);
   if (r.csv_header) {
     std::vector<std::string> names = {r.corners ? "corner" : "sample"};
     for (const DrawColumn& c : r.columns) {
@@ -176,7 +180,7 @@ std::string WriteSpreadCsv(const SpreadReport& r) {
   }
   const size_t values = r.columns.size() + r.quantities.size();
   for (size_t i = 0; i < r.rows.size(); ++i) {
-    const auto& row = r.rows[i];
+    const std::span<const double> row = r.rows[i];
     AppendInteger(r.first + static_cast<long long>(i), out);
     for (size_t c = 0; c < values; ++c) {
       out.push_back(',');
@@ -187,8 +191,22 @@ std::string WriteSpreadCsv(const SpreadReport& r) {
       out.push_back(row[c] >= 0 ? '1' : '0');
     }
     out.push_back('\n');
+    if (out.size() >= kPiece) {
+      if (std::string problem = emit(std::string_view(out.data(), out.size())); !problem.empty())
+        return problem;
+      out.clear();
+    }
   }
-  return fmt::to_string(out);
+  return emit(std::string_view(out.data(), out.size()));
+}
+
+std::string WriteSpreadCsv(const SpreadReport& r) {
+  std::string text;
+  WriteSpreadCsv(r, [&text](std::string_view piece) {
+    text.append(piece);
+    return std::string();
+  });
+  return text;
 }
 
 std::string WriteSpreadJson(const SpreadReport& r) {

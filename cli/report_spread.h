@@ -2,8 +2,11 @@
 // the samples, one row each, and the statistics of every quantity and check.
 #pragma once
 
+#include <functional>
 #include <optional>
+#include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "report.h"
@@ -45,6 +48,46 @@ struct SpreadQuantity {
   std::vector<std::pair<double, double>> bounds;  // (value, +1 for <=, -1 for >=) for charts
 };
 
+// Rows of one width in one array: a run of a million samples is one allocation, and a
+// column is read at a stride instead of through a pointer per row.
+class SampleTable {
+ public:
+  void Assign(size_t rows, size_t width, double fill) {
+    rows_ = rows;
+    width_ = width;
+    cells_.assign(rows * width, fill);
+  }
+  size_t size() const { return rows_; }
+  bool empty() const { return rows_ == 0; }
+  size_t width() const { return width_; }
+  std::span<double> operator[](size_t row) { return {cells_.data() + row * width_, width_}; }
+  std::span<const double> operator[](size_t row) const {
+    return {cells_.data() + row * width_, width_};
+  }
+  double at(size_t row, size_t column) const { return cells_[row * width_ + column]; }
+
+  class ConstIterator {
+   public:
+    ConstIterator(const SampleTable* table, size_t row) : table_(table), row_(row) {}
+    std::span<const double> operator*() const { return (*table_)[row_]; }
+    ConstIterator& operator++() {
+      ++row_;
+      return *this;
+    }
+    bool operator!=(const ConstIterator& other) const { return row_ != other.row_; }
+
+   private:
+    const SampleTable* table_;
+    size_t row_;
+  };
+  ConstIterator begin() const { return {this, 0}; }
+  ConstIterator end() const { return {this, rows_}; }
+
+ private:
+  size_t rows_ = 0, width_ = 0;
+  std::vector<double> cells_;
+};
+
 struct SpreadReport {
   std::string title, file;
   std::string of;  // "bias point" or "sweep"
@@ -61,7 +104,7 @@ struct SpreadReport {
   std::vector<SpreadQuantity> quantities;
   std::vector<SpreadCheck> checks;
   // Per sample: draws, then quantities, then one margin per check (NaN when unsolved).
-  std::vector<std::vector<double>> rows;
+  SampleTable rows;
   std::vector<std::string> failures;  // per row: "" or why the sample has no solution
   long long unsolved = 0;
   SolverAccount account;
@@ -69,7 +112,12 @@ struct SpreadReport {
 };
 
 std::string WriteSpreadTable(const SpreadReport& report);
+// Takes each piece of text and returns "" or why it could not be written.
+using SpreadTextSink = std::function<std::string(std::string_view piece)>;
+
 std::string WriteSpreadCsv(const SpreadReport& report);
+// The same text in pieces of about 64 kB; stops at and returns the first message of `emit`.
+std::string WriteSpreadCsv(const SpreadReport& report, const SpreadTextSink& emit);
 std::string WriteSpreadJson(const SpreadReport& report);
 std::string WriteSpread(const SpreadReport& report, ReportFormat format);
 // One histogram panel per quantity with its bounds marked; a complete SVG document.

@@ -32,10 +32,6 @@ Circuit NumbersOf(const Circuit& c);
 // changed, each to a finite number (what a sweep of a supply does at every point).
 bool AssignValues(const Circuit& from, Circuit* to);
 
-// The most voltage the junctions of the circuit can hold, summed (screen.cc), each law
-// spanning `exponents` thermal scales on either side.
-double JunctionSpan(const Circuit& c, double exponents);
-
 }  // namespace internal
 
 struct BiasSolver::Impl {
@@ -79,7 +75,7 @@ struct BiasSolver::Impl {
   // solver's exact_factors()), which LooseNodes may then use as they are.
   bool factors_exact = false;
   bool rerooted = false;       // mna's islands are rooted by a solution (RerootIslands)
-  double junction_span = 0.0;  // V, JunctionSpan(circuit)
+  double junction_span = 0.0;  // V, the junctions' span (ReadElements)
   bool trace_on = false;
   // BiasSolver::set_describe_converged; when off, a converged warm-start run leaves its
   // numbers in deferred_note and the detail empty until a later stage needs the text
@@ -137,6 +133,7 @@ struct BiasSolver::Impl {
 
   // --- set-up (screen.cc) ---
   void Classify();
+  void ReadElements();
   void SetVoltageBound();
   void Resize() {
     const auto n = static_cast<size_t>(mna.size());

@@ -157,6 +157,19 @@ void DeviceStore::UpdateValues(const Circuit& circuit, std::span<const char> par
                                circuit.elements[static_cast<size_t>(d.element())], part_changed);
   };
   if (std::all_of(a.diodes.begin(), a.diodes.end(), holds)) return;
+  // Only models changed (a spread sample's draws): the diodes keep their bases, whose
+  // constants are computed again in place.
+  const auto grouped = [&](const Diode& d) {
+    return a.diode_bases.Groups(d.basis(), circuit,
+                                circuit.elements[static_cast<size_t>(d.element())]);
+  };
+  if (std::all_of(a.diodes.begin(), a.diodes.end(), grouped)) {
+    a.diode_bases.Recompute(circuit, part_changed);
+    for (Diode& d : a.diodes) {
+      d.set_own_temp(circuit.elements[static_cast<size_t>(d.element())].temp.has_value());
+    }
+    return;
+  }
   a.diode_bases.Clear();
   for (Diode& d : a.diodes) {
     const Element& e = circuit.elements[static_cast<size_t>(d.element())];

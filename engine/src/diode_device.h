@@ -51,13 +51,28 @@ class DiodeBases {
     return b.part == e.part && part_changed[static_cast<size_t>(e.part)] == 0 && b.area == e.area &&
            b.temp == c.DeviceTemp(e);
   }
+  // Whether element e still belongs to basis k (same part, area and temperature), its
+  // part's model changed or not.
+  bool Groups(int k, const Circuit& c, const Element& e) const {
+    const DiodeBasis& b = (*this)[k];
+    return b.part == e.part && b.area == e.area && b.temp == c.DeviceTemp(e);
+  }
+  // Computes again, in place, every basis whose part's model changed.
+  void Recompute(const Circuit& c, std::span<const char> part_changed) {
+    for (DiodeBasis& b : bases_) {
+      if (part_changed[static_cast<size_t>(b.part)] == 0) continue;
+      b = Compute(c.parts[static_cast<size_t>(b.part)].model, b.part, b.area, b.temp);
+    }
+  }
   // The index of element e's basis, computed on first use.
   int Find(const Circuit& c, const Element& e) {
     KNEE_CHECK(e.part >= 0 && e.part < static_cast<int>(c.parts.size()));
     const double temp = c.DeviceTemp(e);
     const Key key{e.part, std::bit_cast<std::uint64_t>(e.area), std::bit_cast<std::uint64_t>(temp)};
     const auto [it, added] = index_.try_emplace(key, static_cast<int>(bases_.size()));
-    if (added) bases_.push_back(Compute(c.parts[static_cast<size_t>(e.part)].model, e, temp));
+    if (added) {
+      bases_.push_back(Compute(c.parts[static_cast<size_t>(e.part)].model, e.part, e.area, temp));
+    }
     return it->second;
   }
   void Clear() {
@@ -78,13 +93,13 @@ class DiodeBases {
                                         static_cast<std::uint64_t>(k.part));
     }
   };
-  static DiodeBasis Compute(const DiodeModel& model, const Element& e, double temp) {
+  static DiodeBasis Compute(const DiodeModel& model, int part, double area, double temp) {
     DiodeBasis b;
-    b.d = ComputeDiodeConstants(model, e.area, temp);
+    b.d = ComputeDiodeConstants(model, area, temp);
     b.limits = ComputeJunctionLimits(b.d);
     b.resolution_scale = b.d.has_breakdown ? std::min(b.d.n_vt, b.d.nbr_vt) : b.d.n_vt;
-    b.part = e.part;
-    b.area = e.area;
+    b.part = part;
+    b.area = area;
     b.temp = temp;
     return b;
   }
@@ -109,8 +124,11 @@ class Diode final : public Device {
     if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) {
       return fmt::format("diode '{}' has no part", e.name);
     }
-    const DiodeConstants d =
-        ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+    return NonMonotone(c, e, ConstantsOf(c, e));
+  }
+  // The same, from the constants of ConstantsOf(c, e).
+  static std::optional<std::string> NonMonotone(const Circuit& c, const Element& e,
+                                                const DiodeConstants& d) {
     const auto finite = [](double v) { return std::isfinite(v); };
     const bool forward_ok = finite(d.is) && finite(d.log_is) && finite(d.n_vt) && d.n_vt > 0.0;
     const bool series_ok = finite(d.rs) && d.rs >= 0.0;
@@ -134,8 +152,9 @@ class Diode final : public Device {
   // exponential is 0 or above 1e300 A), or from zero bias up to where its term leaves
   // the doubles when that is further, plus the breakdown voltage.
   static void AddVoltageSpan(const Circuit& c, const Element& e, double exponents, double* span) {
-    const DiodeConstants d =
-        ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area, c.DeviceTemp(e));
+    AddVoltageSpan(ConstantsOf(c, e), exponents, span);
+  }
+  static void AddVoltageSpan(const DiodeConstants& d, double exponents, double* span) {
     *span += std::max(exponents, kLogDoubleMax - d.log_is) * d.n_vt;
     if (d.has_breakdown) *span += std::fabs(d.vbr) + exponents * d.nbr_vt;
   }
@@ -152,6 +171,11 @@ class Diode final : public Device {
   }
   static bool HasPart(const Circuit& c, const Element& e) {
     return e.part >= 0 && e.part < static_cast<int>(c.parts.size());
+  }
+  // The law's constants of diode e (which has a part) at its area and temperature.
+  static DiodeConstants ConstantsOf(const Circuit& c, const Element& e) {
+    return ComputeDiodeConstants(c.parts[static_cast<size_t>(e.part)].model, e.area,
+                                 c.DeviceTemp(e));
   }
   Diode(const Circuit& c, int element, int basis)
       : Device(element),

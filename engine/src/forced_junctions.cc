@@ -36,18 +36,25 @@ std::optional<std::string> OutOfRangeSaturation(const Circuit& c) {
     if (e.kind != ElementKind::kDiode) continue;
     if (e.part < 0 || e.part >= static_cast<int>(c.parts.size())) continue;
     const Part& part = c.parts[static_cast<size_t>(e.part)];
-    const DiodeConstants d = ComputeDiodeConstants(part.model, e.area, c.DeviceTemp(e));
-    if (!(d.log_is > std::log(kMaxForcedCurrent))) continue;
-    return fmt::format(
-        "diode {} (part {}) has a saturation current of {} at {:g} C by the temperature law "
-        "(sat_current {:g} A at {:g} C, bandgap {:g} eV, ideality {:g}, area {:g}): more than "
-        "the {:g} MA any diode could carry, at any bias; check the part's bandgap and "
-        "ideality and the temperature",
-        e.name, part.name, CurrentFromLog(d.log_is, false), c.DeviceTemp(e), part.model.sat_current,
-        part.model.ref_temp, part.model.bandgap, part.model.ideality, e.area,
-        kMaxForcedCurrent / 1e6);
+    auto problem =
+        OutOfRangeSaturation(c, e, ComputeDiodeConstants(part.model, e.area, c.DeviceTemp(e)));
+    if (problem) return problem;
   }
   return std::nullopt;
+}
+
+std::optional<std::string> OutOfRangeSaturation(const Circuit& c, const Element& e,
+                                                const DiodeConstants& d) {
+  const Part& part = c.parts[static_cast<size_t>(e.part)];
+  if (!(d.log_is > std::log(kMaxForcedCurrent))) return std::nullopt;
+  return fmt::format(
+      "diode {} (part {}) has a saturation current of {} at {:g} C by the temperature law "
+      "(sat_current {:g} A at {:g} C, bandgap {:g} eV, ideality {:g}, area {:g}): more than "
+      "the {:g} MA any diode could carry, at any bias; check the part's bandgap and "
+      "ideality and the temperature",
+      e.name, part.name, CurrentFromLog(d.log_is, false), c.DeviceTemp(e), part.model.sat_current,
+      part.model.ref_temp, part.model.bandgap, part.model.ideality, e.area,
+      kMaxForcedCurrent / 1e6);
 }
 
 std::vector<ForcedJunction> FindForcedJunctions(const Circuit& c) {

@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "knee/circuit.h"
+#include "knee/diode_law.h"
 
 namespace knee::internal {
 
@@ -32,6 +33,9 @@ struct ForcedJunction {
 // law), and conductances of 1e19 S leave the network's equations unresolvable in double
 // precision. Said as what the part does, or nothing.
 std::optional<std::string> OutOfRangeSaturation(const Circuit& circuit);
+// The same for diode e (which has a part) alone, from its constants at its temperature.
+std::optional<std::string> OutOfRangeSaturation(const Circuit& circuit, const Element& e,
+                                                const DiodeConstants& d);
 
 // Every forced junction of the circuit (a structural property: it holds for any source
 // values, so a sweep of a supply finds them once).

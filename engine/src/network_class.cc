@@ -262,6 +262,14 @@ std::optional<std::string> NonMonotoneReason(const Circuit& c) {
 }
 
 std::optional<std::string> FindUnboundedCut(const Circuit& c) {
+  // Without a current source every weight is a diode's: a set closed under anode ->
+  // cathode holds the cathode of every anode it holds, so its raising rate
+  // sum Is*([a in S] - [k in S]) is never positive, and likewise for lowering. Only a
+  // current source can push the potential down without bound.
+  const bool any_current = std::any_of(c.elements.begin(), c.elements.end(), [](const Element& e) {
+    return e.kind == ElementKind::kCurrentSource && e.value != 0.0;
+  });
+  if (!any_current) return std::nullopt;
   ReducedNetwork net = Reduce(c);
   const int ground = net.groups.Find(kGroundNode);
   if (net.scale == 0.0) return std::nullopt;

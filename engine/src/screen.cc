@@ -19,20 +19,36 @@ namespace knee {
 // increasing laws (a node above that bound would have every current flowing out of it),
 // in the manner of the maximum principle for resistor networks (common practice, no
 // source); the clamp uses it with a wide margin.
-double internal::JunctionSpan(const Circuit& c, double exponents) {
-  double span = 0.0;
-  for (const Element& e : c.elements) internal::AddVoltageSpan(c, e, exponents, &span);
-  return std::isfinite(span) ? span : 0.0;
-}
-
 void BiasSolver::Impl::Classify() {
-  non_monotone = internal::NonMonotoneReason(*circuit);
+  ReadElements();
   unbounded.reset();
   if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
   forced = internal::FindForcedJunctions(*circuit);
-  absurd_saturation = internal::OutOfRangeSaturation(*circuit);
   loop_junctions = internal::LoopJunctions(*circuit);
-  junction_span = internal::JunctionSpan(*circuit, tuning.bound.junction_exponents);
+}
+
+// The three readings of each element's own numbers (internal::NonMonotoneReason,
+// internal::OutOfRangeSaturation and the span above, each the first or the sum in element
+// order) in one pass, so that a junction's constants at its temperature (a log and an exp
+// each) are computed once per classification.
+void BiasSolver::Impl::ReadElements() {
+  using internal::device::Diode;
+  non_monotone.reset();
+  absurd_saturation.reset();
+  const double exponents = tuning.bound.junction_exponents;
+  double span = 0.0;
+  for (const Element& e : circuit->elements) {
+    if (e.kind == ElementKind::kDiode && Diode::HasPart(*circuit, e)) {
+      const DiodeConstants d = Diode::ConstantsOf(*circuit, e);
+      if (!non_monotone) non_monotone = Diode::NonMonotone(*circuit, e, d);
+      if (!absurd_saturation) absurd_saturation = internal::OutOfRangeSaturation(*circuit, e, d);
+      Diode::AddVoltageSpan(d, exponents, &span);
+    } else {
+      if (!non_monotone) non_monotone = internal::NonMonotoneElement(*circuit, e);
+      internal::AddVoltageSpan(*circuit, e, exponents, &span);
+    }
+  }
+  junction_span = std::isfinite(span) ? span : 0.0;
 }
 
 // A bound on |node voltage| for the classic loop's clamp (newton.h): the sources'

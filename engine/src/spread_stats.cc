@@ -82,24 +82,32 @@ std::vector<double> MeanRanks(std::span<const double> v) {
   return rank;
 }
 
+CentredValues Centre(std::span<const double> x) {
+  CentredValues c;
+  c.values.resize(x.size());
+  double mean = 0;
+  for (double v : x) mean += v;
+  if (!x.empty()) mean /= static_cast<double>(x.size());
+  for (size_t i = 0; i < x.size(); ++i) {
+    c.values[i] = x[i] - mean;
+    c.sum_squares += c.values[i] * c.values[i];
+  }
+  return c;
+}
+
+double PearsonCorrelation(const CentredValues& x, const CentredValues& y) {
+  const size_t n = std::min(x.values.size(), y.values.size());
+  if (n < 2) return kNaN;
+  double sxy = 0;
+  for (size_t i = 0; i < n; ++i) sxy += x.values[i] * y.values[i];
+  if (x.sum_squares == 0 || y.sum_squares == 0) return kNaN;
+  return sxy / std::sqrt(x.sum_squares * y.sum_squares);
+}
+
 double PearsonCorrelation(std::span<const double> x, std::span<const double> y) {
   const size_t n = std::min(x.size(), y.size());
   if (n < 2) return kNaN;
-  double mx = 0, my = 0;
-  for (size_t i = 0; i < n; ++i) {
-    mx += x[i];
-    my += y[i];
-  }
-  mx /= static_cast<double>(n);
-  my /= static_cast<double>(n);
-  double sxy = 0, sxx = 0, syy = 0;
-  for (size_t i = 0; i < n; ++i) {
-    sxy += (x[i] - mx) * (y[i] - my);
-    sxx += (x[i] - mx) * (x[i] - mx);
-    syy += (y[i] - my) * (y[i] - my);
-  }
-  if (sxx == 0 || syy == 0) return kNaN;
-  return sxy / std::sqrt(sxx * syy);
+  return PearsonCorrelation(Centre(x.first(n)), Centre(y.first(n)));
 }
 
 std::uint64_t SplitMix64(std::uint64_t x) {
@@ -142,6 +150,20 @@ double SortedQuantile(std::span<const double> sorted, double p) {
   const auto lo = static_cast<size_t>(std::floor(h));
   const size_t hi = std::min(lo + 1, sorted.size() - 1);
   return sorted[lo] + (h - static_cast<double>(lo)) * (sorted[hi] - sorted[lo]);
+}
+
+double SelectedQuantile(std::span<double> values, double p) {
+  if (values.empty()) return kNaN;
+  const double h = (static_cast<double>(values.size()) - 1) * p;
+  const auto lo = static_cast<size_t>(std::floor(h));
+  const size_t hi = std::min(lo + 1, values.size() - 1);
+  const auto at_lo = values.begin() + static_cast<std::ptrdiff_t>(lo);
+  std::nth_element(values.begin(), at_lo, values.end());
+  const double low = *at_lo;
+  // After the selection every value past lo is at least `low`: the next order statistic
+  // is their least.
+  const double high = hi == lo ? low : *std::min_element(at_lo + 1, values.end());
+  return low + (h - static_cast<double>(lo)) * (high - low);
 }
 
 double SpearmanRho(std::span<const double> x, std::span<const double> y) {

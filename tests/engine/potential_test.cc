@@ -307,6 +307,21 @@ TEST(PotentialMethod, UnboundedOnlyBeyondTheReverseLimit) {
   EXPECT_EQ(ok.status, SolveStatus::kConverged) << ok.detail;
   EXPECT_FALSE(internal::FindUnboundedCut(network(1.5e-12, false)).has_value());
   EXPECT_TRUE(internal::FindUnboundedCut(network(2.5e-12, false)).has_value());
+  // Without a current source (none, or one of 0 A) no set of nodes can be pushed: a set
+  // closed under anode -> cathode only ever gains from its diodes (docs/solver.md).
+  EXPECT_FALSE(internal::FindUnboundedCut(network(0.0, false)).has_value());
+  CircuitBuilder b;
+  DiodeModel m;
+  m.sat_current = 1e-12;
+  const int part = b.Part("P", m);
+  b.V("V1", "a", "gnd", 1.0);
+  b.D("Da", "m", "gnd", part);  // m held by two diodes in reverse only
+  b.D("Db", "m", "a", part);
+  b.D("Dc", "gnd", "k", part);
+  b.D("Dd", "a", "k", part);
+  EXPECT_FALSE(internal::FindUnboundedCut(b.circuit()).has_value());
+  const SolveSummary held = SolveWith(b.circuit(), SolverMethod::kPotential, &s);
+  EXPECT_EQ(held.status, SolveStatus::kConverged) << held.detail;
 }
 
 // Method selection and validation.

@@ -3,6 +3,7 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <bit>
 #include <cmath>
 #include <cstdint>
@@ -164,6 +165,58 @@ TEST(MeanRanks, MatchTheDefinitionOnALargeSetWithTies) {
     ASSERT_EQ(rank[i], 1.0 + static_cast<double>(below) + 0.5 * static_cast<double>(equal - 1))
         << i << " " << v[i];
   }
+}
+
+// Selection gives the order statistics a full sort gives (common practice, no source),
+// bit for bit, also when called again on the set it reordered and with runs of ties.
+TEST(SelectedQuantile, EqualsTheQuantileOfTheSortedSet) {
+  std::mt19937_64 bits(5);
+  for (size_t n : {size_t{1}, size_t{2}, size_t{7}, size_t{1000}, size_t{20001}}) {
+    std::vector<double> v(n);
+    for (double& x : v) {
+      const std::uint64_t b = bits();
+      x = (b & 1) != 0 ? static_cast<double>(b % 13)
+                       : std::ldexp(static_cast<double>(b >> 11), -53);
+    }
+    std::vector<double> sorted = v;
+    std::sort(sorted.begin(), sorted.end());
+    for (double p : {0.00135, 0.5, 0.99865, 0.0, 1.0, 0.3}) {
+      EXPECT_EQ(SelectedQuantile(v, p), SortedQuantile(sorted, p)) << n << " " << p;
+    }
+  }
+  std::vector<double> none;
+  EXPECT_TRUE(std::isnan(SelectedQuantile(none, 0.5)));
+}
+
+// Pearson's r from centred sets is the textbook two-pass formula (common practice, no
+// source): the means first, then the sums of products of the deviations.
+TEST(PearsonCorrelation, CentredSetsGiveTheTwoPassFormula) {
+  std::mt19937_64 bits(9);
+  std::uniform_real_distribution<double> u(-3.0, 7.0);
+  std::vector<double> x(3001), y(3001);
+  for (size_t i = 0; i < x.size(); ++i) {
+    x[i] = u(bits);
+    y[i] = 0.3 * x[i] + u(bits);
+  }
+  double mx = 0, my = 0;
+  for (size_t i = 0; i < x.size(); ++i) {
+    mx += x[i];
+    my += y[i];
+  }
+  mx /= static_cast<double>(x.size());
+  my /= static_cast<double>(y.size());
+  double sxy = 0, sxx = 0, syy = 0;
+  for (size_t i = 0; i < x.size(); ++i) {
+    sxy += (x[i] - mx) * (y[i] - my);
+    sxx += (x[i] - mx) * (x[i] - mx);
+    syy += (y[i] - my) * (y[i] - my);
+  }
+  const double textbook = sxy / std::sqrt(sxx * syy);
+  EXPECT_EQ(PearsonCorrelation(Centre(x), Centre(y)), textbook);
+  EXPECT_EQ(PearsonCorrelation(x, y), textbook);
+  EXPECT_GT(textbook, 0.1);  // the pairs are correlated: the test compares a real number
+  const std::vector<double> constant(x.size(), 2.0);
+  EXPECT_TRUE(std::isnan(PearsonCorrelation(Centre(x), Centre(constant))));
 }
 
 }  // namespace

@@ -33,6 +33,11 @@ std::pair<double, double> WilsonInterval(long long successes, long long trials,
 // NaN for an empty set.
 double SortedQuantile(std::span<const double> sorted, double p);
 
+// SortedQuantile of finite values in any order, by selection (C. A. R. Hoare's FIND,
+// Comm. ACM 4(7), 1961, as std::nth_element): the same order statistics without sorting
+// the whole set. Reorders `values`; may be called again on the reordered set.
+double SelectedQuantile(std::span<double> values, double p);
+
 // Spearman's rank correlation of paired values (ties get their mean rank; pairs with a
 // NaN are left out). NaN when fewer than 2 pairs remain or either side is constant.
 double SpearmanRho(std::span<const double> x, std::span<const double> y);
@@ -42,6 +47,16 @@ double SpearmanRho(std::span<const double> x, std::span<const double> y);
 // column correlated with many others is ranked once.
 std::vector<double> MeanRanks(std::span<const double> values);
 double PearsonCorrelation(std::span<const double> x, std::span<const double> y);
+
+// A set of values less their mean, and the sum of their squares: Pearson's correlation
+// of one set against many centres it once. PearsonCorrelation(x, y) is exactly that of
+// Centre(x) and Centre(y) over the common length.
+struct CentredValues {
+  std::vector<double> values;
+  double sum_squares = 0;
+};
+CentredValues Centre(std::span<const double> x);
+double PearsonCorrelation(const CentredValues& x, const CentredValues& y);
 
 struct Moments {
   long long count = 0;  // finite values
