@@ -16,20 +16,30 @@ constexpr double kNormalCut = 3.0;
 
 }  // namespace
 
-double DrawValue(const VaryLine& line, double u) {
-  const bool normal = line.distribution == VaryLine::Distribution::kNormal;
-  // t in [-1, 1]: the position between the limits, uniform or a truncated normal.
-  const double t = normal ? TruncatedStandardNormal(u, kNormalCut) / kNormalCut : 2 * u - 1;
-  if (line.form == VaryLine::Form::kFactor) {
-    const double centre = 0.5 * (std::log(std::fabs(line.low)) + std::log(std::fabs(line.high)));
-    const double half = 0.5 * (std::log(std::fabs(line.high)) - std::log(std::fabs(line.low)));
-    const double magnitude = std::exp(centre + t * half);
-    return line.nominal < 0 ? -magnitude : magnitude;
+DrawMap::DrawMap(const VaryLine& line)
+    : normal_(line.distribution == VaryLine::Distribution::kNormal),
+      factor_(line.form == VaryLine::Form::kFactor),
+      negative_(line.nominal < 0),
+      truncated_(kNormalCut),
+      low_(line.low),
+      high_(line.high) {
+  if (factor_) {
+    centre_ = 0.5 * (std::log(std::fabs(line.low)) + std::log(std::fabs(line.high)));
+    half_ = 0.5 * (std::log(std::fabs(line.high)) - std::log(std::fabs(line.low)));
+  } else {
+    centre_ = line.form == VaryLine::Form::kTolerance ? line.nominal : 0.5 * (line.low + line.high);
+    half_ = 0.5 * (line.high - line.low);
   }
-  const double centre =
-      line.form == VaryLine::Form::kTolerance ? line.nominal : 0.5 * (line.low + line.high);
-  const double half = 0.5 * (line.high - line.low);
-  return std::clamp(centre + t * half, line.low, line.high);
+}
+
+double DrawMap::operator()(double u) const {
+  // t in [-1, 1]: the position between the limits, uniform or a truncated normal.
+  const double t = normal_ ? truncated_(u) / kNormalCut : 2 * u - 1;
+  if (factor_) {
+    const double magnitude = std::exp(centre_ + t * half_);
+    return negative_ ? -magnitude : magnitude;
+  }
+  return std::clamp(centre_ + t * half_, low_, high_);
 }
 
 std::vector<std::vector<std::pair<int, int>>> SpreadPlan::SplitParts(const std::vector<char>& split,
@@ -78,6 +88,8 @@ std::string SpreadPlan::Build(const Design& design, const Netlist& netlist,
       columns_.push_back({static_cast<int>(i), element, name, unit, v.low, v.high, v.nominal});
     }
   }
+  maps_.clear();
+  for (const DrawColumn& c : columns_) maps_.emplace_back(varies[static_cast<size_t>(c.vary)]);
   // Slots: a PART.key gets one per instance of the part, fed by the shared column and the
   // instance's own `each` column; every other target one slot of its own.
   for (size_t c = 0; c < columns_.size(); ++c) {
@@ -118,7 +130,7 @@ std::string SpreadPlan::Build(const Design& design, const Netlist& netlist,
 void SpreadPlan::Draw(std::uint64_t seed, long long sample, std::span<double> out) const {
   for (size_t j = 0; j < columns_.size(); ++j) {
     const double u = CounterUniform(seed, static_cast<std::uint64_t>(sample), j);
-    out[j] = DrawValue(design_->varies[static_cast<size_t>(columns_[j].vary)], u);
+    out[j] = maps_[j](u);
   }
 }
 

@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "knee/netlist.h"
+#include "knee/spread_stats.h"
 
 namespace knee::cli {
 
@@ -29,8 +30,19 @@ struct DrawSlot {
   std::vector<int> columns;
 };
 
-// The value of one vary line for a uniform number u in (0, 1) (netlist.h, VaryLine).
-double DrawValue(const VaryLine& line, double u);
+// The value of one vary line for a uniform number u in (0, 1) (netlist.h, VaryLine), with
+// what does not depend on u (the limits' logarithms, the normal's cut probabilities)
+// worked out once per line.
+class DrawMap {
+ public:
+  explicit DrawMap(const VaryLine& line);
+  double operator()(double u) const;
+
+ private:
+  bool normal_ = false, factor_ = false, negative_ = false;
+  TruncatedNormal truncated_;
+  double centre_ = 0, half_ = 0, low_ = 0, high_ = 0;
+};
 
 class SpreadPlan {
  public:
@@ -65,6 +77,7 @@ class SpreadPlan {
   Circuit circuit_;
   std::vector<char> split_;  // per original part: has an `each` line
   std::vector<DrawColumn> columns_;
+  std::vector<DrawMap> maps_;  // per column, of its vary line
   std::vector<DrawSlot> slots_;
   bool has_param_ = false;
 };

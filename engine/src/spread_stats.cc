@@ -48,16 +48,26 @@ std::vector<size_t> IncreasingOrder(std::span<const double> v) {
   }
   std::vector<size_t> order_next(n);
   constexpr int kBits = 11;
+  constexpr int kDigits = (64 + kBits - 1) / kBits;
   constexpr size_t kBuckets = size_t{1} << kBits;
-  std::vector<size_t> start(kBuckets + 1);
-  for (int shift = 0; shift < 64; shift += kBits) {
-    std::fill(start.begin(), start.end(), size_t{0});
-    for (size_t i = 0; i < n; ++i) ++start[((key[i] >> shift) & (kBuckets - 1)) + 1];
+  // Every digit's counts in one reading of the keys (a pass only moves them): start[d]
+  // holds digit d's bucket starts, offset by one.
+  std::vector<size_t> start(static_cast<size_t>(kDigits) * (kBuckets + 1), 0);
+  for (size_t i = 0; i < n; ++i) {
+    for (int d = 0; d < kDigits; ++d) {
+      ++start[static_cast<size_t>(d) * (kBuckets + 1) + ((key[i] >> (d * kBits)) & (kBuckets - 1)) +
+              1];
+    }
+  }
+  for (int d = 0; d < kDigits; ++d) {
+    const auto first = start.begin() + static_cast<std::ptrdiff_t>(d) * (kBuckets + 1);
+    const auto last = first + static_cast<std::ptrdiff_t>(kBuckets + 1);
     // A digit that every key shares leaves the order as it is.
-    if (std::find(start.begin(), start.end(), n) != start.end()) continue;
-    std::partial_sum(start.begin(), start.end(), start.begin());
+    if (std::find(first, last, n) != last) continue;
+    std::partial_sum(first, last, first);
+    const int shift = d * kBits;
     for (size_t i = 0; i < n; ++i) {
-      const size_t to = start[(key[i] >> shift) & (kBuckets - 1)]++;
+      const size_t to = first[static_cast<std::ptrdiff_t>((key[i] >> shift) & (kBuckets - 1))]++;
       key_next[to] = key[i];
       order_next[to] = order[i];
     }
@@ -125,14 +135,16 @@ double CounterUniform(std::uint64_t seed, std::uint64_t sample, std::uint64_t st
   return (static_cast<double>(h >> 11) + 0.5) * 0x1.0p-53;
 }
 
-double TruncatedStandardNormal(double u, double cut) {
-  const double lo = Phi(-cut);
-  const double hi = Phi(cut);
-  const double p = lo + u * (hi - lo);
+TruncatedNormal::TruncatedNormal(double cut) : cut_(cut), lo_(Phi(-cut)), hi_(Phi(cut)) {}
+
+double TruncatedNormal::operator()(double u) const {
+  const double p = lo_ + u * (hi_ - lo_);
   // Phi^-1(p) = -sqrt(2) erfc^-1(2p); p stays inside (0, 1) for a finite cut.
   const double z = -std::sqrt(2.0) * boost::math::erfc_inv(2.0 * p);
-  return std::clamp(z, -cut, cut);
+  return std::clamp(z, -cut_, cut_);
 }
+
+double TruncatedStandardNormal(double u, double cut) { return TruncatedNormal(cut)(u); }
 
 std::pair<double, double> WilsonInterval(long long successes, long long trials, double z) {
   if (trials <= 0) return {0.0, 1.0};

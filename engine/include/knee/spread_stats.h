@@ -22,6 +22,17 @@ double CounterUniform(std::uint64_t seed, std::uint64_t sample, std::uint64_t st
 // Phi(-cut))) for u in (0, 1).
 double TruncatedStandardNormal(double u, double cut);
 
+// The same map with the cut's probabilities Phi(-cut) and Phi(cut) computed once, for
+// many draws of one cut (the same numbers, bit for bit).
+class TruncatedNormal {
+ public:
+  explicit TruncatedNormal(double cut);
+  double operator()(double u) const;
+
+ private:
+  double cut_, lo_, hi_;
+};
+
 // The Wilson score interval of a proportion (E. B. Wilson, J. Amer. Statist. Assoc. 22,
 // 209-212, 1927), without continuity correction, for `successes` of `trials` at the
 // two-sided normal quantile z (1.959964 for 95 %). {0, 1} for no trials.
