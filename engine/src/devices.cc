@@ -167,6 +167,7 @@ void DeviceStore::UpdateValues(const Circuit& circuit, std::span<const char> par
     a.diode_bases.Recompute(circuit, part_changed);
     for (Diode& d : a.diodes) {
       d.set_own_temp(circuit.elements[static_cast<size_t>(d.element())].temp.has_value());
+      d.ForgetPoint();
     }
     return;
   }
@@ -175,6 +176,7 @@ void DeviceStore::UpdateValues(const Circuit& circuit, std::span<const char> par
     const Element& e = circuit.elements[static_cast<size_t>(d.element())];
     d.set_basis(a.diode_bases.Find(circuit, e));
     d.set_own_temp(e.temp.has_value());
+    d.ForgetPoint();
   }
 }
 

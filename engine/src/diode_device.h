@@ -189,15 +189,18 @@ class Diode final : public Device {
   void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
   void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
   void BeginRun(std::span<const double> x, const DiodeBasis& basis) {
-    last_vj_ = JunctionVoltageAt(basis.d, At(x, pair_.a()) - At(x, pair_.b()), 0.0);
+    last_vj_ = JunctionVoltageAt(basis.d, At(x, pair_.a()) - At(x, pair_.b()), 0.0, &last_point_);
+    has_last_point_ = true;
     limited_ = false;
   }
+  // The basis changed: the junction point kept for last_vj_ is no longer its law's.
+  void ForgetPoint() { has_last_point_ = false; }
   bool Stamp(StampContext& ctx, const DiodeBasis& basis) {
     const DiodeConstants& d = basis.d;
     const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
     const double v = va - vb;
     JunctionPoint p;
-    const double vj = JunctionVoltageAt(d, v, last_vj_, &p);
+    const double vj = JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint());
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
@@ -214,6 +217,8 @@ class Diode final : public Device {
     // Linearisation at the (possibly limited) junction point `at`, whose terminal voltage
     // is at + rs*I(at), evaluated at v: the exact current when no limiting happened.
     if (limited_) p = EvaluateJunction(d, at);
+    last_point_ = p;
+    has_last_point_ = true;
     double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
     if (ctx.junction_floor) g = std::max(g, d.is / d.n_vt);
     const double g_exact = basis.TwoTerminal(p.conductance);
@@ -241,8 +246,9 @@ class Diode final : public Device {
   DeviceReport Measure(std::span<const double> x, const DiodeBasis& basis) const {
     DeviceReport r;
     r.voltage = At(x, pair_.a()) - At(x, pair_.b());
-    r.junction_voltage = JunctionVoltageAt(basis.d, r.voltage, last_vj_);
-    const JunctionPoint p = EvaluateJunction(basis.d, r.junction_voltage);
+    // The search reports the law at the junction voltage it returns.
+    JunctionPoint p;
+    r.junction_voltage = JunctionVoltageAt(basis.d, r.voltage, last_vj_, &p, KnownPoint());
     r.current = p.current;
     r.small_signal_res = 1.0 / p.conductance + basis.d.rs;
     return r;
@@ -285,7 +291,13 @@ class Diode final : public Device {
   int basis_;  // index into DiodeBases
   bool limited_ = false;
   bool own_temp_ = false;  // the element has its own temp= (sensitivities only)
+  // The law at last_vj_ (EvaluateJunction(basis.d, last_vj_)), where the next junction
+  // search starts: each search saves one evaluation of the law.
+  const JunctionPoint* KnownPoint() const { return has_last_point_ ? &last_point_ : nullptr; }
+
   double last_vj_ = 0;
+  JunctionPoint last_point_;
+  bool has_last_point_ = false;
   double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
 };
 

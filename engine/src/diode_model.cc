@@ -163,12 +163,16 @@ struct RootBracket {
 // overflows at a point (h = +-inf: v of kilovolts) the root lies on one side of it, and
 // the next point is the voltage at which the dominant term alone carries |v|/rs. Newton's
 // method inside the bracket, bisection where Newton would leave it or creeps.
-double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, JunctionPoint* at) {
+double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, JunctionPoint* at,
+                         const JunctionPoint* at_guess) {
   JunctionPoint point;
-  const auto h = [&](double vj, double* slope) {
-    point = EvaluateJunction(d, vj);
+  const auto residual = [&](double vj, double* slope) {
     *slope = 1.0 + d.rs * point.conductance;
     return vj + d.rs * point.current - v;
+  };
+  const auto h = [&](double vj, double* slope) {
+    point = EvaluateJunction(d, vj);
+    return residual(vj, slope);
   };
   if (!(d.rs > 0.0)) {
     if (at != nullptr) *at = EvaluateJunction(d, v);
@@ -178,7 +182,13 @@ double JunctionVoltageAt(const DiodeConstants& d, double v, double guess, Juncti
   double slope = 1.0;
   const bool near = std::isfinite(guess) && std::fabs(guess) <= 2.0 * std::fabs(v) + 1.0;
   double x = near ? guess : v;
-  double f = h(x, &slope);
+  double f = 0.0;
+  if (near && at_guess != nullptr) {
+    point = *at_guess;
+    f = residual(x, &slope);
+  } else {
+    f = h(x, &slope);
+  }
   if (!std::isfinite(f) && x != v) {
     x = v;
     f = h(x, &slope);

@@ -164,6 +164,31 @@ TEST(DiodeLaw, JunctionCurrentFollowsTheLaw) {
   EXPECT_CLOSE(EvaluateJunction(d, -d.vbr).current, -d.ibr - d.is, 1e-13, 0.0);
 }
 
+// A search given the law at its start (the caller's last point) is the search that
+// evaluates it there: the same junction voltage and point, bit for bit, and the point is
+// the law's at the returned voltage (common practice, no source: a cache must not change
+// what it caches).
+TEST(DiodeLaw, JunctionSearchFromAKnownPointIsTheSameSearch) {
+  DiodeConstants d = Zener();
+  d.rs = 0.05;
+  int searches = 0;
+  for (double v : {-7.0, -5.3, -1.0, 0.0, 0.3, 0.65, 0.9, 2.0, 20.0}) {
+    for (double guess : {0.0, -5.2, 0.6, 0.75, v}) {
+      JunctionPoint plain, known_start;
+      const double a = JunctionVoltageAt(d, v, guess, &plain);
+      const JunctionPoint at_guess = EvaluateJunction(d, guess);
+      const double b = JunctionVoltageAt(d, v, guess, &known_start, &at_guess);
+      EXPECT_EQ(a, b) << v << " from " << guess;
+      EXPECT_EQ(plain.current, known_start.current) << v << " from " << guess;
+      EXPECT_EQ(plain.conductance, known_start.conductance) << v << " from " << guess;
+      EXPECT_EQ(plain.current, EvaluateJunction(d, a).current) << v << " from " << guess;
+      EXPECT_CLOSE(a + d.rs * plain.current, v, 1e-12, 1e-12) << v << " from " << guess;
+      ++searches;
+    }
+  }
+  EXPECT_EQ(searches, 45);
+}
+
 // Junction limiting: steps below the critical voltage pass untouched; large rising steps
 // above it become logarithmic and never longer than asked; falling steps pass.
 TEST(JunctionLimit, ShortensOnlyOvershootingSteps) {

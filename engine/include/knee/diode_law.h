@@ -62,7 +62,9 @@ double LogJunctionCurrent(const DiodeConstants& d, double vj);
 // The junction voltage of a diode with series resistance d.rs at terminal voltage v (the
 // root of v = vj + rs*I(vj)); `guess` is where the search starts. v itself when rs == 0.
 // When `at` is given it receives the junction's current and conductance at the result.
+// `at_guess`, when given, is EvaluateJunction(d, guess), already known to the caller: the
+// search then starts without evaluating it again (the same result, bit for bit).
 double JunctionVoltageAt(const DiodeConstants& d, double v, double guess,
-                         JunctionPoint* at = nullptr);
+                         JunctionPoint* at = nullptr, const JunctionPoint* at_guess = nullptr);
 
 }  // namespace knee
