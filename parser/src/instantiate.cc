@@ -378,7 +378,7 @@ class Elaborator {
       }
     }
     for (std::size_t n = 1; n < circuit.nodes.size(); ++n) {
-      const std::string& name = circuit.nodes[n];
+      const std::string_view name = circuit.nodes[n];
       const bool like_gnd = name.size() == 3 && std::tolower(name[0]) == 'g' &&
                             std::tolower(name[1]) == 'n' && std::tolower(name[2]) == 'd';
       if (!like_gnd && touches[n] != 1) continue;
@@ -396,7 +396,7 @@ class Elaborator {
         const Element& e = circuit.elements[static_cast<std::size_t>(toucher[n])];
         // Any other node may be the intended one, gnd included (nodes[0]); SuggestName
         // skips the node's own name.
-        const std::string near = like_gnd ? "" : SuggestName(name, circuit.nodes);
+        const std::string near = like_gnd ? "" : SuggestNodeName(name, circuit.nodes);
         warnings->push_back(MakeError(
             file_, span,
             fmt::format("node '{}' is touched by one element only ({} '{}'), so no current can "
@@ -902,8 +902,7 @@ class Elaborator {
     if (name == "gnd" || name == "0") return kGroundNode;
     auto [it, inserted] = names_.try_emplace(name, Definition{DefKind::kNode, -1, span});
     if (inserted) {
-      it->second.index = static_cast<int>(circuit->nodes.size());
-      circuit->nodes.emplace_back(name);
+      it->second.index = circuit->AddNode(name);
       return it->second.index;
     }
     if (it->second.kind == DefKind::kNode) return it->second.index;
@@ -998,7 +997,7 @@ class Elaborator {
       const ElementStmt& s = d_.elements[i];
       Element e;
       e.kind = s.kind;
-      e.name = s.name;
+      e.name = circuit->Keep(s.name);
       e.where = ToLocation(file_, s.name_span);
       const int a = NodeIndex(s.node_a, s.a_span, s, circuit);
       const int b = NodeIndex(s.node_b, s.b_span, s, circuit);
