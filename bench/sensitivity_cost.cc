@@ -63,7 +63,7 @@ knee::Circuit Ladder(int stages) {
   const auto add = [&](knee::ElementKind kind, std::string name, int a, int b, double value) {
     knee::Element e;
     e.kind = kind;
-    e.name = std::move(name);
+    e.name = c.Keep(name);
     e.node_a = a;
     e.node_b = b;
     e.value = value;
@@ -73,10 +73,10 @@ knee::Circuit Ladder(int stages) {
     }
     c.elements.push_back(std::move(e));
   };
-  c.nodes.push_back("src");
+  c.AddNode("src");
   add(knee::ElementKind::kVoltageSource, "V1", 1, 0, 5.0);
   for (int k = 1; k <= stages; ++k) {
-    c.nodes.push_back("n" + std::to_string(k));
+    c.AddNode("n" + std::to_string(k));
     const int node = static_cast<int>(c.nodes.size()) - 1;
     add(knee::ElementKind::kResistor, "R" + std::to_string(k), node - 1, node, 100.0);
     add(knee::ElementKind::kDiode, "D" + std::to_string(k), node, 0, 0.0);

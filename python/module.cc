@@ -106,7 +106,7 @@ void BindCircuit(py::module_& m) {
           "temp", [](const PyCircuit& c) { return c.state->design.circuit.temp; },
           "The circuit temperature in degrees Celsius")
       .def_property_readonly(
-          "nodes", [](const PyCircuit& c) { return c.state->design.circuit.nodes; },
+          "nodes", [](const PyCircuit& c) { return c.state->design.circuit.NodeNames(); },
           "Node names; nodes[0] is gnd")
       .def_property_readonly(
           "elements", [](const PyCircuit& c) { return NamesOf(c.state->design.circuit.elements); })

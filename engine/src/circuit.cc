@@ -1,8 +1,16 @@
-// Name lookups on the elaborated circuit.
+// Name storage and name lookups on the elaborated circuit.
 #include "knee/circuit.h"
+
+#include <algorithm>
+#include <bit>
+#include <ostream>
 
 namespace knee {
 namespace {
+
+// "gnd" laid out as a NameStore keeps a name: its length, the characters and a NUL.
+alignas(std::uint32_t) constexpr char kGroundText[] = {3, 0, 0, 0, 'g', 'n', 'd', 0};
+static_assert(std::endian::native == std::endian::little, "kGroundText spells the length");
 
 template <typename Items, typename NameOf>
 int IndexOf(const Items& items, std::string_view name, NameOf name_of) {
@@ -14,9 +22,37 @@ int IndexOf(const Items& items, std::string_view name, NameOf name_of) {
 
 }  // namespace
 
+std::ostream& operator<<(std::ostream& out, const Name& name) { return out << name.view(); }
+
+Name NameStore::Keep(std::string_view text) {
+  const auto size = static_cast<std::uint32_t>(text.size());
+  const std::size_t need = sizeof size + text.size() + 1;
+  if (need > kBlockBytes - used_) {
+    blocks_.push_back(std::make_unique<char[]>(std::max(need, kBlockBytes)));
+    used_ = 0;
+  }
+  char* at = blocks_.back().get() + used_;
+  std::memcpy(at, &size, sizeof size);
+  std::memcpy(at + sizeof size, text.data(), text.size());
+  at[sizeof size + text.size()] = '\0';
+  used_ += need;
+  return Name(at);
+}
+
+Circuit::Circuit() : nodes{Name(kGroundText)}, names_(std::make_shared<NameStore>()) {}
+
+int Circuit::AddNode(std::string_view name) {
+  nodes.push_back(Keep(name));
+  return static_cast<int>(nodes.size()) - 1;
+}
+
+std::vector<std::string> Circuit::NodeNames() const {
+  return std::vector<std::string>(nodes.begin(), nodes.end());
+}
+
 int Circuit::FindNode(std::string_view name) const {
   if (name == "0" || name == "gnd") return kGroundNode;
-  return IndexOf(nodes, name, [](const std::string& node) -> std::string_view { return node; });
+  return IndexOf(nodes, name, [](const Name& node) -> std::string_view { return node; });
 }
 
 int Circuit::FindElement(std::string_view name) const {

@@ -125,7 +125,7 @@ class MnaSystem {
   void UpdateValues(const Circuit& circuit);
 
   const DeviceStore& devices() const { return devices_; }
-  const std::string& ElementName(int e) const {
+  std::string_view ElementName(int e) const {
     return circuit_->elements[static_cast<size_t>(e)].name;
   }
 

@@ -52,7 +52,7 @@ const char* UnitSymbol(QuantityKind kind) {
 }
 
 std::string QuantityName(const Circuit& circuit, const QuantityRef& ref) {
-  const auto element = [&]() -> const std::string& {
+  const auto element = [&]() -> Name {
     return circuit.elements.at(static_cast<size_t>(ref.index)).name;
   };
   switch (ref.kind) {

@@ -201,11 +201,17 @@ std::string FormatDiagnostics(const std::vector<Diagnostic>& diagnostics,
   return out;
 }
 
-std::string SuggestName(std::string_view wrong, const std::vector<std::string>& candidates) {
+namespace {
+
+// SuggestName over any range of names that read as std::string_view.
+template <typename Names>
+std::string Closest(std::string_view wrong, const Names& candidates) {
   if (wrong.empty() || wrong.size() > kMaxSuggestLength) return "";
-  const std::string* best = nullptr;
+  std::string_view best;
+  bool found = false;
   int best_folded = 0, best_exact = 0;
-  for (const std::string& c : candidates) {
+  for (const auto& candidate : candidates) {
+    const std::string_view c = candidate;
     if (c.empty() || c.size() > kMaxSuggestLength || c == wrong) continue;
     // Close enough to be a typo: a case-only difference, or about one edit in three
     // characters (common practice, no source); nothing farther can be suggested.
@@ -213,17 +219,28 @@ std::string SuggestName(std::string_view wrong, const std::vector<std::string>& 
     const int allowed = std::min(std::max(1, longest / 3), static_cast<int>(wrong.size()) - 1);
     const int gap = std::abs(static_cast<int>(wrong.size()) - static_cast<int>(c.size()));
     if (gap > allowed) continue;
-    const int cap = best ? std::min(allowed, best_folded) : allowed;
+    const int cap = found ? std::min(allowed, best_folded) : allowed;
     const int folded = EditDistance(wrong, c, true, cap);
     if (folded > cap) continue;
     const int exact = EditDistance(wrong, c, false, static_cast<int>(kMaxSuggestLength));
-    if (!best || folded < best_folded || (folded == best_folded && exact < best_exact)) {
-      best = &c;
+    if (!found || folded < best_folded || (folded == best_folded && exact < best_exact)) {
+      best = c;
+      found = true;
       best_folded = folded;
       best_exact = exact;
     }
   }
-  return best ? *best : "";
+  return std::string(best);
+}
+
+}  // namespace
+
+std::string SuggestName(std::string_view wrong, const std::vector<std::string>& candidates) {
+  return Closest(wrong, candidates);
+}
+
+std::string SuggestNodeName(std::string_view wrong, std::span<const Name> nodes) {
+  return Closest(wrong, nodes);
 }
 
 }  // namespace knee

@@ -38,11 +38,34 @@ bool IsReserved(std::string_view name) {
 
 enum class DefKind { kParam, kPart, kElement, kNode, kHeatsink };
 
+// 12 bytes: a million-stage netlist defines three million names. Where a name appears
+// first is not stored: it is the name's place in its statement (SpanOf), for a node the
+// place of that terminal in the first element statement that names it.
 struct Definition {
   DefKind kind = DefKind::kNode;
-  int index = -1;  // into params / parts / elements / circuit nodes
-  Span span;       // first appearance
+  std::uint8_t terminal = 0;  // kNode: 0 for node_a, 1 for node_b of `statement`
+  int index = -1;             // into params / parts / elements / heatsinks / circuit nodes
+  int statement = -1;         // kNode: the element statement where the node appears first
 };
+
+Span SpanOf(const NetlistData& d, const Definition& def) {
+  const auto i = static_cast<std::size_t>(def.index);
+  switch (def.kind) {
+    case DefKind::kParam:
+      return d.params[i].name_span;
+    case DefKind::kPart:
+      return d.parts[i].name_span;
+    case DefKind::kElement:
+      return d.elements[i].name_span;
+    case DefKind::kHeatsink:
+      return d.heatsinks[i].name_span;
+    case DefKind::kNode: {
+      const ElementStmt& e = d.elements[static_cast<std::size_t>(def.statement)];
+      return def.terminal == 0 ? e.a_span : e.b_span;
+    }
+  }
+  return Span{};
+}
 
 // The one namespace of elements, nodes, parts and params: an open-addressing table of
 // (name, definition) entries kept in insertion order. Names are views into the parsed
@@ -50,7 +73,16 @@ struct Definition {
 // entry and one slot per name, not a heap node and a string copy per name.
 class NameTable {
  public:
-  using Entry = std::pair<std::string_view, Definition>;
+  // The name's text as a pointer and a 32-bit size (12 bytes; a std::string_view is 16).
+  struct Key {
+    const char* data = nullptr;
+    std::uint32_t size = 0;
+    Key() = default;
+    Key(std::string_view name)  // NOLINT: a key is written as its name
+        : data(name.data()), size(static_cast<std::uint32_t>(name.size())) {}
+    operator std::string_view() const { return {data, size}; }  // NOLINT
+  };
+  using Entry = std::pair<Key, Definition>;
   using iterator = std::vector<Entry>::iterator;
 
   void reserve(std::size_t n) {
@@ -68,7 +100,7 @@ class NameTable {
     for (std::size_t s = Hash(name) & mask;; s = (s + 1) & mask) {
       const std::uint32_t e = slots_[s];
       if (e == 0) return end();
-      if (entries_[e - 1].first == name) return entries_.begin() + (e - 1);
+      if (std::string_view(entries_[e - 1].first) == name) return entries_.begin() + (e - 1);
     }
   }
   // Inserts (name, def) unless the name is present; the iterator is valid until the next
@@ -82,7 +114,9 @@ class NameTable {
     for (;; s = (s + 1) & mask) {
       const std::uint32_t e = slots_[s];
       if (e == 0) break;
-      if (entries_[e - 1].first == name) return {entries_.begin() + (e - 1), false};
+      if (std::string_view(entries_[e - 1].first) == name) {
+        return {entries_.begin() + (e - 1), false};
+      }
     }
     entries_.emplace_back(name, def);
     slots_[s] = static_cast<std::uint32_t>(entries_.size());
@@ -378,12 +412,12 @@ class Elaborator {
       }
     }
     for (std::size_t n = 1; n < circuit.nodes.size(); ++n) {
-      const std::string& name = circuit.nodes[n];
+      const std::string_view name = circuit.nodes[n];
       const bool like_gnd = name.size() == 3 && std::tolower(name[0]) == 'g' &&
                             std::tolower(name[1]) == 'n' && std::tolower(name[2]) == 'd';
       if (!like_gnd && touches[n] != 1) continue;
       auto it = names_.find(name);
-      const Span span = it != names_.end() ? it->second.span : Span{};
+      const Span span = it != names_.end() ? SpanOf(d_, it->second) : Span{};
       if (like_gnd) {
         warnings->push_back(MakeError(file_, span,
                                       fmt::format("node '{}' is not the reference node: names are "
@@ -396,7 +430,7 @@ class Elaborator {
         const Element& e = circuit.elements[static_cast<std::size_t>(toucher[n])];
         // Any other node may be the intended one, gnd included (nodes[0]); SuggestName
         // skips the node's own name.
-        const std::string near = like_gnd ? "" : SuggestName(name, circuit.nodes);
+        const std::string near = like_gnd ? "" : SuggestNodeName(name, circuit.nodes);
         warnings->push_back(MakeError(
             file_, span,
             fmt::format("node '{}' is touched by one element only ({} '{}'), so no current can "
@@ -519,16 +553,15 @@ class Elaborator {
                                                            : "element"));
       return;
     }
-    auto [it, inserted] = names_.try_emplace(name, Definition{kind, index, span});
+    auto [it, inserted] = names_.try_emplace(name, Definition{kind, 0, index, -1});
     if (inserted) return;
-    const Definition here{kind, index, span};
-    Diagnostic& d = Error(span, fmt::format("'{}' is already the name of a {} (line {}); "
-                                            "elements, nodes, parts and params share one "
-                                            "namespace",
-                                            name, KindWord(d_, it->second), it->second.span.line));
-    Note(&d, it->second.span,
+    Diagnostic& d =
+        Error(span, fmt::format("'{}' is already the name of a {} (line {}); "
+                                "elements, nodes, parts and params share one "
+                                "namespace",
+                                name, KindWord(d_, it->second), SpanOf(d_, it->second).line));
+    Note(&d, SpanOf(d_, it->second),
          fmt::format("'{}' is defined here as a {}", name, KindWord(d_, it->second)));
-    (void)here;
   }
 
   void RegisterNames() {
@@ -898,20 +931,25 @@ class Elaborator {
 
   // --- the circuit -------------------------------------------------------------------
 
-  int NodeIndex(std::string_view name, const Span& span, const ElementStmt& e, Circuit* circuit) {
+  // The node at terminal `terminal` (0: node_a, 1: node_b) of element statement `statement`.
+  int NodeIndex(std::size_t statement, int terminal, Circuit* circuit) {
+    const ElementStmt& e = d_.elements[statement];
+    const std::string_view name = terminal == 0 ? e.node_a : e.node_b;
+    const Span& span = terminal == 0 ? e.a_span : e.b_span;
     if (name == "gnd" || name == "0") return kGroundNode;
-    auto [it, inserted] = names_.try_emplace(name, Definition{DefKind::kNode, -1, span});
+    auto [it, inserted] =
+        names_.try_emplace(name, Definition{DefKind::kNode, static_cast<std::uint8_t>(terminal), -1,
+                                            static_cast<int>(statement)});
     if (inserted) {
-      it->second.index = static_cast<int>(circuit->nodes.size());
-      circuit->nodes.emplace_back(name);
+      it->second.index = circuit->AddNode(name);
       return it->second.index;
     }
     if (it->second.kind == DefKind::kNode) return it->second.index;
     Diagnostic& d = Error(span, fmt::format("'{}' is used as a node of {} '{}' but is the name "
                                             "of a {} (line {})",
                                             name, ElementKindName(e.kind), e.name,
-                                            KindWord(d_, it->second), it->second.span.line));
-    Note(&d, it->second.span,
+                                            KindWord(d_, it->second), SpanOf(d_, it->second).line));
+    Note(&d, SpanOf(d_, it->second),
          fmt::format("'{}' is defined here as a {}", name, KindWord(d_, it->second)));
     return -1;
   }
@@ -998,10 +1036,10 @@ class Elaborator {
       const ElementStmt& s = d_.elements[i];
       Element e;
       e.kind = s.kind;
-      e.name = s.name;
+      e.name = circuit->Keep(s.name);
       e.where = ToLocation(file_, s.name_span);
-      const int a = NodeIndex(s.node_a, s.a_span, s, circuit);
-      const int b = NodeIndex(s.node_b, s.b_span, s, circuit);
+      const int a = NodeIndex(i, 0, circuit);
+      const int b = NodeIndex(i, 1, circuit);
       e.node_a = std::max(a, 0);
       e.node_b = std::max(b, 0);
       if (s.kind == ElementKind::kDiode) {
@@ -1052,7 +1090,7 @@ class Elaborator {
           Diagnostic& d = Error(m.sink_span, fmt::format("'{}' is a {}, not a heatsink; sink= "
                                                          "names a 'heatsink' statement",
                                                          m.sink, KindWord(d_, it->second)));
-          Note(&d, it->second.span, fmt::format("'{}' is defined here", m.sink));
+          Note(&d, SpanOf(d_, it->second), fmt::format("'{}' is defined here", m.sink));
           continue;
         }
         const std::string near = SuggestName(m.sink, NamesOf({DefKind::kHeatsink}));
@@ -1063,7 +1101,8 @@ class Elaborator {
             near.empty() ? fmt::format("add a line: heatsink {} thermal_res=VALUE", m.sink)
                          : fmt::format("did you mean '{}'?", near));
         if (!near.empty()) {
-          Note(&d, names_.find(near)->second.span, fmt::format("'{}' is defined here", near));
+          Note(&d, SpanOf(d_, names_.find(near)->second),
+               fmt::format("'{}' is defined here", near));
         }
         continue;
       }
@@ -1105,7 +1144,7 @@ class Elaborator {
         Diagnostic& d = Error(diode.part_span, fmt::format("'{}' is a {}, not a part; expected the "
                                                            "name of a 'part' statement",
                                                            diode.part, KindWord(d_, it->second)));
-        Note(&d, it->second.span, fmt::format("'{}' is defined here", diode.part));
+        Note(&d, SpanOf(d_, it->second), fmt::format("'{}' is defined here", diode.part));
         return;
       }
       const std::string near = SuggestName(diode.part, NamesOf({DefKind::kPart}));
@@ -1115,7 +1154,7 @@ class Elaborator {
                                         diode.part),
                             near.empty() ? "" : fmt::format("did you mean '{}'?", near));
       if (!near.empty()) {
-        Note(&d, names_.find(near)->second.span, fmt::format("'{}' is defined here", near));
+        Note(&d, SpanOf(d_, names_.find(near)->second), fmt::format("'{}' is defined here", near));
       }
       return;
     }

@@ -274,7 +274,7 @@ class QuantityResolver {
     }
     const int element = circuit_.FindElement(name);
     if (element < 0) {
-      std::vector<std::string> names = circuit_.nodes;
+      std::vector<std::string> names = circuit_.NodeNames();
       for (const Element& el : circuit_.elements) names.push_back(el.name);
       for (const Heatsink& h : circuit_.heatsinks) names.push_back(h.name);
       const std::string near = SuggestName(name, names);

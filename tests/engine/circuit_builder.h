@@ -15,8 +15,7 @@ class CircuitBuilder {
   int Node(const std::string& name) {
     const int found = circuit_.FindNode(name);
     if (found >= 0) return found;
-    circuit_.nodes.push_back(name);
-    return static_cast<int>(circuit_.nodes.size()) - 1;
+    return circuit_.AddNode(name);
   }
   int Part(const std::string& name, const DiodeModel& model) {
     circuit_.parts.push_back({name, model, {}});
@@ -34,7 +33,7 @@ class CircuitBuilder {
           double value, int part = -1, double area = 1.0) {
     Element e;
     e.kind = kind;
-    e.name = name;
+    e.name = circuit_.Keep(name);
     e.node_a = Node(a);
     e.node_b = Node(b);
     e.value = value;

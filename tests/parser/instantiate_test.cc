@@ -96,7 +96,7 @@ TEST(OverridesTest, ElaborateCircuitMatchesElaborate) {
   Result<Circuit> c = ElaborateCircuit(*n, Set({{"Rprot", "2k"}}));
   ASSERT_TRUE(c.ok());
   EXPECT_EQ(c->elements[2].value, 20000.0);
-  EXPECT_EQ(c->nodes, (std::vector<std::string>{"gnd", "a", "b"}));
+  EXPECT_EQ(c->NodeNames(), (std::vector<std::string>{"gnd", "a", "b"}));
 }
 
 }  // namespace

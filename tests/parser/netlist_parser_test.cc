@@ -47,7 +47,7 @@ TEST(NetlistParserTest, CompleteExampleElaboratesToTheWrittenValues) {
   EXPECT_EQ(c.title, "field input clamp");
   EXPECT_EQ(c.temp, 25.0);
   // Nodes in order of first use, gnd first.
-  EXPECT_EQ(c.nodes, (std::vector<std::string>{"gnd", "line", "vdd", "pin"}));
+  EXPECT_EQ(c.NodeNames(), (std::vector<std::string>{"gnd", "line", "vdd", "pin"}));
   ASSERT_EQ(c.elements.size(), 7u);
   EXPECT_EQ(ElementValue(d, "Vline"), 24.0);
   EXPECT_EQ(ElementValue(d, "Vdd"), 3.3);

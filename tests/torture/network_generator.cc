@@ -27,8 +27,7 @@ class Builder {
   double Sign() { return Chance(0.5) ? 1.0 : -1.0; }
 
   int NewNode(const char* stem) {
-    c_.nodes.push_back(std::string(stem) + std::to_string(c_.nodes.size()));
-    return static_cast<int>(c_.nodes.size()) - 1;
+    return c_.AddNode(std::string(stem) + std::to_string(c_.nodes.size()));
   }
   // A node that blocks may attach to (never a source's own terminal).
   int AnyNetNode() {
@@ -46,7 +45,7 @@ class Builder {
            double area = 1.0) {
     Element e;
     e.kind = kind;
-    e.name = std::string(stem) + std::to_string(c_.elements.size() + 1);
+    e.name = c_.Keep(std::string(stem) + std::to_string(c_.elements.size() + 1));
     e.node_a = a;
     e.node_b = b;
     e.value = value;

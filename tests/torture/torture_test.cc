@@ -99,10 +99,11 @@ TEST(VerifySolution, ContractLawAtAKnownPoint) {
   EXPECT_NEAR(ContractDiodeCurrent(m, 3.0, 25.0, 2.0 * vt * std::log(2.0)), 3e-12, 1e-24);
 }
 
-Element MakeElement(ElementKind kind, const char* name, int a, int b, double value, int part = -1) {
+Element MakeElement(Circuit* c, ElementKind kind, const char* name, int a, int b, double value,
+                    int part = -1) {
   Element e;
   e.kind = kind;
-  e.name = name;
+  e.name = c->Keep(name);
   e.node_a = a;
   e.node_b = b;
   e.value = value;
@@ -119,10 +120,11 @@ Element MakeElement(ElementKind kind, const char* name, int a, int b, double val
 // node between saturated matched junctions is undetermined).
 TEST(RoundOffResolution, FixedDividerAndFloatingMiddleOfMatchedReverseDiodes) {
   Circuit divider;
-  divider.nodes = {"gnd", "top", "mid"};
-  divider.elements.push_back(MakeElement(ElementKind::kVoltageSource, "V1", 1, 0, 10.0));
-  divider.elements.push_back(MakeElement(ElementKind::kResistor, "R1", 1, 2, 1e3));
-  divider.elements.push_back(MakeElement(ElementKind::kResistor, "R2", 2, 0, 1e3));
+  divider.AddNode("top");
+  divider.AddNode("mid");
+  divider.elements.push_back(MakeElement(&divider, ElementKind::kVoltageSource, "V1", 1, 0, 10.0));
+  divider.elements.push_back(MakeElement(&divider, ElementKind::kResistor, "R1", 1, 2, 1e3));
+  divider.elements.push_back(MakeElement(&divider, ElementKind::kResistor, "R2", 2, 0, 1e3));
   Solution s;
   s.node_voltage = {0.0, 10.0, 5.0};
   s.element_current = {-5e-3, 5e-3, 5e-3};
@@ -138,11 +140,12 @@ TEST(RoundOffResolution, FixedDividerAndFloatingMiddleOfMatchedReverseDiodes) {
   part.name = "P";
   part.model = m;
   pair.parts.push_back(part);
-  pair.nodes = {"gnd", "top", "mid"};
-  pair.elements.push_back(MakeElement(ElementKind::kVoltageSource, "V1", 1, 0, 20.0));
+  pair.AddNode("top");
+  pair.AddNode("mid");
+  pair.elements.push_back(MakeElement(&pair, ElementKind::kVoltageSource, "V1", 1, 0, 20.0));
   // Both cathodes face the source: D1 mid -> top, D2 gnd -> mid, each about 10 V reverse.
-  pair.elements.push_back(MakeElement(ElementKind::kDiode, "D1", 2, 1, 0.0, 0));
-  pair.elements.push_back(MakeElement(ElementKind::kDiode, "D2", 0, 2, 0.0, 0));
+  pair.elements.push_back(MakeElement(&pair, ElementKind::kDiode, "D1", 2, 1, 0.0, 0));
+  pair.elements.push_back(MakeElement(&pair, ElementKind::kDiode, "D2", 0, 2, 0.0, 0));
   Solution r;
   r.node_voltage = {0.0, 20.0, 10.0};
   r.element_current = {1e-14, -1e-14, -1e-14};

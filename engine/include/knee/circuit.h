@@ -2,7 +2,12 @@
 // and part referred to by index. The parser builds it; the engine solves it.
 #pragma once
 
+#include <fmt/core.h>
+
 #include <cstdint>
+#include <cstring>
+#include <iosfwd>
+#include <memory>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -13,6 +18,60 @@
 namespace knee {
 
 inline constexpr int kGroundNode = 0;  // Circuit::nodes[0] is always "gnd"
+
+// The name of a node or an element: 8 bytes that point at its text in a NameStore (a
+// length, then the characters and a NUL). A million-stage netlist names three million
+// nodes and elements; a std::string each would be 32 bytes before its text. A Name stays
+// valid while some circuit that holds its store lives (copies of a circuit share it).
+class Name {
+ public:
+  Name() = default;  // ""
+  // Over text laid out as a NameStore keeps it (Circuit's "gnd" is a static one).
+  explicit Name(const char* stored) : stored_(stored) {}
+
+  std::string_view view() const {
+    if (stored_ == nullptr) return {};
+    std::uint32_t size = 0;
+    std::memcpy(&size, stored_, sizeof size);
+    return {stored_ + sizeof size, size};
+  }
+  const char* c_str() const { return stored_ == nullptr ? "" : stored_ + sizeof(std::uint32_t); }
+  std::string str() const { return std::string(view()); }
+  std::size_t size() const { return view().size(); }
+  bool empty() const { return view().empty(); }
+  // Implicit, so that a name reads as the string it is.
+  operator std::string_view() const { return view(); }  // NOLINT
+  operator std::string() const { return str(); }        // NOLINT
+
+  friend bool operator==(const Name& a, const Name& b) { return a.view() == b.view(); }
+  friend bool operator==(const Name& a, std::string_view b) { return a.view() == b; }
+  friend bool operator==(const Name& a, const std::string& b) { return a.view() == b; }
+  friend bool operator==(const Name& a, const char* b) { return a.view() == b; }
+  friend std::string operator+(const Name& a, std::string_view b) { return a.str().append(b); }
+  friend std::string operator+(const Name& a, const char* b) { return a.str().append(b); }
+  friend std::string operator+(const Name& a, const std::string& b) { return a.str().append(b); }
+  friend std::string operator+(std::string a, const Name& b) { return a.append(b.view()); }
+  friend std::string operator+(const char* a, const Name& b) {
+    return std::string(a).append(b.view());
+  }
+
+ private:
+  const char* stored_ = nullptr;
+};
+
+std::ostream& operator<<(std::ostream& out, const Name& name);  // its text
+
+// Append-only storage of names in blocks that never move, one allocation per block (64 KiB)
+// rather than one per name: a Name into it stays valid while the store lives.
+class NameStore {
+ public:
+  Name Keep(std::string_view text);
+
+ private:
+  static constexpr std::size_t kBlockBytes = std::size_t{1} << 16;
+  std::vector<std::unique_ptr<char[]>> blocks_;
+  std::size_t used_ = kBlockBytes;  // bytes used in blocks_.back()
+};
 
 // Parameters of a diode part (docs/netlist-format.md, "Part keys"; the source of each
 // default is in docs/model.md, "Defaults and their sources"). SI units; temperatures in
@@ -46,11 +105,11 @@ struct Part {
 
 enum class ElementKind : std::uint8_t { kResistor, kVoltageSource, kCurrentSource, kDiode };
 
-// The members are ordered by size so that no padding sits between them (104 bytes, was
-// 136): a circuit of a million stages holds two million elements, twice (the caller's
-// copy and the solver's).
+// The members are ordered by size so that no padding sits between them (80 bytes; 136
+// with a std::string name and unordered members): a circuit of a million stages holds two
+// million elements.
 struct Element {
-  std::string name;
+  Name name;                   // in its circuit's names (Circuit::Keep)
   double value = 0.0;          // Ohm, V or A; unused for diodes
   double area = 1.0;           // diodes: > 0
   std::optional<double> temp;  // diodes: own temperature in degC, overrides Circuit::temp
@@ -83,15 +142,21 @@ struct SinkMount {
 
 struct Circuit {
   std::string title;
-  double temp = 25.0;              // degC
-  std::vector<std::string> nodes;  // nodes[0] == "gnd"
+  double temp = 25.0;       // degC
+  std::vector<Name> nodes;  // nodes[0] == "gnd"; in names()
   std::vector<Part> parts;
   std::vector<Element> elements;
   std::vector<ResistorRating> resistor_ratings;  // in file order; not used by the solver
   std::vector<Heatsink> heatsinks;               // in file order
   std::vector<SinkMount> sink_mounts;            // in file order of the diodes
 
-  Circuit() : nodes{"gnd"} {}
+  Circuit();
+
+  // The text of `name` kept in this circuit's names, for an Element::name or a node (a
+  // copy of a circuit shares its names with the original, so the copy may add its own).
+  Name Keep(std::string_view name) { return names_->Keep(name); }
+  // Appends a node named `name` (not checked against the others) and returns its index.
+  int AddNode(std::string_view name);
 
   // Index of the named node/element/part, or -1. "0" and "gnd" both find node 0.
   int FindNode(std::string_view name) const;
@@ -105,6 +170,11 @@ struct Circuit {
   // Whether a diode's junction temperature is solved with the circuit (docs/thermal.md): a
   // diode without temp= whose part has thermal_res or that is mounted on a heatsink.
   bool SelfHeated(int element) const;
+  // Every node name, nodes[0] ("gnd") first, as strings (for name suggestions).
+  std::vector<std::string> NodeNames() const;
+
+ private:
+  std::shared_ptr<NameStore> names_;
 };
 
 const char* ElementKindName(ElementKind kind);  // "resistor", "vsource", ...
@@ -112,3 +182,12 @@ const char* ElementKindName(ElementKind kind);  // "resistor", "vsource", ...
 const char* ElementValueUnit(ElementKind kind);
 
 }  // namespace knee
+
+// Names format as their text.
+template <>
+struct fmt::formatter<knee::Name> : fmt::formatter<std::string_view> {
+  template <typename FormatContext>
+  auto format(const knee::Name& name, FormatContext& ctx) const {
+    return fmt::formatter<std::string_view>::format(name.view(), ctx);
+  }
+};

@@ -1,10 +1,12 @@
 // Rendering of diagnostics for people, and near-name suggestions.
 #pragma once
 
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
 
+#include "knee/circuit.h"
 #include "knee/result.h"
 
 namespace knee {
@@ -30,5 +32,7 @@ std::string FormatDiagnostics(const std::vector<Diagnostic>& diagnostics,
 // The candidate closest to `wrong` by edit distance (case-insensitive ties broken by
 // case-sensitive distance), if it is close enough to be a plausible typo; else "".
 std::string SuggestName(std::string_view wrong, const std::vector<std::string>& candidates);
+// The same over the names of a circuit's nodes (Circuit::nodes).
+std::string SuggestNodeName(std::string_view wrong, std::span<const Name> nodes);
 
 }  // namespace knee
