@@ -6,7 +6,9 @@
 #include <array>
 #include <charconv>
 #include <cmath>
+#include <cstdint>
 #include <cstdlib>
+#include <cstring>
 
 namespace knee::cli {
 namespace {
@@ -120,6 +122,77 @@ std::string FormatRoundTrip(double value) {
 // the routine behind its "{}"), which is several times cheaper here than std::to_chars
 // of libstdc++ 12 plus the reading back of its exponent; the layout is written here.
 // tests/cli/eng_format_test.cc holds every layout against fmt::format("{}").
+namespace {
+
+// "00" "01" ... "99": two decimal digits per lookup.
+constexpr std::array<char, 200> kDigitPairs = [] {
+  std::array<char, 200> pairs{};
+  for (int i = 0; i < 100; ++i) {
+    pairs[static_cast<size_t>(2 * i)] = static_cast<char>('0' + i / 10);
+    pairs[static_cast<size_t>(2 * i + 1)] = static_cast<char>('0' + i % 10);
+  }
+  return pairs;
+}();
+
+// The count of decimal digits of v > 0: floor(log10(2) * bits) is the count or one less
+// (1233/4096 = 0.30103 < log10 2; common practice, no source).
+int DecimalLength(std::uint64_t v) {
+  static constexpr std::uint64_t kPowers[] = {1ULL,
+                                              10ULL,
+                                              100ULL,
+                                              1000ULL,
+                                              10000ULL,
+                                              100000ULL,
+                                              1000000ULL,
+                                              10000000ULL,
+                                              100000000ULL,
+                                              1000000000ULL,
+                                              10000000000ULL,
+                                              100000000000ULL,
+                                              1000000000000ULL,
+                                              10000000000000ULL,
+                                              100000000000000ULL,
+                                              1000000000000000ULL,
+                                              10000000000000000ULL,
+                                              100000000000000000ULL,
+                                              1000000000000000000ULL,
+                                              10000000000000000000ULL};
+  const int bits = 64 - __builtin_clzll(v | 1);
+  const int n = (bits * 1233) >> 12;
+  return n + (v >= kPowers[n] ? 1 : 0);
+}
+
+// The `length` decimal digits of v, most significant first, at out: two per division by
+// 100, the divisions of the low eight digits in 32 bits. v < 10^17 (a double's shortest
+// significand), so the digits above those eight fit 32 bits too.
+void WriteDigits(std::uint64_t v, int length, char* out) {
+  char* at = out + length;
+  const auto pair = [&at](std::uint32_t two) {
+    at -= 2;
+    std::memcpy(at, kDigitPairs.data() + 2 * two, 2);
+  };
+  if (length > 8) {
+    auto low = static_cast<std::uint32_t>(v % 100000000);
+    v /= 100000000;
+    for (int k = 0; k < 4; ++k) {
+      pair(low % 100);
+      low /= 100;
+    }
+  }
+  auto high = static_cast<std::uint32_t>(v);
+  while (high >= 100) {
+    pair(high % 100);
+    high /= 100;
+  }
+  if (high >= 10) {
+    pair(high);
+  } else {
+    *--at = static_cast<char>('0' + high);
+  }
+}
+
+}  // namespace
+
 char* WriteRoundTrip(double value, char* out) {
   if (std::isnan(value)) return std::copy_n("nan", 3, out);
   if (std::signbit(value)) {
@@ -133,8 +206,9 @@ char* WriteRoundTrip(double value, char* out) {
   }
   const auto decimal = fmt::detail::dragonbox::to_decimal(value);
   char digits[24];
-  const auto n = static_cast<size_t>(
-      std::to_chars(digits, digits + sizeof digits, decimal.significand).ptr - digits);
+  const int length = DecimalLength(decimal.significand);
+  WriteDigits(decimal.significand, length, digits);
+  const auto n = static_cast<size_t>(length);
   // Decimal exponent of the first digit: value = d.ddd * 10^exponent.
   const int exponent = decimal.exponent + static_cast<int>(n) - 1;
   if (exponent < -4 || exponent >= 16) {
