@@ -64,6 +64,9 @@ struct BiasSolver::Impl {
   // Resistance-free junctions on loops of sources and such junctions (their solved
   // currents are checked in Conclude).
   std::vector<internal::LoopJunction> loop_junctions;
+  // The SourceGraphKey that `forced` and `loop_junctions` were found for (Classify).
+  std::vector<int> source_graph_key, graph_key_scratch;
+  bool source_graph_read = false;
   std::vector<double> loop_current;
   std::vector<double> x;          // working unknowns
   std::vector<double> saved;      // x before a rung, restored when the rung fails

@@ -186,6 +186,16 @@ void CloseBlock(const Circuit& c, int last, std::vector<int>& edge_stack,
 
 }  // namespace
 
+void SourceGraphKey(const Circuit& c, std::vector<int>* key) {
+  key->clear();
+  key->push_back(static_cast<int>(c.nodes.size()));
+  for (int k = 0; k < static_cast<int>(c.elements.size()); ++k) {
+    const Element& e = c.elements[static_cast<size_t>(k)];
+    if (!ResistanceFree(c, e)) continue;
+    key->insert(key->end(), {k, static_cast<int>(e.kind), e.node_a, e.node_b});
+  }
+}
+
 std::vector<LoopJunction> LoopJunctions(const Circuit& c) {
   const size_t nodes = c.nodes.size();
   std::vector<std::vector<std::pair<int, int>>> edges(nodes);  // (element, other node)

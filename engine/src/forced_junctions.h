@@ -63,6 +63,11 @@ struct LoopJunction {
 // structural property: a sweep of a supply finds them once.
 std::vector<LoopJunction> LoopJunctions(const Circuit& circuit);
 
+// All that FindForcedJunctions and LoopJunctions read of a circuit: its node count and
+// each resistance-free element (a voltage source, a diode without series resistance) with
+// its index, kind and nodes. Equal keys give equal answers, whatever the values.
+void SourceGraphKey(const Circuit& circuit, std::vector<int>* key);
+
 // The first of `loops` whose solved current (current_of[element]) exceeds
 // kMaxForcedCurrent, said with its block's other elements:
 // "D1 is in a loop with V1 and D2 and no resistance: its current is 1.8e28 A; ...".

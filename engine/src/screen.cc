@@ -23,8 +23,15 @@ void BiasSolver::Impl::Classify() {
   ReadElements();
   unbounded.reset();
   if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
-  forced = internal::FindForcedJunctions(*circuit);
-  loop_junctions = internal::LoopJunctions(*circuit);
+  // A change of numbers alone (a spread sample's draws) leaves the graph of sources and
+  // resistance-free junctions, and so both of its readings, as they were.
+  internal::SourceGraphKey(*circuit, &graph_key_scratch);
+  if (!source_graph_read || graph_key_scratch != source_graph_key) {
+    forced = internal::FindForcedJunctions(*circuit);
+    loop_junctions = internal::LoopJunctions(*circuit);
+    source_graph_key.swap(graph_key_scratch);
+    source_graph_read = true;
+  }
 }
 
 // The three readings of each element's own numbers (internal::NonMonotoneReason,

@@ -209,5 +209,36 @@ TEST(LoopJunction, SeriesJunctionsAcrossASourceBothWays) {
   ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
 }
 
+// One solver across changes of numbers: no loop while series resistance is in it (also
+// when only the source and the saturation current change), the loop found at once when
+// the resistance is removed (the graph the loop test reads changed), and gone again when
+// it comes back.
+TEST(LoopJunction, FollowsTheSeriesResistanceAcrossUpdates) {
+  CircuitBuilder b;
+  const int part = b.Part("P", 1e-14, 1.0);
+  b.V("V1", "a", "gnd", 5.0);
+  b.D("D1", "a", "m", part);
+  b.D("D2", "m", "gnd", part);
+  b.R("Rm", "m", "gnd", 1e3);
+  Circuit c = b.circuit();
+  c.parts[0].model.series_res = 10.0;
+  auto solver = BiasSolver::Create(c, {});
+  ASSERT_TRUE(solver.ok());
+  Solution s;
+  EXPECT_EQ((*solver)->Solve(&s).status, SolveStatus::kConverged);
+  c.parts[0].model.sat_current = 2e-14;
+  c.elements[0].value = 5.5;
+  (*solver)->UpdateValues(c);
+  EXPECT_EQ((*solver)->Solve(&s).status, SolveStatus::kConverged);
+  c.parts[0].model.series_res = 0.0;
+  (*solver)->UpdateValues(c);
+  const SolveSummary loop = (*solver)->Solve(&s);
+  EXPECT_EQ(loop.status, SolveStatus::kOutOfRange) << loop.detail;
+  EXPECT_NE(loop.detail.find("is in a loop with V1"), std::string::npos) << loop.detail;
+  c.parts[0].model.series_res = 10.0;
+  (*solver)->UpdateValues(c);
+  EXPECT_EQ((*solver)->Solve(&s).status, SolveStatus::kConverged);
+}
+
 }  // namespace
 }  // namespace knee
