@@ -15,6 +15,8 @@ struct KluSolver::Handles {
   klu_common common{};
   klu_symbolic* symbolic = nullptr;
   klu_numeric* numeric = nullptr;
+  // klu_rcond of `numeric`, or -1 while it has not been computed for these factors.
+  double rcond = -1.0;
 
   Handles() { klu_defaults(&common); }
   ~Handles() {
@@ -23,6 +25,7 @@ struct KluSolver::Handles {
   }
   void FreeNumeric() {
     if (numeric != nullptr) klu_free_numeric(&numeric, &common);
+    rcond = -1.0;
   }
 };
 
@@ -91,6 +94,7 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   Handles& h = *handles_;
   if (h.numeric == nullptr) return Factor(values);
   KNEE_CHECK(values.size() == row_index_.size());
+  h.rcond = -1.0;
   const int ok = klu_refactor(col_ptr_.data(), row_index_.data(),
                               const_cast<double*>(values.data()), h.symbolic, h.numeric, &h.common);
   if (ok == 0 || h.common.status != KLU_OK) return Factor(values);
@@ -103,13 +107,19 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
       !(h.common.rgrowth >= kRefactorGrowthFloor)) {
     return Factor(values);
   }
+  h.rcond = h.common.rcond;
   return LinearStatus::kOk;
 }
 
+// Computed once per set of factors: the Newton step asks for it after every refactor,
+// which has just computed it for its own check.
 double KluSolver::rcond() {
   Handles& h = *handles_;
-  if (h.numeric == nullptr || klu_rcond(h.symbolic, h.numeric, &h.common) == 0) return 0.0;
-  return h.common.rcond;
+  if (h.numeric == nullptr) return 0.0;
+  if (h.rcond >= 0.0) return h.rcond;
+  if (klu_rcond(h.symbolic, h.numeric, &h.common) == 0) return 0.0;
+  h.rcond = h.common.rcond;
+  return h.rcond;
 }
 
 LinearStatus KluSolver::Solve(std::span<double> rhs) {
