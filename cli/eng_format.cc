@@ -205,17 +205,22 @@ char* WriteRoundTrip(double value, char* out) {
     return out;
   }
   const auto decimal = fmt::detail::dragonbox::to_decimal(value);
-  char digits[24];
+  // Runs of digits are moved kDigitRun bytes at a time (a fixed-size copy, no call), the
+  // bytes past a run's end overwritten by what follows or left beyond the returned end:
+  // `digits` and the caller's kRoundTripChars of room allow for that.
+  char digits[2 * kDigitRun] = {};
   const int length = DecimalLength(decimal.significand);
   WriteDigits(decimal.significand, length, digits);
   const auto n = static_cast<size_t>(length);
+  const auto run = [](char* to, const char* from) { std::memcpy(to, from, kDigitRun); };
   // Decimal exponent of the first digit: value = d.ddd * 10^exponent.
   const int exponent = decimal.exponent + static_cast<int>(n) - 1;
   if (exponent < -4 || exponent >= 16) {
     *out++ = digits[0];
     if (n > 1) {
       *out++ = '.';
-      out = std::copy(digits + 1, digits + n, out);
+      run(out, digits + 1);
+      out += n - 1;
     }
     *out++ = 'e';
     *out++ = exponent < 0 ? '-' : '+';
@@ -224,18 +229,23 @@ char* WriteRoundTrip(double value, char* out) {
     return std::to_chars(out, out + 3, magnitude).ptr;
   }
   if (exponent < 0) {
-    out = std::copy_n("0.", 2, out);
-    out = std::fill_n(out, -exponent - 1, '0');
-    return std::copy_n(digits, n, out);
+    std::memcpy(out, "0.0000", 6);  // "0." and up to four zeros, as many as kept below
+    out += 2 + (-exponent - 1);
+    run(out, digits);
+    return out + n;
   }
   const auto whole = static_cast<size_t>(exponent) + 1;  // digits before the point
   if (n <= whole) {
-    out = std::copy_n(digits, n, out);
-    return std::fill_n(out, whole - n, '0');
+    run(out, digits);
+    out += n;
+    std::memset(out, '0', kDigitRun);
+    return out + (whole - n);
   }
-  out = std::copy_n(digits, whole, out);
+  run(out, digits);
+  out += whole;
   *out++ = '.';
-  return std::copy(digits + whole, digits + n, out);
+  run(out, digits + whole);
+  return out + (n - whole);
 }
 
 }  // namespace knee::cli

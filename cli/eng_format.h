@@ -21,9 +21,11 @@ std::string FormatEng(double value, std::string_view unit, int significant = 4);
 // "1.5e-05" / "2e+16" (the layout of {fmt}'s "{}", which scripts have read since v1).
 std::string FormatRoundTrip(double value);
 
-// Room WriteRoundTrip needs: "-" + 17 digits + "." + "e-308", or "0." + 3 zeros + 17
-// digits, with margin.
-inline constexpr size_t kRoundTripChars = 32;
+// Room WriteRoundTrip needs: its text is at most "-" + 17 digits + "." + "e-308", or
+// "-0." + 3 zeros + 17 digits, but it writes runs of digits kDigitRun bytes at a time
+// (the sign, 16 digits, the point and a run: 42 bytes at most).
+inline constexpr size_t kDigitRun = 24;
+inline constexpr size_t kRoundTripChars = 48;
 // Writes FormatRoundTrip(value)'s text at `out` (kRoundTripChars of room) and returns the
 // end: no string per number, for the CSV rows of a sweep.
 char* WriteRoundTrip(double value, char* out);
