@@ -6,12 +6,14 @@
 #include <gtest/gtest.h>
 
 #include <atomic>
+#include <cmath>
 #include <cstdlib>
 #include <new>
 #include <vector>
 
 #include "circuit_builder.h"
 #include "klu_solver.h"
+#include "knee/solver.h"
 #include "mna.h"
 
 namespace {
@@ -80,6 +82,53 @@ TEST(HotPath, AssembleRefactorSolveAllocateNothing) {
   EXPECT_EQ(klu.full_factorizations(), 1);
   // And the iteration went somewhere sensible: the load current is positive.
   EXPECT_GT(x[static_cast<size_t>(b.Node("p") - 1)], x[static_cast<size_t>(b.Node("n") - 1)]);
+}
+
+// A spread sample in the steady state: new part models for each diode and a new load on
+// the same circuit, classified, solved from the nominal solution, verified and filled
+// with no allocation once the first samples have sized every buffer.
+TEST(HotPath, SpreadSamplesAllocateNothingInTheSteadyState) {
+  testing::CircuitBuilder b;
+  DiodeModel m;
+  m.sat_current = 1e-8;
+  m.ideality = 1.75;
+  m.series_res = 0.05;
+  m.breakdown_v = 400.0;
+  m.breakdown_i = 5e-6;
+  std::vector<int> parts;
+  for (const char* name : {"P1", "P2", "P3", "P4"}) parts.push_back(b.Part(name, m));
+  b.V("Vin", "ac_a", "ac_b", 12.0);
+  b.R("Rref", "ac_b", "gnd", 1e6);
+  b.D("D1", "ac_a", "out", parts[0]);
+  b.D("D2", "ac_b", "out", parts[1]);
+  b.D("D3", "ret", "ac_a", parts[2]);
+  b.D("D4", "ret", "ac_b", parts[3]);
+  b.R("Rload", "out", "ret", 47.0);
+  b.R("Rgnd", "ret", "gnd", 1e6);
+  Circuit c = b.circuit();
+  auto created = BiasSolver::Create(c, {});
+  ASSERT_TRUE(created.ok());
+  BiasSolver& solver = **created;
+  solver.set_describe_converged(false);
+  Solution s;
+  ASSERT_EQ(solver.Solve(&s).status, SolveStatus::kConverged);
+  const std::vector<double> nominal(solver.unknowns().begin(), solver.unknowns().end());
+  const size_t load = static_cast<size_t>(c.FindElement("Rload"));
+  const auto sample = [&](int k) {
+    for (size_t p = 0; p < parts.size(); ++p) {
+      const double t = std::sin(1.3 * k + static_cast<double>(p));  // in [-1, 1]
+      c.parts[static_cast<size_t>(parts[p])].model.sat_current = m.sat_current * std::exp2(t);
+      c.parts[static_cast<size_t>(parts[p])].model.ideality = m.ideality * (1 + 0.03 * t);
+    }
+    c.elements[load].value = 47.0 * (1 + 0.05 * std::cos(0.7 * k));
+    solver.UpdateValues(c);
+    return solver.Solve(&s, nominal, /*allow_aids=*/false).status;
+  };
+  for (int k = 0; k < 5; ++k) ASSERT_EQ(sample(k), SolveStatus::kConverged) << k;
+  const long before = g_allocations.load();
+  for (int k = 5; k < 105; ++k) ASSERT_EQ(sample(k), SolveStatus::kConverged) << k;
+  EXPECT_EQ(g_allocations.load() - before, 0);
+  EXPECT_GT(s.element_current[load], 0.1);  // the samples solved a conducting bridge
 }
 
 }  // namespace
