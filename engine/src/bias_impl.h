@@ -3,6 +3,7 @@
 // and the post-solve stages that check and settle it (post_solve.cc, loose_nodes.cc).
 #pragma once
 
+#include <cmath>
 #include <memory>
 #include <optional>
 #include <span>
@@ -11,6 +12,7 @@
 #include <vector>
 
 #include "adjoint.h"
+#include "disjoint_set.h"
 #include "forced_junctions.h"
 #include "klu_solver.h"
 #include "knee/solver.h"
@@ -55,6 +57,12 @@ struct BiasSolver::Impl {
   // Per circuit values (set at Create and UpdateValues): why the network is not
   // monotone, and why a monotone one has no solution, when so.
   std::optional<std::string> non_monotone;
+  // A bound on the undetermined-node test's row sums per ampere of tolerance (undetermined.h,
+  // kUndeterminedScreenShare): the sum of all resistances times the count of node unknowns,
+  // when resistors and voltage sources alone tie every node to gnd (TieResistively); +inf
+  // otherwise or for a network that is not monotone.
+  double tied_resistance = HUGE_VAL;
+  internal::DisjointSet tie_sets{0};
   std::optional<std::string> unbounded;
   // Junctions that voltage sources alone hold (their current is checked at every Solve,
   // against the sources' values then).
@@ -137,6 +145,7 @@ struct BiasSolver::Impl {
   // --- set-up (screen.cc) ---
   void Classify();
   void ReadElements();
+  void TieResistively();
   void SetVoltageBound();
   void Resize() {
     const auto n = static_cast<size_t>(mna.size());
@@ -207,6 +216,12 @@ struct BiasSolver::Impl {
   // Jacobian that Verify assembled at x.
   void NameUndetermined(SolveSummary* s) {
     if (s->status != SolveStatus::kConverged) return;
+    // The test's row sums cannot exceed t * tied_resistance: far below the threshold they
+    // clear every node, and the test (a solve per point) would name none.
+    if (options.abs_current_tol * tied_resistance <=
+        internal::kUndeterminedScreenShare * kUndeterminedVolts) {
+      return;
+    }
     for (int u : undetermined.Run(*circuit, mna, x, options, klu, factors_exact, probe)) {
       s->undetermined_nodes.push_back(mna.UnknownName(u));
     }

@@ -13,6 +13,12 @@ namespace knee::internal {
 class DisjointSet {
  public:
   explicit DisjointSet(size_t n) : parent_(n) { std::iota(parent_.begin(), parent_.end(), 0); }
+  // Every element in a set of its own again, n elements (no allocation when n is the size
+  // it had).
+  void Reset(size_t n) {
+    parent_.resize(n);
+    std::iota(parent_.begin(), parent_.end(), 0);
+  }
   int Find(int i) {
     while (parent_[static_cast<size_t>(i)] != i) {
       int& p = parent_[static_cast<size_t>(i)];

@@ -56,6 +56,32 @@ void BiasSolver::Impl::ReadElements() {
     }
   }
   junction_span = std::isfinite(span) ? span : 0.0;
+  TieResistively();
+}
+
+// tied_resistance (bias_impl.h): the sum of every resistance times the count of node
+// unknowns, when resistors and voltage sources join every node to gnd in a monotone
+// network. The joining is only looked at when that product could clear the test.
+void BiasSolver::Impl::TieResistively() {
+  tied_resistance = HUGE_VAL;
+  if (non_monotone) return;
+  double sum = 0.0;
+  for (const Element& e : circuit->elements) {
+    if (e.kind == ElementKind::kResistor) sum += e.value;
+  }
+  const double bound = sum * static_cast<double>(circuit->nodes.size() - 1);
+  if (!(options.abs_current_tol * bound <=
+        internal::kUndeterminedScreenShare * kUndeterminedVolts)) {
+    return;
+  }
+  tie_sets.Reset(circuit->nodes.size());
+  size_t joined = 0;
+  for (const Element& e : circuit->elements) {
+    if (e.kind != ElementKind::kResistor && e.kind != ElementKind::kVoltageSource) continue;
+    if (tie_sets.Join(e.node_a, e.node_b)) ++joined;
+  }
+  // n nodes form one set after n - 1 successful joins.
+  if (joined + 1 == circuit->nodes.size()) tied_resistance = bound;
 }
 
 // A bound on |node voltage| for the classic loop's clamp (newton.h): the sources'

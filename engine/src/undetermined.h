@@ -22,6 +22,14 @@ namespace knee::internal {
 // toward naming a node).
 inline constexpr int kMaxDrivingPointSolves = 64;
 
+// The structural screen before the test (BiasSolver's NameUndetermined): where resistors
+// and voltage sources alone tie every node to gnd, Z_kk is at most the sum of all
+// resistances R (Rayleigh's monotonicity law, as in docs/solver.md) and Z_kj <= Z_kk, so
+// the row-sum screen's bound t * (Z 1)_k is at most t * n * R for n node unknowns. At
+// most this share of kUndeterminedVolts, the row sums clear every node, the test would
+// name none, and it is not run; the tenth leaves its rounding a factor of ten.
+inline constexpr double kUndeterminedScreenShare = 0.1;
+
 // The test's buffers, kept across solves so that a sweep point allocates nothing once the
 // first point has sized them.
 class UndeterminedTest {

@@ -5,6 +5,9 @@
 
 #include <gtest/gtest.h>
 
+#include <cstdint>
+#include <optional>
+#include <random>
 #include <string>
 #include <vector>
 
@@ -170,6 +173,64 @@ TEST(UndeterminedLatitude, ChainMatchesSeriesResistance) {
     // that many ulps; consecutive nodes still differ by 1e-6 of their value.
     EXPECT_CLOSE(test.latitude()[static_cast<size_t>(j)], 1e-12 * z, 1e-7, 0.0) << j;
   }
+}
+
+// The bound the solver's screen rests on: with resistors tying every node to gnd, Z_kk is
+// at most the sum R of all resistances (Rayleigh's monotonicity law, docs/solver.md)
+// whatever the junctions add, and Z_kj <= Z_kk (the maximum principle), so every latitude
+// the test computes (a row sum t * (Z 1)_k, or a driving point t * Z_kk) is at most
+// t * n * R for n nodes. Random resistor trees with diodes across random node pairs, their
+// t * n * R placed just below the screen's threshold and far above it: the test's
+// latitudes stay within the bound, and below the threshold it names no node.
+TEST(UndeterminedLatitude, StaysWithinTheScreensBound) {
+  std::mt19937_64 bits(31);
+  std::uniform_real_distribution<double> share(0.05, 1.0);
+  const SolverOptions options;
+  const double threshold =
+      internal::kUndeterminedScreenShare * kUndeterminedVolts / options.abs_current_tol;
+  int below = 0;
+  for (int trial = 0; trial < 40; ++trial) {
+    CircuitBuilder b;
+    const int part = b.Part("P", 1e-12, 1.0);
+    const int nodes = 3 + trial % 9;
+    // n * (sum of resistances) = threshold * 0.9, or 3000 times the threshold.
+    const double total = threshold * (trial % 2 == 0 ? 0.9 : 3000.0) / nodes;
+    std::vector<double> r(static_cast<size_t>(nodes));
+    double sum = 0;
+    for (double& v : r) sum += v = share(bits);
+    for (int k = 0; k < nodes; ++k) {
+      const int parent = k == 0 ? -1 : static_cast<int>(bits() % static_cast<std::uint64_t>(k));
+      b.R("R" + std::to_string(k), "n" + std::to_string(k),
+          parent < 0 ? "gnd" : "n" + std::to_string(parent),
+          r[static_cast<size_t>(k)] / sum * total);
+      const int other = static_cast<int>(bits() % static_cast<std::uint64_t>(nodes + 1)) - 1;
+      b.D("D" + std::to_string(k), "n" + std::to_string(k),
+          other < 0 ? "gnd" : "n" + std::to_string(other), part);
+    }
+    b.I("I1", "gnd", "n0", 1e-9);
+    const Circuit& c = b.circuit();
+    Solution s;
+    const SolveSummary summary = SolveWith(c, SolverMethod::kClassic, &s);
+    ASSERT_EQ(summary.status, SolveStatus::kConverged) << summary.detail;
+    internal::MnaSystem mna(c);
+    std::vector<double> x(s.node_voltage.begin() + 1, s.node_voltage.end());
+    x.resize(static_cast<size_t>(mna.size()), 0.0);
+    mna.AssembleExact(x);
+    internal::KluSolver unused;
+    std::optional<internal::KluSolver> probe;
+    internal::UndeterminedTest test;
+    const std::vector<int> named = test.Run(c, mna, x, options, unused, false, probe);
+    ASSERT_EQ(test.latitude().size(), static_cast<size_t>(nodes));
+    for (double latitude : test.latitude()) {
+      EXPECT_LE(latitude, options.abs_current_tol * total * nodes * (1 + 1e-9)) << trial;
+    }
+    if (total * nodes < threshold) {
+      ++below;
+      EXPECT_TRUE(named.empty()) << trial;
+      EXPECT_TRUE(summary.undetermined_nodes.empty()) << trial;
+    }
+  }
+  EXPECT_EQ(below, 20);
 }
 
 INSTANTIATE_TEST_SUITE_P(Solvers, Undetermined,
