@@ -6,6 +6,7 @@
 #include <cctype>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
 #include <deque>
 #include <functional>
 #include <map>
@@ -36,7 +37,7 @@ bool IsReserved(std::string_view name) {
   return false;
 }
 
-enum class DefKind { kParam, kPart, kElement, kNode, kHeatsink };
+enum class DefKind : std::uint8_t { kParam, kPart, kElement, kNode, kHeatsink };
 
 // 12 bytes: a million-stage netlist defines three million names. Where a name appears
 // first is not stored: it is the name's place in its statement (SpanOf), for a node the
@@ -73,15 +74,25 @@ Span SpanOf(const NetlistData& d, const Definition& def) {
 // entry and one slot per name, not a heap node and a string copy per name.
 class NameTable {
  public:
-  // The name's text as a pointer and a 32-bit size (12 bytes; a std::string_view is 16).
+  // The name's text as a pointer and a 32-bit size in 12 bytes aligned to 4, so that an
+  // entry is 24 bytes (a pointer member would pad the key to 16 and the entry to 32; a
+  // std::string_view is 16 on its own).
   struct Key {
-    const char* data = nullptr;
+    unsigned char data[sizeof(const char*)] = {};  // the pointer's bytes
     std::uint32_t size = 0;
     Key() = default;
     Key(std::string_view name)  // NOLINT: a key is written as its name
-        : data(name.data()), size(static_cast<std::uint32_t>(name.size())) {}
-    operator std::string_view() const { return {data, size}; }  // NOLINT
+        : size(static_cast<std::uint32_t>(name.size())) {
+      const char* at = name.data();
+      std::memcpy(data, &at, sizeof at);
+    }
+    operator std::string_view() const {  // NOLINT
+      const char* at = nullptr;
+      std::memcpy(&at, data, sizeof at);
+      return {at, size};
+    }
   };
+  static_assert(sizeof(std::pair<Key, Definition>) == 24, "a name table entry is 24 bytes");
   using Entry = std::pair<Key, Definition>;
   using iterator = std::vector<Entry>::iterator;
 
