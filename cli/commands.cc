@@ -189,10 +189,11 @@ int RunStreamed(const Start& start, bool bias, std::span<const std::vector<Sweep
 
 // Returns the exit status when something is wrong (after saying what), else fills *start.
 std::optional<int> StartAnalysis(const std::string& file, AnalysisOptions* options,
-                                 std::optional<Start>* start) {
+                                 std::optional<Start>* start,
+                                 SourceKept kept = SourceKept::kWhole) {
   std::string problem = PrepareOptions(options);
   if (!problem.empty()) return FailWith(problem);
-  std::optional<LoadedDesign> loaded = LoadDesign(file, *options);
+  std::optional<LoadedDesign> loaded = LoadDesign(file, *options, kept);
   if (!loaded) return static_cast<int>(ExitStatus::kBadInput);
   std::optional<std::vector<QuantityExpr>> show = ResolveShow(*loaded, *options);
   if (!show) return static_cast<int>(ExitStatus::kBadInput);
@@ -274,11 +275,15 @@ int RunCheck(const std::string& file, AnalysisOptions options) {
 
 int RunBias(const std::string& file, AnalysisOptions options) {
   std::optional<Start> start;
-  if (std::optional<int> status = StartAnalysis(file, &options, &start)) return *status;
-  // A bias point needs the circuit, not the parsed statements nor the text: freeing them
-  // first lowers the peak memory of a large netlist (the solve is its peak) by their size.
-  // What is printed after this point quotes no line of the text: the solver's diagnostics
-  // carry no source location (they name elements and nodes).
+  // A bias point needs the circuit, not the parsed statements nor the text: the text is
+  // dropped once parsed (the elaboration's diagnostics read the file again), the
+  // statements before the solve, which lowers the peak memory of a large netlist by their
+  // size. What is printed after loading quotes no line of the text: the solver's
+  // diagnostics carry no source location (they name elements and nodes).
+  if (std::optional<int> status =
+          StartAnalysis(file, &options, &start, SourceKept::kForDiagnostics)) {
+    return *status;
+  }
   start->loaded.netlist.reset();
   std::string().swap(start->loaded.source);
   std::vector<AnalysisResult> results;

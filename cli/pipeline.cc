@@ -28,7 +28,7 @@ SourceLocation OptionLocation(const std::string& option) {
   return where;
 }
 
-void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, const std::string& source) {
+void PrintDiagnostics(const std::vector<Diagnostic>& diagnostics, std::string_view source) {
   std::fputs(FormatDiagnostics(diagnostics, source).c_str(), stderr);
 }
 
@@ -41,7 +41,31 @@ void PrintOptionDiagnostics(std::vector<Diagnostic> diagnostics) {
   PrintDiagnostics(diagnostics, "");
 }
 
-std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOptions& options) {
+namespace {
+
+std::size_t TextHash(std::string_view text) { return std::hash<std::string_view>{}(text); }
+
+void DropSource(LoadedDesign* loaded) {
+  loaded->source_dropped = true;
+  loaded->source_size = loaded->source.size();
+  loaded->source_hash = TextHash(loaded->source);
+  std::string().swap(loaded->source);
+}
+
+}  // namespace
+
+std::string_view QuotedSource(const LoadedDesign& loaded, std::string* holder) {
+  if (!loaded.source_dropped) return loaded.source;
+  Result<std::string> text = ReadNetlistFile(loaded.file);
+  if (!text || text->size() != loaded.source_size || TextHash(*text) != loaded.source_hash) {
+    return {};
+  }
+  *holder = std::move(text).value();
+  return *holder;
+}
+
+std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOptions& options,
+                                       SourceKept kept) {
   LoadedDesign loaded;
   loaded.file = file;
   Result<std::string> source = ReadNetlistFile(file);
@@ -58,6 +82,7 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
     return std::nullopt;
   }
   loaded.netlist.emplace(std::move(netlist).value());
+  if (kept == SourceKept::kForDiagnostics && file != "-") DropSource(&loaded);
 
   for (const std::string& set : options.sets) {
     const size_t eq = set.find('=');
@@ -74,14 +99,17 @@ std::optional<LoadedDesign> LoadDesign(const std::string& file, const AnalysisOp
 
   Result<Design> design = ElaborateChecked(*loaded.netlist, loaded.overrides);
   if (!design) {
-    PrintDiagnostics(design.errors(), loaded.source);
+    std::string holder;
+    PrintDiagnostics(design.errors(), QuotedSource(loaded, &holder));
     return std::nullopt;
   }
   // Warnings go to standard error even with --quiet (cli.md, "Warnings"); --no-warn
   // silences them. They never change the exit status.
-  if (!options.no_warn) {
+  if (!options.no_warn && !design->warnings.empty()) {
+    std::string holder;
+    const std::string_view text = QuotedSource(loaded, &holder);
     for (const Diagnostic& w : design->warnings) {
-      fmt::print(stderr, "{}\n", FormatWarning(w, loaded.source));
+      fmt::print(stderr, "{}\n", FormatWarning(w, text));
     }
   }
   // --expect QUANTITY=VALUE[~TOL] joins the file's expect statements.

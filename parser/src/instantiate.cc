@@ -6,6 +6,7 @@
 #include <cctype>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
 #include <deque>
 #include <functional>
 #include <map>
@@ -36,7 +37,7 @@ bool IsReserved(std::string_view name) {
   return false;
 }
 
-enum class DefKind { kParam, kPart, kElement, kNode, kHeatsink };
+enum class DefKind : std::uint8_t { kParam, kPart, kElement, kNode, kHeatsink };
 
 // 12 bytes: a million-stage netlist defines three million names. Where a name appears
 // first is not stored: it is the name's place in its statement (SpanOf), for a node the
@@ -56,12 +57,12 @@ Span SpanOf(const NetlistData& d, const Definition& def) {
     case DefKind::kPart:
       return d.parts[i].name_span;
     case DefKind::kElement:
-      return d.elements[i].name_span;
+      return d.elements[i].name_span();
     case DefKind::kHeatsink:
       return d.heatsinks[i].name_span;
     case DefKind::kNode: {
       const ElementStmt& e = d.elements[static_cast<std::size_t>(def.statement)];
-      return def.terminal == 0 ? e.a_span : e.b_span;
+      return def.terminal == 0 ? e.a_span() : e.b_span();
     }
   }
   return Span{};
@@ -73,15 +74,25 @@ Span SpanOf(const NetlistData& d, const Definition& def) {
 // entry and one slot per name, not a heap node and a string copy per name.
 class NameTable {
  public:
-  // The name's text as a pointer and a 32-bit size (12 bytes; a std::string_view is 16).
+  // The name's text as a pointer and a 32-bit size in 12 bytes aligned to 4, so that an
+  // entry is 24 bytes (a pointer member would pad the key to 16 and the entry to 32; a
+  // std::string_view is 16 on its own).
   struct Key {
-    const char* data = nullptr;
+    unsigned char data[sizeof(const char*)] = {};  // the pointer's bytes
     std::uint32_t size = 0;
     Key() = default;
     Key(std::string_view name)  // NOLINT: a key is written as its name
-        : data(name.data()), size(static_cast<std::uint32_t>(name.size())) {}
-    operator std::string_view() const { return {data, size}; }  // NOLINT
+        : size(static_cast<std::uint32_t>(name.size())) {
+      const char* at = name.data();
+      std::memcpy(data, &at, sizeof at);
+    }
+    operator std::string_view() const {  // NOLINT
+      const char* at = nullptr;
+      std::memcpy(&at, data, sizeof at);
+      return {at, size};
+    }
   };
+  static_assert(sizeof(std::pair<Key, Definition>) == 24, "a name table entry is 24 bytes");
   using Entry = std::pair<Key, Definition>;
   using iterator = std::vector<Entry>::iterator;
 
@@ -461,6 +472,7 @@ class Elaborator {
       design->param_info[i].value = param_values_[i];
       design->param_info[i].where = ToLocation(file_, d_.params[i].name_span);
     }
+    if (n == 0) return;  // no param reaches anything (and no element value is read back)
     const auto place = [&](const Value& v, SensitivityTarget target) {
       for (const auto& [param, slope] : Through(v, total)) {
         if (slope != 0.0)
@@ -493,9 +505,9 @@ class Elaborator {
       const ElementStmt& s = d_.elements[i];
       const int index = static_cast<int>(i);
       if (s.kind == ElementKind::kDiode) {
-        const DiodeStmt& diode = d_.DiodeOf(s);
-        if (diode.area) place(*diode.area, {Kind::kArea, index});
-        if (diode.temp) place(*diode.temp, {Kind::kElementTemp, index});
+        const DiodeOptions& options = d_.OptionsOf(d_.DiodeOf(s));
+        if (options.area) place(*options.area, {Kind::kArea, index});
+        if (options.temp) place(*options.temp, {Kind::kElementTemp, index});
         continue;
       }
       auto over = element_overrides_.find(index);
@@ -582,8 +594,8 @@ class Elaborator {
           {d_.parts[i].name, DefKind::kPart, static_cast<int>(i), d_.parts[i].name_span});
     }
     for (std::size_t i = 0; i < d_.elements.size(); ++i) {
-      items.push_back(
-          {d_.elements[i].name, DefKind::kElement, static_cast<int>(i), d_.elements[i].name_span});
+      items.push_back({d_.elements[i].name(), DefKind::kElement, static_cast<int>(i),
+                       d_.elements[i].name_span()});
     }
     for (std::size_t i = 0; i < d_.heatsinks.size(); ++i) {
       items.push_back({d_.heatsinks[i].name, DefKind::kHeatsink, static_cast<int>(i),
@@ -662,7 +674,7 @@ class Elaborator {
       const bool is_node =
           o.name == "gnd" || o.name == "0" ||
           std::any_of(d_.elements.begin(), d_.elements.end(), [&](const ElementStmt& e) {
-            return e.node_a == o.name || e.node_b == o.name;
+            return e.node_a() == o.name || e.node_b() == o.name;
           });
       if (it == names_.end() && is_node) {
         Error(Span{}, fmt::format("{}: '{}' is a node; --set takes a param, an element value or "
@@ -686,7 +698,7 @@ class Elaborator {
         if (e.kind == ElementKind::kDiode) {
           Error(Span{}, fmt::format("{}: diode '{}' has no value to set; set a key of its part "
                                     "instead ({}.KEY)",
-                                    context, o.name, d_.DiodeOf(e).part));
+                                    context, o.name, d_.DiodeOf(e).part_name()));
           continue;
         }
         if (auto v = OverrideValue(o, std::string(ElementPlace(e.kind).what))) {
@@ -934,8 +946,8 @@ class Elaborator {
   // The node at terminal `terminal` (0: node_a, 1: node_b) of element statement `statement`.
   int NodeIndex(std::size_t statement, int terminal, Circuit* circuit) {
     const ElementStmt& e = d_.elements[statement];
-    const std::string_view name = terminal == 0 ? e.node_a : e.node_b;
-    const Span& span = terminal == 0 ? e.a_span : e.b_span;
+    const std::string_view name = terminal == 0 ? e.node_a() : e.node_b();
+    const Span span = terminal == 0 ? e.a_span() : e.b_span();
     if (name == "gnd" || name == "0") return kGroundNode;
     auto [it, inserted] =
         names_.try_emplace(name, Definition{DefKind::kNode, static_cast<std::uint8_t>(terminal), -1,
@@ -947,7 +959,7 @@ class Elaborator {
     if (it->second.kind == DefKind::kNode) return it->second.index;
     Diagnostic& d = Error(span, fmt::format("'{}' is used as a node of {} '{}' but is the name "
                                             "of a {} (line {})",
-                                            name, ElementKindName(e.kind), e.name,
+                                            name, ElementKindName(e.kind), e.name(),
                                             KindWord(d_, it->second), SpanOf(d_, it->second).line));
     Note(&d, SpanOf(d_, it->second),
          fmt::format("'{}' is defined here as a {}", name, KindWord(d_, it->second)));
@@ -1036,8 +1048,8 @@ class Elaborator {
       const ElementStmt& s = d_.elements[i];
       Element e;
       e.kind = s.kind;
-      e.name = circuit->Keep(s.name);
-      e.where = ToLocation(file_, s.name_span);
+      e.name = circuit->Keep(s.name());
+      e.where = ToLocation(file_, s.name_span());
       const int a = NodeIndex(i, 0, circuit);
       const int b = NodeIndex(i, 1, circuit);
       e.node_a = std::max(a, 0);
@@ -1047,15 +1059,16 @@ class Elaborator {
       } else {
         auto over = element_overrides_.find(static_cast<int>(i));
         const Value& value = over != element_overrides_.end() ? *over->second : d_.ValueOf(s);
-        const std::string context =
-            over != element_overrides_.end() ? fmt::format("--set {}={}", s.name, value.text) : "";
+        const std::string context = over != element_overrides_.end()
+                                        ? fmt::format("--set {}={}", s.name(), value.text)
+                                        : "";
         const ValuePlace place = ElementPlace(s.kind);
         if (auto v = Evaluate(value, &place, context)) {
           e.value = *v;
           if (s.kind == ElementKind::kResistor && !UsableResistance(*v)) {
             Error(value.span, fmt::format("{}resistor '{}' has resistance {} Ohm; it must be {}",
-                                          context.empty() ? "" : context + ": ", s.name, Number(*v),
-                                          *v > 0 ? kResistanceRule : "> 0"));
+                                          context.empty() ? "" : context + ": ", s.name(),
+                                          Number(*v), *v > 0 ? kResistanceRule : "> 0"));
           }
         }
       }
@@ -1107,13 +1120,14 @@ class Elaborator {
         continue;
       }
       if (e.temp) {
-        const DiodeStmt& diode = d_.DiodeOf(d_.elements[static_cast<std::size_t>(m.element)]);
+        const DiodeOptions& options =
+            d_.OptionsOf(d_.DiodeOf(d_.elements[static_cast<std::size_t>(m.element)]));
         Diagnostic& d = Error(m.key_span,
                               fmt::format("diode '{}' has both temp= and sink=: temp= fixes its "
                                           "junction temperature, sink= lets its dissipation set it",
                                           e.name),
                               "keep one of the two");
-        if (diode.temp) Note(&d, diode.temp->span, "its temp= is here");
+        if (options.temp) Note(&d, options.temp->span, "its temp= is here");
         continue;
       }
       circuit->sink_mounts.push_back({m.element, it->second.index});
@@ -1138,20 +1152,22 @@ class Elaborator {
 
   void BuildDiode(const ElementStmt& s, Element* e) {
     const DiodeStmt& diode = d_.DiodeOf(s);
-    auto it = names_.find(diode.part);
+    const std::string_view part = diode.part_name();
+    auto it = names_.find(part);
     if (it == names_.end() || it->second.kind != DefKind::kPart) {
       if (it != names_.end()) {
-        Diagnostic& d = Error(diode.part_span, fmt::format("'{}' is a {}, not a part; expected the "
-                                                           "name of a 'part' statement",
-                                                           diode.part, KindWord(d_, it->second)));
-        Note(&d, SpanOf(d_, it->second), fmt::format("'{}' is defined here", diode.part));
+        Diagnostic& d =
+            Error(diode.part_span(), fmt::format("'{}' is a {}, not a part; expected the "
+                                                 "name of a 'part' statement",
+                                                 part, KindWord(d_, it->second)));
+        Note(&d, SpanOf(d_, it->second), fmt::format("'{}' is defined here", part));
         return;
       }
-      const std::string near = SuggestName(diode.part, NamesOf({DefKind::kPart}));
-      Diagnostic& d = Error(diode.part_span,
+      const std::string near = SuggestName(part, NamesOf({DefKind::kPart}));
+      Diagnostic& d = Error(diode.part_span(),
                             fmt::format("unknown part '{}'; expected the name of a 'part' "
                                         "statement",
-                                        diode.part),
+                                        part),
                             near.empty() ? "" : fmt::format("did you mean '{}'?", near));
       if (!near.empty()) {
         Note(&d, SpanOf(d_, names_.find(near)->second), fmt::format("'{}' is defined here", near));
@@ -1159,22 +1175,23 @@ class Elaborator {
       return;
     }
     e->part = it->second.index;
-    if (diode.area) {
-      if (auto v = Evaluate(*diode.area, &kAreaPlace)) {
+    const DiodeOptions& options = d_.OptionsOf(diode);
+    if (options.area) {
+      if (auto v = Evaluate(*options.area, &kAreaPlace)) {
         e->area = *v;
         if (!(*v > 0)) {
-          Error(diode.area->span,
-                fmt::format("diode '{}' has area {}; it must be > 0", s.name, Number(*v)));
+          Error(options.area->span,
+                fmt::format("diode '{}' has area {}; it must be > 0", s.name(), Number(*v)));
         }
       }
     }
-    if (diode.temp) {
-      if (auto v = Evaluate(*diode.temp, &kTempPlace)) {
+    if (options.temp) {
+      if (auto v = Evaluate(*options.temp, &kTempPlace)) {
         e->temp = *v;
         if (!(*v > -kZeroCelsius)) {
-          Error(diode.temp->span, fmt::format("diode '{}' has temperature {} C; it must be above "
-                                              "absolute zero (-273.15 C)",
-                                              s.name, Number(*v)));
+          Error(options.temp->span, fmt::format("diode '{}' has temperature {} C; it must be above "
+                                                "absolute zero (-273.15 C)",
+                                                s.name(), Number(*v)));
         }
       }
     }

@@ -180,13 +180,6 @@ class StatementParser {
     *name = std::string(text);
     return true;
   }
-  // The same, kept in the netlist's text store (the names of element statements).
-  bool TakeName(const char* what, std::string_view* name, Span* span, bool allow_zero = false) {
-    std::string_view text;
-    if (!TakeNameText(what, &text, span, allow_zero)) return false;
-    *name = data_->text.Keep(text);
-    return true;
-  }
   // *text is valid until the next statement.
   bool TakeNameText(const char* what, std::string_view* text, Span* span, bool allow_zero) {
     const Token t = scanner_.NextWord();
@@ -334,82 +327,147 @@ class StatementParser {
   }
 
   bool ParseElement(ElementKind kind) {
-    ElementStmt e;
-    e.kind = kind;
     const std::string what = ElementKindName(kind);
     // "a resistor name" ...: constant text, so a million elements format no message.
     const char* name_what = kind == ElementKind::kResistor        ? "a resistor name"
                             : kind == ElementKind::kVoltageSource ? "a vsource name"
                             : kind == ElementKind::kCurrentSource ? "a isource name"
                                                                   : "a diode name";
-    if (!TakeName(name_what, &e.name, &e.name_span)) return false;
-    if (!TakeName("the first node", &e.node_a, &e.a_span, true)) return false;
+    // Views into the statement's text until the statement is packed at the end.
+    std::string_view name, node_a, node_b;
+    Span name_span, a_span, b_span;
+    if (!TakeNameText(name_what, &name, &name_span, false)) return false;
+    if (!TakeNameText("the first node", &node_a, &a_span, true)) return false;
     const Token arrow = scanner_.NextWord();
     if (arrow.kind != Tok::kArrow) {
       return Error(arrow,
                    fmt::format("expected '->' between the two nodes of {} '{}' but "
                                "found {}",
-                               what, e.name, Quote(arrow)),
-                   fmt::format("write {} {} {} -> NODE ...", what, e.name, e.node_a));
+                               what, name, Quote(arrow)),
+                   fmt::format("write {} {} {} -> NODE ...", what, name, node_a));
     }
-    if (!TakeName("the second node", &e.node_b, &e.b_span, true)) return false;
+    if (!TakeNameText("the second node", &node_b, &b_span, true)) return false;
+    int detail = -1;
     if (kind == ElementKind::kDiode) {
-      DiodeStmt diode;
-      bool sink_given = false;
-      if (!TakeName("the name of a part", &diode.part, &diode.part_span)) return false;
-      while (!scanner_.AtEnd()) {
-        const Token option = scanner_.NextWord();
-        const bool known =
-            option.kind == Tok::kWord &&
-            (option.text == "area" || option.text == "temp" || option.text == "sink");
-        if (!known) {
-          std::string hint;
-          if (option.kind == Tok::kWord) {
-            const std::string near = SuggestName(option.text, {"area", "temp", "sink"});
-            if (!near.empty()) hint = fmt::format("did you mean '{}'?", near);
-          }
-          return Error(option,
-                       fmt::format("expected a diode option (area=VALUE, temp=VALUE or "
-                                   "sink=HEATSINK) but found {}",
-                                   Quote(option)),
-                       hint);
-        }
-        if (option.text == "sink") {
-          if (!TakeSink(option, e, &sink_given)) return false;
-          continue;
-        }
-        std::unique_ptr<Value>& slot = option.text == "area" ? diode.area : diode.temp;
-        if (slot) {
-          return Error(option,
-                       fmt::format("option '{}' given twice for diode '{}'", option.text, e.name));
-        }
-        if (!TakeEquals(fmt::format("'{}'", option.text))) return false;
-        Value v;
-        if (!TakeValue(option.text == "area" ? "an area factor" : "a temperature", &v)) {
-          return false;
-        }
-        slot = std::make_unique<Value>(std::move(v));
-      }
-      e.detail = static_cast<int>(data_->diodes.size());
-      data_->diodes.push_back(std::move(diode));
+      if (!ParseDiodeRest(name, &detail)) return false;
     } else {
       const char* place = kind == ElementKind::kResistor        ? "a resistance"
                           : kind == ElementKind::kVoltageSource ? "a voltage"
                                                                 : "a current";
       Value value;
       if (!TakeValue(place, &value)) return false;
-      if (kind == ElementKind::kResistor && !TakeResistorOptions(e)) return false;
-      e.detail = static_cast<int>(data_->element_values.size());
-      data_->element_values.push_back(std::move(value));
+      if (kind == ElementKind::kResistor && !TakeResistorOptions(name)) return false;
+      detail = static_cast<int>(data_->element_values.size());
+      data_->element_values.push_back(PackValue(std::move(value)));
     }
+    ElementStmt e;
+    e.kind = kind;
+    e.detail = detail;
+    e.names = KeepNames(name, node_a, node_b);
+    e.name_line = name_span.line;
+    e.a_line = a_span.line;
+    e.b_line = b_span.line;
+    e.name_column = Column(name_span);
+    e.a_column = Column(a_span);
+    e.b_column = Column(b_span);
+    e.name_size = static_cast<std::uint16_t>(name.size());
+    e.a_size = static_cast<std::uint16_t>(node_a.size());
+    e.b_size = static_cast<std::uint16_t>(node_b.size());
     data_->elements.push_back(e);
     return true;
   }
 
+  // A diode's part and options, after its nodes; *detail is its index in data_->diodes.
+  bool ParseDiodeRest(std::string_view name, int* detail) {
+    std::string_view part;
+    Span part_span;
+    if (!TakeNameText("the name of a part", &part, &part_span, false)) return false;
+    DiodeOptions options;
+    bool sink_given = false;
+    while (!scanner_.AtEnd()) {
+      const Token option = scanner_.NextWord();
+      const bool known = option.kind == Tok::kWord &&
+                         (option.text == "area" || option.text == "temp" || option.text == "sink");
+      if (!known) {
+        std::string hint;
+        if (option.kind == Tok::kWord) {
+          const std::string near = SuggestName(option.text, {"area", "temp", "sink"});
+          if (!near.empty()) hint = fmt::format("did you mean '{}'?", near);
+        }
+        return Error(option,
+                     fmt::format("expected a diode option (area=VALUE, temp=VALUE or "
+                                 "sink=HEATSINK) but found {}",
+                                 Quote(option)),
+                     hint);
+      }
+      if (option.text == "sink") {
+        if (!TakeSink(option, name, &sink_given)) return false;
+        continue;
+      }
+      std::optional<Value>& slot = option.text == "area" ? options.area : options.temp;
+      if (slot) {
+        return Error(option,
+                     fmt::format("option '{}' given twice for diode '{}'", option.text, name));
+      }
+      if (!TakeEquals(fmt::format("'{}'", option.text))) return false;
+      Value v;
+      if (!TakeValue(option.text == "area" ? "an area factor" : "a temperature", &v)) {
+        return false;
+      }
+      slot = std::move(v);
+    }
+    DiodeStmt diode;
+    diode.part = data_->text.Keep(part).data();
+    diode.part_line = part_span.line;
+    diode.part_column = Column(part_span);
+    diode.part_size = static_cast<std::uint16_t>(part.size());
+    if (options.area || options.temp) {
+      diode.options = static_cast<int>(data_->diode_options.size());
+      data_->diode_options.push_back(std::move(options));
+    }
+    *detail = static_cast<int>(data_->diodes.size());
+    data_->diodes.push_back(diode);
+    return true;
+  }
+
+  // An element's three names back to back in the text store (ElementStmt::names).
+  const char* KeepNames(std::string_view name, std::string_view node_a, std::string_view node_b) {
+    static_assert(3 * kMaxNameLength <= 65535, "a name's size fits ElementStmt's 16 bits");
+    char joined[3 * kMaxNameLength];
+    std::copy(name.begin(), name.end(), joined);
+    std::copy(node_a.begin(), node_a.end(), joined + name.size());
+    std::copy(node_b.begin(), node_b.end(), joined + name.size() + node_a.size());
+    return data_->text.Keep(std::string_view(joined, name.size() + node_a.size() + node_b.size()))
+        .data();
+  }
+
+  // A column of a word on one physical line, which has at most kMaxLineBytes characters.
+  static std::uint16_t Column(const Span& span) {
+    static_assert(kMaxLineBytes < 65535, "a column fits 16 bits");
+    return static_cast<std::uint16_t>(span.column);
+  }
+
+  // The packed form of an element's value (ElementValue): a literal or a name keeps its
+  // text and place; an expression is kept whole.
+  ElementValue PackValue(Value value) {
+    ElementValue packed;
+    packed.kind = value.kind;
+    if (value.kind == Value::Kind::kExpr) {
+      packed.expr = static_cast<int>(data_->element_exprs.size());
+      data_->element_exprs.push_back(std::move(value));
+      return packed;
+    }
+    packed.text = data_->text.Keep(value.text).data();
+    packed.size = static_cast<std::uint16_t>(value.text.size());
+    packed.line = value.span.line;
+    packed.column = Column(value.span);
+    return packed;
+  }
+
   // `sink=NAME` on a diode, at most once; the name is resolved by Elaborate.
-  bool TakeSink(const Token& option, const ElementStmt& e, bool* given) {
+  bool TakeSink(const Token& option, std::string_view element, bool* given) {
     if (*given) {
-      return Error(option, fmt::format("option 'sink' given twice for diode '{}'", e.name));
+      return Error(option, fmt::format("option 'sink' given twice for diode '{}'", element));
     }
     *given = true;
     SinkMountStmt mount;
@@ -448,7 +506,7 @@ class StatementParser {
   }
 
   // `max_power=VALUE` after a resistor's value, at most once.
-  bool TakeResistorOptions(const ElementStmt& e) {
+  bool TakeResistorOptions(std::string_view element) {
     bool seen = false;
     while (!scanner_.AtEnd()) {
       const Token option = scanner_.NextWord();
@@ -467,7 +525,7 @@ class StatementParser {
       }
       if (seen) {
         return Error(option,
-                     fmt::format("option 'max_power' given twice for resistor '{}'", e.name));
+                     fmt::format("option 'max_power' given twice for resistor '{}'", element));
       }
       seen = true;
       ResistorRatingStmt rating;
@@ -686,6 +744,32 @@ std::string_view TextStore::Keep(std::string_view text) {
   std::copy(text.begin(), text.end(), at);
   used_ += text.size();
   return std::string_view(at, text.size());
+}
+
+Value NetlistData::ValueOf(const ElementStmt& e) const {
+  const ElementValue& packed = element_values[static_cast<std::size_t>(e.detail)];
+  if (packed.kind == Value::Kind::kExpr) {
+    return element_exprs[static_cast<std::size_t>(packed.expr)];
+  }
+  // What ParseValue made of this word: the same text on one line gives the same spans
+  // (a column per character) and, parsed again, the same number and unit.
+  const std::string_view word(packed.text, packed.size);
+  Value value;
+  value.kind = packed.kind;
+  value.text = std::string(word);
+  value.span = Span{packed.line, packed.column, CountChars(word)};
+  if (packed.kind == Value::Kind::kLiteral) {
+    NumberLiteral literal;
+    NumberError error;
+    ParseNumber(word, &literal, &error);  // parsed once already without error
+    value.number = literal.value;
+    value.unit = literal.unit;
+    const std::string_view unit = word.substr(literal.unit_offset);
+    value.unit_span =
+        Span{packed.line, packed.column + CountChars(word.substr(0, literal.unit_offset)),
+             std::max(1, CountChars(unit))};
+  }
+  return value;
 }
 
 const std::string& Netlist::file_name() const { return data_->file_name; }

@@ -2,6 +2,7 @@
 // produces and Elaborate consumes. Values stay unevaluated here.
 #pragma once
 
+#include <cstdint>
 #include <memory>
 #include <optional>
 #include <string>
@@ -77,28 +78,62 @@ struct PartStmt {
   Span fit_span;
 };
 
-// An element statement. What only some kinds have lives in side arrays of NetlistData (a
-// value for R, V and I; a part and options for diodes), so that a diode carries no empty
-// Value and a resistor no part: a netlist of a million elements keeps all its statements
-// alive through elaboration. Names are views into NetlistData::text (a std::string would
-// be 32 bytes per name).
+// An element statement, packed (40 bytes): a netlist of a million elements keeps all its
+// statements alive through elaboration. What only some kinds have lives in side arrays
+// of NetlistData (a value for R, V and I; a part and options for diodes), so that a diode
+// carries no value and a resistor no part. The three names lie back to back in
+// NetlistData::text: one pointer and three sizes (three std::string_views and three Spans
+// took 104 bytes). A name's place is its line and first column; its length is its size (a
+// name is ASCII, at most kMaxNameLength bytes, and no token crosses a line break: a
+// continuation '\\' becomes a blank), and a column fits 16 bits (a physical line has at
+// most kMaxLineBytes bytes).
 struct ElementStmt {
-  std::string_view name;
-  std::string_view node_a, node_b;
-  Span name_span;
-  Span a_span, b_span;
-  int detail = -1;  // index into NetlistData::element_values (R, V, I) or ::diodes
+  const char* names = nullptr;  // name, node_a, node_b, in NetlistData::text
+  int name_line = 0, a_line = 0, b_line = 0;
+  std::uint16_t name_column = 0, a_column = 0, b_column = 0;
+  std::uint16_t name_size = 0, a_size = 0, b_size = 0;
   ElementKind kind = ElementKind::kResistor;
+  int detail = -1;  // index into NetlistData::element_values (R, V, I) or ::diodes
+
+  std::string_view name() const { return {names, name_size}; }
+  std::string_view node_a() const { return {names + name_size, a_size}; }
+  std::string_view node_b() const { return {names + name_size + a_size, b_size}; }
+  Span name_span() const { return {name_line, name_column, name_size}; }
+  Span a_span() const { return {a_line, a_column, a_size}; }
+  Span b_span() const { return {b_line, b_column, b_size}; }
 };
 
-// What a diode statement has beyond ElementStmt.
+// The value of a resistor or a source, packed (24 bytes instead of a 96-byte Value): a
+// literal or a param name is its text (in NetlistData::text) and its place, and becomes a
+// Value again on reading (NetlistData::ValueOf parses the literal anew, which gives the
+// same number, unit and unit place); an expression is kept whole in
+// NetlistData::element_exprs.
+struct ElementValue {
+  const char* text = nullptr;  // kLiteral, kName
+  int line = 0;
+  std::uint16_t column = 0;
+  std::uint16_t size = 0;  // bytes of text; a word lies on one physical line
+  int expr = -1;           // kExpr: index into NetlistData::element_exprs
+  Value::Kind kind = Value::Kind::kLiteral;
+};
+
+// A diode's area= and temp=, which most diodes do not have.
+struct DiodeOptions {
+  std::optional<Value> area;
+  std::optional<Value> temp;
+};
+
+// What a diode statement has beyond ElementStmt (24 bytes; 48 with a std::string_view,
+// a Span and two pointers to options).
 struct DiodeStmt {
-  std::string_view part;  // a view into NetlistData::text
-  Span part_span;
-  // Options, by pointer: most diodes have none, and an empty std::optional<Value> would
-  // still take the size of a Value.
-  std::unique_ptr<Value> area;
-  std::unique_ptr<Value> temp;
+  const char* part = nullptr;  // the part's name, in NetlistData::text
+  int part_line = 0;
+  std::uint16_t part_column = 0;
+  std::uint16_t part_size = 0;
+  int options = -1;  // index into NetlistData::diode_options, or -1 for none
+
+  std::string_view part_name() const { return {part, part_size}; }
+  Span part_span() const { return {part_line, part_column, part_size}; }
 };
 
 // A resistor's rating (netlist-format.md, "Resistor ratings"): `max_power=VALUE`.
@@ -187,17 +222,23 @@ struct NetlistData {
   std::vector<ParamStmt> params;
   std::vector<PartStmt> parts;
   std::vector<ElementStmt> elements;
-  std::vector<Value> element_values;  // of resistors and sources, by ElementStmt::detail
-  std::vector<DiodeStmt> diodes;      // by ElementStmt::detail
+  std::vector<ElementValue> element_values;          // of resistors and sources, by ::detail
+  std::vector<Value> element_exprs;                  // by ElementValue::expr
+  std::vector<DiodeStmt> diodes;                     // by ElementStmt::detail
+  std::vector<DiodeOptions> diode_options;           // by DiodeStmt::options
   std::vector<ResistorRatingStmt> resistor_ratings;  // in file order
   std::vector<HeatsinkStmt> heatsinks;               // in file order
   std::vector<SinkMountStmt> sink_mounts;            // in file order
 
-  const Value& ValueOf(const ElementStmt& e) const {
-    return element_values[static_cast<std::size_t>(e.detail)];
-  }
+  // The value of a resistor or source statement, as ParseValue made it.
+  Value ValueOf(const ElementStmt& e) const;
   const DiodeStmt& DiodeOf(const ElementStmt& e) const {
     return diodes[static_cast<std::size_t>(e.detail)];
+  }
+  // A diode's options; none (both empty) when it has no area= nor temp=.
+  const DiodeOptions& OptionsOf(const DiodeStmt& d) const {
+    static const DiodeOptions kNone;
+    return d.options < 0 ? kNone : diode_options[static_cast<std::size_t>(d.options)];
   }
   bool bias = false;
   Span bias_span;

@@ -166,6 +166,34 @@ TEST(Cli, NetlistErrorExitsTwoWithFileLineColumn) {
   EXPECT_TRUE(run.out.empty());
 }
 
+// `knee bias` drops a file's text once parsed and reads it again for the elaboration's
+// diagnostics (pipeline.h, SourceKept): its errors and warnings quote the same lines as
+// those of `knee check`, which keeps the text.
+TEST(Cli, BiasQuotesTheLinesOfElaborationDiagnosticsOfAFile) {
+  const std::string path = TempPath("quoted.knee");
+  {
+    std::ofstream(path) << "part P diode\nvsource V1 a -> gnd 1\nresistor R1 a -> b 1kV\n"
+                           "diode D1 b -> gnd Q\n";
+  }
+  KneeRun bias = RunKnee("bias " + path);
+  KneeRun check = RunKnee("check " + path);
+  EXPECT_EQ(bias.status, 2);
+  EXPECT_EQ(bias.err, check.err);
+  EXPECT_NE(bias.err.find("    3 | resistor R1 a -> b 1kV\n"), std::string::npos) << bias.err;
+  EXPECT_NE(bias.err.find("    4 | diode D1 b -> gnd Q\n"), std::string::npos) << bias.err;
+  // A warning (a node touched by one element) of a circuit that solves.
+  {
+    std::ofstream(path) << "vsource V1 a -> gnd 1\nresistor R1 a -> gnd 1k\n"
+                           "resistor R2 a -> stub 1k\n";
+  }
+  bias = RunKnee("bias " + path);
+  check = RunKnee("check " + path);
+  EXPECT_EQ(bias.status, 0);
+  EXPECT_EQ(bias.err, check.err);
+  EXPECT_NE(bias.err.find("    3 | resistor R2 a -> stub 1k\n"), std::string::npos) << bias.err;
+  std::remove(path.c_str());
+}
+
 TEST(Cli, FloatingNodeExitsTwoNamingTheElements) {
   KneeRun run = RunKnee("bias -",
                         "vsource V1 a -> gnd 5\nresistor R1 a -> gnd 1k\n"

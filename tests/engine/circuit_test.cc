@@ -25,6 +25,40 @@ TEST(Circuit, FindsByName) {
   EXPECT_STREQ(ElementKindName(ElementKind::kDiode), "diode");
 }
 
+// An element's own temperature reads as an optional (OwnTemp keeps none as NaN).
+TEST(Circuit, ElementTempIsNoneUntilSet) {
+  Element e;
+  EXPECT_FALSE(e.temp.has_value());
+  EXPECT_FALSE(static_cast<bool>(e.temp));
+  EXPECT_TRUE(e.temp == OwnTemp());
+  EXPECT_FALSE(e.temp == 0.0);
+  e.temp = -40.0;
+  EXPECT_TRUE(e.temp.has_value());
+  EXPECT_EQ(*e.temp, -40.0);
+  EXPECT_TRUE(e.temp == -40.0);
+  EXPECT_FALSE(e.temp == OwnTemp());
+  Circuit c;
+  c.temp = 25.0;
+  EXPECT_EQ(c.DeviceTemp(e), -40.0);
+  e.temp = std::nullopt;
+  EXPECT_EQ(c.DeviceTemp(e), 25.0);
+}
+
+// An element's place keeps what a SourceLocation says, columns and lengths beyond 16 bits
+// clamped (no netlist line is that long).
+TEST(Circuit, ElementLocationReadsAsASourceLocation) {
+  Element e;
+  e.where = SourceLocation{"a.knee", 12, 345, 6};
+  const SourceLocation back = e.where;
+  EXPECT_EQ(back.file, "a.knee");
+  EXPECT_EQ(back.line, 12);
+  EXPECT_EQ(back.column, 345);
+  EXPECT_EQ(back.length, 6);
+  e.where = SourceLocation{"a.knee", 1, 70000, 70000};
+  EXPECT_EQ(e.where.column, 65535);
+  EXPECT_EQ(e.where.length, 65535);
+}
+
 TEST(Quantity, EvaluatesAndNames) {
   testing::CircuitBuilder b;
   b.V("V1", "in", "gnd", 2.0);

@@ -253,6 +253,37 @@ TEST(NetlistParserErrorTest, OutOfRangePartValues) {
             "3:23: diode 'D' has area 0; it must be > 0");
 }
 
+// Element statements are kept packed (syntax.h: names and values as text and a place);
+// the places read back from them must be those of the text, also after a multi-byte
+// prefix and on the continuation line of a statement. Columns counted by hand.
+TEST(NetlistParserErrorTest, PlacesOfPackedStatementsOnContinuedLines) {
+  // The unit span starts at the prefix: 'µ' is column 10 of line 3, two characters long.
+  auto e = AllErrors("vsource V1 a -> gnd 1\nresistor R1 a -> \\\n    gnd 4µV\n");
+  ASSERT_EQ(e.size(), 1u);
+  EXPECT_EQ(e[0].where.line, 3);
+  EXPECT_EQ(e[0].where.column, 10);
+  EXPECT_EQ(e[0].where.length, 2);
+  // A node name on the continuation line: 'V1' at line 3, column 3.
+  e = AllErrors("vsource V1 a -> gnd 1\nresistor R1 a -> \\\n  V1 1k\n");
+  EXPECT_EQ(OnlyError(e),
+            "3:3: 'V1' is used as a node of resistor 'R1' but is the name of a vsource (line 1)");
+  EXPECT_EQ(e[0].where.length, 2);
+  // A diode's part on the continuation line: 'nopart' at line 3, column 3.
+  e = AllErrors("part P diode\nvsource V1 a -> gnd 1\ndiode D1 a -> gnd \\\n  nopart\n");
+  EXPECT_EQ(OnlyError(e), "4:3: unknown part 'nopart'; expected the name of a 'part' statement");
+  EXPECT_EQ(e[0].where.length, 6);
+  // A param name as a value, and the element's own place, after a continuation.
+  e = AllErrors("vsource V1 a -> gnd 1\nresistor \\\n R1 a -> gnd \\\n   Rx\n");
+  EXPECT_EQ(OnlyError(e).substr(0, 4), "4:4:");
+  EXPECT_EQ(e[0].where.length, 2);
+  const Design d = MustBuild("vsource V1 a -> gnd 1\nresistor \\\n R1 a -> gnd (2 * 1k)\n");
+  ASSERT_EQ(d.circuit.elements.size(), 2u);
+  EXPECT_EQ(d.circuit.elements[1].value, 2000.0);
+  EXPECT_EQ(d.circuit.elements[1].where.line, 3);
+  EXPECT_EQ(d.circuit.elements[1].where.column, 2);
+  EXPECT_EQ(d.circuit.elements[1].where.length, 2);
+}
+
 TEST(NetlistParserErrorTest, MisplacedUnits) {
   const auto e = AllErrors("resistor R1 a -> 0 1K\n");
   EXPECT_EQ(OnlyError(e),

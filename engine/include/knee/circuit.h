@@ -7,6 +7,7 @@
 #include <cstdint>
 #include <cstring>
 #include <iosfwd>
+#include <limits>
 #include <memory>
 #include <optional>
 #include <string>
@@ -105,20 +106,68 @@ struct Part {
 
 enum class ElementKind : std::uint8_t { kResistor, kVoltageSource, kCurrentSource, kDiode };
 
-// The members are ordered by size so that no padding sits between them (80 bytes; 136
-// with a std::string name and unordered members): a circuit of a million stages holds two
-// million elements.
+// A diode's own temperature in degC, or none: 8 bytes (a std::optional<double> takes 16),
+// with none stored as NaN. No temperature is NaN: Elaborate rejects a temp= that is not
+// above absolute zero, and a NaN is not.
+class OwnTemp {
+ public:
+  OwnTemp() = default;
+  OwnTemp(double celsius) : celsius_(celsius) {}           // NOLINT: reads as the number it holds
+  OwnTemp(std::nullopt_t) {}                               // NOLINT: as std::optional does
+  bool has_value() const { return celsius_ == celsius_; }  // false for NaN only
+  explicit operator bool() const { return has_value(); }
+  double operator*() const { return celsius_; }
+
+  friend bool operator==(const OwnTemp& a, const OwnTemp& b) {
+    return a.has_value() == b.has_value() && (!a.has_value() || a.celsius_ == b.celsius_);
+  }
+  friend bool operator==(const OwnTemp& a, double b) { return a.has_value() && a.celsius_ == b; }
+
+ private:
+  double celsius_ = std::numeric_limits<double>::quiet_NaN();
+};
+
+// Where an element's name is written: a SourceLocation in 16 bytes instead of 24 (a
+// column and a length of a name on one line fit 16 bits; a physical line of a netlist has
+// at most 10000 bytes and a name at most 256). Reads as a SourceLocation.
+struct ElementLocation {
+  FileName file;
+  int line = 0;
+  std::uint16_t column = 0;
+  std::uint16_t length = 1;
+
+  ElementLocation() = default;
+  // Columns and lengths beyond 16 bits (text not from a netlist file) are clamped.
+  ElementLocation(const SourceLocation& where)  // NOLINT: assigned from a SourceLocation
+      : file(where.file),
+        line(where.line),
+        column(Clamp(where.column)),
+        length(Clamp(where.length)) {}
+  operator SourceLocation() const {  // NOLINT: reads as a SourceLocation
+    return SourceLocation{file, line, column, length};
+  }
+
+ private:
+  static std::uint16_t Clamp(int v) {
+    return static_cast<std::uint16_t>(v < 0 ? 0 : v > 65535 ? 65535 : v);
+  }
+};
+
+// The members are ordered by size so that no padding sits between them (64 bytes; 136
+// with a std::string name, a std::optional temp, a SourceLocation and unordered members):
+// a circuit of a million stages holds two million elements.
 struct Element {
-  Name name;                   // in its circuit's names (Circuit::Keep)
-  double value = 0.0;          // Ohm, V or A; unused for diodes
-  double area = 1.0;           // diodes: > 0
-  std::optional<double> temp;  // diodes: own temperature in degC, overrides Circuit::temp
-  SourceLocation where;        // the element's name in its statement
-  int node_a = kGroundNode;    // first terminal (anode of a diode, P of a vsource)
-  int node_b = kGroundNode;    // second terminal (cathode, N)
-  int part = -1;               // diodes: index into Circuit::parts
+  Name name;                 // in its circuit's names (Circuit::Keep)
+  double value = 0.0;        // Ohm, V or A; unused for diodes
+  double area = 1.0;         // diodes: > 0
+  OwnTemp temp;              // diodes: own temperature in degC, overrides Circuit::temp
+  ElementLocation where;     // the element's name in its statement
+  int node_a = kGroundNode;  // first terminal (anode of a diode, P of a vsource)
+  int node_b = kGroundNode;  // second terminal (cathode, N)
+  int part = -1;             // diodes: index into Circuit::parts
   ElementKind kind = ElementKind::kResistor;
 };
+static_assert(sizeof(void*) != 8 || sizeof(Element) == 64, "Element packs to 64 bytes");
 
 // A resistor's rated dissipation (netlist-format.md, "Resistor ratings"), for stress checks.
 struct ResistorRating {
