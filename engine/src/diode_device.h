@@ -189,8 +189,11 @@ class Diode final : public Device {
   void DeclareEntries(EntryCollector& c) { pair_.Declare(c); }
   void BindSlots(std::span<const int> slot_of) { pair_.Bind(slot_of); }
   void BeginRun(std::span<const double> x, const DiodeBasis& basis) {
-    last_vj_ = JunctionVoltageAt(basis.d, At(x, pair_.a()) - At(x, pair_.b()), 0.0, &last_point_);
-    has_last_point_ = true;
+    // Without series resistance vj is the terminal voltage: no search, nothing to keep.
+    const bool searched = basis.d.rs > 0.0;
+    last_vj_ = JunctionVoltageAt(basis.d, At(x, pair_.a()) - At(x, pair_.b()), 0.0,
+                                 searched ? &last_point_ : nullptr);
+    has_last_point_ = searched;
     limited_ = false;
   }
   // The basis changed: the junction point kept for last_vj_ is no longer its law's.
@@ -217,8 +220,11 @@ class Diode final : public Device {
     // Linearisation at the (possibly limited) junction point `at`, whose terminal voltage
     // is at + rs*I(at), evaluated at v: the exact current when no limiting happened.
     if (limited_) p = EvaluateJunction(d, at);
-    last_point_ = p;
-    has_last_point_ = true;
+    // Without series resistance there is no search to start (vj is v itself).
+    if (d.rs > 0.0) {
+      last_point_ = p;
+      has_last_point_ = true;
+    }
     double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
     if (ctx.junction_floor) g = std::max(g, d.is / d.n_vt);
     const double g_exact = basis.TwoTerminal(p.conductance);
