@@ -296,14 +296,14 @@ class Diode final : public Device {
   Conductance pair_;
   int basis_;  // index into DiodeBases
   bool limited_ = false;
-  bool own_temp_ = false;  // the element has its own temp= (sensitivities only)
+  bool own_temp_ = false;        // the element has its own temp= (sensitivities only)
+  bool has_last_point_ = false;  // last_point_ holds the law at last_vj_
   // The law at last_vj_ (EvaluateJunction(basis.d, last_vj_)), where the next junction
   // search starts: each search saves one evaluation of the law.
   const JunctionPoint* KnownPoint() const { return has_last_point_ ? &last_point_ : nullptr; }
 
   double last_vj_ = 0;
   JunctionPoint last_point_;
-  bool has_last_point_ = false;
   double stamped_g_ = 0;  // S, the two-terminal conductance of the last Stamp
 };
 
