@@ -203,7 +203,10 @@ class Diode final : public Device {
     const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
     const double v = va - vb;
     JunctionPoint p;
-    const double vj = JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint());
+    // Without series resistance the junction voltage is v itself (as JunctionVoltageAt
+    // gives it), the law evaluated once, in line: the ladder's diodes are all such.
+    const double vj = d.rs > 0.0 ? JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint()) : v;
+    if (!(d.rs > 0.0)) p = EvaluateJunction(d, v);
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
