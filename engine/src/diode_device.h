@@ -47,9 +47,7 @@ class DiodeBases {
   // Whether basis k still holds for element e (same part, area and temperature, and
   // the part's model unchanged).
   bool Holds(int k, const Circuit& c, const Element& e, std::span<const char> part_changed) const {
-    const DiodeBasis& b = (*this)[k];
-    return b.part == e.part && part_changed[static_cast<size_t>(e.part)] == 0 && b.area == e.area &&
-           b.temp == c.DeviceTemp(e);
+    return Groups(k, c, e) && part_changed[static_cast<size_t>(e.part)] == 0;
   }
   // Whether element e still belongs to basis k (same part, area and temperature), its
   // part's model changed or not.
@@ -205,8 +203,12 @@ class Diode final : public Device {
     JunctionPoint p;
     // Without series resistance the junction voltage is v itself (as JunctionVoltageAt
     // gives it), the law evaluated once, in line: the ladder's diodes are all such.
-    const double vj = d.rs > 0.0 ? JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint()) : v;
-    if (!(d.rs > 0.0)) p = EvaluateJunction(d, v);
+    double vj = v;
+    if (d.rs > 0.0) {
+      vj = JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint());
+    } else {
+      p = EvaluateJunction(d, v);
+    }
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
