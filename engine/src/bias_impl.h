@@ -150,7 +150,7 @@ struct BiasSolver::Impl {
   void Resize() {
     const auto n = static_cast<size_t>(mna.size());
     x.assign(n, 0.0);
-    saved.assign(n, 0.0);
+    saved.clear();  // sized by its first use (an aid's rung, the settling of faint nodes)
     converged.clear();
   }
   std::optional<std::string> Analyze() {

@@ -20,13 +20,18 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, LinearSolver* klu, const SolverOption
       klu_(klu),
       configured_(options),
       options_(options),
-      dx_(static_cast<size_t>(size), 0.0),
-      saved_x_(static_cast<size_t>(size), 0.0),
-      noise_(static_cast<size_t>(size), 0.0),
-      minus_f_(static_cast<size_t>(size), 0.0),
-      row_tolerance_(static_cast<size_t>(size), 0.0),
-      polisher_(static_cast<size_t>(size)),
-      regularized_(mna->values().size(), 0.0) {}
+      size_(static_cast<size_t>(size)),
+      polisher_(static_cast<size_t>(size)) {}
+
+// Sized on the first Run, not at construction: a cold solve of a monotone network is the
+// potential method's, and a million unknowns make these 40 MB. A sweep sizes them at its
+// first point; the loop then allocates nothing.
+void NewtonSolver::SizeVectors() {
+  if (dx_.size() == size_) return;
+  for (std::vector<double>* v : {&dx_, &saved_x_, &noise_, &minus_f_, &row_tolerance_}) {
+    v->assign(size_, 0.0);
+  }
+}
 
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                                 std::vector<NewtonStepRecord>* trace) {
@@ -39,6 +44,7 @@ NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::
   options_ = options;
   aids.limit_junctions = options_.junction_limiting;
   plain_run_ = aids.gmin == 0.0 && aids.source_scale == 1.0;
+  SizeVectors();
   NewtonOutcome outcome;
   mna_->BeginRun(x);
   std::fill(dx_.begin(), dx_.end(), 0.0);
@@ -189,7 +195,7 @@ constexpr double kMaxRegularizedStep = 1e6;
 
 LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
   const auto values = mna_->values();
-  std::copy(values.begin(), values.end(), regularized_.begin());
+  regularized_.assign(values.begin(), values.end());
   for (int slot : mna_->diagonal_slots()) {
     double& v = regularized_[static_cast<size_t>(slot)];
     v += std::max(1e-12 * std::fabs(v), 1e-18);

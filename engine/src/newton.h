@@ -60,11 +60,13 @@ class NewtonSolver {
   bool NoiseFloor();
   void RefineStep(std::span<double> dx);
   bool Clamp(std::span<double> x) const;
+  void SizeVectors();
 
   MnaSystem* mna_;
   LinearSolver* klu_;
   SolverOptions configured_;  // the solver's own options
   SolverOptions options_;     // those of the current (or last) run
+  size_t size_;               // unknowns
   std::vector<double> dx_;
   std::vector<double> saved_x_;
   std::vector<double> noise_;                    // J^-1 times the residual's round-off allowance
@@ -72,10 +74,12 @@ class NewtonSolver {
   Polisher polisher_;
   StepRefiner refiner_;
   double voltage_bound_ = HUGE_VAL;  // V
-  std::vector<double> regularized_;  // Jacobian values with the singular-step shunt
-  bool plain_run_ = false;           // the current Run has no aid (gmin, source scale)
-  bool exact_factors_ = false;       // see exact_factors()
-  bool describe_converged_ = true;   // see set_describe_converged()
+  // Jacobian values with the singular-step shunt, sized on the first singular step (most
+  // circuits never take one; a million-unknown ladder would hold 24 MB for it).
+  std::vector<double> regularized_;
+  bool plain_run_ = false;          // the current Run has no aid (gmin, source scale)
+  bool exact_factors_ = false;      // see exact_factors()
+  bool describe_converged_ = true;  // see set_describe_converged()
 };
 
 }  // namespace knee::internal

@@ -47,6 +47,7 @@ void BiasSolver::Impl::Finish(const Ending& end, SolveSummary* s, Solution* solu
     return;
   }
   factors_exact = end.by_potential ? potential.exact_factors() : newton.exact_factors();
+  if (end.by_potential) potential.ReleaseWorkspace();
   Conclude(s, solution);
 }
 

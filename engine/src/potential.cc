@@ -48,6 +48,12 @@ void PotentialSolver::SizeVectors() {
   branch_dv_.assign(size_ - static_cast<size_t>(mna_->kcl_rows()), 0.0);
 }
 
+void PotentialSolver::ReleaseWorkspace() {
+  for (std::vector<double>* v : {&dx_, &step_, &base_, &last_step_, &noise_, &branch_dv_}) {
+    std::vector<double>().swap(*v);
+  }
+}
+
 // The source equations hold at the last assembly (within their residual bound).
 bool PotentialSolver::Feasible() const {
   const auto f = mna_->residual();

@@ -44,6 +44,11 @@ class PotentialSolver {
   // a Run).
   std::vector<std::string> Unsettled(std::span<const double> x) const;
 
+  // Frees the working vectors (the next Run sizes them again). A converged cold solve
+  // does not keep them beside the solution: 40 bytes an unknown, read by no later stage
+  // (only a failed run's last step is, by Unsettled).
+  void ReleaseWorkspace();
+
   // Line-search evaluations (assembly passes) of the last Run.
   int evaluations() const { return evaluations_; }
 

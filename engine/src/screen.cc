@@ -24,7 +24,15 @@ void BiasSolver::Impl::Classify() {
   unbounded.reset();
   if (!non_monotone) unbounded = internal::FindUnboundedCut(*circuit);
   // A change of numbers alone (a spread sample's draws) leaves the graph of sources and
-  // resistance-free junctions, and so both of its readings, as they were.
+  // resistance-free junctions, and so both of its readings, as they were. Its key is kept
+  // from the first update on, as last_numbers is: a single bias point never compares it
+  // (16 bytes a junction without series resistance).
+  if (!last_numbers) {
+    forced = internal::FindForcedJunctions(*circuit);
+    loop_junctions = internal::LoopJunctions(*circuit);
+    source_graph_read = false;
+    return;
+  }
   internal::SourceGraphKey(*circuit, &graph_key_scratch);
   if (!source_graph_read || graph_key_scratch != source_graph_key) {
     forced = internal::FindForcedJunctions(*circuit);
