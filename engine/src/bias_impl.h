@@ -212,6 +212,9 @@ struct BiasSolver::Impl {
   // more than any diode could is out of range (forced_junctions.h).
   void CheckLoopJunctions(SolveSummary* s);
   void Fill(Solution* solution) const;
+  // Frees the vectors that only the iterations and the post-solve tests use (each is
+  // sized again on its next use).
+  void ReleaseWorkspaces();
   // The nodes a verified answer leaves undetermined (undetermined.h), from the exact
   // Jacobian that Verify assembled at x.
   void NameUndetermined(SolveSummary* s) {

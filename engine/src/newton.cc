@@ -33,6 +33,13 @@ void NewtonSolver::SizeVectors() {
   }
 }
 
+void NewtonSolver::ReleaseWorkspace() {
+  for (std::vector<double>* v :
+       {&dx_, &saved_x_, &noise_, &minus_f_, &row_tolerance_, &regularized_}) {
+    std::vector<double>().swap(*v);
+  }
+}
+
 NewtonOutcome NewtonSolver::Run(AssemblyAids aids, std::string_view phase, std::span<double> x,
                                 std::vector<NewtonStepRecord>* trace) {
   return Run(aids, phase, x, trace, configured_);

@@ -45,6 +45,8 @@ class NewtonSolver {
   void set_describe_converged(bool on) { describe_converged_ = on; }
   // The detail text of a converged run ("converged in N steps: ...").
   std::string Describe(const ConvergedNote& note) const;
+  // Frees the working vectors; the next Run sizes them again.
+  void ReleaseWorkspace();
 
  private:
   AssemblyOutcome AssembleHalving(std::span<double> x, const AssemblyAids& aids, bool may_halve,

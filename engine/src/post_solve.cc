@@ -58,9 +58,20 @@ void BiasSolver::Impl::Conclude(SolveSummary* s, Solution* solution) {
   Verify(s);
   NameUndetermined(s);
   CheckLoopJunctions(s);
-  if (solution != nullptr) Fill(solution);
+  // A cold solve is taken as a single bias point until a warm one follows: the iteration
+  // workspaces are not held beside the solution being filled (a million-unknown network:
+  // 64 MB). A sweep's first warm point sizes them again, once; warm solves keep them.
+  if (!warm()) ReleaseWorkspaces();
   if (s->status == SolveStatus::kConverged) converged = x;
+  if (solution != nullptr) Fill(solution);
   last_converged = s->status == SolveStatus::kConverged;
+}
+
+void BiasSolver::Impl::ReleaseWorkspaces() {
+  newton.ReleaseWorkspace();
+  potential.ReleaseWorkspace();
+  undetermined.ReleaseWorkspace();
+  std::vector<double>().swap(spread);
 }
 
 void BiasSolver::Impl::CheckLoopJunctions(SolveSummary* s) {

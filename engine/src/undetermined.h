@@ -48,6 +48,10 @@ class UndeterminedTest {
   // After Run: each KCL row's stray-current latitude (V), +inf where no solve was
   // possible. For tests and --explain.
   std::span<const double> latitude() const { return latitude_; }
+  // Frees the test's vectors (and so latitude()); the next Run sizes them again.
+  void ReleaseWorkspace() {
+    for (std::vector<double>* v : {&sum_, &column_, &latitude_}) std::vector<double>().swap(*v);
+  }
 
  private:
   bool Latitude(const MnaSystem& mna, double current_tol, KluSolver& factors);
