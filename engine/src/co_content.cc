@@ -6,11 +6,7 @@
 
 namespace knee {
 
-namespace {
-
-bool NormalScale(double s) { return s >= std::numeric_limits<double>::min() && std::isfinite(s); }
-
-}  // namespace
+using law_detail::NormalScale;
 
 double JunctionCoContent(const DiodeConstants& d, double vj) {
   // Forward term: the integral of is*(e^(v/a) - 1) dv from 0 to vj, a = n*Vt, is

@@ -13,14 +13,6 @@
 
 namespace knee::internal {
 
-void StampContext::AddCurrent(int row, double i) {
-  if (row < 0) return;
-  const auto r = static_cast<size_t>(row);
-  residual[r] += i;
-  flow[r] = std::max(flow[r], std::fabs(i));
-  magnitude[r] += std::fabs(i);
-}
-
 Incidence IslandMap::Between(int p, int q) const {
   Incidence w;
   const auto add = [&](int u, double c) {

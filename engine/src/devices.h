@@ -6,6 +6,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cmath>
 #include <functional>
 #include <memory>
 #include <span>
@@ -131,7 +132,13 @@ struct StampContext {
     if (slot >= 0) values[static_cast<size_t>(slot)] += v;
   }
   // Current `i` leaves row `row` (i.e. flows from that node into the device).
-  void AddCurrent(int row, double i);
+  void AddCurrent(int row, double i) {
+    if (row < 0) return;
+    const auto r = static_cast<size_t>(row);
+    residual[r] += i;
+    flow[r] = std::max(flow[r], std::fabs(i));
+    magnitude[r] += std::fabs(i);
+  }
   // Current `i` flows through a two-terminal element with incidence w (from its first
   // terminal to its second), and its rounding scale `terms` enters every row it touches.
   // a and b are the element's node unknowns (-1 for gnd): node_kcl, node_flow and
@@ -249,7 +256,42 @@ struct JunctionLimits {
   double u_crit = 0;  // V, when d.has_breakdown
 };
 JunctionLimits ComputeJunctionLimits(const DiodeConstants& d);
-double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, double previous,
-                         double proposed);
+
+// The two shortened steps (junction_limits.cc): along the exponential from `base` above
+// the critical voltage, and a falling step to where the law carries Newton's prediction.
+double LogStep(double base, double proposed, double n_vt);
+double FallingStep(double previous, double proposed, double i_scale, double log_scale, double n_vt);
+
+// In line: every diode's stamp calls it, and most steps are not limited.
+inline double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits,
+                                double previous, double proposed) {
+  // Forward side: only rising steps overshoot (Newton on a convex increasing exponential
+  // approached from above never passes the root).
+  const double v_crit = limits.v_crit;
+  if (proposed > v_crit && proposed - previous > 2.0 * d.n_vt) {
+    const double base = std::max(previous, v_crit);
+    if (proposed > base) return LogStep(base, proposed, d.n_vt);
+  }
+  // Only a step of at least half a thermal scale from a forward-biased junction: near
+  // zero bias the law is nearly linear and Newton's step is right (and a step of 1e-17 V
+  // must not count as limited, or a converged point never converges).
+  if (previous > d.n_vt && proposed < previous - 0.5 * d.n_vt) {
+    proposed = FallingStep(previous, proposed, d.is, d.log_is, d.n_vt);
+  }
+  if (d.has_breakdown) {
+    // Breakdown side, mirrored: u = -(vj + vbr) plays the role of the forward voltage.
+    const double u_crit = limits.u_crit;
+    const double u_prev = -(previous + d.vbr);
+    const double u_prop = -(proposed + d.vbr);
+    if (u_prop > u_crit && u_prop - u_prev > 2.0 * d.nbr_vt) {
+      const double base = std::max(u_prev, u_crit);
+      if (u_prop > base) return -LogStep(base, u_prop, d.nbr_vt) - d.vbr;
+    }
+    if (u_prev > d.nbr_vt && u_prop < u_prev - 0.5 * d.nbr_vt) {
+      return -FallingStep(u_prev, u_prop, d.ibr, d.log_ibr, d.nbr_vt) - d.vbr;
+    }
+  }
+  return proposed;
+}
 
 }  // namespace knee::internal

@@ -20,10 +20,6 @@ double LogSatRatio(const DiodeModel& model, double temp_celsius) {
   return (model.sat_temp_exp / n) * std::log(t / t0) + (model.bandgap / (n * vt0)) * (1.0 - t0 / t);
 }
 
-// A scale (area*Is(T), area*Ibr) that is a normal double: the law is then scale*(e^x - 1)
-// to an ulp wherever the exponential itself is a double.
-bool NormalScale(double s) { return s >= std::numeric_limits<double>::min() && std::isfinite(s); }
-
 }  // namespace
 
 double SatCurrentAt(const DiodeModel& model, double temp_celsius) {
@@ -46,8 +42,8 @@ DiodeConstants ComputeDiodeConstants(const DiodeModel& model, double area, doubl
   d.is = area * SatCurrentAt(model, temp_celsius);
   // Where area*Is(T) is a normal double its own logarithm is the most consistent value;
   // below (a cold junction, a wide-bandgap part) the closed form.
-  d.log_is =
-      NormalScale(d.is) ? std::log(d.is) : std::log(area) + LogSatCurrentAt(model, temp_celsius);
+  d.log_is = law_detail::NormalScale(d.is) ? std::log(d.is)
+                                           : std::log(area) + LogSatCurrentAt(model, temp_celsius);
   d.n_vt = model.ideality * vt;
   d.rs = model.series_res / area;
   d.has_breakdown = model.breakdown_v.has_value();
@@ -62,59 +58,10 @@ DiodeConstants ComputeDiodeConstants(const DiodeModel& model, double area, doubl
 
 namespace {
 
-// Below this exponent exp() is exactly 0 in double precision (the smallest subnormal is
-// exp(-744.44)); returning 0 directly skips libm's slow underflow path, which a
-// forward-biased diode's breakdown term (exponent about -15000) takes at every step.
-constexpr double kExpUnderflow = -746.0;
-// Below this exponent expm1() is exactly -1 (e^-40 < 2^-54, half an ulp of 1).
-constexpr double kExpm1Saturation = -40.0;
 // Enough for bisection to narrow any bracket of doubles to adjacent numbers.
 constexpr int kJunctionSolveIterations = 200;
 
-// exp(x): 0 below the subnormals, +inf above the largest double.
-double ExpOrZero(double x) { return x < kExpUnderflow ? 0.0 : std::exp(x); }
-
 }  // namespace
-
-JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
-  // Forward term is*(e^x - 1), x = vj/(n*Vt), and its slope is/(n*Vt)*e^x, to an ulp
-  // with one exponential: expm1 near zero bias (the small-signal region, I ~ Is*x),
-  // e^x - 1 where e^x < 0.37 (no cancellation). Where is is below the normal doubles or
-  // e^x beyond them, the term is exp(ln is + x) (the rounding of that sum costs
-  // |ln is + x| ulps, 3e-13 relative at 4 K) and the -is is below its rounding.
-  JunctionPoint p;
-  const double x = vj / d.n_vt;
-  if (NormalScale(d.is) && x <= kLogDoubleMax) {
-    if (x > -1.0) {
-      // e^x = expm1(x) + 1 is exact to an ulp here (expm1 > -0.64).
-      const double m = std::expm1(x);
-      p.current = d.is * m;
-      p.conductance = d.is / d.n_vt * (m + 1.0);
-    } else {
-      const double e = ExpOrZero(x);
-      p.current = d.is * (x < kExpm1Saturation ? -1.0 : e - 1.0);
-      p.conductance = d.is / d.n_vt * e;
-    }
-  } else {
-    const double e = ExpOrZero(d.log_is + x);  // +inf beyond the largest double
-    p.current = e - d.is;
-    p.conductance = e / d.n_vt;
-  }
-  if (d.has_breakdown) {
-    // Breakdown term ibr*e^y, y = -(vj + vbr)/(nbr*Vt), the same way.
-    const double y = -(vj + d.vbr) / d.nbr_vt;
-    if (NormalScale(d.ibr) && y <= kLogDoubleMax) {
-      const double e = ExpOrZero(y);
-      p.current -= d.ibr * e;
-      p.conductance += d.ibr / d.nbr_vt * e;
-    } else {
-      const double term = ExpOrZero(d.log_ibr + y);
-      p.current -= term;
-      p.conductance += term / d.nbr_vt;
-    }
-  }
-  return p;
-}
 
 double LogJunctionCurrent(const DiodeConstants& d, double vj) {
   double log_term = d.log_is + std::max(vj / d.n_vt, 0.0);

@@ -28,6 +28,8 @@ double CriticalVoltage(double i_scale, double log_scale, double n_vt) {
   return n_vt * (std::log(n_vt / std::sqrt(2.0)) - log_scale);
 }
 
+}  // namespace
+
 double LogStep(double base, double proposed, double n_vt) {
   return base + n_vt * std::log1p((proposed - base) / n_vt);
 }
@@ -67,8 +69,6 @@ double FallingStep(double previous, double proposed, double i_scale, double log_
   return std::min(proposed, n_vt * log_ratio);
 }
 
-}  // namespace
-
 JunctionLimits ComputeJunctionLimits(const DiodeConstants& d) {
   JunctionLimits limits;
   limits.v_crit = CriticalVoltage(d.is, d.log_is, d.n_vt);
@@ -78,37 +78,6 @@ JunctionLimits ComputeJunctionLimits(const DiodeConstants& d) {
 
 double LimitJunctionStep(const DiodeConstants& d, double previous, double proposed) {
   return LimitJunctionStep(d, ComputeJunctionLimits(d), previous, proposed);
-}
-
-double LimitJunctionStep(const DiodeConstants& d, const JunctionLimits& limits, double previous,
-                         double proposed) {
-  // Forward side: only rising steps overshoot (Newton on a convex increasing exponential
-  // approached from above never passes the root).
-  const double v_crit = limits.v_crit;
-  if (proposed > v_crit && proposed - previous > 2.0 * d.n_vt) {
-    const double base = std::max(previous, v_crit);
-    if (proposed > base) return LogStep(base, proposed, d.n_vt);
-  }
-  // Only a step of at least half a thermal scale from a forward-biased junction: near
-  // zero bias the law is nearly linear and Newton's step is right (and a step of 1e-17 V
-  // must not count as limited, or a converged point never converges).
-  if (previous > d.n_vt && proposed < previous - 0.5 * d.n_vt) {
-    proposed = FallingStep(previous, proposed, d.is, d.log_is, d.n_vt);
-  }
-  if (d.has_breakdown) {
-    // Breakdown side, mirrored: u = -(vj + vbr) plays the role of the forward voltage.
-    const double u_crit = limits.u_crit;
-    const double u_prev = -(previous + d.vbr);
-    const double u_prop = -(proposed + d.vbr);
-    if (u_prop > u_crit && u_prop - u_prev > 2.0 * d.nbr_vt) {
-      const double base = std::max(u_prev, u_crit);
-      if (u_prop > base) return -LogStep(base, u_prop, d.nbr_vt) - d.vbr;
-    }
-    if (u_prev > d.nbr_vt && u_prop < u_prev - 0.5 * d.nbr_vt) {
-      return -FallingStep(u_prev, u_prop, d.ibr, d.log_ibr, d.nbr_vt) - d.vbr;
-    }
-  }
-  return proposed;
 }
 
 }  // namespace knee::internal

@@ -2,6 +2,9 @@
 // tests and reports can evaluate it without a circuit. See docs/model.md.
 #pragma once
 
+#include <cmath>
+#include <limits>
+
 #include "knee/circuit.h"
 
 namespace knee {
@@ -52,7 +55,7 @@ struct JunctionPoint {
   double current = 0;      // A
   double conductance = 0;  // S
 };
-JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj);
+inline JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj);
 
 // ln of the magnitude of the dominant exponential term of the law at vj (the forward
 // term area*Is(T)*e^(vj/(n*Vt)) or the breakdown term), finite where the current itself
@@ -66,5 +69,67 @@ double LogJunctionCurrent(const DiodeConstants& d, double vj);
 // search then starts without evaluating it again (the same result, bit for bit).
 double JunctionVoltageAt(const DiodeConstants& d, double v, double guess,
                          JunctionPoint* at = nullptr, const JunctionPoint* at_guess = nullptr);
+
+// --- the law's evaluation, in line: every Newton step of every diode calls it ---
+
+namespace law_detail {
+
+// A scale (area*Is(T), area*Ibr) that is a normal double: the law is then scale*(e^x - 1)
+// to an ulp wherever the exponential itself is a double.
+inline bool NormalScale(double s) {
+  return s >= std::numeric_limits<double>::min() && std::isfinite(s);
+}
+// Below this exponent exp() is exactly 0 in double precision (the smallest subnormal is
+// exp(-744.44)); returning 0 directly skips libm's slow underflow path, which a
+// forward-biased diode's breakdown term (exponent about -15000) takes at every step.
+inline constexpr double kExpUnderflow = -746.0;
+// Below this exponent expm1() is exactly -1 (e^-40 < 2^-54, half an ulp of 1).
+inline constexpr double kExpm1Saturation = -40.0;
+// exp(x): 0 below the subnormals, +inf above the largest double.
+inline double ExpOrZero(double x) { return x < kExpUnderflow ? 0.0 : std::exp(x); }
+
+}  // namespace law_detail
+
+inline JunctionPoint EvaluateJunction(const DiodeConstants& d, double vj) {
+  using law_detail::ExpOrZero;
+  using law_detail::NormalScale;
+  // Forward term is*(e^x - 1), x = vj/(n*Vt), and its slope is/(n*Vt)*e^x, to an ulp
+  // with one exponential: expm1 near zero bias (the small-signal region, I ~ Is*x),
+  // e^x - 1 where e^x < 0.37 (no cancellation). Where is is below the normal doubles or
+  // e^x beyond them, the term is exp(ln is + x) (the rounding of that sum costs
+  // |ln is + x| ulps, 3e-13 relative at 4 K) and the -is is below its rounding.
+  JunctionPoint p;
+  const double x = vj / d.n_vt;
+  if (NormalScale(d.is) && x <= kLogDoubleMax) {
+    if (x > -1.0) {
+      // e^x = expm1(x) + 1 is exact to an ulp here (expm1 > -0.64).
+      const double m = std::expm1(x);
+      p.current = d.is * m;
+      p.conductance = d.is / d.n_vt * (m + 1.0);
+    } else {
+      const double e = ExpOrZero(x);
+      p.current = d.is * (x < law_detail::kExpm1Saturation ? -1.0 : e - 1.0);
+      p.conductance = d.is / d.n_vt * e;
+    }
+  } else {
+    const double e = ExpOrZero(d.log_is + x);  // +inf beyond the largest double
+    p.current = e - d.is;
+    p.conductance = e / d.n_vt;
+  }
+  if (d.has_breakdown) {
+    // Breakdown term ibr*e^y, y = -(vj + vbr)/(nbr*Vt), the same way.
+    const double y = -(vj + d.vbr) / d.nbr_vt;
+    if (NormalScale(d.ibr) && y <= kLogDoubleMax) {
+      const double e = ExpOrZero(y);
+      p.current -= d.ibr * e;
+      p.conductance += d.ibr / d.nbr_vt * e;
+    } else {
+      const double term = ExpOrZero(d.log_ibr + y);
+      p.current -= term;
+      p.conductance += term / d.nbr_vt;
+    }
+  }
+  return p;
+}
 
 }  // namespace knee
