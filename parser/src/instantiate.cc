@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <array>
 #include <cctype>
 #include <cmath>
 #include <cstdint>
@@ -15,10 +16,12 @@
 #include <utility>
 
 #include "expr.h"
+#include "file_order.h"
 #include "knee/diagnostics.h"
 #include "knee/diode_law.h"
 #include "knee/netlist.h"
 #include "lexer.h"
+#include "name_table.h"
 #include "numbers.h"
 #include "part_fit.h"
 #include "part_keys.h"
@@ -68,89 +71,9 @@ Span SpanOf(const NetlistData& d, const Definition& def) {
   return Span{};
 }
 
-// The one namespace of elements, nodes, parts and params: an open-addressing table of
-// (name, definition) entries kept in insertion order. Names are views into the parsed
-// statements, which outlive the elaboration; a million-element netlist thus costs one
-// entry and one slot per name, not a heap node and a string copy per name.
-class NameTable {
- public:
-  // The name's text as a pointer and a 32-bit size in 12 bytes aligned to 4, so that an
-  // entry is 24 bytes (a pointer member would pad the key to 16 and the entry to 32; a
-  // std::string_view is 16 on its own).
-  struct Key {
-    unsigned char data[sizeof(const char*)] = {};  // the pointer's bytes
-    std::uint32_t size = 0;
-    Key() = default;
-    Key(std::string_view name)  // NOLINT: a key is written as its name
-        : size(static_cast<std::uint32_t>(name.size())) {
-      const char* at = name.data();
-      std::memcpy(data, &at, sizeof at);
-    }
-    operator std::string_view() const {  // NOLINT
-      const char* at = nullptr;
-      std::memcpy(&at, data, sizeof at);
-      return {at, size};
-    }
-  };
-  static_assert(sizeof(std::pair<Key, Definition>) == 24, "a name table entry is 24 bytes");
-  using Entry = std::pair<Key, Definition>;
-  using iterator = std::vector<Entry>::iterator;
-
-  void reserve(std::size_t n) {
-    entries_.reserve(n);
-    if (n * 2 > slots_.size()) Rehash(n * 2);
-  }
-  iterator begin() { return entries_.begin(); }
-  iterator end() { return entries_.end(); }
-  std::vector<Entry>::const_iterator begin() const { return entries_.begin(); }
-  std::vector<Entry>::const_iterator end() const { return entries_.end(); }
-
-  iterator find(std::string_view name) {
-    if (slots_.empty()) return end();
-    const std::size_t mask = slots_.size() - 1;
-    for (std::size_t s = Hash(name) & mask;; s = (s + 1) & mask) {
-      const std::uint32_t e = slots_[s];
-      if (e == 0) return end();
-      if (std::string_view(entries_[e - 1].first) == name) return entries_.begin() + (e - 1);
-    }
-  }
-  // Inserts (name, def) unless the name is present; the iterator is valid until the next
-  // insertion.
-  std::pair<iterator, bool> try_emplace(std::string_view name, const Definition& def) {
-    if ((entries_.size() + 1) * 2 > slots_.size()) {
-      Rehash(std::max<std::size_t>(16, slots_.size() * 2));
-    }
-    const std::size_t mask = slots_.size() - 1;
-    std::size_t s = Hash(name) & mask;
-    for (;; s = (s + 1) & mask) {
-      const std::uint32_t e = slots_[s];
-      if (e == 0) break;
-      if (std::string_view(entries_[e - 1].first) == name) {
-        return {entries_.begin() + (e - 1), false};
-      }
-    }
-    entries_.emplace_back(name, def);
-    slots_[s] = static_cast<std::uint32_t>(entries_.size());
-    return {entries_.end() - 1, true};
-  }
-
- private:
-  static std::size_t Hash(std::string_view name) { return std::hash<std::string_view>{}(name); }
-  void Rehash(std::size_t at_least) {
-    std::size_t size = 16;
-    while (size < at_least) size *= 2;
-    slots_.assign(size, 0);
-    const std::size_t mask = size - 1;
-    for (std::size_t i = 0; i < entries_.size(); ++i) {
-      std::size_t s = Hash(entries_[i].first) & mask;
-      while (slots_[s] != 0) s = (s + 1) & mask;
-      slots_[s] = static_cast<std::uint32_t>(i + 1);
-    }
-  }
-
-  std::vector<Entry> entries_;
-  std::vector<std::uint32_t> slots_;  // 0: empty, else 1 + index into entries_
-};
+// The one namespace of elements, nodes, parts and params.
+using Names = NameTable<Definition>;
+static_assert(sizeof(Names::Entry) == 24, "a name table entry is 24 bytes");
 
 std::string KindWord(const NetlistData& d, const Definition& def) {
   switch (def.kind) {
@@ -556,7 +479,8 @@ class Elaborator {
 
   // --- names -------------------------------------------------------------------------
 
-  void Define(std::string_view name, DefKind kind, int index, const Span& span) {
+  // `hash` is Names::Hash(name).
+  void Define(std::string_view name, std::size_t hash, DefKind kind, int index, const Span& span) {
     if (IsReserved(name)) {
       Error(span, fmt::format("'{}' is a reserved name; choose another name for this {}", name,
                               kind == DefKind::kParam      ? "param"
@@ -565,7 +489,7 @@ class Elaborator {
                                                            : "element"));
       return;
     }
-    auto [it, inserted] = names_.try_emplace(name, Definition{kind, 0, index, -1});
+    auto [it, inserted] = names_.try_emplace(name, hash, Definition{kind, 0, index, -1});
     if (inserted) return;
     Diagnostic& d =
         Error(span, fmt::format("'{}' is already the name of a {} (line {}); "
@@ -576,37 +500,53 @@ class Elaborator {
          fmt::format("'{}' is defined here as a {}", name, KindWord(d_, it->second)));
   }
 
+  // In file order, so that the later of two definitions is the one reported. Each name's
+  // slot is prefetched a batch ahead of its insertion: in a large table nearly every
+  // insertion starts with a cache miss on a random slot, and a batch waits for all of its
+  // misses at once rather than one after the other.
   void RegisterNames() {
-    struct Item {
-      std::string_view name;
-      DefKind kind;
-      int index;
-      Span span;
+    const std::array<std::size_t, 4> sizes = {d_.params.size(), d_.parts.size(), d_.elements.size(),
+                                              d_.heatsinks.size()};
+    names_.reserve(2 * (sizes[0] + sizes[1] + sizes[2] + sizes[3]));
+    struct Pending {
+      std::size_t list, index, hash;
     };
-    std::vector<Item> items;
-    items.reserve(d_.params.size() + d_.parts.size() + d_.elements.size() + d_.heatsinks.size());
-    for (std::size_t i = 0; i < d_.params.size(); ++i) {
-      items.push_back(
-          {d_.params[i].name, DefKind::kParam, static_cast<int>(i), d_.params[i].name_span});
+    std::array<Pending, 16> batch;
+    std::size_t pending = 0;
+    const auto define_batch = [&] {
+      for (std::size_t j = 0; j < pending; ++j) {
+        const Pending& p = batch[j];
+        Define(NameAt(p.list, p.index), p.hash, kListKinds[p.list], static_cast<int>(p.index),
+               NameSpan(p.list, p.index));
+      }
+      pending = 0;
+    };
+    VisitInFileOrder(
+        sizes, [&](std::size_t list, std::size_t i) { return NameSpan(list, i); },
+        [&](std::size_t list, std::size_t i) {
+          const std::size_t hash = Names::Hash(NameAt(list, i));
+          names_.Prefetch(hash);
+          batch[pending++] = {list, i, hash};
+          if (pending == batch.size()) define_batch();
+        });
+    define_batch();
+  }
+  // The lists of RegisterNames: params, parts, elements, heatsinks.
+  static constexpr std::array<DefKind, 4> kListKinds = {DefKind::kParam, DefKind::kPart,
+                                                        DefKind::kElement, DefKind::kHeatsink};
+  std::string_view NameAt(std::size_t list, std::size_t i) const {
+    switch (list) {
+      case 0:
+        return d_.params[i].name;
+      case 1:
+        return d_.parts[i].name;
+      case 2:
+        return d_.elements[i].name();
     }
-    for (std::size_t i = 0; i < d_.parts.size(); ++i) {
-      items.push_back(
-          {d_.parts[i].name, DefKind::kPart, static_cast<int>(i), d_.parts[i].name_span});
-    }
-    for (std::size_t i = 0; i < d_.elements.size(); ++i) {
-      items.push_back({d_.elements[i].name(), DefKind::kElement, static_cast<int>(i),
-                       d_.elements[i].name_span()});
-    }
-    for (std::size_t i = 0; i < d_.heatsinks.size(); ++i) {
-      items.push_back({d_.heatsinks[i].name, DefKind::kHeatsink, static_cast<int>(i),
-                       d_.heatsinks[i].name_span});
-    }
-    // In file order, so that the later of two definitions is the one reported.
-    std::stable_sort(items.begin(), items.end(), [](const Item& a, const Item& b) {
-      return a.span.line != b.span.line ? a.span.line < b.span.line : a.span.column < b.span.column;
-    });
-    names_.reserve(items.size() * 2);
-    for (const Item& item : items) Define(item.name, item.kind, item.index, item.span);
+    return d_.heatsinks[i].name;
+  }
+  Span NameSpan(std::size_t list, std::size_t i) const {
+    return SpanOf(d_, Definition{kListKinds[list], 0, static_cast<int>(i), -1});
   }
 
   // --- overrides ---------------------------------------------------------------------
@@ -758,7 +698,8 @@ class Elaborator {
       Take(std::move(errors));
       return std::nullopt;
     };
-    const std::string file = v.span.line == 0 ? "" : file_;
+    // A reference, not a copy: this runs once per element, and a long path is an allocation.
+    const std::string& file = v.span.line == 0 ? FileName().str() : file_.str();
     switch (v.kind) {
       case Value::Kind::kLiteral: {
         double out = 0;
@@ -943,6 +884,15 @@ class Elaborator {
 
   // --- the circuit -------------------------------------------------------------------
 
+  // How many element statements ahead BuildCircuit prefetches the slots of their nodes: a
+  // node first named in a large table is a cache miss on a random slot.
+  static constexpr std::size_t kNodePrefetch = 8;
+  void PrefetchNodes(std::size_t statement) const {
+    const ElementStmt& e = d_.elements[statement];
+    names_.Prefetch(Names::Hash(e.node_a()));
+    names_.Prefetch(Names::Hash(e.node_b()));
+  }
+
   // The node at terminal `terminal` (0: node_a, 1: node_b) of element statement `statement`.
   int NodeIndex(std::size_t statement, int terminal, Circuit* circuit) {
     const ElementStmt& e = d_.elements[statement];
@@ -1045,6 +995,7 @@ class Elaborator {
     BuildParts(circuit);
     circuit->elements.reserve(d_.elements.size());
     for (std::size_t i = 0; i < d_.elements.size() && !Full(); ++i) {
+      if (i + kNodePrefetch < d_.elements.size()) PrefetchNodes(i + kNodePrefetch);
       const ElementStmt& s = d_.elements[i];
       Element e;
       e.kind = s.kind;
@@ -1204,7 +1155,7 @@ class Elaborator {
   const FileName file_;  // shared by the location of every element and part
   const Overrides& overrides_;
   std::vector<Diagnostic> errors_;
-  NameTable names_;
+  Names names_;
   std::deque<Value> kept_;  // override values (stable addresses)
   std::map<int, const Value*> param_overrides_;
   std::map<int, const Value*> element_overrides_;
