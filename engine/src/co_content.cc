@@ -2,7 +2,6 @@
 #include "knee/co_content.h"
 
 #include <cmath>
-#include <limits>
 
 namespace knee {
 

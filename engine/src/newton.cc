@@ -24,8 +24,8 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, LinearSolver* klu, const SolverOption
       polisher_(static_cast<size_t>(size)) {}
 
 // Sized on the first Run, not at construction: a cold solve of a monotone network is the
-// potential method's, and a million unknowns make these 40 MB. A sweep sizes them at its
-// first point; the loop then allocates nothing.
+// potential method's, and a million unknowns make these 40 MB. A sweep sizes them again at
+// its first warm point (a cold solve releases them); the loop then allocates nothing.
 void NewtonSolver::SizeVectors() {
   if (dx_.size() == size_) return;
   for (std::vector<double>* v : {&dx_, &saved_x_, &noise_, &minus_f_, &row_tolerance_}) {

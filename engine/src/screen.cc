@@ -27,19 +27,15 @@ void BiasSolver::Impl::Classify() {
   // resistance-free junctions, and so both of its readings, as they were. Its key is kept
   // from the first update on, as last_numbers is: a single bias point never compares it
   // (16 bytes a junction without series resistance).
-  if (!last_numbers) {
-    forced = internal::FindForcedJunctions(*circuit);
-    loop_junctions = internal::LoopJunctions(*circuit);
-    source_graph_read = false;
-    return;
-  }
-  internal::SourceGraphKey(*circuit, &graph_key_scratch);
-  if (!source_graph_read || graph_key_scratch != source_graph_key) {
-    forced = internal::FindForcedJunctions(*circuit);
-    loop_junctions = internal::LoopJunctions(*circuit);
+  const bool keyed = last_numbers.has_value();
+  if (keyed) {
+    internal::SourceGraphKey(*circuit, &graph_key_scratch);
+    if (source_graph_read && graph_key_scratch == source_graph_key) return;
     source_graph_key.swap(graph_key_scratch);
-    source_graph_read = true;
   }
+  forced = internal::FindForcedJunctions(*circuit);
+  loop_junctions = internal::LoopJunctions(*circuit);
+  source_graph_read = keyed;
 }
 
 // The three readings of each element's own numbers (internal::NonMonotoneReason,

@@ -7,9 +7,7 @@
 #include <cctype>
 #include <cmath>
 #include <cstdint>
-#include <cstring>
 #include <deque>
-#include <functional>
 #include <map>
 #include <string_view>
 #include <unordered_map>
