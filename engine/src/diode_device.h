@@ -29,6 +29,7 @@ inline constexpr double kJunctionRounding = 1.1102230246251565e-16;
 // diodes of one part share a single basis instead of 100 bytes each).
 struct DiodeBasis {
   DiodeConstants d;
+  JunctionScales scales;  // ScalesOf(d)
   JunctionLimits limits;
   double resolution_scale = 0.0;  // V: the smaller thermal scale of the junction law
   // The inputs it was computed from (with the part's model).
@@ -94,6 +95,7 @@ class DiodeBases {
   static DiodeBasis Compute(const DiodeModel& model, int part, double area, double temp) {
     DiodeBasis b;
     b.d = ComputeDiodeConstants(model, area, temp);
+    b.scales = ScalesOf(b.d);
     b.limits = ComputeJunctionLimits(b.d);
     b.resolution_scale = b.d.has_breakdown ? std::min(b.d.n_vt, b.d.nbr_vt) : b.d.n_vt;
     b.part = part;
@@ -207,7 +209,7 @@ class Diode final : public Device {
     if (d.rs > 0.0) {
       vj = JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint());
     } else {
-      p = EvaluateJunction(d, v);
+      p = EvaluateJunction(d, v, basis.scales);
     }
     // The logarithms of the law's two terms at vj, before any store the compiler must
     // assume reaches d: the divisions are then those the law's evaluation just made.
@@ -228,14 +230,14 @@ class Diode final : public Device {
     last_vj_ = at;
     // Linearisation at the (possibly limited) junction point `at`, whose terminal voltage
     // is at + rs*I(at), evaluated at v: the exact current when no limiting happened.
-    if (limited_) p = EvaluateJunction(d, at);
+    if (limited_) p = EvaluateJunction(d, at, basis.scales);
     // Without series resistance there is no search to start (vj is v itself).
     if (d.rs > 0.0) {
       last_point_ = p;
       has_last_point_ = true;
     }
     double g = ctx.stiff_junction > 0.0 ? ctx.stiff_junction : p.conductance;
-    if (ctx.junction_floor) g = std::max(g, d.is / d.n_vt);
+    if (ctx.junction_floor) g = std::max(g, basis.scales.forward);
     const double g_exact = basis.TwoTerminal(p.conductance);
     const double i = limited_ ? p.current + g_exact * (v - (at + d.rs * p.current)) : p.current;
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;

@@ -7,6 +7,7 @@
 #include <utility>
 
 #include "check.h"
+#include "pivot_growth.h"
 
 namespace knee::internal {
 
@@ -101,13 +102,18 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   // Old pivots gone bad show as a zero pivot or as large pivot growth. (A small
   // min/max ratio of U's diagonal alone is no reason: diode networks legitimately mix
   // conductances from 1e-25 S to 1e3 S, and fresh pivots would not change that.)
-  if (klu_rcond(h.symbolic, h.numeric, &h.common) == 0 || h.common.rcond == 0.0 ||
-      klu_rgrowth(col_ptr_.data(), row_index_.data(), const_cast<double*>(values.data()),
-                  h.symbolic, h.numeric, &h.common) == 0 ||
-      !(h.common.rgrowth >= kRefactorGrowthFloor)) {
-    return Factor(values);
-  }
-  h.rcond = h.common.rcond;
+  // Both checks are klu_rcond's and klu_rgrowth's, decided in one pass (pivot_growth.h);
+  // klu_rgrowth itself only where the growth is within rounding of the floor.
+  const PivotCheck check = CheckPivots(col_ptr_.data(), row_index_.data(), values.data(),
+                                       *h.symbolic, *h.numeric, kRefactorGrowthFloor);
+  const bool growth_ok =
+      check.growth == GrowthVerdict::kAtLeast ||
+      (check.growth == GrowthVerdict::kTooClose &&
+       klu_rgrowth(col_ptr_.data(), row_index_.data(), const_cast<double*>(values.data()),
+                   h.symbolic, h.numeric, &h.common) != 0 &&
+       h.common.rgrowth >= kRefactorGrowthFloor);
+  if (check.rcond == 0.0 || !growth_ok) return Factor(values);
+  h.rcond = check.rcond;
   return LinearStatus::kOk;
 }
 
