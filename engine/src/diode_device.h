@@ -198,18 +198,24 @@ class Diode final : public Device {
   }
   // The basis changed: the junction point kept for last_vj_ is no longer its law's.
   void ForgetPoint() { has_last_point_ = false; }
-  bool Stamp(StampContext& ctx, const DiodeBasis& basis) {
+  // The law at the terminal voltage of ctx.x: the junction's own point when the diode has
+  // no series resistance (the `law_at_v` that Stamp takes).
+  JunctionPoint LawAtTerminals(const StampContext& ctx, const DiodeBasis& basis) const {
+    return EvaluateJunction(basis.d, ctx.X(pair_.a()) - ctx.X(pair_.b()), basis.scales);
+  }
+  // law_at_v: LawAtTerminals(ctx, basis), read only without series resistance.
+  bool Stamp(StampContext& ctx, const DiodeBasis& basis, const JunctionPoint& law_at_v) {
     const DiodeConstants& d = basis.d;
     const double va = ctx.X(pair_.a()), vb = ctx.X(pair_.b());
     const double v = va - vb;
     JunctionPoint p;
     // Without series resistance the junction voltage is v itself (as JunctionVoltageAt
-    // gives it), the law evaluated once, in line: the ladder's diodes are all such.
+    // gives it), and the law at v is the caller's: the ladder's diodes are all such.
     double vj = v;
     if (d.rs > 0.0) {
       vj = JunctionVoltageAt(d, v, last_vj_, &p, KnownPoint());
     } else {
-      p = EvaluateJunction(d, v, basis.scales);
+      p = law_at_v;
     }
     // The logarithms of the law's two terms at vj, before any store the compiler must
     // assume reaches d: the divisions are then those the law's evaluation just made.
