@@ -266,7 +266,7 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
   // One chain from constants to keys per basis (its logs and exps), not per diode, and
   // the part keys' sums per basis, multiplied out once at the end.
   std::vector<ConstantJacobian> jacobians;
-  std::vector<ConstantSlopes> sums;
+  std::vector<ConstantSlopes> sums, area_slopes;
   std::vector<char> known;
   Arrays::ForEach(a, [&](const auto& device) {
     if constexpr (kIsDiode<decltype(device)>) {
@@ -274,15 +274,17 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
       if (k >= jacobians.size()) {
         jacobians.resize(k + 1);
         sums.resize(k + 1, ConstantSlopes{});
+        area_slopes.resize(k + 1, ConstantSlopes{});
         known.resize(k + 1, 0);
       }
       const DiodeBasis& basis = a.diode_bases[device.basis()];
       if (known[k] == 0) {
         jacobians[k] = ComputeConstantJacobian(circuit.parts[static_cast<size_t>(basis.part)].model,
                                                basis.area, basis.temp);
+        area_slopes[k] = ConstantsAreaSlopes(basis.d, basis.area);
         known[k] = 1;
       }
-      device.AddSensitivity(x, lambda, basis, jacobians[k], &sums[k], gradient);
+      device.AddSensitivity(x, lambda, basis, jacobians[k], area_slopes[k], &sums[k], gradient);
     } else {
       device.AddSensitivity(x, lambda, gradient);
     }

@@ -279,17 +279,19 @@ class Diode final : public Device {
   }
   // F carries the diode's current I(v; c) on its incidence w: -lambda^T dF/dc =
   // -(w . lambda) dI/dc at fixed v (LocalSlopes). The area and temperature take their
-  // share here; the part keys, common to the basis, are added to *basis_sum.
+  // share here; the part keys, common to the basis, are added to *basis_sum. `jacobian`
+  // and `area` (ConstantsAreaSlopes) are the basis's.
   void AddSensitivity(std::span<const double> x, std::span<const double> lambda,
                       const DiodeBasis& basis, const ConstantJacobian& jacobian,
-                      ConstantSlopes* basis_sum, CircuitGradient* gradient) const {
+                      const ConstantSlopes& area, ConstantSlopes* basis_sum,
+                      CircuitGradient* gradient) const {
     // Where the adjoint vanishes the diode adds exact zeros: its slopes (the costly part,
     // a junction law evaluation) are not needed. The adjoint of one quantity of a large
     // network is zero on most devices once it decays below the smallest normal number.
     const double across = pair_.Dot(lambda);
     if (across == 0.0) return;
-    const ConstantSlopes di = CurrentSlopes(basis.d, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
-    const ConstantSlopes area = ConstantsAreaSlopes(basis.d, basis.area);
+    const ConstantSlopes di =
+        CurrentSlopes(basis.d, basis.scales, At(x, pair_.a()) - At(x, pair_.b()), last_vj_);
     double d_area = 0.0, d_temp = 0.0;
     for (size_t c = 0; c < di.size(); ++c) {
       const double s = -across * di[c];

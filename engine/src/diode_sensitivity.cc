@@ -16,16 +16,20 @@ namespace {
 struct SplitPoint {
   JunctionPoint forward, breakdown;
 };
-SplitPoint Split(const DiodeConstants& d, double vj) {
+// `scales` is ScalesOf(d): the forward law's scale is its forward one, the mirrored law's
+// its breakdown one.
+SplitPoint Split(const DiodeConstants& d, const JunctionScales& scales, double vj) {
   DiodeConstants forward = d;
   forward.has_breakdown = false;
   SplitPoint s;
-  s.forward = EvaluateJunction(forward, vj);
+  s.forward = EvaluateJunction(forward, vj, JunctionScales{scales.forward, 0.0});
   if (d.has_breakdown) {
     DiodeConstants mirrored;
     mirrored.is = d.ibr;
     mirrored.n_vt = d.nbr_vt;
-    const double g = EvaluateJunction(mirrored, -(vj + d.vbr)).conductance;
+    const double g =
+        EvaluateJunction(mirrored, -(vj + d.vbr), JunctionScales{scales.breakdown, 0.0})
+            .conductance;
     s.breakdown = {-g * d.nbr_vt, g};
   }
   return s;
@@ -36,7 +40,7 @@ SplitPoint Split(const DiodeConstants& d, double vj) {
 DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
   DiodeLocalSlopes s;
   s.vj = JunctionVoltageAt(d, v, guess);
-  const SplitPoint split = Split(d, s.vj);
+  const SplitPoint split = Split(d, ScalesOf(d), s.vj);
   const double i_f = split.forward.current, g_f = split.forward.conductance;
   const double i_b = split.breakdown.current, g_b = split.breakdown.conductance;
   const double i = i_f + i_b;
@@ -92,12 +96,18 @@ DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
 }
 
 ConstantSlopes CurrentSlopes(const DiodeConstants& d, double v, double guess) {
+  return CurrentSlopes(d, ScalesOf(d), v, guess);
+}
+
+ConstantSlopes CurrentSlopes(const DiodeConstants& d, const JunctionScales& scales, double v,
+                             double guess) {
   const double vj = JunctionVoltageAt(d, v, guess);
-  const SplitPoint split = Split(d, vj);
+  const SplitPoint split = Split(d, scales, vj);
   const double g = split.forward.conductance + split.breakdown.conductance;
   const double i = split.forward.current + split.breakdown.current;
   // As LocalSlopes: the partials at fixed vj over 1 + rs g, and -g I/(1 + rs g) for rs.
-  const double scale = 1.0 / (1.0 + d.rs * g);
+  // Without series resistance the quotient is 1/(1 + 0*g) = 1 exactly (g is finite).
+  const double scale = d.rs == 0.0 && std::isfinite(g) ? 1.0 : 1.0 / (1.0 + d.rs * g);
   ConstantSlopes di{};
   di[kIs] = split.forward.current / d.is * scale;
   di[kNVt] = -split.forward.conductance * vj / d.n_vt * scale;

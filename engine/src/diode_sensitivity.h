@@ -27,6 +27,9 @@ struct DiodeLocalSlopes {
 DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess);
 // LocalSlopes' di alone: what the devices' pass needs for every diode.
 ConstantSlopes CurrentSlopes(const DiodeConstants& d, double v, double guess);
+// The same with the law's scales ScalesOf(d) known (the same numbers, fewer divisions).
+ConstantSlopes CurrentSlopes(const DiodeConstants& d, const JunctionScales& scales, double v,
+                             double guess);
 
 // d(constant)/d(part key) and d(constant)/d(temperature, degC) of one diode (part model,
 // area, temperature); the area's column is ConstantsAreaSlopes (it needs only d).
