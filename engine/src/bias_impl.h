@@ -49,6 +49,8 @@ struct BiasSolver::Impl {
   internal::SolveTuning tuning;  // derived from options (tuning.h)
   internal::MnaSystem mna;
   internal::KluSolver klu;
+  // `klu` and `probe` read mna's pattern (KluSolver::AnalyzeBorrowed): every rebuild of
+  // mna analyses `klu` again and resets `probe`.
   // LooseNodes' own factors of the exact Jacobian, made on first need: fresh pivots in
   // `klu` would make every later refactor of the run depend on where that check fell
   // (a sweep's output would then depend on how its points are shared among threads).
@@ -157,7 +159,8 @@ struct BiasSolver::Impl {
   }
   std::optional<std::string> Analyze() {
     if (mna.size() == 0) return std::string("the circuit has no unknowns to solve for");
-    if (klu.Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != internal::LinearStatus::kOk) {
+    if (klu.AnalyzeBorrowed(mna.size(), mna.col_ptr(), mna.row_index()) !=
+        internal::LinearStatus::kOk) {
       return "cannot order the circuit matrix: " + klu.message();
     }
     return std::nullopt;
