@@ -133,9 +133,11 @@ AnalysisResult AnalyzeBias(const LoadedDesign& loaded, const std::vector<Quantit
     return result;
   }
   (*solver)->set_trace(options.trace);
+  (*solver)->set_single_point(true);
   Solution solution;
   SolveSummary summary = (*solver)->Solve(&solution);
   if (options.trace) PrintTrace(**solver);
+  solver->reset();  // what follows reads the solution and the circuit only
 
   report.account = BiasPointAccount(summary, options.solver);
 

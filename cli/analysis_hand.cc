@@ -96,6 +96,7 @@ int RunHand(const std::string& file, AnalysisOptions options) {
     PrintDiagnostics(solver.errors(), loaded->source);
     return static_cast<int>(ExitStatus::kBadInput);
   }
+  (*solver)->set_single_point(true);
   Solution exact;
   const SolveSummary summary = (*solver)->Solve(&exact);
   const bool exact_ok = summary.status == SolveStatus::kConverged;

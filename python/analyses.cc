@@ -78,6 +78,7 @@ BiasResult SolveBias(StatePtr state, std::vector<QuantityExpr> show, const Solve
   const Circuit& circuit = result.state->design.circuit;
   Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options);
   if (!solver) RaiseNetlistError(solver.errors(), result.state->source);
+  (*solver)->set_single_point(true);
   {
     py::gil_scoped_release release;
     result.summary = (*solver)->Solve(&result.solution);
@@ -233,6 +234,7 @@ HandComparison CompareHand(StatePtr state, std::vector<QuantityExpr> show,
   Result<std::unique_ptr<BiasSolver>> solver = BiasSolver::Create(circuit, options);
   if (!solver) RaiseNetlistError(solver.errors(), result.state->source);
 
+  (*solver)->set_single_point(true);
   py::gil_scoped_release release;
   Solution exact;
   result.exact = (*solver)->Solve(&exact);

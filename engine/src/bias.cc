@@ -198,6 +198,7 @@ Status BiasSolver::Impl::Gradient(std::span<const WeightedQuantity> quantity,
   if (!m.last_converged || m.converged.size() != m.x.size()) {
     return MessageOnly("no converged solution to differentiate");
   }
+  m.RestoreMatrix();  // its factors are gone after a single point: the adjoint's own serve
   if (!m.adjoint) m.adjoint = std::make_unique<internal::AdjointWorkspace>();
   std::string problem = internal::ComputeSensitivity(*m.circuit, m.mna, m.klu, m.factors_exact,
                                                      m.converged, quantity, *m.adjoint, gradient);
@@ -215,6 +216,7 @@ int BiasSolver::unknown_count() const {
 }
 void BiasSolver::set_trace(bool on) { impl_->trace_on = on; }
 void BiasSolver::set_describe_converged(bool on) { impl_->describe_converged = on; }
+void BiasSolver::set_single_point(bool on) { impl_->single_point = on; }
 const std::vector<NewtonStepRecord>& BiasSolver::trace() const { return impl_->trace; }
 
 }  // namespace knee

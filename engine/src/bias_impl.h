@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "adjoint.h"
+#include "check.h"
 #include "disjoint_set.h"
 #include "forced_junctions.h"
 #include "klu_solver.h"
@@ -48,6 +49,8 @@ struct BiasSolver::Impl {
   internal::SolveTuning tuning;  // derived from options (tuning.h)
   internal::MnaSystem mna;
   internal::KluSolver klu;
+  // `klu` and `probe` read mna's pattern (KluSolver::AnalyzeBorrowed): every rebuild of
+  // mna analyses `klu` again and resets `probe`.
   // LooseNodes' own factors of the exact Jacobian, made on first need: fresh pivots in
   // `klu` would make every later refactor of the run depend on where that check fell
   // (a sweep's output would then depend on how its points are shared among threads).
@@ -88,6 +91,7 @@ struct BiasSolver::Impl {
   bool rerooted = false;       // mna's islands are rooted by a solution (RerootIslands)
   double junction_span = 0.0;  // V, the junctions' span (ReadElements)
   bool trace_on = false;
+  bool single_point = false;  // BiasSolver::set_single_point
   // BiasSolver::set_describe_converged; when off, a converged warm-start run leaves its
   // numbers in deferred_note and the detail empty until a later stage needs the text
   // (DescribeDeferred).
@@ -155,7 +159,8 @@ struct BiasSolver::Impl {
   }
   std::optional<std::string> Analyze() {
     if (mna.size() == 0) return std::string("the circuit has no unknowns to solve for");
-    if (klu.Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != internal::LinearStatus::kOk) {
+    if (klu.AnalyzeBorrowed(mna.size(), mna.col_ptr(), mna.row_index()) !=
+        internal::LinearStatus::kOk) {
       return "cannot order the circuit matrix: " + klu.message();
     }
     return std::nullopt;
@@ -212,9 +217,18 @@ struct BiasSolver::Impl {
   // more than any diode could is out of range (forced_junctions.h).
   void CheckLoopJunctions(SolveSummary* s);
   void Fill(Solution* solution) const;
-  // Frees the vectors that only the iterations and the post-solve tests use (each is
+  // Frees the vectors that only the iterations and the loose-node test use (each is
   // sized again on its next use).
-  void ReleaseWorkspaces();
+  void ReleaseIterationWorkspaces();
+  // Frees KLU's symbolic and numeric objects and the MNA's assembly arrays: what only a
+  // later solve or gradient reads, which RestoreMatrix() makes again (set_single_point).
+  void ReleaseMatrix();
+  void RestoreMatrix() {
+    if (!mna.buffers_released()) return;
+    mna.RestoreBuffers();
+    const auto problem = Analyze();
+    KNEE_CHECK(!problem);  // the same pattern was analysed before its release
+  }
   // The nodes a verified answer leaves undetermined (undetermined.h), from the exact
   // Jacobian that Verify assembled at x.
   void NameUndetermined(SolveSummary* s) {

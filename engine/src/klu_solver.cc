@@ -61,13 +61,26 @@ LinearStatus KluSolver::Classify(int status, const char* call) {
 
 LinearStatus KluSolver::Analyze(int n, std::span<const int> col_ptr,
                                 std::span<const int> row_index) {
+  col_ptr_copy_.assign(col_ptr.begin(), col_ptr.end());
+  row_index_copy_.assign(row_index.begin(), row_index.end());
+  return Order(n, col_ptr_copy_, row_index_copy_);
+}
+
+LinearStatus KluSolver::AnalyzeBorrowed(int n, std::span<const int> col_ptr,
+                                        std::span<const int> row_index) {
+  std::vector<int>().swap(col_ptr_copy_);
+  std::vector<int>().swap(row_index_copy_);
+  return Order(n, col_ptr, row_index);
+}
+
+LinearStatus KluSolver::Order(int n, std::span<const int> col_ptr, std::span<const int> row_index) {
   KNEE_CHECK(static_cast<int>(col_ptr.size()) == n + 1);
-  col_ptr_.assign(col_ptr.begin(), col_ptr.end());
-  row_index_.assign(row_index.begin(), row_index.end());
+  col_ptr_ = col_ptr;
+  row_index_ = row_index;
   Handles& h = *handles_;
   h.FreeNumeric();
   if (h.symbolic != nullptr) klu_free_symbolic(&h.symbolic, &h.common);
-  h.symbolic = klu_analyze(n, col_ptr_.data(), row_index_.data(), &h.common);
+  h.symbolic = klu_analyze(n, ColPtr(), RowIndex(), &h.common);
   if (h.symbolic == nullptr) {
     const LinearStatus s = Classify(h.common.status, "klu_analyze");
     return s == LinearStatus::kOk ? LinearStatus::kFatal : s;
@@ -81,8 +94,8 @@ LinearStatus KluSolver::Factor(std::span<const double> values) {
   h.FreeNumeric();
   ++full_factorizations_;
   // KLU does not modify the arrays; its C interface is not const-qualified.
-  h.numeric = klu_factor(col_ptr_.data(), row_index_.data(), const_cast<double*>(values.data()),
-                         h.symbolic, &h.common);
+  h.numeric =
+      klu_factor(ColPtr(), RowIndex(), const_cast<double*>(values.data()), h.symbolic, &h.common);
   if (h.numeric == nullptr || h.common.status != KLU_OK) {
     h.FreeNumeric();  // an incomplete factorisation must not be refactored later
     const LinearStatus s = Classify(h.common.status, "klu_factor");
@@ -96,22 +109,21 @@ LinearStatus KluSolver::Refactor(std::span<const double> values) {
   if (h.numeric == nullptr) return Factor(values);
   KNEE_CHECK(values.size() == row_index_.size());
   h.rcond = -1.0;
-  const int ok = klu_refactor(col_ptr_.data(), row_index_.data(),
-                              const_cast<double*>(values.data()), h.symbolic, h.numeric, &h.common);
+  const int ok = klu_refactor(ColPtr(), RowIndex(), const_cast<double*>(values.data()), h.symbolic,
+                              h.numeric, &h.common);
   if (ok == 0 || h.common.status != KLU_OK) return Factor(values);
   // Old pivots gone bad show as a zero pivot or as large pivot growth. (A small
   // min/max ratio of U's diagonal alone is no reason: diode networks legitimately mix
   // conductances from 1e-25 S to 1e3 S, and fresh pivots would not change that.)
   // Both checks are klu_rcond's and klu_rgrowth's, decided in one pass (pivot_growth.h);
   // klu_rgrowth itself only where the growth is within rounding of the floor.
-  const PivotCheck check = CheckPivots(col_ptr_.data(), row_index_.data(), values.data(),
-                                       *h.symbolic, *h.numeric, kRefactorGrowthFloor);
-  const bool growth_ok =
-      check.growth == GrowthVerdict::kAtLeast ||
-      (check.growth == GrowthVerdict::kTooClose &&
-       klu_rgrowth(col_ptr_.data(), row_index_.data(), const_cast<double*>(values.data()),
-                   h.symbolic, h.numeric, &h.common) != 0 &&
-       h.common.rgrowth >= kRefactorGrowthFloor);
+  const PivotCheck check = CheckPivots(ColPtr(), RowIndex(), values.data(), *h.symbolic, *h.numeric,
+                                       kRefactorGrowthFloor);
+  const bool growth_ok = check.growth == GrowthVerdict::kAtLeast ||
+                         (check.growth == GrowthVerdict::kTooClose &&
+                          klu_rgrowth(ColPtr(), RowIndex(), const_cast<double*>(values.data()),
+                                      h.symbolic, h.numeric, &h.common) != 0 &&
+                          h.common.rgrowth >= kRefactorGrowthFloor);
   if (check.rcond == 0.0 || !growth_ok) return Factor(values);
   h.rcond = check.rcond;
   return LinearStatus::kOk;

@@ -23,6 +23,11 @@ class KluSolver final : public LinearSolver {
   // Orders the n x n CSC pattern (copied). Must precede Factor.
   LinearStatus Analyze(int n, std::span<const int> col_ptr,
                        std::span<const int> row_index) override;
+  // The same without the copy: every later factorisation reads the caller's arrays, which
+  // must stay alive and unchanged until the next Analyze or the solver's end (the MNA
+  // system's pattern, for factors that a rebuilt system analyses again; a million-unknown
+  // pattern is 16 MB).
+  LinearStatus AnalyzeBorrowed(int n, std::span<const int> col_ptr, std::span<const int> row_index);
   // Full factorisation with fresh pivots.
   LinearStatus Factor(std::span<const double> values) override;
   // Reuses the pivots of the last full factorisation; falls back to Factor when KLU
@@ -49,8 +54,13 @@ class KluSolver final : public LinearSolver {
  private:
   struct Handles;
   LinearStatus Classify(int status, const char* call);
+  LinearStatus Order(int n, std::span<const int> col_ptr, std::span<const int> row_index);
+  // KLU does not modify the pattern; its C interface is not const-qualified.
+  int* ColPtr() const { return const_cast<int*>(col_ptr_.data()); }
+  int* RowIndex() const { return const_cast<int*>(row_index_.data()); }
   std::unique_ptr<Handles> handles_;
-  std::vector<int> col_ptr_, row_index_;
+  std::vector<int> col_ptr_copy_, row_index_copy_;  // Analyze's copy (empty when borrowed)
+  std::span<const int> col_ptr_, row_index_;        // the pattern analysed
   std::string message_;
   int full_factorizations_ = 0;
 };

@@ -53,7 +53,7 @@ std::vector<int> BiasSolver::Impl::LooseNodes(const SolverOptions& o, bool round
   if (!solved) {
     if (!probe) {
       probe.emplace();
-      if (probe->Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
+      if (probe->AnalyzeBorrowed(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
         probe.reset();
       }
     }
@@ -162,6 +162,9 @@ void BiasSolver::Impl::ResolveFaintNodes(SolveSummary* s) {
     }
     tight.abs_current_tol = std::max(std::min(0.1 * scale * tight.abs_current_tol, 0.1 * weakest),
                                      tuning.loose.current_floor);
+    // Only LooseNodes reads the spread, and it sizes it again: a cold solve (which sizes
+    // every workspace anyway) does not hold it beside the run's own vectors.
+    if (!warm()) std::vector<double>().swap(spread);
     NewtonOutcome out =
         newton.Run(AssemblyAids{}, "newton (loose nodes)", x, trace_on ? &trace : nullptr, tight);
     s->newton_steps += out.steps;

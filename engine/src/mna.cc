@@ -208,6 +208,7 @@ void MnaSystem::IndexIslands(const Circuit& c) {
 
 void MnaSystem::SizeBuffers() {
   const int n = size();
+  exact_valid_ = false;
   values_.assign(row_index_.size(), 0.0);
   exact_x_.assign(static_cast<size_t>(n), 0.0);
   residual_.assign(static_cast<size_t>(n), 0.0);
@@ -220,6 +221,14 @@ void MnaSystem::SizeBuffers() {
     node_magnitude_.assign(static_cast<size_t>(kcl_rows_), 0.0);
     node_kcl_.assign(static_cast<size_t>(kcl_rows_), 0.0);
   }
+}
+
+void MnaSystem::ReleaseBuffers() {
+  for (std::vector<double>* v : {&values_, &exact_x_, &residual_, &flow_, &magnitude_, &node_flow_,
+                                 &node_magnitude_, &node_kcl_}) {
+    std::vector<double>().swap(*v);
+  }
+  exact_valid_ = false;
 }
 
 std::string MnaSystem::UnknownName(int u) const {

@@ -118,6 +118,13 @@ class MnaSystem {
   AssemblyOutcome AssembleExact(std::span<const double> x);
   // Start of a Newton run from x (forgets the junctions' previous evaluation points).
   void BeginRun(std::span<const double> x);
+  // Frees the arrays that an assembly fills (the Jacobian's values, the residual and its
+  // sums) once nothing reads them again; the pattern and the devices stay, so the
+  // devices still measure a solution. RestoreBuffers() sizes them again before the next
+  // assembly.
+  void ReleaseBuffers();
+  bool buffers_released() const { return values_.size() != row_index_.size(); }
+  void RestoreBuffers() { SizeBuffers(); }
 
   // True when `circuit` has the same unknowns and pattern as the one built from.
   bool StructureMatches(const Circuit& circuit) const;

@@ -24,13 +24,13 @@ NewtonSolver::NewtonSolver(MnaSystem* mna, LinearSolver* klu, const SolverOption
       polisher_(static_cast<size_t>(size)) {}
 
 // Sized on the first Run, not at construction: a cold solve of a monotone network is the
-// potential method's, and a million unknowns make these 40 MB. A sweep sizes them again at
+// potential method's, and a million unknowns make these 24 MB. A sweep sizes them again at
 // its first warm point (a cold solve releases them); the loop then allocates nothing.
+// RefineStep's two are sized on its first call (most circuits never refine a step), as
+// regularized_ is on the first singular step.
 void NewtonSolver::SizeVectors() {
   if (dx_.size() == size_) return;
-  for (std::vector<double>* v : {&dx_, &saved_x_, &noise_, &minus_f_, &row_tolerance_}) {
-    v->assign(size_, 0.0);
-  }
+  for (std::vector<double>* v : {&dx_, &saved_x_, &noise_}) v->assign(size_, 0.0);
 }
 
 void NewtonSolver::ReleaseWorkspace() {
@@ -234,6 +234,10 @@ LinearStatus NewtonSolver::SolveRegularized(std::span<double> dx) {
 void NewtonSolver::RefineStep(std::span<double> dx) {
   const auto f = mna_->residual();
   const auto flow = mna_->flow();
+  if (minus_f_.size() != size_) {
+    minus_f_.resize(size_);  // each element written below before it is read
+    row_tolerance_.resize(size_);
+  }
   for (int r = 0; r < mna_->size(); ++r) {
     const auto i = static_cast<size_t>(r);
     minus_f_[i] = -f[i];

@@ -126,6 +126,7 @@ void BiasSolver::Impl::BeginSolve(std::span<const double> start_point) {
     Rebuild({});
     rerooted = false;
   }
+  RestoreMatrix();
   SetVoltageBound();
   start = start_point;
 }

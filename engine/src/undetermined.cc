@@ -65,7 +65,7 @@ std::vector<int> UndeterminedTest::Run(const Circuit& circuit, const MnaSystem& 
   if (!solved) {
     if (!probe) {
       probe.emplace();
-      if (probe->Analyze(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
+      if (probe->AnalyzeBorrowed(mna.size(), mna.col_ptr(), mna.row_index()) != LinearStatus::kOk) {
         probe.reset();
       }
     }

@@ -39,7 +39,8 @@ class UndeterminedTest {
   // factors of the run that converged; they are used when `run_exact` (the exact model's
   // Jacobian one step from x), else `probe` gets fresh factors of mna's values (made on
   // first need, so that fresh pivots in `run` do not make later refactors depend on where
-  // the test fell). When no factors solve (a Jacobian singular at x), the test reads the
+  // the test fell; it then reads mna's pattern, KluSolver::AnalyzeBorrowed, so must not
+  // outlive mna). When no factors solve (a Jacobian singular at x), the test reads the
   // network's graph instead (UntiedByLatitude).
   std::vector<int> Run(const Circuit& circuit, const MnaSystem& mna, std::span<const double> x,
                        const SolverOptions& options, KluSolver& run, bool run_exact,

@@ -228,6 +228,13 @@ class BiasSolver {
   // text. Sweeps and spreads, which show no detail for their converged points, turn it
   // off: formatting it was a tenth of a small circuit's point.
   void set_describe_converged(bool on);
+  // For a caller that solves one point and then reads only its solution, unknowns() and
+  // trace(): on. Each Solve() then frees KLU's factors and the MNA matrix before it fills
+  // the solution (a million-unknown network: about 200 MB less at the end of the solve).
+  // A later Solve() or Sensitivity() makes them again; its factors are then fresh ones,
+  // so its last bits may differ from those of a solver that kept them. Heated circuits
+  // keep them (their balance solves and differentiates many points). Off by default.
+  void set_single_point(bool on);
   const std::vector<NewtonStepRecord>& trace() const;
 
  private:
