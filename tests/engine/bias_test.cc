@@ -479,7 +479,9 @@ TEST(BiasSolverApi, ConvergedDetailLeftOutOnRequestOnly) {
 
 // The numbers of a solution, bit for bit (NaN where NaN).
 bool SameBits(const std::vector<double>& a, const std::vector<double>& b) {
-  return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0;
+  // memcmp may not be handed the null data() of an empty vector.
+  return a.size() == b.size() &&
+         (a.empty() || std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0);
 }
 
 void ExpectSameSolution(const Solution& a, const Solution& b) {
