@@ -116,9 +116,9 @@ struct StampContext {
   // The potential method's Hessian modification: every junction stamps at least its
   // zero-bias conductance Is/(n*Vt) into the Jacobian (residual and potential exact).
   bool junction_floor = false;
-  // Out: the largest logarithm of a junction law's exponential term at x (forward
-  // ln(is) + vj/(n*Vt), breakdown ln(ibr) - (vj+Vbr)/(nbr*Vt)), ln A; the potential
-  // method keeps trial points below a cap on it.
+  // Out, when want_potential: the largest logarithm of a junction law's exponential term
+  // at x (forward ln(is) + vj/(n*Vt), breakdown ln(ibr) - (vj+Vbr)/(nbr*Vt)), ln A; the
+  // potential method keeps trial points below a cap on it. Otherwise left as it is.
   double max_log_current = -1e300;
   double potential = 0.0;            // W
   double potential_magnitude = 0.0;  // W

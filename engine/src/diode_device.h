@@ -217,10 +217,15 @@ class Diode final : public Device {
     } else {
       p = law_at_v;
     }
-    // The logarithms of the law's two terms at vj, before any store the compiler must
-    // assume reaches d: the divisions are then those the law's evaluation just made.
-    const double log_forward = d.log_is + vj / d.n_vt;
-    const double log_breakdown = d.has_breakdown ? d.log_ibr - (vj + d.vbr) / d.nbr_vt : 0.0;
+    // The logarithms of the law's two terms at vj, which only the potential method reads
+    // (its cap on trial points), taken before any store the compiler must assume reaches
+    // d: the divisions are then those the law's evaluation just made, where it was in
+    // line. A Newton assembly makes none of them.
+    double log_forward = 0.0, log_breakdown = 0.0;
+    if (ctx.want_potential) {
+      log_forward = d.log_is + vj / d.n_vt;
+      if (d.has_breakdown) log_breakdown = d.log_ibr - (vj + d.vbr) / d.nbr_vt;
+    }
     // vj comes from a difference of two node voltages. Where their rounding reaches a
     // thousandth of the junction's thermal scale (node voltages near 1e11 V), the numbers
     // no longer determine the diode's current at all, whatever the KCL residual says:
@@ -247,8 +252,10 @@ class Diode final : public Device {
     const double g_exact = basis.TwoTerminal(p.conductance);
     const double i = limited_ ? p.current + g_exact * (v - (at + d.rs * p.current)) : p.current;
     if (!std::isfinite(i) || !std::isfinite(p.conductance)) return false;
-    ctx.max_log_current = std::max(ctx.max_log_current, log_forward);
-    if (d.has_breakdown) ctx.max_log_current = std::max(ctx.max_log_current, log_breakdown);
+    if (ctx.want_potential) {
+      ctx.max_log_current = std::max(ctx.max_log_current, log_forward);
+      if (d.has_breakdown) ctx.max_log_current = std::max(ctx.max_log_current, log_breakdown);
+    }
     stamped_g_ = basis.TwoTerminal(g);
     pair_.Stamp(ctx, stamped_g_);
     // Rounding of v itself moves the current by G * eps * (|v(a)| + |v(b)|); the law's own

@@ -33,7 +33,7 @@ struct AssemblyOutcome {
   int unresolved_element = -1;       // a diode whose junction voltage rounding hides
   double potential = 0.0;            // W, co-content at x (when want_potential)
   double potential_magnitude = 0.0;  // W, sum of the magnitudes of its terms
-  double max_log_current = -1e300;   // ln A, largest junction-law term at x (devices.h)
+  double max_log_current = -1e300;   // ln A, largest junction-law term (want_potential)
 };
 
 class MnaSystem {
