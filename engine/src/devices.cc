@@ -188,43 +188,25 @@ int DeviceStore::Stamp(StampContext& ctx) {
   constexpr size_t kLawBatch = 32;
   std::array<JunctionPoint, kLawBatch> laws;
   size_t batch_begin = 0, batch_end = 0;  // laws[k - batch_begin] for diodes [begin, end)
-  size_t r = 0, v = 0, i = 0, d = 0;
-  for (const ElementKind kind : a.order) {
-    switch (kind) {
-      case ElementKind::kResistor: {
-        Resistor& device = a.resistors[r++];
-        if (!device.Stamp(ctx) && bad < 0) bad = device.element();
-        break;
-      }
-      case ElementKind::kVoltageSource: {
-        VoltageSource& device = a.vsources[v++];
-        if (!device.Stamp(ctx) && bad < 0) bad = device.element();
-        break;
-      }
-      case ElementKind::kCurrentSource: {
-        CurrentSource& device = a.isources[i++];
-        if (!device.Stamp(ctx) && bad < 0) bad = device.element();
-        break;
-      }
-      case ElementKind::kDiode: {
-        if (d == batch_end) {
-          batch_begin = d;
-          batch_end = std::min(d + kLawBatch, a.diodes.size());
-          for (size_t k = batch_begin; k < batch_end; ++k) {
-            const Diode& ahead = a.diodes[k];
-            const DiodeBasis& basis = a.diode_bases[ahead.basis()];
-            if (!(basis.d.rs > 0.0)) laws[k - batch_begin] = ahead.LawAtTerminals(ctx, basis);
-          }
+  Arrays::ForEach(a, [&](auto& device) {
+    bool ok = true;
+    if constexpr (kIsDiode<decltype(device)>) {
+      const auto d = static_cast<size_t>(&device - a.diodes.data());
+      if (d == batch_end) {
+        batch_begin = d;
+        batch_end = std::min(d + kLawBatch, a.diodes.size());
+        for (size_t k = batch_begin; k < batch_end; ++k) {
+          const Diode& ahead = a.diodes[k];
+          const DiodeBasis& basis = a.diode_bases[ahead.basis()];
+          if (!(basis.d.rs > 0.0)) laws[k - batch_begin] = ahead.LawAtTerminals(ctx, basis);
         }
-        Diode& device = a.diodes[d];
-        if (!device.Stamp(ctx, a.diode_bases[device.basis()], laws[d - batch_begin]) && bad < 0) {
-          bad = device.element();
-        }
-        ++d;
-        break;
       }
+      ok = device.Stamp(ctx, a.diode_bases[device.basis()], laws[d - batch_begin]);
+    } else {
+      ok = device.Stamp(ctx);
     }
-  }
+    if (!ok && bad < 0) bad = device.element();
+  });
   return bad;
 }
 
@@ -265,36 +247,36 @@ void DeviceStore::AddSensitivity(const Circuit& circuit, std::span<const double>
   const Arrays& a = *arrays_;
   // One chain from constants to keys per basis (its logs and exps), not per diode, and
   // the part keys' sums per basis, multiplied out once at the end.
-  std::vector<ConstantJacobian> jacobians;
-  std::vector<ConstantSlopes> sums, area_slopes;
-  std::vector<char> known;
+  struct BasisTerms {
+    bool known = false;
+    ConstantJacobian jacobian;  // of the basis's part, area and temperature
+    ConstantSlopes area{};      // ConstantsAreaSlopes of the basis
+    ConstantSlopes sum{};       // the part keys' share, summed over the basis's diodes
+  };
+  std::vector<BasisTerms> terms;
   Arrays::ForEach(a, [&](const auto& device) {
     if constexpr (kIsDiode<decltype(device)>) {
       const auto k = static_cast<size_t>(device.basis());
-      if (k >= jacobians.size()) {
-        jacobians.resize(k + 1);
-        sums.resize(k + 1, ConstantSlopes{});
-        area_slopes.resize(k + 1, ConstantSlopes{});
-        known.resize(k + 1, 0);
-      }
+      if (k >= terms.size()) terms.resize(k + 1);
+      BasisTerms& t = terms[k];
       const DiodeBasis& basis = a.diode_bases[device.basis()];
-      if (known[k] == 0) {
-        jacobians[k] = ComputeConstantJacobian(circuit.parts[static_cast<size_t>(basis.part)].model,
-                                               basis.area, basis.temp);
-        area_slopes[k] = ConstantsAreaSlopes(basis.d, basis.area);
-        known[k] = 1;
+      if (!t.known) {
+        t.jacobian = ComputeConstantJacobian(circuit.parts[static_cast<size_t>(basis.part)].model,
+                                             basis.area, basis.temp);
+        t.area = ConstantsAreaSlopes(basis.d, basis.area);
+        t.known = true;
       }
-      device.AddSensitivity(x, lambda, basis, jacobians[k], area_slopes[k], &sums[k], gradient);
+      device.AddSensitivity(x, lambda, basis, t.jacobian, t.area, &t.sum, gradient);
     } else {
       device.AddSensitivity(x, lambda, gradient);
     }
   });
-  for (size_t k = 0; k < sums.size(); ++k) {
-    if (known[k] == 0) continue;
+  for (size_t k = 0; k < terms.size(); ++k) {
+    const BasisTerms& t = terms[k];
+    if (!t.known) continue;
     auto& part = gradient->part[static_cast<size_t>(a.diode_bases[static_cast<int>(k)].part)];
     for (size_t key = 0; key < part.size(); ++key) {
-      for (size_t c = 0; c < sums[k].size(); ++c)
-        part[key] += sums[k][c] * jacobians[k].key[key][c];
+      for (size_t c = 0; c < t.sum.size(); ++c) part[key] += t.sum[c] * t.jacobian.key[key][c];
     }
   }
 }

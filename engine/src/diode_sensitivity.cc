@@ -95,10 +95,6 @@ DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess) {
   return s;
 }
 
-ConstantSlopes CurrentSlopes(const DiodeConstants& d, double v, double guess) {
-  return CurrentSlopes(d, ScalesOf(d), v, guess);
-}
-
 ConstantSlopes CurrentSlopes(const DiodeConstants& d, const JunctionScales& scales, double v,
                              double guess) {
   const double vj = JunctionVoltageAt(d, v, guess);

@@ -25,9 +25,8 @@ struct DiodeLocalSlopes {
 };
 // `guess` starts the junction-voltage search (as JunctionVoltageAt).
 DiodeLocalSlopes LocalSlopes(const DiodeConstants& d, double v, double guess);
-// LocalSlopes' di alone: what the devices' pass needs for every diode.
-ConstantSlopes CurrentSlopes(const DiodeConstants& d, double v, double guess);
-// The same with the law's scales ScalesOf(d) known (the same numbers, fewer divisions).
+// LocalSlopes' di alone: what the devices' pass needs for every diode. `scales` is
+// ScalesOf(d), which the caller keeps per diode basis (the same numbers, fewer divisions).
 ConstantSlopes CurrentSlopes(const DiodeConstants& d, const JunctionScales& scales, double v,
                              double guess);
 
